@@ -1,0 +1,56 @@
+"""The ``zetascan`` command line: argparse verbs, the only place that prints.
+
+Each verb lives in its own module ``scan/cli/<verb>.py`` exposing
+
+* ``add_parser(subparsers) -> argparse.ArgumentParser`` — register the verb (with an
+  example in its epilog), and
+* ``run(args: argparse.Namespace) -> int`` — do the work and return an exit code.
+
+Exit codes: 0 success, 2 bad input (one line naming the file, line or key), 1 internal
+error (traceback shown: that is a bug).
+"""
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from scan import __version__
+from scan.errors import ZetascanError
+
+#: Verb modules, in the order ``zetascan --help`` lists them.
+VERBS: tuple[str, ...] = ("solve",)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The top-level parser with one sub-command per verb module."""
+    parser = argparse.ArgumentParser(
+        prog="zetascan",
+        description="Exact inflationary spectra, induced GWs and PBH abundances, "
+                    "confronted with bound curves.",
+    )
+    parser.add_argument("--version", action="version", version=f"zetascan {__version__}")
+    sub = parser.add_subparsers(dest="verb", metavar="VERB")
+    for name in VERBS:
+        module = importlib.import_module(f"scan.cli.{name}")
+        verb_parser = module.add_parser(sub)
+        verb_parser.set_defaults(_run=module.run)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit code (0 ok, 2 bad input, 1 internal error)."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if getattr(args, "_run", None) is None:
+        parser.print_help()
+        return 0
+    try:
+        return int(args._run(args) or 0)
+    except ZetascanError as err:
+        print(f"zetascan {args.verb}: error: {err}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"zetascan {args.verb}: interrupted", file=sys.stderr)
+        return 130

@@ -1,0 +1,79 @@
+"""The package's exception classes.
+
+Every error a user can cause by what they give us (a config, a table, a bound curve)
+is a :class:`ZetascanError`: the command line prints its one-line message and exits 2.
+Anything else is a bug (exit 1, traceback shown).
+
+An invalid *model* is not an exception: physics stages return values with
+``valid=False`` and a ``reason`` (see ``scan.background.Background``).
+"""
+from __future__ import annotations
+
+import difflib
+from collections.abc import Iterable
+
+
+class ZetascanError(Exception):
+    """Base class of all errors caused by user input; the message says how to fix it."""
+
+
+def closest(word: str, options: Iterable[str]) -> str | None:
+    """Return the option closest to ``word`` (for "did you mean ...?" hints), or None."""
+    matches = difflib.get_close_matches(str(word), list(options), n=1, cutoff=0.5)
+    return matches[0] if matches else None
+
+
+def did_you_mean(word: str, options: Iterable[str]) -> str:
+    """A ``"; did you mean 'x'?"`` suffix, or an empty string when nothing is close."""
+    best = closest(word, options)
+    return f"; did you mean '{best}'?" if best else ""
+
+
+class ConfigError(ZetascanError):
+    """A run configuration is wrong.
+
+    Parameters
+    ----------
+    source : str
+        The file the value came from (or ``"--set"`` for a command-line override).
+    key : str
+        Dotted key path, e.g. ``"model.poles[0].power"``.
+    problem : str
+        What is wrong, in physics words where possible.
+    fix : str, optional
+        How to fix it.
+    """
+
+    def __init__(self, source: str, key: str, problem: str, fix: str = "") -> None:
+        self.source, self.key, self.problem, self.fix = source, key, problem, fix
+        where = f"{source}: {key}" if key else source
+        message = f"{where}: {problem}"
+        if fix:
+            message += f" ({fix})"
+        super().__init__(message)
+
+
+class InputFileError(ZetascanError):
+    """A data file (table, bound curve, result file) cannot be used.
+
+    Parameters
+    ----------
+    path : str
+        The file.
+    problem : str
+        What is wrong and how to fix it.
+    line : int, optional
+        1-based line number in the file.
+    column : str, optional
+        Column name.
+    """
+
+    def __init__(self, path: str, problem: str, line: int | None = None,
+                 column: str | None = None) -> None:
+        self.path, self.problem, self.line, self.column = str(path), problem, line, column
+        where = str(path)
+        if line is not None:
+            where += f": line {line}"
+        if column is not None:
+            where += f", column '{column}'"
+        super().__init__(f"{where}: {problem}")

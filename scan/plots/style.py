@@ -1,0 +1,77 @@
+"""Shared figure style: journal-column sizes, our colour-blind-safe palette, saving.
+
+The palette is our own choice of eight hues spaced for deuteranopia/protanopia safety
+(checked against the common-practice rule of distinct lightness between neighbours).
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import matplotlib
+
+matplotlib.use("Agg")  # no screen on the machines we run on; figures go to files
+import matplotlib.pyplot as plt  # noqa: E402
+
+#: Width of one journal column and of a full page width [inches] (common practice: ~3.4, ~7.0).
+COLUMN_WIDTH_IN: float = 3.4
+PAGE_WIDTH_IN: float = 7.0
+
+#: Our palette (hex), in the order curves should use it.
+PALETTE: tuple[str, ...] = (
+    "#1b4f8a",  # deep blue
+    "#e08a1e",  # amber
+    "#3aa7a3",  # teal
+    "#b8336a",  # raspberry
+    "#7a6bbf",  # lavender
+    "#6b8e23",  # olive
+    "#8c5a3c",  # umber
+    "#5f6b73",  # slate
+)
+
+_RC = {
+    "font.size": 8.0,
+    "axes.labelsize": 8.0,
+    "axes.titlesize": 8.0,
+    "legend.fontsize": 6.5,
+    "xtick.labelsize": 7.0,
+    "ytick.labelsize": 7.0,
+    "axes.linewidth": 0.6,
+    "lines.linewidth": 1.1,
+    "xtick.direction": "in",
+    "ytick.direction": "in",
+    "xtick.top": False,
+    "ytick.right": True,
+    "legend.frameon": False,
+    "savefig.bbox": "tight",
+    "savefig.pad_inches": 0.02,
+    "mathtext.fontset": "cm",
+    "axes.prop_cycle": matplotlib.cycler(color=list(PALETTE)),
+}
+
+
+def figure(width: float = COLUMN_WIDTH_IN, aspect: float = 0.75, **subplot_kw):
+    """A new ``(fig, ax)`` in our style, ``width`` inches wide, ``aspect`` = height/width."""
+    with matplotlib.rc_context(_RC):
+        fig, ax = plt.subplots(figsize=(width, width * aspect), **subplot_kw)
+    fig.set_layout_engine("constrained")
+    return fig, ax
+
+
+def style_context():
+    """Context manager applying our rc settings (use around any plotting code)."""
+    return matplotlib.rc_context(_RC)
+
+
+def save(fig, path_stem: str | Path, formats: tuple[str, ...] = ("pdf", "png"),
+         dpi: int = 200) -> list[Path]:
+    """Write ``fig`` as ``<path_stem>.pdf`` and ``.png``; close it; return the paths."""
+    stem = Path(path_stem)
+    stem.parent.mkdir(parents=True, exist_ok=True)
+    paths = []
+    with style_context():
+        for fmt in formats:
+            path = stem.with_suffix(f".{fmt}")
+            fig.savefig(path, dpi=dpi)
+            paths.append(path)
+    plt.close(fig)
+    return paths
