@@ -17,9 +17,33 @@ class ZetascanError(Exception):
     """Base class of all errors caused by user input; the message says how to fix it."""
 
 
+def _edit_distance(a: str, b: str) -> int:
+    """Optimal-string-alignment distance (insert, delete, substitute, swap neighbours)."""
+    rows = [list(range(len(b) + 1))]
+    for i, ca in enumerate(a, 1):
+        row = [i]
+        for j, cb in enumerate(b, 1):
+            cost = min(rows[-1][j] + 1, row[j - 1] + 1, rows[-1][j - 1] + (ca != cb))
+            if i > 1 and j > 1 and ca == b[j - 2] and a[i - 2] == cb:
+                cost = min(cost, rows[-2][j - 2] + 1)
+            row.append(cost)
+        rows.append(row)
+    return rows[-1][-1]
+
+
 def closest(word: str, options: Iterable[str]) -> str | None:
-    """Return the option closest to ``word`` (for "did you mean ...?" hints), or None."""
-    matches = difflib.get_close_matches(str(word), list(options), n=1, cutoff=0.5)
+    """Return the option closest to ``word`` (for "did you mean ...?" hints), or None.
+
+    Candidates within a third of the word's length in edit distance win (typos, swapped
+    letters); otherwise difflib's similarity picks one, or nothing when none is close.
+    """
+    word, options = str(word), [str(o) for o in options]
+    if not options:
+        return None
+    best = min(options, key=lambda o: (_edit_distance(word.lower(), o.lower()), o))
+    if _edit_distance(word.lower(), best.lower()) <= max(1, len(word) // 3):
+        return best
+    matches = difflib.get_close_matches(word, options, n=1, cutoff=0.6)
     return matches[0] if matches else None
 
 

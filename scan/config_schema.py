@@ -1,0 +1,172 @@
+"""The run-config schema: one frozen dataclass per TOML section.
+
+Each field's :func:`scan.config.spec` documents the key (``configs/README.md`` is the
+user-facing copy; ``tests/test_config.py`` checks the two agree).  Cross-field rules live
+in each section's ``validate(where, source)``.
+"""
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+
+from scan.config import spec
+from scan.errors import ConfigError
+
+POTENTIALS = ("t_model", "e_model", "starobinsky", "monomial", "exponential", "plugin")
+KINETICS = ("canonical", "poles", "plugin")
+
+
+@dataclass(frozen=True, kw_only=True)
+class RunSection:
+    """``[run]``: naming, output and randomness."""
+
+    name: str = spec("run name; results go to <output_dir>/<name>.h5 (default: the config "
+                     "file's stem)", "run")
+    output_dir: str = spec("folder for results, relative to the working directory", "results")
+    seed: int = spec("seed of every random number generator in the run", 0, minimum=0)
+
+
+@dataclass(frozen=True, kw_only=True)
+class PoleSection:
+    """One ``[[model.poles]]`` entry: K gains (width/|phi - position|)^power."""
+
+    position: float = spec("pole position phi_i", units="M_p")
+    width: float = spec("pole width w_i (> 0)", units="M_p", minimum=0.0, exclusive_minimum=True)
+    power: float = spec("pole power p_i; 0 < p < 2 is integrable (p >= 2 gives an invalid "
+                        "model: infinite field distance)", minimum=0.0, exclusive_minimum=True)
+
+
+@dataclass(frozen=True, kw_only=True)
+class ModelSection:
+    """``[model]``: potential shape V(phi)/V0 and kinetic function K(phi).
+
+    V0 is never set here: it is fixed by the CMB normalisation.
+    """
+
+    potential: str = spec("potential family", choices=POTENTIALS)
+    alpha: float = spec("alpha-attractor parameter (t_model, e_model)", 1.0, minimum=0.0,
+                        exclusive_minimum=True)
+    exponent: float = spec("monomial power n in V0 phi^n", 2.0, minimum=0.0, exclusive_minimum=True)
+    slope: float = spec("exponential slope lambda in V0 exp(-lambda phi)", 0.2, minimum=0.0,
+                        exclusive_minimum=True)
+    kinetic: str = spec("kinetic function: canonical K = 1, poles, or a plug-in", "canonical",
+                        choices=KINETICS)
+    poles: tuple[PoleSection, ...] = spec("list of kinetic poles ([[model.poles]] tables)",
+                                          default_factory=tuple)
+    potential_function: str = spec("plug-in V(phi)/V0 as 'package.module:function'", "")
+    potential_derivative: str = spec("optional plug-in dV/dphi / V0 as 'package.module:function'",
+                                     "")
+    kinetic_function: str = spec("plug-in K(phi) as 'package.module:function'", "")
+    kinetic_singular_points: tuple[float, ...] = spec(
+        "positions where the plug-in K diverges (integrable poles)", default_factory=tuple,
+        units="M_p")
+
+    def validate(self, where: str, source: str) -> None:
+        """Cross-field rules: each family's required keys are present."""
+        if self.kinetic == "poles" and not self.poles:
+            raise ConfigError(source, f"{where}.poles", "kinetic = 'poles' but no pole is given",
+                              "add a [[model.poles]] table with position, width, power")
+        if self.kinetic != "poles" and self.poles:
+            raise ConfigError(source, f"{where}.kinetic",
+                              f"poles are given but kinetic = '{self.kinetic}'",
+                              "set kinetic = \"poles\" or remove the [[model.poles]] tables")
+        if self.potential == "plugin" and not self.potential_function:
+            raise ConfigError(source, f"{where}.potential_function",
+                              "potential = 'plugin' needs potential_function",
+                              "give 'package.module:function', e.g. \"mypackage.models:V\"")
+        if self.kinetic == "plugin" and not self.kinetic_function:
+            raise ConfigError(source, f"{where}.kinetic_function",
+                              "kinetic = 'plugin' needs kinetic_function",
+                              "give 'package.module:function', e.g. \"mypackage.models:K\"")
+        for key in ("potential_function", "potential_derivative", "kinetic_function"):
+            value = getattr(self, key)
+            if value and (":" not in value or value.startswith(":") or value.endswith(":")):
+                raise ConfigError(source, f"{where}.{key}",
+                                  f"'{value}' is not of the form 'package.module:function'")
+
+
+@dataclass(frozen=True, kw_only=True)
+class BackgroundSection:
+    """``[background]``: initial data and the exact background solve."""
+
+    phi_start: float | None = spec("initial field value (default: chosen so that slow roll "
+                                   "gives at least N* + 15 e-folds)", None, units="M_p")
+    velocity_start: float | None = spec("initial dphi/dN (default: the slow-roll attractor)",
+                                        None, units="M_p per e-fold")
+    n_max: float = spec("give up (invalid model) if inflation has not ended after this many "
+                        "e-folds", 400.0, minimum=1.0)
+    rtol: float = spec("relative tolerance of the background integration", 1e-10, minimum=1e-14,
+                       maximum=1e-4)
+
+
+@dataclass(frozen=True, kw_only=True)
+class PivotSection:
+    """``[pivot]``: the CMB pivot scale, N*, reheating and the amplitude A_s."""
+
+    k_star: float = spec("pivot wavenumber", 0.05, units="Mpc^-1", minimum=0.0,
+                         exclusive_minimum=True)
+    n_star: float | None = spec("e-folds from pivot exit to the end of inflation (default: "
+                                "from the reheating matching equation)", None, minimum=1.0)
+    reheating: str = spec("reheating history for the N* matching", "instant",
+                          choices=("instant", "temperature", "density"))
+    reheat_w: float = spec("equation of state during reheating", 0.0, minimum=-1.0 / 3.0,
+                           maximum=1.0)
+    reheat_temperature_GeV: float | None = spec("thermalisation temperature (reheating = "
+                                                "'temperature')", None, units="GeV", minimum=0.0,
+                                                exclusive_minimum=True)
+    reheat_density_GeV4: float | None = spec("energy density at thermalisation (reheating = "
+                                             "'density')", None, units="GeV^4", minimum=0.0,
+                                             exclusive_minimum=True)
+    g_reheat: float = spec("relativistic degrees of freedom at thermalisation", 106.75,
+                           minimum=1.0)
+    ln_1e10_As: float = spec("ln(10^10 A_s) the spectrum is normalised to (Planck 2018: 3.044)",
+                             3.044, minimum=0.0, maximum=10.0)
+
+    def validate(self, where: str, source: str) -> None:
+        """Conditional keys of the reheating options."""
+        if self.reheating == "temperature" and self.reheat_temperature_GeV is None:
+            raise ConfigError(source, f"{where}.reheat_temperature_GeV",
+                              "reheating = 'temperature' needs reheat_temperature_GeV")
+        if self.reheating == "density" and self.reheat_density_GeV4 is None:
+            raise ConfigError(source, f"{where}.reheat_density_GeV4",
+                              "reheating = 'density' needs reheat_density_GeV4")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ModesSection:
+    """``[modes]``: the Mukhanov–Sasaki solve and its k grid."""
+
+    n_k: int = spec("number of log-spaced wavenumbers before refinement", 128, minimum=8)
+    x_in: float = spec("start each mode at k/(aH) = x_in (Bunch–Davies with de Sitter "
+                       "correction)", 100.0, minimum=10.0)
+    x_out: float = spec("a mode is frozen once k/(aH) <= x_out (and past non-attractor "
+                        "phases)", 1e-3, minimum=1e-8, maximum=0.1)
+    rtol: float = spec("relative tolerance of the mode integration", 1e-8, minimum=1e-13,
+                       maximum=1e-4)
+    refine_tol: float = spec("refine the k grid until the interpolated peak changes by less "
+                             "than this (relative)", 1e-3, minimum=1e-8, maximum=0.1)
+    stochastic_limit: float = spec("a spectrum reaching P_zeta (or H^2/(8 pi^2 eps1)) above "
+                                   "this is invalid (quantum diffusion dominates)", 0.1,
+                                   minimum=0.0, exclusive_minimum=True)
+
+
+@dataclass(frozen=True, kw_only=True)
+class RunConfig:
+    """A whole run configuration (see ``configs/README.md``)."""
+
+    run: RunSection = spec("[run] table", default_factory=RunSection)
+    model: ModelSection = spec("[model] table: potential and kinetic function")
+    background: BackgroundSection = spec("[background] table", default_factory=BackgroundSection)
+    pivot: PivotSection = spec("[pivot] table", default_factory=PivotSection)
+    modes: ModesSection = spec("[modes] table", default_factory=ModesSection)
+    # Not part of the schema: where the config came from (set by load_config).
+    source: str = dataclasses.field(default="<config>", compare=False)
+    text: str = dataclasses.field(default="", compare=False, repr=False)
+    overrides: tuple[str, ...] = dataclasses.field(default=(), compare=False)
+
+    @property
+    def effective_text(self) -> str:
+        """The config text with its overrides appended as comments (hashed and stored)."""
+        lines = [self.text.rstrip("\n")]
+        lines += [f"# --set {item}" for item in self.overrides]
+        return "\n".join(lines) + "\n"

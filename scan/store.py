@@ -1,0 +1,126 @@
+"""HDF5 result files: layout helpers, provenance, config hash, atomic writes.
+
+One file per run.  Root attributes hold provenance (package and dependency versions,
+git hash, UTC time, config hash, seed); the dataset ``config`` holds the TOML text;
+each pipeline stage writes its own group.  Every dataset carries a ``units`` attribute
+("1" for dimensionless numbers).
+
+New files are written under a temporary name in the same folder and renamed into place,
+so a crash never leaves a half-written result under the final name.
+"""
+from __future__ import annotations
+
+import contextlib
+import datetime as _dt
+import hashlib
+import os
+import subprocess
+from collections.abc import Iterator, Mapping
+from importlib import metadata
+from pathlib import Path
+from typing import Any
+
+import h5py
+import numpy as np
+
+from scan import __version__
+from scan.errors import InputFileError
+
+#: Distributions whose versions go into every result file.
+DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib")
+
+
+def config_hash(text: str) -> str:
+    """SHA-256 hex digest of a config text (with its overrides applied)."""
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def git_hash(path: str | Path | None = None) -> str:
+    """The git commit of the source tree the package runs from, or ``"none"``."""
+    where = Path(path) if path is not None else Path(__file__).resolve().parent
+    try:
+        out = subprocess.run(["git", "-C", str(where), "rev-parse", "HEAD"],
+                             capture_output=True, text=True, timeout=5, check=False)
+    except (OSError, subprocess.SubprocessError):
+        return "none"
+    return out.stdout.strip() if out.returncode == 0 and out.stdout.strip() else "none"
+
+
+def provenance(config_text: str = "", seed: int | None = None) -> dict[str, Any]:
+    """Root attributes recording how a result was made."""
+    attrs: dict[str, Any] = {
+        "zetascan_version": __version__,
+        "git_hash": git_hash(),
+        "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+        "config_sha256": config_hash(config_text),
+        "seed": -1 if seed is None else int(seed),
+    }
+    for name in DEPENDENCIES:
+        try:
+            attrs[f"version_{name}"] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            attrs[f"version_{name}"] = "absent"
+    return attrs
+
+
+def write_dataset(group: h5py.Group, name: str, data: Any, units: str,
+                  description: str = "") -> h5py.Dataset:
+    """Create ``group[name]`` with a ``units`` attribute (and an optional description)."""
+    if name in group:
+        del group[name]
+    dset = group.create_dataset(name, data=np.asarray(data))
+    dset.attrs["units"] = units
+    if description:
+        dset.attrs["description"] = description
+    return dset
+
+
+def write_attrs(obj: h5py.Group | h5py.Dataset, attrs: Mapping[str, Any]) -> None:
+    """Set attributes, turning None into "none" and tuples of strings into lists."""
+    for key, value in attrs.items():
+        if value is None:
+            value = "none"
+        elif isinstance(value, (tuple, list)) and value and isinstance(value[0], str):
+            value = [str(v) for v in value]
+        obj.attrs[key] = value
+
+
+def write_config(handle: h5py.File, config_text: str, overrides: tuple[str, ...] = ()) -> None:
+    """Store the config text (dataset ``config``) and its command-line overrides."""
+    if "config" in handle:
+        del handle["config"]
+    dset = handle.create_dataset("config", data=config_text, dtype=h5py.string_dtype())
+    dset.attrs["units"] = "1"
+    dset.attrs["format"] = "TOML"
+    dset.attrs["overrides"] = list(overrides) if overrides else ["none"]
+
+
+@contextlib.contextmanager
+def atomic_h5(path: str | Path) -> Iterator[h5py.File]:
+    """Open a new HDF5 file for writing under a temporary name; rename on success.
+
+    On an exception the temporary file is removed and any existing file at ``path``
+    is left untouched.
+    """
+    final = Path(path)
+    final.parent.mkdir(parents=True, exist_ok=True)
+    tmp = final.with_name(f".{final.name}.tmp-{os.getpid()}")
+    try:
+        with h5py.File(tmp, "w") as handle:
+            yield handle
+        os.replace(tmp, final)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+
+
+def read_config_text(path: str | Path) -> str:
+    """The config text stored in a result file (raises InputFileError if absent)."""
+    try:
+        with h5py.File(path, "r") as handle:
+            if "config" not in handle:
+                raise InputFileError(str(path), "no 'config' dataset: not a zetascan result file")
+            raw = handle["config"][()]
+    except OSError as err:
+        raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
+    return raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
