@@ -1,0 +1,166 @@
+"""Many Mukhanov-Sasaki modes at once: the Hamiltonian (zeta, Pi) form on a shared clock.
+
+Equations (' = d/dN, a = e^N): zeta' = Pi/(2 a^3 H eps1), Pi' = -2 k^2 a eps1 zeta/H.
+In the scaled variables of :mod:`scan.modes.initial` (n = N - N_k, e = eps1/eps_k,
+h = H/H_k):  q' = p~ e^{-2n}/(h e),  p~' = -(e/h) q - p~.  Tensors: e = 1.
+Only eps1 and H enter (no eps2, eps3, V_chichi), through the table's ln eps1 and -ln H.
+
+Phase A integrates every mode on the shared relative clock n from n_in = -ln x_in to
+the n where the last mode has k/(aH) <= x_out, so all modes oscillate in step and one
+DOP853 system with a numpy right-hand side serves them all.  Phase B (only if a
+non-attractor phase, eps2 < eps2_attractor, lies ahead) carries every mode on its own
+affine clock N_i(T) = N_i0 + T L_i, T in [0, 1], to its own final e-fold.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.integrate import solve_ivp
+
+from scan.modes.initial import bunch_davies
+from scan.modes.protocol import BackgroundLike
+from scan.modes.settings import ModeSettings
+from scan.modes.table import BackgroundTable
+
+#: eps_t for tensors in z_t = a sqrt(2 eps_t) = a/sqrt(8).
+EPS_TENSOR = 1.0 / 16.0
+
+
+@dataclass(frozen=True)
+class ModeResult:
+    """Power spectra at V0 = 1 for modes labelled by their exit e-fold N_k (k = aH).
+
+    Attributes
+    ----------
+    N_k : ndarray
+        Exit e-folds.
+    P_zeta, P_tensor : ndarray
+        Dimensionless spectra for V0 = 1 (both scale as V0).
+    N_final : ndarray
+        E-fold at which each mode was read off.
+    nfev : int
+        Right-hand-side evaluations (all phases).
+    success : bool
+    message : str
+    """
+
+    N_k: np.ndarray
+    P_zeta: np.ndarray
+    P_tensor: np.ndarray
+    N_final: np.ndarray
+    nfev: int
+    success: bool
+    message: str
+
+
+def _rhs_factory(table: BackgroundTable, Lk: np.ndarray, gk: np.ndarray, N0: np.ndarray,
+                 n0: float, rate: np.ndarray | None):
+    """RHS on clock t: N_i = N0_i + t*rate_i, n_i = n0 + t*rate_i (rate None: rate = 1)."""
+    M = Lk.size
+
+    def rhs(t: float, y: np.ndarray) -> np.ndarray:
+        dn = t if rate is None else t * rate
+        N = N0 + dn
+        L, g = table.lneps1_neglnH(N)
+        eG = np.exp(g - gk)
+        eL = np.exp(L - Lk)
+        e2n = np.exp(-2.0 * (n0 + dn))
+        Y = y.reshape(8, M)
+        out = np.empty_like(Y)
+        c = e2n * eG
+        out[0:2] = (c / eL) * Y[2:4]
+        out[2:4] = -(eL * eG) * Y[0:2] - Y[2:4]
+        out[4:6] = c * Y[6:8]
+        out[6:8] = -eG * Y[4:6] - Y[6:8]
+        if rate is not None:
+            out *= rate
+        return out.reshape(-1)
+
+    return rhs
+
+
+def _freeze_n(table: BackgroundTable, N_k: np.ndarray, gk: np.ndarray, x_out: float) -> float:
+    """Smallest common n at which every mode has k/(aH) <= x_out."""
+    n = np.full_like(N_k, np.log(1.0 / x_out))
+    for _ in range(4):
+        g = table.lneps1_neglnH(np.minimum(N_k + n, table.N[-1]))[1]
+        n = np.log(1.0 / x_out) + (g - gk)
+    return float(np.max(n))
+
+
+def last_nonattractor_efold(table: BackgroundTable, eps2_attractor: float) -> float:
+    """Last tabulated e-fold with eps2 < eps2_attractor (-inf if none)."""
+    idx = np.flatnonzero(table.eps2 < eps2_attractor)
+    return float(table.N[idx[-1]]) if idx.size else -np.inf
+
+
+def final_efolds(table: BackgroundTable, N_k: np.ndarray, n_A: float,
+                 settings: ModeSettings, N_stop: float) -> np.ndarray:
+    """Per-mode read-off e-fold: frozen, and settle_efolds past the last non-attractor phase."""
+    N_na = last_nonattractor_efold(table, settings.eps2_attractor)
+    settle = min(N_na + settings.settle_efolds, N_stop)
+    return np.maximum(N_k + n_A, settle)
+
+
+def _initial_state(bg: BackgroundLike, table: BackgroundTable, N_k, Lk, gk, n_in):
+    N_in = N_k + n_in
+    pt = bg.evaluate(N_in)
+    eps1 = np.asarray(pt.eps1, float)
+    eps2 = np.asarray(pt.eps2, float)
+    L, g = table.lneps1_neglnH(N_in)
+    x = np.exp(-n_in + g - gk)
+    n = np.full_like(N_k, n_in)
+    q, p = bunch_davies(n, x, eps1, eps2, np.exp(L - Lk))
+    qt, pt_ = bunch_davies(n, x, eps1, np.zeros_like(eps2), np.ones_like(eps2))
+    return np.concatenate([q.real, q.imag, p.real, p.imag, qt.real, qt.imag, pt_.real, pt_.imag])
+
+
+def solve_modes(bg: BackgroundLike, table: BackgroundTable, N_k: np.ndarray,
+                settings: ModeSettings, N_stop: float) -> ModeResult:
+    """Integrate the scalar and tensor modes exiting at ``N_k`` (V0 = 1).
+
+    Parameters
+    ----------
+    bg : BackgroundLike
+        Background (dense output used for the initial eps1, eps2 only).
+    table : BackgroundTable
+        Table covering [min(N_k) - ln x_in, N_stop].
+    N_k : ndarray
+        Exit e-folds of the modes [e-folds].
+    settings : ModeSettings
+    N_stop : float
+        Last e-fold any mode may be integrated to (end of inflation or of the table).
+
+    Returns
+    -------
+    ModeResult
+    """
+    N_k = np.asarray(N_k, dtype=float)
+    Lk, gk = table.lneps1_neglnH(N_k)
+    n_in = -np.log(settings.x_in)
+    n_A = _freeze_n(table, N_k, gk, settings.x_out)
+    if N_k.min() + n_in < table.N[0] or N_k.max() + n_A > N_stop:
+        raise ValueError("modes outside the tabulated background range")
+    atol = settings.rtol * settings.atol_factor
+    y0 = _initial_state(bg, table, N_k, Lk, gk, n_in)
+    solA = solve_ivp(_rhs_factory(table, Lk, gk, N_k, 0.0, None), (n_in, n_A), y0,
+                     method="DOP853", rtol=settings.rtol, atol=atol)
+    y, nfev, ok, msg = solA.y[:, -1], solA.nfev, solA.success, solA.message
+    N_final = final_efolds(table, N_k, n_A, settings, N_stop)
+    rate = N_final - (N_k + n_A)
+    if ok and np.any(rate > 0.0):
+        solB = solve_ivp(_rhs_factory(table, Lk, gk, N_k + n_A, n_A, rate), (0.0, 1.0), y,
+                         method="DOP853", rtol=settings.rtol, atol=atol)
+        y, nfev, ok, msg = solB.y[:, -1], nfev + solB.nfev, solB.success, solB.message
+    return _spectra(y, Lk, gk, N_k, N_final, nfev, ok, msg)
+
+
+def _spectra(y, Lk, gk, N_k, N_final, nfev, ok, msg) -> ModeResult:
+    Y = y.reshape(8, -1)
+    with np.errstate(divide="ignore"):
+        lq2 = np.log(Y[0] ** 2 + Y[1] ** 2)
+        lt2 = np.log(Y[4] ** 2 + Y[5] ** 2)
+    P_zeta = np.exp(lq2 - 2.0 * gk - Lk) / (2.0 * np.pi**2)
+    P_tensor = np.exp(lt2 - 2.0 * gk) / (2.0 * np.pi**2 * EPS_TENSOR)
+    return ModeResult(N_k, P_zeta, P_tensor, N_final, int(nfev), bool(ok), str(msg))
