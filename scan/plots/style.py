@@ -51,8 +51,8 @@ _RC = {
 
 def figure(width: float = COLUMN_WIDTH_IN, aspect: float = 0.75, **subplot_kw):
     """A new ``(fig, ax)`` in our style, ``width`` inches wide, ``aspect`` = height/width."""
-    with matplotlib.rc_context(_RC):
-        fig, ax = plt.subplots(figsize=(width, width * aspect), **subplot_kw)
+    plt.rcParams.update(_RC)  # figures are made at the edge; twin/secondary axes need it too
+    fig, ax = plt.subplots(figsize=(width, width * aspect), **subplot_kw)
     fig.set_layout_engine("constrained")
     return fig, ax
 

@@ -1,0 +1,65 @@
+"""``zetascan solve``: the result file layout, units, provenance, summary and figures."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import h5py
+import numpy as np
+import pytest
+
+from scan.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.fixture(scope="module")
+def solved(tmp_path_factory):
+    out = tmp_path_factory.mktemp("solve") / "staro.h5"
+    code = main(["solve", str(ROOT / "configs" / "starobinsky.toml"), "--out", str(out),
+                 "--set", "modes.n_k=48"])
+    assert code == 0
+    return out
+
+
+def test_result_layout_and_units(solved):
+    with h5py.File(solved, "r") as f:
+        for name in ("N", "phi", "chi", "dchi_dN", "H", "eps1", "eps2"):
+            assert "units" in f["background"][name].attrs
+        for name in ("k", "P_zeta", "P_tensor"):
+            assert "units" in f["spectrum"][name].attrs
+        assert f["spectrum/k"].attrs["units"] == "Mpc^-1"
+        for key in ("N_star", "n_s", "r", "V0", "k_star"):
+            assert np.isfinite(f["cmb"].attrs[key])
+        assert f.attrs["config_sha256"]
+        assert list(f["config"].attrs["overrides"]) == ["modes.n_k=48"]
+        assert bool(f.attrs["valid"])
+        # Starobinsky, N* = 55: exact-mode n_s = 0.964898, r = 3.5496e-3
+        # (shared physics notes, computed; second-order slow roll of Stewart & Lyth 1993,
+        # gr-qc/9302019); the modes tests check these at 3e-5, here only the plumbing.
+        assert abs(f["cmb"].attrs["n_s"] - 0.964898) < 1e-4
+        assert abs(f["cmb"].attrs["r"] / 3.5496e-3 - 1) < 1e-3
+        assert f["cmb"].attrs["source"] == "exact Mukhanov-Sasaki modes"
+
+
+def test_summary_and_figures(tmp_path, capsys):
+    out = tmp_path / "pole.h5"
+    code = main(["solve", str(ROOT / "configs" / "tmodel_pole.toml"), "--out", str(out),
+                 "--set", "modes.n_k=48"])
+    text = capsys.readouterr().out
+    assert code == 0
+    assert "pole 0 at phi = 5.2" in text and "ultra-slow roll" in text
+    assert "N* =" in text and "n_s =" in text
+    for suffix in ("_model.png", "_spectrum.png", "_spectrum.pdf"):
+        assert (tmp_path / f"pole{suffix}").stat().st_size > 1000
+
+
+def test_invalid_model_is_reported_not_raised(tmp_path, capsys):
+    out = tmp_path / "bad.h5"
+    # power >= 2: infinite field distance to the pole, an invalid model (not an error)
+    code = main(["solve", str(ROOT / "configs" / "tmodel_pole.toml"), "--out", str(out),
+                 "--set", "model.poles[0].power=2.5", "--no-figures"])
+    text = capsys.readouterr().out
+    assert code == 0
+    assert "INVALID" in text
+    with h5py.File(out, "r") as f:
+        assert not bool(f.attrs["valid"]) and f.attrs["reason"]
