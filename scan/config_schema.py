@@ -151,6 +151,136 @@ class ModesSection:
 
 
 @dataclass(frozen=True, kw_only=True)
+class SurrogateSection:
+    """``[surrogate]``: training design, shape grid and emulator of ``zetascan train``."""
+
+    points: int = spec("training points of the space-filling (scrambled Sobol) design",
+                       256, minimum=4)
+    holdout: int = spec("held-out validation points, never used for training", 64, minimum=0)
+    refine_rounds: int = spec("adaptive refinement rounds after the design", 2, minimum=0)
+    refine_points: int = spec("points added per refinement round", 32, minimum=1)
+    boundary_fraction: float = spec("share of each refinement round placed along the "
+                                    "valid/invalid boundary (the rest where the "
+                                    "cross-validated error is largest)", 0.5, minimum=0.0,
+                                    maximum=1.0)
+    shape_span: float = spec("the shape grid covers ln(k/k_peak) in [-span, +span]", 3.0,
+                             minimum=0.0, exclusive_minimum=True)
+    shape_points: int = spec("points of the shape grid in ln(k/k_peak)", 41, minimum=3)
+    shape_components: int = spec("most principal components kept for the shape", 8,
+                                 minimum=1)
+    shape_tolerance: float = spec("keep components until the training shapes are "
+                                  "reproduced to this (largest absolute error of log10 P)", 1e-3,
+                                  units="dex", minimum=0.0, exclusive_minimum=True)
+    kernel: str = spec("emulator kernel (Gaussian-process regression); auto keeps, per "
+                       "block, the one with the lower cross-validated error", "auto",
+                       choices=("auto", "matern52", "gaussian"))
+    nugget: float = spec("smallest relative noise variance of the emulator kernel "
+                         "(regularisation)", 1e-10, minimum=0.0, maximum=0.1)
+    fit_iterations: int = spec("optimiser iterations for the kernel length scales", 60,
+                               minimum=0)
+
+
+PRIOR_KINDS = ("uniform", "log_uniform", "gaussian")
+
+
+@dataclass(frozen=True, kw_only=True)
+class PriorFields:
+    """Prior keys shared by ``[[parameters]]`` and ``[[nuisance]]`` entries."""
+
+    label: str = spec("LaTeX label for plots (default: the key or name)", "")
+    prior: str = spec("prior family", choices=PRIOR_KINDS)
+    low: float | None = spec("lower bound (uniform, log_uniform; optional truncation of "
+                             "gaussian)", None)
+    high: float | None = spec("upper bound (uniform, log_uniform; optional truncation of "
+                              "gaussian)", None)
+    mean: float | None = spec("mean of a gaussian prior", None)
+    sigma: float | None = spec("standard deviation of a gaussian prior", None, minimum=0.0,
+                               exclusive_minimum=True)
+    start: float | None = spec("centre of the starting ball when sampler.start = 'ball' "
+                               "(default: the model's value, else the prior's centre)", None)
+
+    def validate(self, where: str, source: str) -> None:
+        """Each prior family has its keys; bounds are ordered; log_uniform is positive."""
+        if self.prior in ("uniform", "log_uniform"):
+            for key in ("low", "high"):
+                if getattr(self, key) is None:
+                    raise ConfigError(source, f"{where}.{key}",
+                                      f"prior = '{self.prior}' needs {key}",
+                                      "give both low and high")
+            if self.mean is not None or self.sigma is not None:
+                raise ConfigError(source, f"{where}.mean",
+                                  f"mean/sigma are only used by gaussian priors, not "
+                                  f"'{self.prior}'", "remove them or set prior = \"gaussian\"")
+        if self.prior == "gaussian":
+            for key in ("mean", "sigma"):
+                if getattr(self, key) is None:
+                    raise ConfigError(source, f"{where}.{key}", f"prior = 'gaussian' needs {key}")
+        if self.low is not None and self.high is not None and not self.low < self.high:
+            raise ConfigError(source, f"{where}.high",
+                              f"needs low < high, got low = {self.low}, high = {self.high}",
+                              "swap or widen the bounds")
+        if self.prior == "log_uniform" and self.low is not None and self.low <= 0.0:
+            raise ConfigError(source, f"{where}.low",
+                              f"log_uniform needs low > 0, got {self.low}",
+                              "use a positive lower bound or prior = \"uniform\"")
+        lo = -float("inf") if self.low is None else self.low
+        hi = float("inf") if self.high is None else self.high
+        if self.start is not None and not lo <= self.start <= hi:
+            raise ConfigError(source, f"{where}.start", f"start = {self.start} is outside "
+                              f"[{lo}, {hi}]", "choose a start inside the prior bounds")
+
+
+@dataclass(frozen=True, kw_only=True)
+class ParameterSection(PriorFields):
+    """One ``[[parameters]]`` entry: a varied model key and its prior."""
+
+    key: str = spec("config key path of the varied number, e.g. \"model.poles[0].position\"")
+
+
+@dataclass(frozen=True, kw_only=True)
+class NuisanceSection(PriorFields):
+    """One ``[[nuisance]]`` entry: a likelihood nuisance parameter and its prior."""
+
+    name: str = spec("nuisance parameter name, e.g. \"pta.foreground_amplitude\"")
+
+
+@dataclass(frozen=True, kw_only=True)
+class SamplerSection:
+    """``[sampler]``: the emcee ensemble, stopping rule and run-file cadence."""
+
+    target: str = spec("what is sampled: the physics posterior (not available yet) or a "
+                       "built-in Gaussian test target", "posterior",
+                       choices=("posterior", "gaussian_test"))
+    walkers: int = spec("number of emcee walkers (at least 2 x the number of varied "
+                        "parameters)", 32, minimum=2)
+    max_steps: int = spec("stop after this many steps even if not converged", 20000,
+                          minimum=1)
+    check_every: int = spec("estimate the autocorrelation time every this many steps", 200,
+                            minimum=1)
+    tau_factor: float = spec("converged when the chain is longer than tau_factor x tau for "
+                             "every parameter", 50.0, minimum=1.0)
+    tau_rtol: float = spec("... and tau changed by less than this (relative) since the last "
+                           "check", 0.01, minimum=0.0, exclusive_minimum=True)
+    burn_factor: float = spec("burn-in = burn_factor x max tau steps", 2.0, minimum=0.0)
+    thin_factor: float = spec("thinning = thin_factor x min tau steps (at least 1)", 0.5,
+                              minimum=0.0, exclusive_minimum=True)
+    write_every: int = spec("write the chain to the run file every this many steps (a "
+                            "SIGKILL loses at most these)", 10, minimum=1)
+    progress_every_s: float = spec("interval of the progress lines when stdout is not a "
+                                   "terminal", 30.0, units="s", minimum=0.0,
+                                   exclusive_minimum=True)
+    start: str = spec("initial walkers: drawn from the prior, or a small ball around each "
+                      "parameter's start", "prior", choices=("prior", "ball"))
+    ball_scale: float = spec("radius of the starting ball as a fraction of each prior's "
+                             "unit-cube width", 0.01, minimum=0.0, exclusive_minimum=True,
+                             maximum=0.5)
+    vectorize: bool = spec("evaluate all walkers in one call (surrogate likelihoods)", False)
+    test_correlation: float = spec("correlation coefficient between every pair of "
+                                   "parameters of the gaussian_test target", 0.0,
+                                   minimum=-0.99, maximum=0.99)
+
+
+@dataclass(frozen=True, kw_only=True)
 class RunConfig:
     """A whole run configuration (see ``configs/README.md``)."""
 
@@ -159,6 +289,12 @@ class RunConfig:
     background: BackgroundSection = spec("[background] table", default_factory=BackgroundSection)
     pivot: PivotSection = spec("[pivot] table", default_factory=PivotSection)
     modes: ModesSection = spec("[modes] table", default_factory=ModesSection)
+    surrogate: SurrogateSection = spec("[surrogate] table", default_factory=SurrogateSection)
+    parameters: tuple[ParameterSection, ...] = spec(
+        "varied model parameters ([[parameters]] tables)", default_factory=tuple)
+    nuisance: tuple[NuisanceSection, ...] = spec(
+        "likelihood nuisance parameters ([[nuisance]] tables)", default_factory=tuple)
+    sampler: SamplerSection = spec("[sampler] table", default_factory=SamplerSection)
     # Not part of the schema: where the config came from (set by load_config).
     source: str = dataclasses.field(default="<config>", compare=False)
     text: str = dataclasses.field(default="", compare=False, repr=False)

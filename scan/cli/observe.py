@@ -1,0 +1,223 @@
+"""``zetascan observe``: induced GWs and PBH abundance from a user's curvature spectrum.
+
+Input: a CSV table (columns ``k`` [Mpc^-1] and ``P_zeta``; ``#`` comments and a header
+line allowed; without a header the first two columns are k, P_zeta) or a zetascan HDF5
+result (group ``spectrum`` with datasets ``k``, ``P_zeta``).  Output: an HDF5 file with
+groups ``gw`` (``f`` [Hz], ``k`` [Mpc^-1], ``omega_gw_h2``) and ``pbh`` (``M`` [M_sun],
+``M_g`` [g], ``f_pbh`` per ln M; attribute ``f_pbh_total`` and the conventions), written
+atomically through :mod:`scan.store`.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import warnings
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from scan import cosmo, gstar, sigw, store
+from scan.errors import InputFileError
+from scan.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions, plan_pbh
+
+#: Fewest table points accepted.
+MIN_POINTS: int = 8
+
+EPILOG = """example:
+  zetascan observe spectrum.csv --out obs.h5 --figures figs/ --criterion compaction \\
+      --threshold 0.5 --window gaussian
+"""
+
+
+def add_parser(subparsers) -> argparse.ArgumentParser:
+    """Register ``observe``."""
+    p = subparsers.add_parser("observe", help="Omega_GW h^2(f) and f_PBH(M) from a P_zeta table",
+                              epilog=EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("spectrum", metavar="SPECTRUM", help="CSV (k [Mpc^-1], P_zeta) or zetascan .h5")
+    p.add_argument("--out", help="output HDF5 (default: SPECTRUM stem + _observables.h5)")
+    p.add_argument("--figures", metavar="DIR", help="write gw and pbh figures (PDF, PNG) here")
+    p.add_argument("--n-f", type=int, default=200, help="number of frequencies (default 200)")
+    p.add_argument("--n-m", type=int, default=200, help="number of PBH masses (default 200)")
+    p.add_argument("--gstar-table", metavar="CSV", help="g_* table: T [GeV], g_rho, g_s")
+    p.add_argument("--n-eff", type=float, default=cosmo.N_EFF_DEFAULT, help="N_eff today")
+    d = PBHConventions()
+    p.add_argument("--window", choices=WINDOWS, default=d.window)
+    p.add_argument("--criterion", choices=CRITERIA, default=d.criterion)
+    p.add_argument("--threshold", type=float, default=d.threshold,
+                   help="C_th (compaction) or delta_c; must match the window")
+    p.add_argument("--mass-function", choices=MASS_FUNCTIONS, default=d.mass_function)
+    p.add_argument("--gamma-c", type=float, default=d.gamma_c, help="critical exponent")
+    p.add_argument("--K", type=float, default=d.K, help="critical-collapse coefficient")
+    p.add_argument("--gamma", type=float, default=d.gamma, help="M/M_H (monochromatic)")
+    p.add_argument("--ps-factor", type=float, default=d.ps_factor)
+    p.add_argument("--omega-dm-h2", type=float, default=d.omega_dm_h2)
+    return p
+
+
+def _parse_row(path: str, number: int, text: str) -> list[float] | None:
+    """Numbers of one CSV line, or None if it is not numeric (a header)."""
+    fields = [f for f in text.replace(",", " ").split()]
+    try:
+        return [float(f) for f in fields]
+    except ValueError:
+        return None
+
+
+def load_spectrum_csv(path: str) -> tuple[np.ndarray, np.ndarray]:
+    """Read and validate a (k [Mpc^-1], P_zeta) CSV table; errors name the line."""
+    try:
+        lines = Path(path).read_text().splitlines()
+    except (OSError, UnicodeDecodeError) as err:
+        raise InputFileError(path, f"cannot read ({err})") from None
+    cols, rows, lines_of = (0, 1), [], []
+    header_seen = False
+    for number, line in enumerate(lines, start=1):
+        text = line.strip()
+        if not text or text.startswith("#"):
+            continue
+        values = _parse_row(path, number, text)
+        if values is None:
+            if header_seen or rows:
+                raise InputFileError(path, f"not a number in '{text}'", line=number)
+            cols = _header_columns(path, number, text)
+            header_seen = True
+            continue
+        need = max(cols) + 1
+        if len(values) < need:
+            raise InputFileError(path, f"expected at least {need} columns, found "
+                                 f"{len(values)}", line=number)
+        rows.append((values[cols[0]], values[cols[1]]))
+        lines_of.append(number)
+    data = np.array(rows, dtype=float).reshape(-1, 2)
+    validate_spectrum(path, data[:, 0], data[:, 1], lines_of)
+    return data[:, 0], data[:, 1]
+
+
+def _header_columns(path: str, number: int, text: str) -> tuple[int, int]:
+    """Column indices of ``k`` and ``P_zeta`` in a header line."""
+    names = [f.strip().lower() for f in text.replace(",", " ").split()]
+    try:
+        return names.index("k"), names.index("p_zeta")
+    except ValueError:
+        raise InputFileError(path, f"header must name columns 'k' and 'P_zeta', "
+                             f"found {names}", line=number) from None
+
+
+def validate_spectrum(path: str, k: np.ndarray, P: np.ndarray,
+                      lines: list[int] | None = None) -> None:
+    """Finite, positive, strictly increasing k; finite P >= 0; at least MIN_POINTS rows."""
+    def where(i: int) -> dict:
+        return {"line": lines[i]} if lines else {}
+
+    def entry(i: int) -> str:
+        return "" if lines else f" (entry {i})"
+    if k.size < MIN_POINTS:
+        raise InputFileError(path, f"only {k.size} data points; need at least {MIN_POINTS}")
+    for name, arr in (("k", k), ("P_zeta", P)):
+        bad = np.flatnonzero(~np.isfinite(arr))
+        if bad.size:
+            raise InputFileError(path, f"{name} is not finite{entry(bad[0])}",
+                                 column=name, **where(bad[0]))
+    if k[0] <= 0:
+        raise InputFileError(path, "k must be positive [Mpc^-1]", column="k", **where(0))
+    bad = np.flatnonzero(np.diff(k) <= 0)
+    if bad.size:
+        raise InputFileError(path, f"k must increase strictly{entry(bad[0] + 1)}",
+                             column="k", **where(bad[0] + 1))
+    bad = np.flatnonzero(P < 0)
+    if bad.size:
+        raise InputFileError(path, f"P_zeta is negative{entry(bad[0])}", column="P_zeta",
+                             **where(bad[0]))
+
+
+def load_spectrum_h5(path: str) -> tuple[np.ndarray, np.ndarray]:
+    """Read group ``spectrum`` (datasets ``k``, ``P_zeta``) of a zetascan result."""
+    try:
+        with h5py.File(path, "r") as handle:
+            if "spectrum" not in handle:
+                raise InputFileError(path, "no group 'spectrum' (with datasets k, P_zeta)")
+            group = handle["spectrum"]
+            for name in ("k", "P_zeta"):
+                if name not in group:
+                    raise InputFileError(path, f"group 'spectrum' has no dataset '{name}'",
+                                         column=name)
+            k, P = np.asarray(group["k"], float).ravel(), np.asarray(group["P_zeta"], float).ravel()
+    except OSError as err:
+        raise InputFileError(path, f"cannot open as HDF5 ({err})") from None
+    if k.shape != P.shape:
+        raise InputFileError(path, f"k and P_zeta lengths differ ({k.size} vs {P.size})")
+    validate_spectrum(path, k, P)
+    return k, P
+
+
+def load_spectrum(path: str) -> tuple[np.ndarray, np.ndarray]:
+    """A spectrum table from CSV or zetascan HDF5 (chosen by content, not extension)."""
+    if not Path(path).is_file():
+        raise InputFileError(path, "no such file")
+    return load_spectrum_h5(path) if h5py.is_hdf5(path) else load_spectrum_csv(path)
+
+
+def _conventions(args) -> PBHConventions:
+    """PBH conventions from the command-line options."""
+    return PBHConventions(window=args.window, criterion=args.criterion,
+                          threshold=args.threshold, mass_function=args.mass_function,
+                          gamma_c=args.gamma_c, K=args.K, gamma=args.gamma,
+                          ps_factor=args.ps_factor, omega_dm_h2=args.omega_dm_h2)
+
+
+def compute(k, P, args):
+    """(f, Omega_GW h^2, PBHResult, warnings) for the table (k, P)."""
+    dof = gstar.load_table(args.gstar_table) if args.gstar_table else None
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        sigw.check_spectrum(P)
+    f = np.geomspace(cosmo.k_to_f(k[0]), cosmo.k_to_f(2 * k[-1]), args.n_f)
+    omega = sigw.plan_sigw(k, f_out=f, dof=dof, n_eff=args.n_eff).omega_gw_h2(P)
+    conv = _conventions(args)
+    m_hi = float(cosmo.horizon_mass_msun(k[0], dof, args.n_eff)) * max(conv.K, conv.gamma)
+    m_lo = float(cosmo.horizon_mass_msun(k[-1], dof, args.n_eff)) * 1e-4
+    M = np.geomspace(m_lo, m_hi, args.n_m)
+    result = plan_pbh(k, M, conv, dof=dof, n_eff=args.n_eff).evaluate(P)
+    return f, omega, result, [str(w.message) for w in caught]
+
+
+def write_result(out: Path, source: str, k, f, omega, result, options: dict) -> None:
+    """Write groups gw and pbh with units and provenance (atomic, via scan.store)."""
+    with store.atomic_h5(out) as handle:
+        store.write_attrs(handle, store.provenance(json.dumps(options, sort_keys=True)))
+        handle.attrs["input_spectrum"] = source
+        gw = handle.create_group("gw")
+        store.write_dataset(gw, "f", f, "Hz", "GW frequency today")
+        store.write_dataset(gw, "k", cosmo.f_to_k(f), "Mpc^-1", "comoving wavenumber")
+        store.write_dataset(gw, "omega_gw_h2", omega, "1", "Omega_GW,0 h^2 per ln f")
+        pbh = handle.create_group("pbh")
+        store.write_dataset(pbh, "M", result.M, "M_sun", "PBH mass")
+        store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(result.M), "g", "PBH mass")
+        store.write_dataset(pbh, "f_pbh", result.f_pbh, "1", "fraction of DM per ln M")
+        pbh.attrs["f_pbh_total"] = result.f_pbh_total
+        store.write_attrs(pbh, result.conventions.as_attrs())
+
+
+def run(args: argparse.Namespace) -> int:
+    """Compute both observables, write the HDF5 file (and figures); exit code."""
+    source = str(args.spectrum)
+    k, P = load_spectrum(source)
+    f, omega, result, notes = compute(k, P, args)
+    out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
+                                                                 + "_observables.h5")
+    write_result(out, source, k, f, omega, result, {k_: v for k_, v in vars(args).items()
+                                                     if not k_.startswith("_")})
+    for note in notes:
+        print(f"zetascan observe: warning: {note}")
+    peak = int(np.argmax(omega))
+    print(f"wrote {out}: max Omega_GW h^2 = {omega[peak]:.3e} at f = {f[peak]:.3e} Hz; "
+          f"f_PBH total = {result.f_pbh_total:.3e}")
+    if args.figures:
+        from scan.plots import gw as gw_plot, pbh as pbh_plot
+        paths = gw_plot.save_omega_gw(f, omega, Path(args.figures) / "omega_gw")
+        paths += pbh_plot.save_f_pbh(result.M, result.f_pbh, Path(args.figures) / "f_pbh",
+                                     total=result.f_pbh_total)
+        print("figures: " + ", ".join(str(p) for p in paths))
+    return 0 if math.isfinite(result.f_pbh_total) else 1

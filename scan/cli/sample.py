@@ -1,0 +1,115 @@
+"""``zetascan sample CONFIG``: start or resume a posterior run (emcee) in one chain file."""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+
+from scan.config import load_config
+from scan.pool import choose_pool
+from scan.sampler.driver import Progress, RunOutcome, plan_run, run_chain
+from scan.sampler.stop import EXIT_CODES, graceful_stop
+from scan.sampler.targets import prepare_target
+
+EXAMPLE = """examples:
+  zetascan sample configs/gaussian_test.toml                 # start, or resume the same chain
+  zetascan sample configs/gaussian_test.toml --processes 2   # walkers in 2 worker processes
+  zetascan sample configs/gaussian_test.toml --restart       # discard the old chain
+  mpiexec -n 3 python -m mpi4py.futures -m scan sample configs/gaussian_test.toml --mpi
+
+The chain file <run.output_dir>/<run.name>/chain.h5 is the run's state: running the same
+command again continues the chain (bit-identical to an uninterrupted run); a changed config
+is refused with the list of changed keys unless --restart is given.
+
+exit codes: 0 finished (converged or max_steps), 2 bad input or config mismatch,
+  143 stopped by SIGTERM, 130 stopped by Ctrl-C (everything written; rerun to resume),
+  1 internal error (a worker's exception is shown with its traceback).
+"""
+
+
+def add_parser(subparsers) -> argparse.ArgumentParser:
+    """Register ``sample``."""
+    parser = subparsers.add_parser(
+        "sample", help="run (or resume) an MCMC posterior run with emcee",
+        description="Sample the posterior of the [[parameters]] and [[nuisance]] "
+                    "parameters with emcee; stop on the autocorrelation rule of [sampler].",
+        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("config", help="run configuration (TOML)")
+    parser.add_argument("--set", dest="overrides", metavar="KEY=VALUE", action="append",
+                        default=[], help="override a config key (repeatable)")
+    parser.add_argument("--out", metavar="FILE", default=None,
+                        help="chain file (default: <run.output_dir>/<run.name>/chain.h5)")
+    parser.add_argument("--processes", type=int, default=None, metavar="N",
+                        help="evaluate walkers in N worker processes")
+    parser.add_argument("--mpi", action="store_true",
+                        help="evaluate on the MPI ranks (run under mpiexec with "
+                             "python -m mpi4py.futures)")
+    parser.add_argument("--restart", action="store_true",
+                        help="discard an existing chain file and start again")
+    return parser
+
+
+class _Reporter:
+    """Progress: a tqdm bar on a terminal, plain periodic lines otherwise."""
+
+    def __init__(self, every_s: float, max_steps: int, start: int) -> None:
+        self.every_s, self.last = every_s, time.monotonic()
+        self.bar = None
+        if sys.stdout.isatty():
+            from tqdm import tqdm
+
+            self.bar = tqdm(total=max_steps, initial=start, unit="step", dynamic_ncols=True)
+
+    def __call__(self, p: Progress) -> None:
+        tau = "-" if p.tau_max is None else f"{p.tau_max:.1f}"
+        if self.bar is not None:
+            self.bar.update(p.step - self.bar.n)
+            self.bar.set_postfix_str(f"acc={p.acceptance:.2f} tau={tau}", refresh=False)
+            return
+        now = time.monotonic()
+        if now - self.last < self.every_s:
+            return
+        self.last = now
+        rate = p.steps_this_run / p.elapsed_s if p.elapsed_s > 0 else 0.0
+        eta = (p.max_steps - p.step) / rate if rate > 0 else float("nan")
+        ratio = "-" if p.n_over_tau is None else f"{p.n_over_tau:.1f}"
+        print(f"step {p.step}/{p.max_steps}  acceptance {p.acceptance:.3f}  tau {tau}  "
+              f"N/tau {ratio}  {rate:.1f} steps/s  eta(max_steps) {eta:.0f} s", flush=True)
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.close()
+
+
+def run(args: argparse.Namespace) -> int:
+    """Start or resume the run; the exit code tells how it ended (see the epilog)."""
+    config = load_config(args.config, overrides=args.overrides)
+    plan = plan_run(config, args.out)
+    pool = choose_pool(args.processes, args.mpi, vectorized=config.sampler.vectorize,
+                       initializer=prepare_target, initargs=(plan.target,))
+    reporter = _Reporter(config.sampler.progress_every_s, config.sampler.max_steps, 0)
+    try:
+        with graceful_stop() as flag, pool:
+            print(f"sampling {plan.priors.dim} parameters with {config.sampler.walkers} "
+                  f"walkers ({pool.describe()}) -> {plan.path}", flush=True)
+            outcome = run_chain(plan, pool, restart=args.restart, should_stop=flag,
+                                on_progress=reporter)
+    finally:
+        reporter.close()
+    print(format_outcome(outcome), flush=True)
+    return EXIT_CODES.get(outcome.stopped_by or "", 1) if outcome.status == "stopped" else 0
+
+
+def format_outcome(outcome: RunOutcome) -> str:
+    """A few lines on how the invocation ended."""
+    tau = "-" if outcome.tau is None else ", ".join(f"{t:.1f}" for t in outcome.tau)
+    lines = [f"{outcome.status}{' by ' + outcome.stopped_by if outcome.stopped_by else ''}"
+             f" after {outcome.steps} steps ({outcome.steps_this_run} in this run"
+             f"{', resumed' if outcome.resumed else ''})",
+             f"acceptance fraction {outcome.acceptance:.3f}; tau per parameter: {tau}",
+             "evaluations by reason: " + ", ".join(f"{k} {v}" for k, v in
+                                                   outcome.reason_counts.items()),
+             f"chain: {outcome.path}"]
+    if outcome.status == "stopped":
+        lines.append("everything is written; run the same command again to resume")
+    return "\n".join(lines)

@@ -1,0 +1,70 @@
+"""``zetascan summary RUN``: quantiles, convergence and invalid-model counts of a chain."""
+from __future__ import annotations
+
+import argparse
+import json
+from pathlib import Path
+
+from scan.errors import InputFileError
+from scan.sampler.summary import summarize
+
+EXAMPLE = """examples:
+  zetascan summary results/gaussian_test            # the run folder or its chain.h5
+  zetascan summary results/gaussian_test/chain.h5 --json
+"""
+
+
+def add_parser(subparsers) -> argparse.ArgumentParser:
+    """Register ``summary``."""
+    parser = subparsers.add_parser(
+        "summary", help="summarise a posterior run (medians, intervals, convergence)",
+        description="Medians and 68 %% / 95 %% intervals of the parameters and derived "
+                    "quantities after burn-in and thinning, the autocorrelation times, "
+                    "and the counts of invalid-model reasons.",
+        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("run", help="run folder (containing chain.h5) or chain file")
+    parser.add_argument("--json", action="store_true", help="print JSON")
+    return parser
+
+
+def _chain_path(run: str) -> Path:
+    path = Path(run)
+    if path.is_dir():
+        path = path / "chain.h5"
+    if not path.exists():
+        raise InputFileError(str(path), "no such chain file (give a run folder or its "
+                             "chain.h5)")
+    return path
+
+
+def run(args: argparse.Namespace) -> int:
+    """Print the summary."""
+    info = summarize(_chain_path(args.run))
+    print(json.dumps(info, indent=2) if args.json else format_summary(info))
+    return 0
+
+
+def _row(name: str, q: dict[str, float]) -> str:
+    lo68, hi68 = q["q16"] - q["median"], q["q84"] - q["median"]
+    return (f"  {name:<28} {q['median']:>12.5g}  68%: [{q['q16']:.5g}, {q['q84']:.5g}] "
+            f"({lo68:+.3g}/{hi68:+.3g})  95%: [{q['q02.5']:.5g}, {q['q97.5']:.5g}]")
+
+
+def format_summary(info: dict) -> str:
+    """Human-readable summary lines."""
+    state = "converged" if info["converged"] else f"NOT converged ({info['status']})"
+    ratio = "-" if info["n_over_tau"] is None else f"{info['n_over_tau']:.1f}"
+    acc = "-" if info["acceptance_fraction"] is None else f"{info['acceptance_fraction']:.3f}"
+    lines = [f"{info['file']}: {info['steps']} steps x {info['walkers']} walkers, {state}",
+             f"N/max tau {ratio}; burn-in {info['burn_in']}, thin {info['thin']}, "
+             f"{info['samples_used']} samples; acceptance {acc}"]
+    if info["tau"]:
+        lines.append("tau: " + ", ".join(f"{k} {v:.1f}" for k, v in info["tau"].items()))
+    lines.append("parameters (median, 68 % and 95 % intervals):")
+    lines += [_row(k, q) for k, q in info["parameters"].items()]
+    if info["derived"]:
+        lines.append("derived:")
+        lines += [_row(k, q) for k, q in info["derived"].items()]
+    lines.append("evaluations by reason: " + ", ".join(
+        f"{k} {v}" for k, v in info["invalid_reasons"].items()))
+    return "\n".join(lines)

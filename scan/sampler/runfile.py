@@ -1,0 +1,229 @@
+"""The run file ``<output_dir>/<name>/chain.h5``: it is the state of a posterior run.
+
+Layout (every dataset has a ``units`` attribute):
+
+* root attributes — provenance (:func:`scan.store.provenance`: versions, git hash, config
+  hash, seed) and ``run_name``; dataset ``config`` — the TOML text with its overrides;
+* group ``mcmc`` — emcee's HDF5 backend: ``chain``, ``log_prob``, ``blobs`` (a compound
+  dtype with the named derived quantities and ``reason``), ``accepted``, the iteration and
+  the sampler's random state (attributes ``random_state_0..4``);
+* group ``sampler`` — ours: parameter names and labels, reason names and
+  ``reason_counts`` (every evaluation, accepted or not), the τ history (``tau_steps``,
+  ``tau_history``), the latest ``tau``, ``burn_in``, ``thin``, ``status``, ``initial``.
+
+:class:`ChainBackend` buffers ``write_every`` steps in memory and writes them, together
+with the ``sampler`` group, in one open of the file; a SIGKILL loses at most the steps
+since the last write.
+"""
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import h5py
+import numpy as np
+from emcee.backends import HDFBackend
+
+from scan import store
+from scan.config_schema import RunConfig
+from scan.errors import InputFileError
+
+GROUP = "mcmc"
+EXTRA = "sampler"
+
+
+class ChainBackend(HDFBackend):
+    """emcee's HDF5 backend, writing ``write_every`` steps at a time.
+
+    Parameters
+    ----------
+    filename : str or Path
+        The run file.
+    write_every : int
+        Steps kept in memory between writes.
+    on_flush : callable, optional
+        ``on_flush(handle)`` is called with the open file after each write (to store the
+        ``sampler`` group consistently with the chain).
+    """
+
+    def __init__(self, filename: str | Path, write_every: int = 1,
+                 on_flush: Callable[[h5py.File], None] | None = None) -> None:
+        super().__init__(str(filename), name=GROUP)
+        self.write_every = max(1, int(write_every))
+        self.on_flush = on_flush
+        self._pending: list[tuple[Any, ...]] = []
+        self._accepted: np.ndarray | None = None
+
+    def accepted_so_far(self) -> np.ndarray:
+        """Accepted proposals per walker, including the steps not yet written."""
+        if self._accepted is None:
+            self._accepted = np.asarray(self.accepted, dtype=np.int64).copy()
+        return self._accepted
+
+    @property
+    def pending(self) -> int:
+        """Steps held in memory, not yet in the file."""
+        return len(self._pending)
+
+    def save_step(self, state: Any, accepted: np.ndarray) -> None:
+        """Keep one step; write when ``write_every`` steps are held."""
+        self.accepted_so_far()  # read the stored count before adding to it
+        self._accepted += np.asarray(accepted, dtype=np.int64)
+        blobs = None if state.blobs is None else np.array(state.blobs, copy=True)
+        self._pending.append((np.array(state.coords, copy=True),
+                              np.array(state.log_prob, copy=True), blobs,
+                              np.asarray(accepted, dtype=bool).copy(), state.random_state))
+        if len(self._pending) >= self.write_every:
+            self.flush()
+
+    def flush(self) -> None:
+        """Write the held steps, the random state and the ``sampler`` group."""
+        if not self._pending and self.on_flush is None:
+            return
+        with self.open("a") as handle:
+            group = handle[self.name]
+            if self._pending:
+                self._write_steps(group)
+            if self.on_flush is not None:
+                self.on_flush(handle)
+        self._pending.clear()
+
+    def _write_steps(self, group: h5py.Group) -> None:
+        start = int(group.attrs["iteration"])
+        n = len(self._pending)
+        stop = start + n
+        if group["chain"].shape[0] < stop:
+            for name in ("chain", "log_prob") + (("blobs",) if "blobs" in group else ()):
+                group[name].resize(stop, axis=0)
+        group["chain"][start:stop] = np.stack([p[0] for p in self._pending])
+        group["log_prob"][start:stop] = np.stack([p[1] for p in self._pending])
+        if self._pending[0][2] is not None:
+            group["blobs"][start:stop] = np.stack([p[2] for p in self._pending])
+        group["accepted"][:] += np.sum([p[3] for p in self._pending], axis=0)
+        for i, value in enumerate(self._pending[-1][4]):
+            group.attrs[f"random_state_{i}"] = value
+        group.attrs["iteration"] = stop
+
+
+@dataclasses.dataclass
+class Extras:
+    """The ``sampler`` group's mutable contents during a run."""
+
+    names: tuple[str, ...]
+    labels: tuple[str, ...]
+    reasons: tuple[str, ...]
+    counts: np.ndarray
+    tau_steps: list[int] = dataclasses.field(default_factory=list)
+    tau_history: list[np.ndarray] = dataclasses.field(default_factory=list)
+    tau: np.ndarray | None = None
+    status: str = "running"
+    burn_in: int = -1
+    thin: int = -1
+
+    def write(self, handle: h5py.File) -> None:
+        """Store into ``handle[EXTRA]`` (replacing what was there)."""
+        group = handle.require_group(EXTRA)
+        dim = len(self.names)
+        store.write_attrs(group, {"parameter_names": list(self.names),
+                                  "parameter_labels": list(self.labels),
+                                  "reason_names": list(self.reasons), "status": self.status,
+                                  "burn_in": self.burn_in, "thin": self.thin})
+        store.write_dataset(group, "reason_counts", self.counts, "1",
+                            "evaluations per reason code (accepted or not)")
+        store.write_dataset(group, "tau_steps", np.asarray(self.tau_steps, dtype=np.int64),
+                            "steps", "chain length at each autocorrelation check")
+        history = np.reshape(np.asarray(self.tau_history, dtype=float), (-1, dim))
+        store.write_dataset(group, "tau_history", history, "steps",
+                            "integrated autocorrelation time per parameter at each check")
+        tau = np.full(dim, np.nan) if self.tau is None else self.tau
+        store.write_dataset(group, "tau", tau, "steps", "latest autocorrelation estimate")
+
+    @classmethod
+    def read(cls, handle: h5py.File) -> Extras:
+        """Load from ``handle[EXTRA]``."""
+        group = handle[EXTRA]
+        tau = group["tau"][...]
+        return cls(names=tuple(str(v) for v in group.attrs["parameter_names"]),
+                   labels=tuple(str(v) for v in group.attrs["parameter_labels"]),
+                   reasons=tuple(str(v) for v in group.attrs["reason_names"]),
+                   counts=group["reason_counts"][...].astype(np.int64),
+                   tau_steps=[int(v) for v in group["tau_steps"][...]],
+                   tau_history=list(group["tau_history"][...]),
+                   tau=None if np.all(np.isnan(tau)) else tau,
+                   status=str(group.attrs["status"]), burn_in=int(group.attrs["burn_in"]),
+                   thin=int(group.attrs["thin"]))
+
+
+def run_path(config: RunConfig) -> Path:
+    """``<output_dir>/<name>/chain.h5``."""
+    return Path(config.run.output_dir) / config.run.name / "chain.h5"
+
+
+def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray) -> None:
+    """Write a new run file (atomically): provenance, config, the ``sampler`` group."""
+    with store.atomic_h5(path) as handle:
+        store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
+        handle.attrs["run_name"] = config.run.name
+        store.write_config(handle, config.effective_text, config.overrides)
+        extras.write(handle)
+        store.write_dataset(handle[EXTRA], "initial", initial, "1",
+                            "initial walker positions (parameter units)")
+
+
+@dataclasses.dataclass(frozen=True)
+class Stored:
+    """What a run file says about its run."""
+
+    config_text: str
+    config_sha256: str
+    overrides: tuple[str, ...]
+    run_name: str
+    iteration: int
+    extras: Extras
+
+
+def read(path: str | Path) -> Stored:
+    """Read a run file's config, progress and ``sampler`` group.
+
+    Raises
+    ------
+    InputFileError
+        If the file is not a readable zetascan chain file (e.g. damaged by a kill
+        during a write).
+    """
+    try:
+        with h5py.File(path, "r") as handle:
+            if "config" not in handle or EXTRA not in handle:
+                raise InputFileError(str(path), "not a zetascan chain file (no 'config' or "
+                                     "'sampler' group); use --restart to overwrite it")
+            raw = handle["config"][()]
+            overrides = [str(v) for v in handle["config"].attrs.get("overrides", [])]
+            iteration = int(handle[GROUP].attrs["iteration"]) if GROUP in handle else 0
+            return Stored(raw.decode() if isinstance(raw, bytes) else str(raw),
+                          str(handle.attrs["config_sha256"]),
+                          tuple(v for v in overrides if v != "none"),
+                          str(handle.attrs.get("run_name", "run")), iteration,
+                          Extras.read(handle))
+    except (OSError, KeyError) as err:
+        raise InputFileError(str(path), f"cannot read the chain file ({err}); it may have "
+                             "been damaged during a write: use --restart") from None
+
+
+def update_config(path: Path, config: RunConfig, previous_sha256: str) -> None:
+    """Store a changed-but-compatible config (resume with new max_steps etc.)."""
+    with h5py.File(path, "a") as handle:
+        store.write_config(handle, config.effective_text, config.overrides)
+        history = [str(v) for v in handle.attrs.get("previous_config_sha256", [])]
+        handle.attrs["previous_config_sha256"] = history + [previous_sha256]
+        handle.attrs["config_sha256"] = store.config_hash(config.effective_text)
+
+
+def load_chain(path: str | Path) -> dict[str, Any]:
+    """The stored chain (steps, walkers, dim), log_prob, blobs and acceptance counts."""
+    backend = HDFBackend(str(path), name=GROUP, read_only=True)
+    out = {"chain": backend.get_chain(), "log_prob": backend.get_log_prob(),
+           "iteration": backend.iteration, "accepted": backend.accepted}
+    out["blobs"] = backend.get_blobs() if backend.has_blobs() else None
+    return out

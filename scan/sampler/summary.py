@@ -1,0 +1,69 @@
+"""Summaries of a chain file: quantiles of parameters and blobs, convergence, reasons."""
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from scan.sampler import runfile
+
+#: Quantiles reported: median and the central 68 % and 95 % intervals.
+QUANTILES: dict[str, float] = {"q02.5": 0.025, "q16": 0.16, "median": 0.5, "q84": 0.84,
+                               "q97.5": 0.975}
+
+
+def _quantiles(samples: np.ndarray) -> dict[str, float]:
+    values = np.quantile(samples, list(QUANTILES.values()))
+    return {key: float(v) for key, v in zip(QUANTILES, values)}
+
+
+def posterior_samples(path: str | Path) -> dict[str, Any]:
+    """Flattened samples after burn-in and thinning (as stored in the run file).
+
+    Returns
+    -------
+    dict
+        ``names``, ``samples`` (n, dim), ``blobs`` (structured, n) or None, ``burn_in``,
+        ``thin``.
+    """
+    stored = runfile.read(path)
+    data = runfile.load_chain(path)
+    burn, thin = max(stored.extras.burn_in, 0), max(stored.extras.thin, 1)
+    chain = data["chain"][burn::thin]
+    blobs = None if data["blobs"] is None else data["blobs"][burn::thin].reshape(-1)
+    return {"names": stored.extras.names, "samples": chain.reshape(-1, chain.shape[-1]),
+            "blobs": blobs, "burn_in": burn, "thin": thin}
+
+
+def summarize(path: str | Path) -> dict[str, Any]:
+    """Everything ``zetascan summary`` shows, as plain JSON-ready values."""
+    stored = runfile.read(path)
+    data = runfile.load_chain(path)
+    extras = stored.extras
+    steps = int(data["iteration"])
+    post = posterior_samples(path)
+    parameters = {}
+    if len(post["samples"]):
+        for i, name in enumerate(extras.names):
+            parameters[name] = _quantiles(post["samples"][:, i])
+    derived = {}
+    if post["blobs"] is not None and len(post["blobs"]):
+        for field in post["blobs"].dtype.names:
+            if field != "reason":
+                derived[field] = _quantiles(post["blobs"][field])
+    tau = None if extras.tau is None else [float(t) for t in extras.tau]
+    walkers = int(data["chain"].shape[1]) if data["chain"].ndim == 3 else 0
+    return {
+        "file": str(path), "config_sha256": stored.config_sha256, "status": extras.status,
+        "converged": extras.status == "converged", "steps": steps, "walkers": walkers,
+        "acceptance_fraction": float(np.mean(data["accepted"]) / steps) if steps else None,
+        "tau": dict(zip(extras.names, tau)) if tau else None,
+        "n_over_tau": (steps / max(tau)) if tau else None,
+        "burn_in": post["burn_in"], "thin": post["thin"],
+        "samples_used": int(len(post["samples"])),
+        "parameters": parameters, "derived": derived,
+        "invalid_reasons": {n: int(c) for n, c in zip(extras.reasons, extras.counts)},
+        "tau_history": {"steps": extras.tau_steps,
+                        "tau": [list(map(float, t)) for t in extras.tau_history]},
+    }

@@ -1,0 +1,66 @@
+"""Convergence policy on synthetic chains with a known autocorrelation time.
+
+An AR(1) process x_t = rho x_{t-1} + e_t has autocorrelation rho^|k| and integrated
+autocorrelation time tau = (1 + rho)/(1 - rho) (a textbook result; e.g. Sokal 1997,
+"Monte Carlo methods in statistical mechanics", and the emcee autocorrelation tutorial).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy import signal
+
+from scan.sampler.convergence import Policy, assess, burn_in, estimate_tau, thinning
+
+
+def ar1_chain(rho: np.ndarray, steps: int, walkers: int, seed: int) -> np.ndarray:
+    """Stationary AR(1) chains of shape (steps, walkers, dim), one rho per dimension."""
+    rng = np.random.default_rng(seed)
+    rho = np.atleast_1d(rho)
+    out = np.empty((steps, walkers, len(rho)))
+    for j, r in enumerate(rho):
+        noise = rng.normal(size=(steps, walkers)) * np.sqrt(1 - r**2)
+        noise[0] = rng.normal(size=walkers)  # start in the stationary distribution
+        out[:, :, j] = signal.lfilter([1.0], [1.0, -r], noise, axis=0)
+    return out
+
+
+def test_tau_of_ar1_processes_matches_one_plus_rho_over_one_minus_rho():
+    rho = np.array([0.5, 0.8, 0.9])
+    chain = ar1_chain(rho, steps=20000, walkers=32, seed=11)
+    tau = estimate_tau(chain)
+    expected = (1 + rho) / (1 - rho)  # 3, 9, 19
+    # Measured scatter of this estimator at this chain size (10 seeds): 0.8 %, 1.4 %,
+    # 1.7 % relative, mean bias -1 % for rho = 0.9 (the window truncation); 6 % is ~3.5 sigma.
+    np.testing.assert_allclose(tau, expected, rtol=0.06)
+
+
+def test_short_chain_is_not_converged_long_stable_chain_is():
+    policy = Policy(tau_factor=50.0, tau_rtol=0.05)
+    rho = np.array([0.8, 0.8])  # tau = 9
+    long_chain = ar1_chain(rho, steps=6000, walkers=32, seed=3)
+    short = assess(long_chain[:300], None, policy)  # 300 < 50 * 9
+    assert not short.length_ok and not short.converged
+    tau_prev = estimate_tau(long_chain[:5000])
+    result = assess(long_chain, tau_prev, policy)  # 6000 > 50 * 9, tau stable
+    assert result.length_ok
+    assert np.all(np.abs(result.tau - tau_prev) < 0.05 * result.tau)
+    assert result.converged
+    assert result.n_over_tau == pytest.approx(6000 / np.max(result.tau))
+
+
+def test_changing_tau_blocks_convergence_and_first_check_never_converges():
+    policy = Policy(tau_factor=10.0, tau_rtol=0.01)
+    chain = ar1_chain(np.array([0.5]), steps=4000, walkers=16, seed=5)  # tau = 3
+    tau = estimate_tau(chain)
+    assert not assess(chain, None, policy).converged  # no previous estimate yet
+    assert not assess(chain, tau * 1.05, policy).stable  # moved by 5 % > 1 %
+    assert assess(chain, tau * 1.001, policy).converged
+
+
+def test_burn_in_and_thinning_follow_the_factors():
+    policy = Policy(burn_factor=2.0, thin_factor=0.5)
+    tau = np.array([9.2, 19.4, 3.1])
+    assert burn_in(tau, policy) == 39  # ceil(2 * 19.4)
+    assert thinning(tau, policy) == 1  # int(0.5 * 3.1) = 1
+    assert thinning(np.array([40.0, 60.0]), policy) == 20
