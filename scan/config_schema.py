@@ -11,6 +11,9 @@ from dataclasses import dataclass
 
 from scan.config import spec
 from scan.errors import ConfigError
+from scan.pbh.conventions import CRITERIA as PBH_CRITERIA
+from scan.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
+from scan.pbh.variance import WINDOWS as PBH_WINDOWS
 
 POTENTIALS = ("t_model", "e_model", "starobinsky", "monomial", "exponential", "plugin")
 KINETICS = ("canonical", "poles", "plugin")
@@ -281,6 +284,35 @@ class SamplerSection:
 
 
 @dataclass(frozen=True, kw_only=True)
+class ObservablesSection:
+    """``[observables]``: induced GWs today and the PBH abundance (every convention)."""
+
+    n_f: int = spec("number of GW frequencies (log-spaced over the spectrum's range)", 200,
+                    minimum=8)
+    n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8)
+    n_eff: float = spec("N_eff today (radiation density, g_* today)", 3.044, minimum=0.0)
+    gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s "
+                            "(default: our Standard-Model computation)", "")
+    window: str = spec("smoothing window of the density variance (thresholds are "
+                       "window-specific)", "gaussian", choices=PBH_WINDOWS)
+    criterion: str = spec("collapse criterion", "compaction", choices=PBH_CRITERIA)
+    threshold: float = spec("collapse threshold: C_th (compaction) or delta_c (linear "
+                            "criteria), matching the window", 0.5, minimum=0.0,
+                            exclusive_minimum=True)
+    mass_function: str = spec("critical collapse (extended) or monochromatic M = gamma M_H",
+                              "critical", choices=PBH_MASS_FUNCTIONS)
+    gamma_c: float = spec("critical-collapse exponent", 0.36, minimum=0.0, exclusive_minimum=True)
+    collapse_K: float = spec("critical-collapse coefficient K in M = K M_H (delta - delta_c)"
+                             "^gamma_c", 3.3, minimum=0.0, exclusive_minimum=True)
+    gamma: float = spec("M/M_H of the monochromatic mass function", 0.2, minimum=0.0,
+                        exclusive_minimum=True, maximum=1.0)
+    ps_factor: float = spec("prefactor of the Press-Schechter-like integral (1 or 2)", 1.0,
+                            minimum=0.0, exclusive_minimum=True)
+    omega_dm_h2: float = spec("dark-matter density the PBH fraction refers to", 0.12,
+                              minimum=0.0, exclusive_minimum=True)
+
+
+@dataclass(frozen=True, kw_only=True)
 class RunConfig:
     """A whole run configuration (see ``configs/README.md``)."""
 
@@ -289,6 +321,8 @@ class RunConfig:
     background: BackgroundSection = spec("[background] table", default_factory=BackgroundSection)
     pivot: PivotSection = spec("[pivot] table", default_factory=PivotSection)
     modes: ModesSection = spec("[modes] table", default_factory=ModesSection)
+    observables: ObservablesSection = spec("[observables] table",
+                                           default_factory=ObservablesSection)
     surrogate: SurrogateSection = spec("[surrogate] table", default_factory=SurrogateSection)
     parameters: tuple[ParameterSection, ...] = spec(
         "varied model parameters ([[parameters]] tables)", default_factory=tuple)

@@ -13,6 +13,8 @@ from scan.background import Background, solve_background
 from scan.config_schema import RunConfig
 from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
+from scan.observables import Observables, compute_observables
+from scan.pbh import PBHConventions
 from scan.pivot import Pivot, Reheating, solve_pivot
 
 #: E-folds the background must provide before the pivot exits (initial data of the
@@ -30,6 +32,8 @@ class SolveResult:
     background : Background
     pivot : Pivot or None
     spectrum : Spectrum or None
+    observables : Observables or None
+        Ω_GW h²(f) and f_PBH(M) of the exact spectrum.
     valid : bool
     reason : str
         The first stage's reason for an invalid model ("" when valid).
@@ -41,6 +45,7 @@ class SolveResult:
     spectrum: Spectrum | None
     valid: bool
     reason: str
+    observables: Observables | None = None
 
     def summary_lines(self) -> list[str]:
         """A short human summary (the CLI prints it)."""
@@ -64,6 +69,14 @@ class SolveResult:
                 lines.append(f"peak: P_zeta = {s.P_peak:.4g} at k = {s.k_peak:.4g} Mpc^-1"
                              + (f"; dip P = {s.P_dip:.3g} at k = {s.k_dip:.3g} Mpc^-1"
                                 if math.isfinite(s.k_dip) else ""))
+        o = self.observables
+        if o is not None:
+            f_peak, omega_peak = o.peak
+            lines.append(f"induced GWs: max Omega_GW h^2 = {omega_peak:.3e} at f = {f_peak:.3e} Hz")
+            lines.append(f"PBHs: f_PBH total = {o.pbh.f_pbh_total:.3e} "
+                         f"({o.pbh.conventions.criterion}, {o.pbh.conventions.window} window, "
+                         f"threshold {o.pbh.conventions.threshold:g})")
+            lines += [f"note: {note}" for note in o.notes]
         return lines
 
 
@@ -85,6 +98,24 @@ def mode_settings_of(config: RunConfig) -> ModeSettings:
     return ModeSettings(x_in=m.x_in, x_out=m.x_out, rtol=m.rtol, p_zeta_max=m.stochastic_limit)
 
 
+def conventions_of(config: RunConfig) -> PBHConventions:
+    """PBH conventions of the ``[observables]`` section."""
+    o = config.observables
+    return PBHConventions(window=o.window, criterion=o.criterion, threshold=o.threshold,
+                          mass_function=o.mass_function, gamma_c=o.gamma_c, K=o.collapse_K,
+                          gamma=o.gamma, ps_factor=o.ps_factor, omega_dm_h2=o.omega_dm_h2)
+
+
+def observables_of(config: RunConfig, spectrum: Spectrum) -> Observables:
+    """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions."""
+    from scan import gstar
+
+    o = config.observables
+    dof = gstar.load_table(o.gstar_table) if o.gstar_table else None
+    return compute_observables(spectrum.k, spectrum.P_zeta, conventions=conventions_of(config),
+                               n_f=o.n_f, n_m=o.n_m, dof=dof, n_eff=o.n_eff)
+
+
 def solve_background_of(config: RunConfig, model: Model | None = None) -> Background:
     """The exact background of a configured model (V0 = 1)."""
     model = model_of(config) if model is None else model
@@ -94,7 +125,8 @@ def solve_background_of(config: RunConfig, model: Model | None = None) -> Backgr
                             n_max=b.n_max, rtol=b.rtol, efolds_auto=n_star_hint + 15.0)
 
 
-def solve_config(config: RunConfig, *, with_modes: bool = True) -> SolveResult:
+def solve_config(config: RunConfig, *, with_modes: bool = True,
+                 with_observables: bool = True) -> SolveResult:
     """Solve a configured model exactly.
 
     Parameters
@@ -103,6 +135,8 @@ def solve_config(config: RunConfig, *, with_modes: bool = True) -> SolveResult:
         The run configuration.
     with_modes : bool
         Also solve the Mukhanov–Sasaki modes (the exact spectrum and normalisation).
+    with_observables : bool
+        Also compute Ω_GW h²(f) and f_PBH(M) of the spectrum.
 
     Returns
     -------
@@ -127,7 +161,8 @@ def solve_config(config: RunConfig, *, with_modes: bool = True) -> SolveResult:
                                 settings=mode_settings_of(config), N_star_guess=pivot.N_star)
     if not spectrum.valid:
         return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {spectrum.reason}")
-    return SolveResult(model, bg, pivot, spectrum, True, "")
+    observables = observables_of(config, spectrum) if with_observables else None
+    return SolveResult(model, bg, pivot, spectrum, True, "", observables)
 
 
 def _n_star_rule(config: RunConfig, bg: Background, reheating: Reheating, A_s: float):

@@ -12,7 +12,10 @@ Layout (every dataset has a ``units`` attribute):
   ``n_s_slow_roll``, ``r_slow_roll``, ``eps1``, ``eps2``, ``eps3``, ``source``;
 * ``spectrum/``: ``k`` [Mpc^-1], ``P_zeta``, ``P_tensor``, ``N_exit``; attributes ``k_peak``,
   ``P_peak``, ``k_dip``, ``P_dip``, ``n_s``, ``r``, ``alpha_s``, ``A_s``, ``V0``, ``N_star``,
-  ``usr_efolds``, ``valid``, ``reason``.
+  ``usr_efolds``, ``valid``, ``reason``;
+* ``gw/``: ``f`` [Hz], ``k`` [Mpc^-1], ``omega_gw_h2``; attributes ``f_peak``, ``omega_gw_h2_peak``;
+* ``pbh/``: ``M`` [M_sun], ``M_g`` [g], ``f_pbh`` (per ln M); attribute ``f_pbh_total`` and
+  every convention (window, criterion, threshold, gamma_c, K, ...).
 """
 from __future__ import annotations
 
@@ -42,6 +45,8 @@ def write_solve_result(path: str | Path, config: RunConfig, result: SolveResult)
         _write_cmb(handle.create_group("cmb"), result)
         if result.spectrum is not None:
             _write_spectrum(handle.create_group("spectrum"), result)
+        if result.observables is not None:
+            write_observables(handle, result.observables)
     return path
 
 
@@ -90,6 +95,26 @@ def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
         "valid": s.valid, "reason": s.reason, "units_k_peak": "Mpc^-1", "units_V0": "M_p^4"})
 
 
+def write_observables(handle: h5py.Group, obs) -> None:
+    """Groups ``gw`` (``f`` [Hz], ``k``, ``omega_gw_h2``) and ``pbh`` (``M`` [M_sun], ``M_g``,
+    ``f_pbh`` per ln M; attribute ``f_pbh_total`` and every PBH convention)."""
+    from scan import cosmo
+
+    gw = handle.create_group("gw")
+    store.write_dataset(gw, "f", obs.f, "Hz", "GW frequency today")
+    store.write_dataset(gw, "k", cosmo.f_to_k(obs.f), "Mpc^-1", "comoving wavenumber")
+    store.write_dataset(gw, "omega_gw_h2", obs.omega_gw_h2, "1", "Omega_GW,0 h^2 per ln f")
+    f_peak, omega_peak = obs.peak
+    store.write_attrs(gw, {"f_peak": f_peak, "omega_gw_h2_peak": omega_peak,
+                           "units_f_peak": "Hz", "notes": list(obs.notes) or ["none"]})
+    pbh = handle.create_group("pbh")
+    store.write_dataset(pbh, "M", obs.pbh.M, "M_sun", "PBH mass")
+    store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(obs.pbh.M), "g", "PBH mass")
+    store.write_dataset(pbh, "f_pbh", obs.pbh.f_pbh, "1", "fraction of dark matter per ln M")
+    pbh.attrs["f_pbh_total"] = obs.pbh.f_pbh_total
+    store.write_attrs(pbh, obs.pbh.conventions.as_attrs())
+
+
 def draw_solve_figures(stem: str | Path, result: SolveResult) -> list[Path]:
     """The spectrum and model figures of one solve, as ``<stem>_*.pdf/png``."""
     from scan.plots import model as model_plot
@@ -106,6 +131,14 @@ def draw_solve_figures(stem: str | Path, result: SolveResult) -> list[Path]:
         fig = spectrum_plot.spectrum_figure(s.k, s.P_zeta, s.N_exit, k_star=s.k_star,
                                             N_end=s.N_end, P_tensor=s.P_tensor)
         paths += save(fig, stem.with_name(stem.name + "_spectrum"))
+    o = result.observables
+    if o is not None:
+        from scan.plots import gw as gw_plot
+        from scan.plots import pbh as pbh_plot
+
+        paths += gw_plot.save_omega_gw(o.f, o.omega_gw_h2, stem.with_name(stem.name + "_omega_gw"))
+        paths += pbh_plot.save_f_pbh(o.pbh.M, o.pbh.f_pbh, stem.with_name(stem.name + "_f_pbh"),
+                                     total=o.pbh.f_pbh_total)
     return [p for p in paths if p.suffix == ".png"] + [p for p in paths if p.suffix == ".pdf"]
 
 

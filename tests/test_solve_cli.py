@@ -39,6 +39,10 @@ def test_result_layout_and_units(solved):
         assert abs(f["cmb"].attrs["n_s"] - 0.964898) < 1e-4
         assert abs(f["cmb"].attrs["r"] / 3.5496e-3 - 1) < 1e-3
         assert f["cmb"].attrs["source"] == "exact Mukhanov-Sasaki modes"
+        assert f["gw/f"].attrs["units"] == "Hz" and f["pbh/M"].attrs["units"] == "M_sun"
+        assert f["gw/omega_gw_h2"].shape == f["gw/f"].shape
+        assert f["pbh"].attrs["criterion"] == "compaction"
+        assert np.isfinite(f["pbh"].attrs["f_pbh_total"])
 
 
 def test_summary_and_figures(tmp_path, capsys):
@@ -49,7 +53,9 @@ def test_summary_and_figures(tmp_path, capsys):
     assert code == 0
     assert "pole 0 at phi = 5.2" in text and "ultra-slow roll" in text
     assert "N* =" in text and "n_s =" in text
-    for suffix in ("_model.png", "_spectrum.png", "_spectrum.pdf"):
+    assert "max Omega_GW h^2" in text and "f_PBH total" in text
+    for suffix in ("_model.png", "_spectrum.png", "_spectrum.pdf", "_omega_gw.png",
+                   "_f_pbh.png"):
         assert (tmp_path / f"pole{suffix}").stat().st_size > 1000
 
 

@@ -12,15 +12,16 @@ from __future__ import annotations
 import argparse
 import json
 import math
-import warnings
 from pathlib import Path
 
 import h5py
 import numpy as np
 
-from scan import cosmo, gstar, sigw, store
+from scan import cosmo, gstar, store
 from scan.errors import InputFileError
-from scan.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions, plan_pbh
+from scan.observables import Observables, compute_observables
+from scan.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
+from scan.results import write_observables
 
 #: Fewest table points accepted.
 MIN_POINTS: int = 8
@@ -167,49 +168,32 @@ def _conventions(args) -> PBHConventions:
                           ps_factor=args.ps_factor, omega_dm_h2=args.omega_dm_h2)
 
 
-def compute(k, P, args):
-    """(f, Omega_GW h^2, PBHResult, warnings) for the table (k, P)."""
+def compute(k, P, args) -> Observables:
+    """Both observables of the table (k, P) with the command line's conventions."""
     dof = gstar.load_table(args.gstar_table) if args.gstar_table else None
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        sigw.check_spectrum(P)
-    f = np.geomspace(cosmo.k_to_f(k[0]), cosmo.k_to_f(2 * k[-1]), args.n_f)
-    omega = sigw.plan_sigw(k, f_out=f, dof=dof, n_eff=args.n_eff).omega_gw_h2(P)
-    conv = _conventions(args)
-    m_hi = float(cosmo.horizon_mass_msun(k[0], dof, args.n_eff)) * max(conv.K, conv.gamma)
-    m_lo = float(cosmo.horizon_mass_msun(k[-1], dof, args.n_eff)) * 1e-4
-    M = np.geomspace(m_lo, m_hi, args.n_m)
-    result = plan_pbh(k, M, conv, dof=dof, n_eff=args.n_eff).evaluate(P)
-    return f, omega, result, [str(w.message) for w in caught]
+    return compute_observables(k, P, conventions=_conventions(args), n_f=args.n_f,
+                               n_m=args.n_m, dof=dof, n_eff=args.n_eff)
 
 
-def write_result(out: Path, source: str, k, f, omega, result, options: dict) -> None:
+def write_result(out: Path, source: str, obs: Observables, options: dict) -> None:
     """Write groups gw and pbh with units and provenance (atomic, via scan.store)."""
     with store.atomic_h5(out) as handle:
         store.write_attrs(handle, store.provenance(json.dumps(options, sort_keys=True)))
         handle.attrs["input_spectrum"] = source
-        gw = handle.create_group("gw")
-        store.write_dataset(gw, "f", f, "Hz", "GW frequency today")
-        store.write_dataset(gw, "k", cosmo.f_to_k(f), "Mpc^-1", "comoving wavenumber")
-        store.write_dataset(gw, "omega_gw_h2", omega, "1", "Omega_GW,0 h^2 per ln f")
-        pbh = handle.create_group("pbh")
-        store.write_dataset(pbh, "M", result.M, "M_sun", "PBH mass")
-        store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(result.M), "g", "PBH mass")
-        store.write_dataset(pbh, "f_pbh", result.f_pbh, "1", "fraction of DM per ln M")
-        pbh.attrs["f_pbh_total"] = result.f_pbh_total
-        store.write_attrs(pbh, result.conventions.as_attrs())
+        write_observables(handle, obs)
 
 
 def run(args: argparse.Namespace) -> int:
     """Compute both observables, write the HDF5 file (and figures); exit code."""
     source = str(args.spectrum)
     k, P = load_spectrum(source)
-    f, omega, result, notes = compute(k, P, args)
+    obs = compute(k, P, args)
+    f, omega, result = obs.f, obs.omega_gw_h2, obs.pbh
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
-    write_result(out, source, k, f, omega, result, {k_: v for k_, v in vars(args).items()
+    write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
                                                      if not k_.startswith("_")})
-    for note in notes:
+    for note in obs.notes:
         print(f"zetascan observe: warning: {note}")
     peak = int(np.argmax(omega))
     print(f"wrote {out}: max Omega_GW h^2 = {omega[peak]:.3e} at f = {f[peak]:.3e} Hz; "

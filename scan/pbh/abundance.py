@@ -108,7 +108,8 @@ def critical_kernel(M_msun, M_H_msun, conv: PBHConventions):
     """
     y_th, _ = _relation(conv)
     ratio = np.asarray(M_msun)[:, None] / np.asarray(M_H_msun)[None, :]
-    x = (ratio / conv.K)**(1 / conv.gamma_c)
+    with np.errstate(over="ignore"):  # M >> K M_H: x -> inf, outside the valid branch
+        x = (ratio / conv.K)**(1 / conv.gamma_c)
     c = conv.threshold + x
     if conv.criterion == "compaction":
         valid = c < C_MAX
@@ -117,5 +118,6 @@ def critical_kernel(M_msun, M_H_msun, conv: PBHConventions):
     else:
         valid = np.ones_like(c, dtype=bool)
         y, dy_dc = c, np.ones_like(c)
-    weight = np.where(valid, ratio * dy_dc * x / conv.gamma_c, 0.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        weight = np.where(valid, ratio * dy_dc * x / conv.gamma_c, 0.0)
     return np.where(valid, y, y_th), weight, valid
