@@ -20,7 +20,7 @@ from scan import __version__
 from scan.errors import ZetascanError
 
 #: Verb modules, in the order ``zetascan --help`` lists them.
-VERBS: tuple[str, ...] = ("solve", "curves", "observe", "sample", "summary")
+VERBS: tuple[str, ...] = ("solve", "curves", "observe", "sample", "summary", "train")
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -1,0 +1,122 @@
+"""``zetascan train CONFIG``: train the surrogate on exact solves; ``--report FILE`` reprints."""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from collections.abc import Callable
+
+from scan.errors import ConfigError
+
+EXAMPLE = """example:
+  zetascan train configs/tmodel_pole.toml --processes 2
+  zetascan train configs/tmodel_pole.toml --resume            # continue after an interruption
+  zetascan train --report results/tmodel_pole/surrogate.h5    # reprint the validation report
+"""
+LOG_EVERY_S = 30.0
+
+
+def add_parser(subparsers) -> argparse.ArgumentParser:
+    """Register ``train``."""
+    parser = subparsers.add_parser(
+        "train", help="train the fast surrogate on exact solves (and validate it)",
+        description="Solve a space-filling design of the [[parameters]] space exactly (in "
+                    "parallel, appended to <output_dir>/<name>/training.h5 as points "
+                    "finish), refine it adaptively, fit the emulator, validate it on "
+                    "held-out points and write <output_dir>/<name>/surrogate.h5.",
+        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("config", nargs="?", help="run configuration (TOML)")
+    parser.add_argument("--points", type=int, default=None, metavar="N",
+                        help="design points (default: surrogate.points)")
+    parser.add_argument("--resume", action="store_true",
+                        help="continue an existing training store of the same model")
+    group = parser.add_mutually_exclusive_group()
+    group.add_argument("--processes", type=int, default=None, metavar="N",
+                       help="worker processes (default: all cores)")
+    group.add_argument("--mpi", action="store_true", help="solve through an MPI pool")
+    parser.add_argument("--set", dest="overrides", metavar="KEY=VALUE", action="append",
+                        default=[], help="override a config key (repeatable)")
+    parser.add_argument("--report", metavar="FILE", default=None,
+                        help="only reprint the validation report of a surrogate file")
+    return parser
+
+
+def _progress() -> Callable[[int, int, str], None]:
+    """A tqdm bar on a terminal, plain periodic log lines otherwise."""
+    state: dict = {"bar": None, "label": None, "last": 0.0, "t0": time.monotonic(), "n0": 0}
+
+    def update(done: int, total: int, label: str) -> None:
+        if sys.stderr.isatty():
+            from tqdm import tqdm
+
+            if state["label"] != label:
+                if state["bar"] is not None:
+                    state["bar"].close()
+                state["bar"] = tqdm(total=total, initial=done, desc=label, unit="point")
+                state["label"] = label
+            bar = state["bar"]
+            bar.total = total
+            bar.update(done - bar.n)
+            return
+        now = time.monotonic()
+        if state["label"] != label:
+            state.update(label=label, t0=now, n0=done, last=0.0)
+        if now - state["last"] >= LOG_EVERY_S or done >= total:
+            rate = (done - state["n0"]) / max(now - state["t0"], 1e-9)
+            eta = (total - done) / rate if rate > 0 else float("nan")
+            print(f"train [{label}]: {done}/{total} points, {rate:.2f} points/s, "
+                  f"ETA {eta:.0f} s", file=sys.stderr, flush=True)
+            state["last"] = now
+
+    return update
+
+
+def _pool(args: argparse.Namespace):
+    """The pool of :mod:`scan.pool` (processes by default: one per core)."""
+    import os
+
+    from scan.pool import choose_pool
+
+    processes = None if args.mpi else (args.processes or os.cpu_count() or 1)
+    return choose_pool(processes, args.mpi), processes or 1
+
+
+def run(args: argparse.Namespace) -> int:
+    """Train (or reprint a report); exit 0 on success."""
+    from scan.surrogate.surrogate_file import read_report
+    from scan.surrogate.validate import format_report
+
+    if args.report:
+        print("\n".join(format_report(read_report(args.report))))
+        return 0
+    if not args.config:
+        raise ConfigError("zetascan train", "CONFIG", "no run configuration given",
+                          "zetascan train CONFIG, or zetascan train --report FILE")
+    return _train(args)
+
+
+def _train(args: argparse.Namespace) -> int:
+    from scan.config import load_config
+    from scan.surrogate import surrogate_path, training_path
+    from scan.surrogate.adapter import SolvePoint
+    from scan.surrogate.identity import identity
+    from scan.surrogate.observables import observables_for
+    from scan.surrogate.space import from_config
+    from scan.surrogate.surrogate_file import write_surrogate
+    from scan.surrogate.train import TrainingPlan, run_training
+    from scan.surrogate.validate import format_report, validate
+
+    config = load_config(args.config, overrides=args.overrides)
+    space = from_config(config)
+    plan = TrainingPlan.from_config(config, args.points)
+    pool, workers = _pool(args)
+    with pool:
+        emulator, train, holdout = run_training(
+            training_path(config), config, space, SolvePoint(config, space.keys), pool.map,
+            plan, resume=args.resume, chunk=max(4, 2 * workers), progress=_progress())
+    report = validate(emulator, train, holdout, observables_for(config, space))
+    out = surrogate_path(config)
+    write_surrogate(out, config, space, emulator, report, identity(config, space))
+    print("\n".join(format_report(report) + [f"training store: {training_path(config)}",
+                                             f"surrogate: {out}"]))
+    return 0

@@ -1,0 +1,79 @@
+"""The product's solve: one exact pipeline solve per parameter vector, as a TrainingRecord."""
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+
+from scan.surrogate.record import TrainingRecord, invalid_record, record_from_spectrum, shape_grid
+
+
+def configure(config, keys: Sequence[str], values: Sequence[float]):
+    """``config`` with the parameters at ``keys`` set to ``values``.
+
+    When ``keys`` are the config's ``[[parameters]]`` this is
+    :func:`scan.priors.apply_parameters`; other keys go through the config's own ``--set``
+    override machinery (same key paths, same validation).
+    """
+    declared = [p.key for p in getattr(config, "parameters", ())]
+    if set(keys) <= set(declared):
+        from scan.priors import apply_parameters
+
+        return apply_parameters(config, {k: float(v) for k, v in zip(keys, values)})
+    from scan.config import load_config_text
+
+    sets = tuple(f"{key}={float(value)!r}" for key, value in zip(keys, values))
+    return load_config_text(config.text, source=config.source,
+                            overrides=tuple(config.overrides) + sets,
+                            default_name=config.run.name)
+
+
+class SolvePoint:
+    """Picklable ``solve(theta) -> TrainingRecord`` for one config and parameter space.
+
+    Parameters
+    ----------
+    config : RunConfig
+        The base configuration (its ``[surrogate]`` section gives the shape grid).
+    keys : sequence of str
+        Parameter key paths, in the order of ``theta``.
+    """
+
+    def __init__(self, config, keys: Sequence[str]) -> None:
+        self.config, self.keys = config, tuple(keys)
+        s = config.surrogate
+        self.x = shape_grid(s.shape_span, s.shape_points)
+
+    def __call__(self, theta: np.ndarray) -> TrainingRecord:
+        return solve_point(self.config, theta, self.keys, self.x)
+
+
+def solve_point(config, values: Sequence[float], keys: Sequence[str] | None = None,
+                x: np.ndarray | None = None) -> TrainingRecord:
+    """Solve the model at one parameter vector exactly (:func:`scan.pipeline.solve_config`).
+
+    Parameters
+    ----------
+    config : RunConfig
+    values : sequence of float
+        Parameter values in the order of ``keys`` (default: the config's parameters).
+    keys : sequence of str, optional
+    x : ndarray, optional
+        Shape grid ln(k/k_peak) (default: from ``[surrogate]``).
+
+    Returns
+    -------
+    TrainingRecord
+        Invalid models (any stage) are records with ``valid=False`` and the reason.
+    """
+    from scan.pipeline import solve_config
+
+    values = np.asarray(values, float)
+    if keys is None:
+        keys = [p.key for p in getattr(config, "parameters", ())]
+    if x is None:
+        x = shape_grid(config.surrogate.shape_span, config.surrogate.shape_points)
+    result = solve_config(configure(config, keys, values))
+    if not result.valid or result.spectrum is None:
+        return invalid_record(values, result.reason, len(x))
+    return record_from_spectrum(values, result.spectrum, x)

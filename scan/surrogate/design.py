@@ -1,0 +1,116 @@
+"""Where to solve: the space-filling design, the held-out set, adaptive refinement.
+
+All points live in the unit cube (see :mod:`scan.surrogate.space`).  Every point has a
+*stage* (``STAGE_DESIGN``, ``STAGE_HOLDOUT`` or ``STAGE_REFINE + round``) and a
+sequence number within it; all choices are deterministic given ``run.seed`` and the
+solved points, so a resumed run plans exactly what the interrupted one planned (the
+store also records every plan before it is solved).
+"""
+from __future__ import annotations
+
+import warnings
+
+import numpy as np
+from scipy.stats import qmc
+
+STAGE_DESIGN = 0
+STAGE_HOLDOUT = 1
+STAGE_REFINE = 2  # + round number
+
+
+def _rng(seed: int, *stream: int) -> np.random.Generator:
+    return np.random.default_rng(np.random.SeedSequence([int(seed), *map(int, stream)]))
+
+
+def sobol_points(dim: int, start: int, count: int, seed: int) -> np.ndarray:
+    """Points ``start .. start+count-1`` of the scrambled Sobol sequence of ``seed``.
+
+    The sequence is the same for every call with the same ``dim`` and ``seed``, so a
+    design can be extended later without changing its first points.
+    """
+    engine = qmc.Sobol(dim, scramble=True, seed=_rng(seed, STAGE_DESIGN))
+    if start:
+        engine.fast_forward(start)
+    with warnings.catch_warnings():  # balance warnings for counts that are not 2^m
+        warnings.simplefilter("ignore", UserWarning)
+        return engine.random(count) if count else np.zeros((0, dim))
+
+
+def holdout_points(dim: int, count: int, seed: int) -> np.ndarray:
+    """Independent uniform points for validation.
+
+    Plain random (not quasi-random) draws, so the validation errors estimate the error
+    at a typical point of the prior, the way a sampler will query the surrogate.
+    """
+    return _rng(seed, STAGE_HOLDOUT).random((count, dim))
+
+
+def min_distances(points: np.ndarray, reference: np.ndarray) -> np.ndarray:
+    """Distance from each row of ``points`` to the nearest row of ``reference``."""
+    if len(reference) == 0:
+        return np.full(len(points), np.inf)
+    d2 = ((points[:, None, :] - reference[None, :, :]) ** 2).sum(-1)
+    return np.sqrt(d2.min(1))
+
+
+def spacing(n_points: int, dim: int) -> float:
+    """Typical distance between neighbouring design points, ``n^(-1/d)`` (unit cube)."""
+    return float(max(n_points, 1)) ** (-1.0 / dim)
+
+
+def greedy_spread(scores: np.ndarray, candidates: np.ndarray, existing: np.ndarray,
+                  count: int, scale: float) -> np.ndarray:
+    """Pick ``count`` candidates of high score that keep apart from each other and the data.
+
+    Each pick maximises ``score * min(1, d / scale)`` with ``d`` the distance to the
+    nearest existing or already picked point.  Returns indices into ``candidates``.
+    """
+    dist = min_distances(candidates, existing)
+    chosen: list[int] = []
+    for _ in range(min(count, len(candidates))):
+        value = scores * np.minimum(1.0, dist / scale)
+        value[chosen] = -np.inf
+        best = int(np.argmax(value))
+        chosen.append(best)
+        dist = np.minimum(dist, np.sqrt(((candidates - candidates[best]) ** 2).sum(1)))
+    return np.array(chosen, int)
+
+
+def refine_points(train_u: np.ndarray, error_score: np.ndarray, margin: np.ndarray,
+                  candidates: np.ndarray, count: int, boundary_fraction: float) -> np.ndarray:
+    """New unit-cube points: part along the validity boundary, part where errors are large.
+
+    Parameters
+    ----------
+    train_u : ndarray, shape (n, d)
+        Points already planned for training.
+    error_score : ndarray, shape (c,)
+        Expected emulator error at each candidate (e.g. predictive sd times the
+        cross-validated error of the nearest training point) [arbitrary units].
+    margin : ndarray, shape (c,)
+        Classifier output at each candidate (sign: valid > 0; near 0: the boundary).
+    candidates : ndarray, shape (c, d)
+        Random candidate points.
+    count : int
+        Points to return.
+    boundary_fraction : float
+        Share of ``count`` given to the boundary (used only if both classes exist).
+
+    Returns
+    -------
+    ndarray, shape (count, d)
+    """
+    scale = spacing(len(train_u) + count, train_u.shape[1])
+    n_boundary = int(round(count * boundary_fraction)) if np.any(np.abs(margin) < 1) else 0
+    closeness = np.exp(-(margin / 0.25) ** 2)
+    picks_b = greedy_spread(closeness, candidates, train_u, n_boundary, scale)
+    taken = np.vstack([train_u, candidates[picks_b]])
+    rest = np.setdiff1d(np.arange(len(candidates)), picks_b)
+    picks_e = greedy_spread(error_score[rest] + 1e-300, candidates[rest], taken,
+                            count - len(picks_b), scale)
+    return np.vstack([candidates[picks_b], candidates[rest][picks_e]])
+
+
+def candidate_points(dim: int, count: int, seed: int, round_index: int) -> np.ndarray:
+    """Random candidates for refinement round ``round_index`` (deterministic)."""
+    return _rng(seed, STAGE_REFINE, round_index).random((count, dim))

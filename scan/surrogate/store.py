@@ -1,0 +1,230 @@
+"""The training store ``results/<run>/training.h5``: planned points and finished solves.
+
+Layout (every dataset has a ``units`` attribute):
+
+* root attributes: provenance (:func:`scan.store.provenance`), ``identity_json``
+  (:mod:`scan.surrogate.identity`), ``parameter_keys``;
+* ``config``: the config text;  ``shape_x``: the shape grid ln(k/k_peak);
+* ``plan/u``, ``plan/stage``, ``plan/seq``: every point ever planned (unit cube, stage of
+  :mod:`scan.surrogate.design`, number within its stage) — the point's index is its row;
+* ``points/*``: one row per finished solve, appended as solves finish: ``index`` (row
+  in ``plan``), ``params``, ``valid``, ``reason``, ``scalars`` (see
+  :data:`scan.surrogate.record.SCALARS`), ``shape``.
+
+The file is written in HDF5 single-writer/multiple-reader (SWMR) mode and flushed after
+every append, so a killed run leaves a readable file holding every finished point.
+``points/index`` is written last and its fill value is -1, so a row whose write was cut
+short is ignored on reading.  Only the master process writes; a lock file
+(``training.h5.lock``, released by the OS when the writer dies) keeps a second training
+run out.  A writer killed mid-run leaves HDF5's "open for writing" flags set: the next
+writer (holding the lock, so nobody else is writing) copies the file's objects into a
+fresh file with the flags clear (:func:`recover_store`) and continues.
+"""
+from __future__ import annotations
+
+import fcntl
+import json
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from scan.errors import InputFileError
+from scan.store import config_hash, provenance, write_config
+from scan.surrogate.identity import differences
+from scan.surrogate.record import SCALARS, TrainingRecord
+
+REASON_BYTES = 160
+KIND = "zetascan training store"
+
+
+@dataclass(frozen=True)
+class StoredPoints:
+    """Finished points read back from a store (rows sorted by plan index)."""
+
+    index: np.ndarray
+    params: np.ndarray
+    valid: np.ndarray
+    reason: list[str]
+    scalars: np.ndarray
+    shape: np.ndarray
+
+
+def _extendable(group: h5py.Group, name: str, shape: tuple[int, ...], dtype, units: str,
+                fill=None) -> None:
+    dset = group.create_dataset(name, shape=(0, *shape), maxshape=(None, *shape),
+                                dtype=dtype, chunks=(64, *shape), fillvalue=fill)
+    dset.attrs["units"] = units
+
+
+def create_store(path: str | Path, config, space, x: np.ndarray, ident: dict) -> None:
+    """Create an empty training store (refuses to overwrite an existing file)."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    d, nx = space.dim, len(x)
+    with h5py.File(path, "w-", libver="latest") as handle:
+        for key, value in provenance(config.effective_text, config.run.seed).items():
+            handle.attrs[key] = value
+        handle.attrs["kind"] = KIND
+        handle.attrs["identity_json"] = json.dumps(ident, sort_keys=True)
+        handle.attrs["parameter_keys"] = list(space.keys)
+        handle.attrs["parameter_priors"] = list(space.kinds)
+        handle.attrs["parameter_low"] = np.array(space.low)
+        handle.attrs["parameter_high"] = np.array(space.high)
+        write_config(handle, config.effective_text, config.overrides)
+        handle.create_dataset("shape_x", data=np.asarray(x, float)).attrs["units"] = "1"
+        plan = handle.create_group("plan")
+        _extendable(plan, "u", (d,), "f8", "1")
+        _extendable(plan, "stage", (), "i4", "1")
+        _extendable(plan, "seq", (), "i8", "1")
+        pts = handle.create_group("points")
+        _extendable(pts, "index", (), "i8", "1", fill=-1)
+        _extendable(pts, "params", (d,), "f8", "parameter units (see parameter_keys)")
+        _extendable(pts, "valid", (), "i1", "1")
+        _extendable(pts, "reason", (), f"S{REASON_BYTES}", "1")
+        _extendable(pts, "scalars", (len(SCALARS),), "f8", "see attribute columns")
+        pts["scalars"].attrs["columns"] = list(SCALARS)
+        _extendable(pts, "shape", (nx,), "f8", "dex")
+
+
+def check_identity(path: str | Path, ident: dict) -> None:
+    """Raise InputFileError naming every difference if the store is of another model."""
+    try:
+        with h5py.File(path, "r", libver="latest", swmr=True) as handle:
+            if handle.attrs.get("kind") != KIND:
+                raise InputFileError(str(path), "not a zetascan training store")
+            stored = json.loads(handle.attrs["identity_json"])
+    except OSError as err:
+        raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
+    diff = differences(stored, ident)
+    if diff:
+        raise InputFileError(str(path), "made with a different model config; refusing to "
+                             "mix training points (" + "; ".join(diff) + "); use another "
+                             "run.name or the original config")
+
+
+def stored_config_hash(path: str | Path) -> str:
+    """SHA-256 of the config text the store was made with."""
+    with h5py.File(path, "r", libver="latest", swmr=True) as handle:
+        raw = handle["config"][()]
+    return config_hash(raw.decode() if isinstance(raw, bytes) else str(raw))
+
+
+class StoreWriter:
+    """The one writer of a training store (open in SWMR mode; use as a context manager)."""
+
+    def __init__(self, path: str | Path) -> None:
+        self.path = Path(path)
+        self._lock = open(self.path.with_name(self.path.name + ".lock"), "w")
+        try:
+            fcntl.flock(self._lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
+            self._lock.close()
+            raise InputFileError(str(path), "another training run is writing this store; "
+                                 "wait for it or stop it first") from None
+        try:
+            self.handle = h5py.File(self.path, "r+", libver="latest")
+        except OSError as err:
+            if "h5clear" not in str(err):
+                raise
+            recover_store(self.path)
+            self.handle = h5py.File(self.path, "r+", libver="latest")
+        self.handle.swmr_mode = True
+
+    def __enter__(self) -> "StoreWriter":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    def close(self) -> None:
+        """Flush and close."""
+        if self.handle.id.valid:
+            self.handle.flush()
+            self.handle.close()
+        self._lock.close()
+
+    @staticmethod
+    def _grow(dset: h5py.Dataset, rows: np.ndarray) -> None:
+        n = dset.shape[0]
+        dset.resize(n + len(rows), axis=0)
+        dset[n:] = rows
+
+    def add_plan(self, u: np.ndarray, stage: int, seq: np.ndarray) -> np.ndarray:
+        """Append planned unit-cube points; return their plan indices."""
+        plan = self.handle["plan"]
+        start = plan["u"].shape[0]
+        self._grow(plan["u"], np.atleast_2d(u))
+        self._grow(plan["stage"], np.full(len(u), stage, "i4"))
+        self._grow(plan["seq"], np.asarray(seq, "i8"))
+        self.handle.flush()
+        return np.arange(start, start + len(u))
+
+    def append(self, indices: list[int], records: list[TrainingRecord]) -> None:
+        """Append finished solves (index written last), then flush."""
+        if not records:
+            return
+        pts = self.handle["points"]
+        reasons = [r.reason.encode("utf-8")[:REASON_BYTES] for r in records]
+        self._grow(pts["params"], np.array([r.params for r in records], float))
+        self._grow(pts["valid"], np.array([r.valid for r in records], "i1"))
+        self._grow(pts["reason"], np.array(reasons, f"S{REASON_BYTES}"))
+        self._grow(pts["scalars"], np.array([r.scalar_targets() for r in records]))
+        self._grow(pts["shape"], np.array([r.shape for r in records], float))
+        for dset in (pts["params"], pts["valid"], pts["reason"], pts["scalars"], pts["shape"]):
+            dset.flush()
+        self._grow(pts["index"], np.asarray(indices, "i8"))
+        self.handle.flush()
+
+
+def recover_store(path: str | Path) -> None:
+    """Rewrite a store left by a killed writer (read in SWMR mode) with clean flags.
+
+    Every object and attribute is copied (dataset layouts, fill values and contents as
+    the reader sees them); the copy replaces the original atomically.  Call it only
+    while holding the store's lock.
+    """
+    path = Path(path)
+    tmp = path.with_name(f".{path.name}.recover-{os.getpid()}")
+    try:
+        with h5py.File(path, "r", libver="latest", swmr=True) as src, \
+                h5py.File(tmp, "w", libver="latest") as dst:
+            for key, value in src.attrs.items():
+                dst.attrs[key] = value
+            for name in src:
+                src.copy(src[name], dst, name=name)
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+
+
+def read_plan(path: str | Path) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``(u, stage, seq)`` of every planned point (row = plan index)."""
+    with h5py.File(path, "r", libver="latest", swmr=True) as handle:
+        plan = handle["plan"]
+        n = plan["seq"].shape[0]  # seq is written last
+        return plan["u"][:n], plan["stage"][:n], plan["seq"][:n]
+
+
+def read_points(path: str | Path) -> StoredPoints:
+    """Every finished point (each plan index once; torn rows dropped)."""
+    with h5py.File(path, "r", libver="latest", swmr=True) as handle:
+        pts = handle["points"]
+        n = min(pts[name].shape[0] for name in pts)
+        index = pts["index"][:n]
+        keep = np.flatnonzero(index >= 0)
+        _, first = np.unique(index[keep], return_index=True)
+        rows = keep[first]
+        return StoredPoints(index[rows], pts["params"][:n][rows],
+                            pts["valid"][:n][rows].astype(bool),
+                            [b.decode("utf-8", "replace") for b in pts["reason"][:n][rows]],
+                            pts["scalars"][:n][rows], pts["shape"][:n][rows])
+
+
+def read_shape_x(path: str | Path) -> np.ndarray:
+    """The shape grid ln(k/k_peak) of a store."""
+    with h5py.File(path, "r", libver="latest", swmr=True) as handle:
+        return handle["shape_x"][()]

@@ -1,0 +1,125 @@
+"""The surrogate file ``results/<run>/surrogate.h5``: emulator arrays and validation report.
+
+Layout: root provenance and ``identity_json``; ``config`` (text); group ``surrogate``
+with ``space`` attributes and one sub-group per kernel block (``classifier``, ``peak``,
+``shape``, ``cmb``) plus ``basis``; group ``validation`` with the report (JSON attribute
+and the printable text).  Written atomically (:func:`scan.store.atomic_h5`).
+"""
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from scan.errors import InputFileError
+from scan.store import atomic_h5, provenance, write_config, write_dataset
+from scan.surrogate.emulator import Emulator
+from scan.surrogate.gp import GPFit
+from scan.surrogate.identity import differences
+from scan.surrogate.shape import ShapeBasis
+from scan.surrogate.space import ParameterSpace
+from scan.surrogate.validate import format_report
+
+KIND = "zetascan surrogate"
+_GP_ARRAYS = ("centres", "weights", "mean_coef", "scale", "length", "loo", "centre_norms")
+
+
+def _write_gp(group: h5py.Group, fit: GPFit) -> None:
+    for name in _GP_ARRAYS:
+        write_dataset(group, name, getattr(fit, name), "1")
+    group.attrs["noise"] = fit.noise
+    group.attrs["kernel"] = fit.kernel
+
+
+def _read_gp(group: h5py.Group) -> GPFit:
+    arrays = {name: group[name][()] for name in _GP_ARRAYS}
+    return GPFit(noise=float(group.attrs["noise"]), kernel=str(group.attrs["kernel"]), **arrays)
+
+
+def _json_default(value):
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, (np.floating,)):
+        return float(value)
+    raise TypeError(type(value))
+
+
+def write_surrogate(path: str | Path, config, space: ParameterSpace, emulator: Emulator,
+                    report: dict, ident: dict) -> None:
+    """Write the emulator and its validation report (atomically)."""
+    with atomic_h5(path) as handle:
+        for key, value in provenance(config.effective_text, config.run.seed).items():
+            handle.attrs[key] = value
+        handle.attrs["kind"] = KIND
+        handle.attrs["identity_json"] = json.dumps(ident, sort_keys=True)
+        write_config(handle, config.effective_text, config.overrides)
+        grp = handle.create_group("surrogate")
+        grp.attrs["parameter_keys"] = list(space.keys)
+        grp.attrs["parameter_priors"] = list(space.kinds)
+        grp.attrs["parameter_low"] = np.array(space.low)
+        grp.attrs["parameter_high"] = np.array(space.high)
+        grp.attrs["constant_valid"] = emulator.constant_valid
+        grp.attrs["has_classifier"] = emulator.classifier is not None
+        for name in ("classifier", "peak", "shape", "cmb"):
+            fit = getattr(emulator, name)
+            if fit is not None:
+                _write_gp(grp.create_group(name), fit)
+        basis = grp.create_group("basis")
+        write_dataset(basis, "x", emulator.basis.x, "1", "ln(k/k_peak)")
+        write_dataset(basis, "mean", emulator.basis.mean, "dex")
+        write_dataset(basis, "components", emulator.basis.components, "1")
+        basis.attrs["max_error"] = emulator.basis.max_error
+        val = handle.create_group("validation")
+        val.attrs["report_json"] = json.dumps(report, default=_json_default)
+        val.create_dataset("text", data="\n".join(format_report(report)),
+                           dtype=h5py.string_dtype()).attrs["units"] = "1"
+
+
+def _open(path: str | Path) -> h5py.File:
+    try:
+        handle = h5py.File(path, "r")
+    except (OSError, FileNotFoundError) as err:
+        raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
+    if handle.attrs.get("kind") != KIND:
+        handle.close()
+        raise InputFileError(str(path), "not a zetascan surrogate file (make one with "
+                             "'zetascan train CONFIG')")
+    return handle
+
+
+def read_report(path: str | Path) -> dict:
+    """The validation report stored in a surrogate file."""
+    with _open(path) as handle:
+        return json.loads(handle["validation"].attrs["report_json"])
+
+
+def read_surrogate(path: str | Path, ident: dict | None = None
+                   ) -> tuple[Emulator, ParameterSpace]:
+    """The emulator and parameter space of a surrogate file.
+
+    Parameters
+    ----------
+    ident : dict, optional
+        :func:`scan.surrogate.identity.identity` of the config that wants to use it;
+        a different model config is refused (InputFileError naming the differences).
+    """
+    with _open(path) as handle:
+        if ident is not None:
+            diff = differences(json.loads(handle.attrs["identity_json"]), ident)
+            if diff:
+                raise InputFileError(str(path), "surrogate was trained on a different model "
+                                     "config (" + "; ".join(diff) + ")")
+        grp = handle["surrogate"]
+        space = ParameterSpace(tuple(str(k) for k in grp.attrs["parameter_keys"]),
+                               tuple(str(k) for k in grp.attrs["parameter_priors"]),
+                               tuple(float(v) for v in grp.attrs["parameter_low"]),
+                               tuple(float(v) for v in grp.attrs["parameter_high"]))
+        b = grp["basis"]
+        basis = ShapeBasis(b["x"][()], b["mean"][()], b["components"][()],
+                           float(b.attrs["max_error"]))
+        classifier = _read_gp(grp["classifier"]) if grp.attrs["has_classifier"] else None
+        emulator = Emulator(classifier, bool(grp.attrs["constant_valid"]), _read_gp(grp["peak"]),
+                            _read_gp(grp["shape"]), _read_gp(grp["cmb"]), basis)
+    return emulator, space
