@@ -251,7 +251,7 @@ class NuisanceSection(PriorFields):
 class SamplerSection:
     """``[sampler]``: the emcee ensemble, stopping rule and run-file cadence."""
 
-    target: str = spec("what is sampled: the physics posterior (not available yet) or a "
+    target: str = spec("what is sampled: the physics posterior (surrogate-driven) or a "
                        "built-in Gaussian test target", "posterior",
                        choices=("posterior", "gaussian_test"))
     walkers: int = spec("number of emcee walkers (at least 2 x the number of varied "
@@ -312,6 +312,42 @@ class ObservablesSection:
                               minimum=0.0, exclusive_minimum=True)
 
 
+UPPER_LIMIT_METHODS = ("step", "half_normal", "soft_log")
+
+
+@dataclass(frozen=True, kw_only=True)
+class CurveMethodSection:
+    """One ``[[likelihood.methods]]`` entry: the upper-limit method of one curve."""
+
+    curve: str = spec("name of an Omega_GW h^2 upper-limit curve (its 'name' metadata)")
+    method: str = spec("likelihood of that upper limit (overrides the curve's own "
+                       "'likelihood' metadata)", choices=UPPER_LIMIT_METHODS)
+
+
+@dataclass(frozen=True, kw_only=True)
+class LikelihoodSection:
+    """``[likelihood]``: bound curves, CMB priors and the surrogate of a posterior run."""
+
+    curves: tuple[str, ...] = spec("bound-curve CSV files and scalar-bound TOML files "
+                                   "(relative to the working directory); when given, "
+                                   "directory is not read", default_factory=tuple)
+    directory: str = spec("folder whose *.csv curves and *.toml scalar bounds are all used "
+                          "when curves is empty", "constraints/demo")
+    cmb_priors: bool = spec("Planck 2018 n_s and ln(10^10 A_s) priors and the BICEP/Keck "
+                            "2021 r limit: true adds them once, false leaves them out even when a "
+                            "scalar file asks for them", True)
+    surrogate: str = spec("surrogate file from 'zetascan train' (default: "
+                          "<run.output_dir>/<run.name>/surrogate.h5)", "")
+    pbh_combine: str = spec("how several f_PBH bounds combine", "max",
+                            choices=("max", "quadrature"))
+    sensitivity_mode: str = spec("sensitivity curves only report the SNR, or exclude / "
+                                 "require detectable models", "report",
+                                 choices=("report", "exclude_detectable",
+                                          "require_detectable"))
+    methods: tuple[CurveMethodSection, ...] = spec(
+        "per-curve upper-limit methods ([[likelihood.methods]] tables)", default_factory=tuple)
+
+
 @dataclass(frozen=True, kw_only=True)
 class RunConfig:
     """A whole run configuration (see ``configs/README.md``)."""
@@ -329,6 +365,8 @@ class RunConfig:
     nuisance: tuple[NuisanceSection, ...] = spec(
         "likelihood nuisance parameters ([[nuisance]] tables)", default_factory=tuple)
     sampler: SamplerSection = spec("[sampler] table", default_factory=SamplerSection)
+    likelihood: LikelihoodSection = spec("[likelihood] table",
+                                         default_factory=LikelihoodSection)
     # Not part of the schema: where the config came from (set by load_config).
     source: str = dataclasses.field(default="<config>", compare=False)
     text: str = dataclasses.field(default="", compare=False, repr=False)

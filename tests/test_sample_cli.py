@@ -139,11 +139,14 @@ def test_changed_config_is_refused_with_the_diff_unless_restart(tmp_path, capsys
     assert "model.alpha" in text and "68%" in text and "95%" in text
 
 
-def test_posterior_target_is_not_available_yet(tmp_path, capsys):
+def test_posterior_target_refuses_unknown_nuisance_in_one_line(tmp_path, capsys):
     config = write_config(tmp_path, 10)
     config.write_text(config.read_text().replace('"gaussian_test"', '"posterior"'))
     assert main(["sample", str(config)]) == 2
-    assert "not available yet" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    # the Gaussian-test config's nuisance 'a' is no parameter of the physics likelihood
+    assert "nuisance[0].name" in err and "A_smbhb" in err and "Traceback" not in err
+    assert len(err.strip().splitlines()) == 1
 
 
 def _mpi_missing() -> str:

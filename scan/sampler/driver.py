@@ -87,9 +87,10 @@ def plan_run(config: RunConfig, path: str | Path | None = None) -> RunPlan:
     Raises
     ------
     ConfigError
-        Bad parameter keys, too few walkers, a target that does not fit the priors.
-    ZetascanError
-        ``sampler.target = "posterior"`` (not available yet).
+        Bad parameter keys, too few walkers, a target that does not fit the priors,
+        missing curve files or surrogate (``sampler.target = "posterior"``).
+    InputFileError
+        A curve or surrogate file that cannot be used.
     """
     priors = PriorSet.from_config(config)
     target = build_target(config, priors)

@@ -20,7 +20,7 @@ import math
 import numpy as np
 
 from scan.config_schema import RunConfig
-from scan.errors import ConfigError, ZetascanError
+from scan.errors import ConfigError
 from scan.priors import PriorSet
 
 REASON_OK = 0
@@ -143,15 +143,25 @@ def gaussian_test_target(config: RunConfig, priors: PriorSet) -> GaussianTarget:
 
 
 def build_target(config: RunConfig, priors: PriorSet) -> TargetBase:
-    """The log-probability target named by ``sampler.target``."""
+    """The log-probability target named by ``sampler.target``.
+
+    ``"gaussian_test"`` is :class:`GaussianTarget`; ``"posterior"`` is
+    :class:`scan.sampler.posterior.PosteriorTarget` (surrogate observables against the
+    ``[likelihood]`` curves), loaded and checked here.
+
+    Raises
+    ------
+    ConfigError
+        Nothing to sample, or a config the target cannot use.
+    """
     if not priors.dim:
         raise ConfigError(config.source, "parameters", "nothing to sample",
                           "add [[parameters]] (or [[nuisance]]) tables with priors")
     if config.sampler.target == "gaussian_test":
         return gaussian_test_target(config, priors)
-    raise ZetascanError(f"{config.source}: sampler.target = 'posterior' is not available yet "
-                        "(the physics likelihood is not wired to the sampler); use "
-                        "target = \"gaussian_test\" to check the sampling plumbing")
+    from scan.sampler.posterior import posterior_target
+
+    return posterior_target(config, priors)
 
 
 def prepare_target(target: TargetBase) -> None:
