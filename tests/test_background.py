@@ -7,7 +7,7 @@ import pickle
 import numpy as np
 import pytest
 
-from scan.background import Background, BackgroundPoint, solve_background
+from scan.background import EPS1_FLOOR, Background, BackgroundPoint, solve_background
 from scan.models import Model, Pole
 
 T_P05 = Model("t_model", kinetic="poles", poles=(Pole(5.0, 0.1, 0.5),))
@@ -113,6 +113,40 @@ def test_usr_depth_of_reference_pole_model(width, eps1_min, tol):
     c = bg.crossings[0]
     eps1 = bg.evaluate(np.linspace(c.N_cross - 3, c.N_cross + 3, 6001)).eps1
     assert abs(eps1.min() / eps1_min - 1) < tol
+
+
+def _reference_pole(c: float) -> Model:
+    """Starobinsky V, K = 1 + c/|φ − 4.2| (inflation.md §5; start φ = 6)."""
+    return Model("starobinsky", kinetic="poles", poles=(Pole(4.2, c, 1.0),))
+
+
+def test_well_conditioned_reference_model_is_valid():
+    """c = 0.035: valid, and N_end − N_cross agrees to 1e-6 between rtol 1e-10 and 1e-11
+    (measured 3.5e-9; inflation.md §5.5: well conditioned up to c = 0.035, computed)."""
+    a, b = (solve_background(_reference_pole(0.035), phi_start=6.0, rtol=r)
+            for r in (1e-10, 1e-11))
+    assert a.valid and b.valid, (a.reason, b.reason)
+    da, db = (x.N_end - x.crossings[0].N_cross for x in (a, b))
+    assert abs(da - db) < 1e-6, da - db
+    assert a.eps1.min() > EPS1_FLOOR
+
+
+@pytest.mark.parametrize("c", [0.045, 0.05])
+@pytest.mark.parametrize("rtol", [1e-10, 5e-11, 1e-11])
+def test_ill_conditioned_reference_model_is_invalid(c, rtol):
+    """c ≥ 0.04: ε1 falls to 1e-32…1e-64 and the e-folds depend on the tolerance
+    (inflation.md §5.5, computed; here measured min ε1 ≤ 2e-63 and N_end − N_cross of ~2,
+    ~6 or ~113 e-folds depending on rtol): flagged invalid at every tolerance, by the floor."""
+    bg = solve_background(_reference_pole(c), phi_start=6.0, rtol=rtol)
+    assert not bg.valid
+    assert bg.reason.startswith("ill-conditioned: eps1 falls to"), bg.reason
+    assert bg.eps1.min() < EPS1_FLOOR
+
+
+def test_start_at_rest_is_not_ill_conditioned():
+    """π = 0 at the start only (velocity_start = 0) is well posed, not below the floor."""
+    bg = solve_background(Model("starobinsky"), phi_start=5.5, velocity_start=0.0)
+    assert bg.valid, bg.reason
 
 
 def test_two_poles_switch_charts_at_the_midpoint():

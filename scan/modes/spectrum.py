@@ -12,7 +12,7 @@ from scan.modes.normalise import (K_STAR_MPC, LN10_AS_PLANCK18, STENCIL, PivotVa
                                   as_from_ln10, iterate_normalisation, pivot_values)
 from scan.modes.protocol import BackgroundLike
 from scan.modes.settings import ModeSettings
-from scan.modes.solver import solve_modes
+from scan.modes.solver import ModeResult, solve_modes
 from scan.modes.table import BackgroundTable, build_table
 
 _NAN = float("nan")
@@ -92,6 +92,7 @@ class _Context:
     table: BackgroundTable
     settings: ModeSettings
     N_stop: float
+    refine_splits: int = 4
 
     def solve(self, N_k: np.ndarray):
         return solve_modes(self.bg, self.table, N_k, self.settings, self.N_stop)
@@ -106,7 +107,8 @@ class _Context:
 def compute_spectrum(bg: BackgroundLike, *, N_star: float | Callable[[float], float] = 55.0,
                      n_modes: int = 256, k_star: float = K_STAR_MPC,
                      ln10As: float = LN10_AS_PLANCK18, settings: ModeSettings = ModeSettings(),
-                     refine_features: bool = True, N_star_guess: float = 55.0) -> Spectrum:
+                     refine_features: bool = True, N_star_guess: float = 55.0,
+                     reuse_modes: bool = True, table_method: str = "scaled") -> Spectrum:
     """Exact P_zeta(k), P_t(k) from k_star to the last mode frozen before the end.
 
     Parameters
@@ -127,6 +129,15 @@ def compute_spectrum(bg: BackgroundLike, *, N_star: float | Callable[[float], fl
         Refine the grid around the peak and the dip.
     N_star_guess : float
         Start of the V0 <-> N_star iteration.
+    reuse_modes : bool
+        True (default): refine peak and dip with three new modes per interval and round
+        (``features.refine``, ``splits = 4``); iterate V0 <-> N_star on the degree-4 polynomial through one
+        solved pivot stencil (re-solved only if N_star moves by more than one stencil
+        step), then solve the final stencil together with the k grid in one vectorised
+        call, and check the fixed point on those exact modes.  False: the earlier path
+        (one stencil solve per iteration, then the grid; refinement by bisection).
+    table_method : str
+        ``build_table`` method ("scaled", or the earlier "bisect").
 
     Returns
     -------
@@ -137,9 +148,13 @@ def compute_spectrum(bg: BackgroundLike, *, N_star: float | Callable[[float], fl
         return invalid_spectrum(f"background: {bg.reason}")
     if not np.isfinite(bg.N_end):
         return invalid_spectrum("inflation does not end (no eps1 = 1)")
-    ctx = _Context(bg, build_table(bg, bg.N_start, bg.N_end, settings.table_tol),
-                   settings, float(bg.N_end))
+    ctx = _Context(bg, build_table(bg, bg.N_start, bg.N_end, settings.table_tol,
+                                   method=table_method), settings, float(bg.N_end),
+                   refine_splits=4 if reuse_modes else 2)
     A_s = as_from_ln10(ln10As)
+    if reuse_modes:
+        return _spectrum_reusing(ctx, N_star, A_s, N_star_guess, k_star, n_modes,
+                                 refine_features)
     norm = _normalise(ctx, N_star, A_s, N_star_guess)
     if isinstance(norm, Spectrum):
         return norm
@@ -164,13 +179,93 @@ def _assemble(ctx, pv, V0, N_star, A_s, k_star, n_modes, refine_features, norm_o
     N_k = log_grid(ctx.table, N_piv, ctx.N_stop, ctx.settings.x_out, n_modes)
     if N_k.size < 3:
         return invalid_spectrum("too few e-folds between the pivot and the end of inflation")
-    res = ctx.solve(N_k)
+    return _assemble_from(ctx, pv, V0, N_star, A_s, k_star, refine_features, norm_ok, N_k,
+                          ctx.solve(N_k))
+
+
+def _stencil(ctx: _Context, N_pivot: float) -> tuple[np.ndarray, np.ndarray]:
+    """Exit e-folds of the pivot stencil and their ln(aH) offsets from the pivot."""
+    ln0 = ctx.table.ln_aH(np.array([N_pivot]))[0]
+    N_k = ctx.table.N_of_ln_aH(ln0 + STENCIL)
+    return N_k, ctx.table.ln_aH(N_k) - ln0
+
+
+def _predict_n_star(ctx: _Context, n_star_of_V0, A_s: float, start: float,
+                    tol: float = 1e-7, max_iter: int = 12) -> float:
+    """Fixed point of N_* = n_star_of_V0(A_s/P_zeta(k_*)) on solved stencils.
+
+    P_zeta at a pivot shifted by x = Delta ln(aH) from the solved stencil's centre is the
+    degree-4 polynomial through its five exact modes (|x| <= one stencil step; a stencil
+    further away is solved anew).
+    """
+    N_star = float(start)
+    N_c = ctx.N_stop - N_star
+    N_k, x = _stencil(ctx, N_c)
+    coef = np.polyfit(x, np.log(ctx.solve(N_k).P_zeta), x.size - 1)
+    ln_c = ctx.table.ln_aH(np.array([N_c]))[0]
+    for _ in range(4 * max_iter):
+        dx = float(ctx.table.ln_aH(np.array([ctx.N_stop - N_star]))[0] - ln_c)
+        if abs(dx) > STENCIL[-1] / 2:
+            N_c = ctx.N_stop - N_star
+            N_k, x = _stencil(ctx, N_c)
+            coef = np.polyfit(x, np.log(ctx.solve(N_k).P_zeta), x.size - 1)
+            ln_c = ctx.table.ln_aH(np.array([N_c]))[0]
+            dx = 0.0
+        N_new = float(n_star_of_V0(A_s / np.exp(np.polyval(coef, dx))))
+        if abs(N_new - N_star) < tol:
+            return N_new
+        N_star = N_new
+    return N_star
+
+
+def _spectrum_reusing(ctx: _Context, N_star, A_s: float, guess: float, k_star: float,
+                      n_modes: int, refine_features: bool) -> Spectrum:
+    """The spectrum with the normalisation modes reused (see ``compute_spectrum``)."""
+    n_star_of_V0 = N_star if callable(N_star) else (lambda V0: float(N_star))
+    start = guess if callable(N_star) else float(N_star)
+    earliest = ctx.table.N[0] + np.log(ctx.settings.x_in) + 2.0 * STENCIL[-1] + 0.1
+    if ctx.N_stop - start < earliest:
+        return invalid_spectrum("background starts too late for the pivot mode's initial data")
+    tol = 1e-6  # [e-folds], as iterate_normalisation
+    try:
+        for _ in range(3):
+            if callable(N_star):
+                start = _predict_n_star(ctx, n_star_of_V0, A_s, start)
+            if ctx.N_stop - start < earliest:
+                return invalid_spectrum("background starts too late for the pivot mode's "
+                                        "initial data")
+            N_piv = ctx.N_stop - start
+            N_st, x = _stencil(ctx, N_piv)
+            N_k = log_grid(ctx.table, N_piv, ctx.N_stop, ctx.settings.x_out, n_modes)
+            if N_k.size < 3:
+                return invalid_spectrum("too few e-folds between the pivot and the end of "
+                                        "inflation")
+            both = ctx.solve(np.concatenate([N_st, N_k]))
+            m = N_st.size
+            pv = pivot_values(N_piv, x, both.P_zeta[:m], both.P_tensor[:m])
+            V0 = A_s / pv.P_zeta
+            N_check = float(n_star_of_V0(V0))
+            ok = abs(N_check - start) < tol
+            if ok:
+                break
+            start = N_check
+    except ValueError as exc:
+        return invalid_spectrum(f"pivot outside the background: {exc}")
+    grid = ModeResult(N_k, both.P_zeta[m:], both.P_tensor[m:], both.N_final[m:], both.nfev,
+                      both.success, both.message)
+    return _assemble_from(ctx, pv, V0, start, A_s, k_star, refine_features, ok, N_k, grid)
+
+
+def _assemble_from(ctx, pv, V0, N_star, A_s, k_star, refine_features, norm_ok, N_k,
+                   res) -> Spectrum:
+    N_piv = ctx.N_stop - N_star
     lnk = np.log(k_mpc(ctx.table, N_k, N_piv, k_star))
     lnP = np.log(res.P_zeta)
     extra: dict[float, float] = {}
     refined = False
     if refine_features:
-        lnk, lnP, peak, dip, refined = refine(lnk, lnP, _grid_solver(ctx, N_piv, k_star, extra))
+        lnk, lnP, peak, dip, refined = refine(lnk, lnP, _grid_solver(ctx, N_piv, k_star, extra),
+                                              splits=ctx.refine_splits)
     else:
         from scan.modes.features import find_dip, find_peak
         peak = find_peak(lnk, lnP)

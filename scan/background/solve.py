@@ -1,225 +1,40 @@
-"""Exact inflationary background in e-folds, through integrable kinetic poles.
-
-CONTRACT (shared with ``scan.modes``; keep it stable):
-
-* ``BackgroundPoint`` — a frozen record of arrays ``phi, chi, dchi_dN, H, eps1, eps2``
-  at given e-folds ``N`` (H in reduced Planck units for the potential's V0 = 1: the
-  background in N does not depend on V0, H scales as sqrt(V0)).
-* ``Background`` — the solution: ``valid``, ``reason``, ``N_start``, ``N_end`` (nan if
-  inflation did not end), node arrays ``N, phi, chi, dchi_dN, H, eps1, eps2`` and
-  ``evaluate(N) -> BackgroundPoint`` (dense output, vectorised over an array of N).
-
-Equations (no slow roll): π ≡ dχ/dN = √K dφ/dN, ε1 = π²/2, H² = V/(3 − ε1),
-π′ = −(3 − ε1)(π + V_φ/(√K V)), ε2 = 2π′/π.  The state is (x, π, χ) where x is the
-coordinate of a *chart*: x = φ without poles; near pole i (between the midpoints to its
-neighbours) x = s = sign(u)|u|^q, u = φ − φᵢ, q = 1 − pᵢ/2, with
-ds/dN = qπ/√G, G = |u|^p K = |u|^p(1 + R) + c finite at the pole.  u is recovered from s,
-never from φ.  The integration (DOP853) stops and restarts at every pole crossing
-(s = 0) and chart boundary; the end of inflation is ε1 = 1 (upward).
-"""
+"""The exact integration: automatic start, chart right-hand sides, events, restarts,
+validity (see the package docstring for the equations)."""
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 from functools import lru_cache
 
 import numpy as np
 from scipy.integrate import quad, solve_ivp
 from scipy.optimize import brentq
 
+from scan.background.crossing import crossing_report
+from scan.background.types import (Background, Chart, Segment, chart_map, chart_of, charts,
+                                   point, to_chart)
 from scan.errors import ConfigError
 from scan.models import Model, kernel
 
+#: Floor of ε1 below which a background is flagged invalid as classically ill-conditioned
+#: (inflation.md §5.5).  Below it π = √(2ε1) < 1.4e-20, and the pole coordinate moves by
+#: less than ``_ATOL_S`` per step, so the creep through the pole is set by tolerances, not
+#: by the equations.  Measured on the reference model (Starobinsky V, K = 1 + c/|φ − 4.2|,
+#: φ_start = 6): for c ≤ 0.0363, min ε1 ≥ 2.3e-44 and N_end − N_cross agrees to 1.4e-8
+#: e-folds between rtol 1e-10 and 1e-11; for c ≥ 0.0364, min ε1 ≤ 5e-64 and the same
+#: quantity jumps between ~2, ~6 and ~133 e-folds with the tolerance (or the field "stops"
+#: on the pole).  The floor sits in that gap, on the conservative side; the models it
+#: rejects have P_ζ ~ H²/(8π²ε1) far in the stochastic regime anyway.
+EPS1_FLOOR = 1e-40
 
-@dataclass(frozen=True)
-class BackgroundPoint:
-    """The background at an array of e-folds (reduced Planck units, V0 = 1)."""
-
-    N: np.ndarray
-    phi: np.ndarray
-    chi: np.ndarray
-    dchi_dN: np.ndarray
-    H: np.ndarray
-    eps1: np.ndarray
-    eps2: np.ndarray
-
-
-@dataclass(frozen=True)
-class PoleCrossing:
-    """One crossing of a kinetic pole.
-
-    Attributes
-    ----------
-    index : int
-        Pole index in position order.
-    position : float
-        φᵢ [M_p].
-    N_cross : float
-        E-fold of the crossing (s = 0).
-    N_usr_start, N_usr_end, usr_efolds : float
-        The ultra-slow-roll window around the crossing: the contiguous interval with
-        ε2 < −3 that contains N_cross (ε2 = −2(3 − ε1) < −3 exactly at the pole), and
-        its length in e-folds.
-    N_near_start, N_near_end, efolds_near : float
-        "E-folds near the pole": the interval with |φ − φᵢ| < wᵢ, where the pole's own
-        term (wᵢ/|φ − φᵢ|)^{pᵢ} of K exceeds 1, and its length.
-    """
-
-    index: int
-    position: float
-    N_cross: float
-    N_usr_start: float
-    N_usr_end: float
-    usr_efolds: float
-    N_near_start: float
-    N_near_end: float
-    efolds_near: float
-
-
-@dataclass(frozen=True)
-class Chart:
-    """A coordinate patch: ``pole = -1`` is x = φ, otherwise x = s of that pole.
-
-    ``lo < φ < hi`` are its boundaries (midpoints between poles, or ±inf).
-    """
-
-    pole: int
-    lo: float
-    hi: float
-
-
-@dataclass(frozen=True)
-class Segment:
-    """One restart of the integrator: its e-fold span, chart and dense output."""
-
-    N0: float
-    N1: float
-    chart: Chart
-    sol: object = field(repr=False)
-
-
-@dataclass(frozen=True, eq=False)
-class Background:
-    """An exact background solution (or an invalid one, with the partial solution).
-
-    Attributes
-    ----------
-    valid : bool
-        False for an invalid model; ``reason`` says why.
-    reason : str
-        "" when valid.
-    N_start, N_end : float
-        First e-fold; end of inflation ε1 = 1 (nan if inflation did not end).
-    N, phi, chi, dchi_dN, H, eps1, eps2 : ndarray
-        Solution nodes (they include pole crossings and chart boundaries); φ, χ [M_p],
-        H [M_p] for V0 = 1.
-    crossings : tuple of PoleCrossing
-        Pole crossings in time order.
-    model : Model
-        The model solved.
-    segments : tuple of Segment
-        The dense output, one piece per restart.
-    """
-
-    valid: bool
-    reason: str
-    N_start: float
-    N_end: float
-    N: np.ndarray
-    phi: np.ndarray
-    chi: np.ndarray
-    dchi_dN: np.ndarray
-    H: np.ndarray
-    eps1: np.ndarray
-    eps2: np.ndarray
-    crossings: tuple[PoleCrossing, ...]
-    model: Model
-    segments: tuple[Segment, ...] = field(repr=False)
-
-    @property
-    def N_last(self) -> float:
-        """Last e-fold of the solution (N_end, or where the integration stopped)."""
-        return self.segments[-1].N1 if self.segments else self.N_start
-
-    def evaluate(self, N: np.ndarray | float) -> BackgroundPoint:
-        """Dense output at e-folds ``N`` (vectorised; DOP853 7th-order interpolant).
-
-        Raises
-        ------
-        ValueError
-            If some N lies outside [N_start, N_last].
-        """
-        N = np.atleast_1d(np.asarray(N, dtype=float))
-        if not self.segments:
-            raise ValueError("this background has no solution to evaluate")
-        span = 1e-12 * max(1.0, abs(self.N_last))
-        if N.size and (N.min() < self.N_start - span or N.max() > self.N_last + span):
-            raise ValueError(f"N outside the solution [{self.N_start}, {self.N_last}]")
-        ends = np.array([s.N1 for s in self.segments])
-        which = np.minimum(np.searchsorted(ends, N, side="right"), len(ends) - 1)
-        y = np.empty((3, N.size))
-        phi = np.empty(N.size)
-        isk = np.empty(N.size)
-        for i in np.unique(which):
-            sel = which == i
-            seg = self.segments[i]
-            y[:, sel] = seg.sol(np.clip(N[sel], seg.N0, seg.N1))
-            phi[sel], isk[sel], _ = chart_map(kernel(self.model), seg.chart, y[0, sel], np)
-        return point(self.model, N, phi, isk, y[1], y[2])
-
-
-def chart_map(kern, chart: Chart, x, xp):
-    """(φ, 1/√K, dx/dN per unit π) from the chart coordinate x (floats or arrays)."""
-    if chart.pole < 0:
-        inv = 1.0 / xp.sqrt(kern.K(x, xp))
-        return x, inv, inv
-    sing = kern.singular[chart.pole]
-    q = sing.q
-    au = abs(x) ** (1.0 / q)
-    sG = xp.sqrt(sing.G(xp.copysign(au, x), xp))
-    return sing.position + xp.copysign(au, x), au ** (0.5 * sing.power) / sG, q / sG
-
-
-def point(model: Model, N, phi, isk, pi, chi) -> BackgroundPoint:
-    """Assemble a :class:`BackgroundPoint` from the state (ε2 = 2π′/π from the RHS)."""
-    kern = kernel(model)
-    V, dV = kern.V(phi, np), kern.dV(phi, np)
-    eps1 = 0.5 * pi * pi
-    with np.errstate(divide="ignore", invalid="ignore"):
-        eps2 = -2.0 * (3.0 - eps1) * (1.0 + dV * isk / (V * pi))
-    return BackgroundPoint(N=N, phi=phi, chi=chi, dchi_dN=pi,
-                           H=np.sqrt(V / (3.0 - eps1)), eps1=eps1, eps2=eps2)
-
-
-def charts(model: Model) -> tuple[Chart, ...]:
-    """The charts of a model: one per singular point, split at the midpoints."""
-    xs = [s.position for s in kernel(model).singular]
-    if not xs:
-        return (Chart(-1, -math.inf, math.inf),)
-    mids = [0.5 * (a + b) for a, b in zip(xs, xs[1:])]
-    edges = [-math.inf] + mids + [math.inf]
-    return tuple(Chart(i, edges[i], edges[i + 1]) for i in range(len(xs)))
-
-
-def chart_of(model: Model, phi: float) -> Chart:
-    """The chart containing φ."""
-    return next(c for c in charts(model) if c.lo <= phi < c.hi)
-
-
-def to_chart(model: Model, chart: Chart, phi: float) -> float:
-    """Chart coordinate of φ (used at the start and at chart boundaries only)."""
-    if chart.pole < 0:
-        return phi
-    sing = kernel(model).singular[chart.pole]
-    u = phi - sing.position
-    return math.copysign(abs(u) ** sing.q, u)
 
 
 def solve_background(model: Model, *, phi_start: float | None = None,
                      velocity_start: float | None = None, N_start: float = 0.0,
                      n_max: float = 300.0, rtol: float = 1e-10, min_efolds: float = 0.0,
                      efolds_auto: float = 75.0, allow_no_end: bool = False,
-                     max_restarts: int = 64, max_rhs_calls: int = 200_000) -> Background:
+                     max_restarts: int = 64, max_rhs_calls: int = 200_000,
+                     eps1_floor: float = EPS1_FLOOR) -> Background:
     """Solve the exact background of ``model`` (V0 = 1).
 
     Parameters
@@ -248,13 +63,15 @@ def solve_background(model: Model, *, phi_start: float | None = None,
         inflation); N_end is then nan.
     max_restarts, max_rhs_calls : int
         Guards against chattering and stalled steps (invalid beyond them).
+    eps1_floor : float
+        Invalid (ill-conditioned) if ε1 falls below it at any step (:data:`EPS1_FLOOR`).
 
     Returns
     -------
     Background
         ``valid=False`` with a ``reason`` for: a pole with power ≥ 2, the field stopping
         (π = 0) before a pole, no end within ``n_max``, fewer than ``min_efolds``,
-        non-finite values, integrator failure or exhausted guards.
+        non-finite values, integrator failure, exhausted guards, or ε1 below ``eps1_floor``.
 
     Raises
     ------
@@ -264,7 +81,7 @@ def solve_background(model: Model, *, phi_start: float | None = None,
     return _run(model, phi_start=phi_start, velocity_start=velocity_start, N_start=N_start,
                n_max=n_max, rtol=rtol, min_efolds=min_efolds, efolds_auto=efolds_auto,
                allow_no_end=allow_no_end, max_restarts=max_restarts,
-               max_rhs_calls=max_rhs_calls)
+               max_rhs_calls=max_rhs_calls, eps1_floor=eps1_floor)
 
 
 # ----- the automatic start -----
@@ -314,6 +131,7 @@ def _chi_at(model: Model, phi: float) -> float:
 #: displacement that matters unless the field creeps with pi < ~1e-20 (eps1 < 1e-40, the
 #: ill-conditioned regime, inflation.md §5.5).  Results vary by < 1e-8 e-folds for 1e-18..1e-22.
 _ATOL_S = 1e-22
+
 
 
 class _Exhausted(Exception):
@@ -400,7 +218,7 @@ def _neighbour(model: Model, chart: Chart, name: str) -> Chart:
 
 
 def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_efolds,
-         efolds_auto, allow_no_end, max_restarts, max_rhs_calls) -> Background:
+         efolds_auto, allow_no_end, max_restarts, max_rhs_calls, eps1_floor) -> Background:
     kern = kernel(model)
     for s in kern.singular:
         if s.power >= 2.0:
@@ -453,7 +271,34 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
     if not why and math.isfinite(end) and end - N_start < min_efolds:
         why = (f"too few e-folds: inflation lasts {end - N_start:.4g} < {min_efolds:g} "
                f"required (start higher up the potential)")
+    why = _conditioning(nodes, eps1_floor, why)
     return _assemble(model, segs, nodes, N_start, end, why, cross)
+
+
+def _conditioning(nodes, floor: float, why: str) -> str:
+    """Reason for an ill-conditioned solution (min ε1 over the steps below ``floor``).
+
+    Only the steps after ε1 first exceeds √floor count: ε1 must *fall* below the floor
+    (a start at rest, π = 0, passes through tiny ε1 while accelerating and is well posed).
+
+    It replaces a reason found later in the same run (a stop on the pole, no end, too few
+    e-folds): those outcomes depend on the tolerance once ε1 is below the floor.
+    """
+    if not nodes or why.startswith(("non-finite", "more than")):
+        return why
+    pi = np.abs(np.concatenate([y[1] for _, _, y in nodes]))
+    if why.startswith("the field stops"):
+        pi = pi[:-1]  # the stop event itself has π = 0
+    above = np.flatnonzero(pi > math.sqrt(2.0 * math.sqrt(floor)))  # ε1 > √floor
+    if not above.size:
+        return why
+    pi_min = float(np.min(pi[above[0]:]))
+    eps1_min = 0.5 * pi_min * pi_min
+    if eps1_min >= floor:
+        return why
+    return (f"ill-conditioned: eps1 falls to {eps1_min:.2g} < {floor:g} (the field creeps "
+            f"through ultra-slow roll; e-folds depend on the tolerance and P_zeta is deep in "
+            f"the stochastic regime)" + (f"; then: {why}" if why else ""))
 
 
 def _stop_reason(model: Model, chart: Chart, N: float, y, moving: float) -> str:
@@ -483,38 +328,4 @@ def _assemble(model, segs, nodes, N_start, N_end, why, cross) -> Background:
                     crossings=(), model=model, segments=tuple(segs), **cat)
     if not cross:
         return bg
-    return replace(bg, crossings=tuple(_crossing(bg, i, Nc) for i, Nc in cross))
-
-
-# ----- pole reports -----
-def _edge(f, nodes: np.ndarray, values: np.ndarray, k: int, step: int) -> float:
-    """Where f (negative at node k) first turns non-negative, stepping through the nodes
-    by ``step`` (±1); the bracket from the node values is refined with brentq."""
-    j = k
-    while 0 <= j + step < nodes.size and values[j + step] < 0.0:
-        j += step
-    if not 0 <= j + step < nodes.size:
-        return float(nodes[j])
-    a, b = sorted((nodes[j], nodes[j + step]))
-    return brentq(f, a, b, xtol=1e-10)
-
-
-def _crossing(bg: Background, index: int, N_c: float) -> PoleCrossing:
-    """The USR window (ε2 < −3) and the near-pole window (|φ − φᵢ| < wᵢ) at a crossing."""
-    sing = kernel(bg.model).singular[index]
-    k = int(np.argmin(abs(bg.N - N_c)))
-
-    def usr(N: float) -> float:
-        return float(bg.evaluate(N).eps2[0]) + 3.0
-
-    def near(N: float) -> float:
-        return abs(float(bg.evaluate(N).phi[0]) - sing.position) - sing.width
-
-    windows = []
-    for f, vals, ok in ((usr, bg.eps2 + 3.0, usr(N_c) < 0.0),
-                        (near, abs(bg.phi - sing.position) - sing.width, sing.width > 0.0)):
-        vals = vals.copy()
-        vals[k] = -1.0
-        a, b = (_edge(f, bg.N, vals, k, -1), _edge(f, bg.N, vals, k, 1)) if ok else (N_c, N_c)
-        windows += [a, b, b - a]
-    return PoleCrossing(index, sing.position, N_c, *windows)
+    return replace(bg, crossings=tuple(crossing_report(bg, i, Nc) for i, Nc in cross))
