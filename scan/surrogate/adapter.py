@@ -73,7 +73,7 @@ def solve_point(config, values: Sequence[float], keys: Sequence[str] | None = No
         keys = [p.key for p in getattr(config, "parameters", ())]
     if x is None:
         x = shape_grid(config.surrogate.shape_span, config.surrogate.shape_points)
-    result = solve_config(configure(config, keys, values))
+    result = solve_config(configure(config, keys, values), with_observables=False)
     if not result.valid or result.spectrum is None:
         return invalid_record(values, result.reason, len(x))
     return record_from_spectrum(values, result.spectrum, x)
