@@ -16,7 +16,8 @@ any feature the table resolves is resolved by the quadrature.
 P_zeta is interpolated linearly in (ln k, ln P) and is zero outside its table.
 :func:`plan_sigw` precomputes, for a fixed input k-grid and output k, every node's
 kernel weight and its interpolation indices/fractions; :meth:`SIGWPlan.omega_gw` is then
-a sparse mat-vec, an exponential and a segmented sum.  Today:
+a sparse product on ln P, an exponential and a weighted segmented sum (a second sparse
+product), for one spectrum or a stack of m spectra on the same table at once.  Today:
 Omega_GW,0 h^2 = c_g(T_c) Omega_r,0 h^2 Omega_GW(eta_c, k) (:func:`scan.cosmo.gw_transfer_h2`).
 """
 from __future__ import annotations
@@ -172,22 +173,50 @@ class SIGWPlan:
     transfer_h2: np.ndarray
     n_nodes: int
     _interp: sparse.csr_matrix
-    _w: np.ndarray
-    _starts: np.ndarray
-    _nonempty: np.ndarray
+    _sum: sparse.csr_matrix
 
     def omega_gw(self, P_zeta) -> np.ndarray:
-        """Omega_GW(eta_c, k_out) [1] for the spectrum ``P_zeta`` [1] tabulated on k_in."""
-        lp = np.log(np.maximum(np.asarray(P_zeta, dtype=float), _TINY))
-        terms = self._w * np.exp(self._interp @ lp)
-        out = np.zeros(self.k_out.size)
-        if terms.size:
-            out[self._nonempty] = np.add.reduceat(terms, self._starts)
-        return out
+        """Omega_GW(eta_c, k_out) [1] for one or a stack of spectra tabulated on k_in.
+
+        Parameters
+        ----------
+        P_zeta : array_like [1]
+            Shape (n_k,) for one spectrum, or (m, n_k) for m spectra on the same
+            table ``k_in`` (evaluated together: two sparse products and one
+            exponential over all m).
+
+        Returns
+        -------
+        ndarray [1]
+            Shape (n_out,) for one spectrum, (m, n_out) for a stack.
+        """
+        lp = np.log(np.maximum(self._spectra(P_zeta), _TINY))
+        a = self._interp @ lp.T              # ln P(ku) + ln P(kv) per node: (n_nodes[, m])
+        np.exp(a, out=a)
+        return np.asarray(self._sum @ a).T   # sum_nodes w K P P per k_out: ([m, ]n_out)
 
     def omega_gw_h2(self, P_zeta) -> np.ndarray:
-        """Omega_GW,0 h^2 [1] today at f_out for ``P_zeta`` [1] on k_in."""
+        """Omega_GW,0 h^2 [1] today at f_out for one or a stack of spectra on k_in.
+
+        Parameters
+        ----------
+        P_zeta : array_like [1]
+            Shape (n_k,) or (m, n_k), as for :meth:`omega_gw`.
+
+        Returns
+        -------
+        ndarray [1]
+            Shape (n_out,) or (m, n_out).
+        """
         return self.transfer_h2 * self.omega_gw(P_zeta)
+
+    def _spectra(self, P_zeta) -> np.ndarray:
+        """``P_zeta`` as a float array of shape (n_k,) or (m, n_k), checked against k_in."""
+        P = np.asarray(P_zeta, dtype=float)
+        if P.ndim not in (1, 2) or P.shape[-1] != self.k_in.size:
+            raise ValueError(f"P_zeta must have shape ({self.k_in.size},) or "
+                             f"(m, {self.k_in.size}), got {P.shape}")
+        return P
 
 
 def _interpolation_matrix(iu_l, fu_l, iv_l, fv_l, n_in: int) -> sparse.csr_matrix:
@@ -249,15 +278,17 @@ def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
         w_l.append(wk[good])
         counts.append(int(good.sum()))
     counts = np.array(counts)
-    starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
-    nonempty = counts > 0
+    n_nodes = int(counts.sum())
+    # weighted segmented sum over each output k's nodes (row j holds k_out[j]'s weights)
+    summation = sparse.csr_matrix(
+        (np.concatenate(w_l), np.arange(n_nodes), np.concatenate([[0], np.cumsum(counts)])),
+        shape=(k_out.size, n_nodes))
     return SIGWPlan(
         k_in=k_in, k_out=k_out, f_out=cosmo.k_to_f(k_out),
         transfer_h2=np.asarray(cosmo.gw_transfer_h2(k_out, dof, n_eff)),
-        n_nodes=int(counts.sum()),
+        n_nodes=n_nodes,
         _interp=_interpolation_matrix(iu_l, fu_l, iv_l, fv_l, k_in.size),
-        _w=np.concatenate(w_l),
-        _starts=starts[nonempty], _nonempty=nonempty,
+        _sum=summation,
     )
 
 

@@ -111,3 +111,33 @@ def test_conventions_validated():
         PBHConventions(criterion="compaction", threshold=0.7)
     attrs = PBHConventions().as_attrs()
     assert attrs["window"] == "gaussian" and attrs["threshold"] == 0.5
+
+
+@pytest.mark.parametrize("mass_function", ["critical", "monochromatic"])
+@pytest.mark.parametrize("criterion, threshold", [
+    ("compaction", 0.5), ("press-schechter", 0.45), ("peaks", 0.45)])
+def test_batched_equals_loop(criterion, threshold, mass_function):
+    # a stack of spectra gives, row by row, the one-spectrum results (including rows
+    # with no PBHs at all and rows whose epochs are only partly above the underflow)
+    k_star = 1e12
+    k = np.geomspace(k_star / 30, k_star * 30, 200)
+    m_peak = float(cosmo.horizon_mass_msun(k_star))
+    M = np.geomspace(m_peak * 1e-6, m_peak * 1e3, 50)
+    conv = PBHConventions(criterion=criterion, threshold=threshold,
+                          mass_function=mass_function)
+    plan = plan_pbh(k, M, conv)
+    amps = np.array([0.0, 1e-4, 6e-3, 1e-2, 2e-2, 3e-2, 6e-2])
+    widths = np.array([0.3, 0.3, 0.2, 0.5, 0.3, 1.0, 0.1])
+    P = amps[:, None] * np.exp(-np.log(k / k_star)**2 / (2 * widths[:, None]**2))
+    res = plan.evaluate(P)
+    loop = [plan.evaluate(row) for row in P]
+    assert res.f_pbh.shape == (7, M.size) and res.f_pbh_total.shape == (7,)
+    assert res.sigma2.shape == (7, plan.M_H.size)
+    assert isinstance(loop[0].f_pbh_total, float) and loop[0].f_pbh_total == 0
+    assert loop[-1].f_pbh_total > 0
+    tot = np.array([r.f_pbh_total for r in loop])
+    assert res.f_pbh_total == pytest.approx(tot, rel=1e-12, abs=0)
+    assert res.f_pbh == pytest.approx(np.array([r.f_pbh for r in loop]), rel=1e-12, abs=0)
+    assert res.sigma2 == pytest.approx(np.array([r.sigma2 for r in loop]), rel=1e-12, abs=0)
+    with pytest.raises(ValueError, match="shape"):
+        plan.evaluate(P[:, 1:])

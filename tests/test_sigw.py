@@ -87,3 +87,24 @@ def test_today_and_warnings():
         sigw.check_spectrum(np.ones(50))
     with pytest.warns(sigw.ResolutionWarning):
         sigw.check_spectrum(np.r_[np.zeros(20), 1.0, np.zeros(20)])
+
+
+def test_batched_equals_loop():
+    # a stack of m spectra on one table gives, row by row, the one-spectrum results
+    k_in = np.geomspace(math.exp(-3.0), math.exp(3.0), 61)
+    plan = sigw.plan_sigw(k_in, np.geomspace(0.05, 50.0, 40))   # k_out > 2 k_max: no nodes
+    rng = np.random.default_rng(1)
+    widths, amps = rng.uniform(0.1, 1.5, 7), 10.0**rng.uniform(-4, -1, 7)
+    P = np.array([lognormal(k_in, d, a) for d, a in zip(widths, amps)])
+    P[2, 10:20] = 0.0                                            # zeros are floored as before
+    batched, batched_h2 = plan.omega_gw(P), plan.omega_gw_h2(P)
+    assert batched.shape == batched_h2.shape == (7, plan.k_out.size)
+    loop = np.array([plan.omega_gw(row) for row in P])
+    loop_h2 = np.array([plan.omega_gw_h2(row) for row in P])
+    assert np.all(loop[:, -1] == 0) and np.all(loop[:, 0] > 0)
+    assert batched == pytest.approx(loop, rel=1e-12, abs=0)
+    assert batched_h2 == pytest.approx(loop_h2, rel=1e-12, abs=0)
+    assert plan.omega_gw(P[:1]) == pytest.approx(loop[:1], rel=1e-12, abs=0)
+    assert plan.omega_gw(P[:0]).shape == (0, plan.k_out.size)
+    with pytest.raises(ValueError, match="shape"):
+        plan.omega_gw(P[:, :-1])

@@ -6,8 +6,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan import cosmo
-from scan.pbh.abundance import (abundance_coefficient, beta_monochromatic, beta_weighted,
-                                critical_kernel, density)
+from scan.pbh.abundance import (_relation, abundance_coefficient, beta_monochromatic,
+                                beta_weighted, critical_kernel, density)
 from scan.pbh.conventions import PBHConventions
 from scan.pbh.variance import variance_matrix
 
@@ -16,23 +16,28 @@ from scan.pbh.variance import variance_matrix
 class PBHResult:
     """f_PBH(M) per ln M with everything needed to reproduce it.
 
+    For a stack of m spectra (see :meth:`PBHPlan.evaluate`) the spectrum-dependent
+    attributes carry a leading axis of length m.
+
     Attributes
     ----------
     M : ndarray [M_sun]
+        Output masses, shape (n_M,).
     f_pbh : ndarray [1]
-        Fraction of dark matter per ln M.
-    f_pbh_total : float [1]
-        int f dln M over all masses (not only the output grid).
+        Fraction of dark matter per ln M, shape (n_M,) or (m, n_M).
+    f_pbh_total : float or ndarray [1]
+        int f dln M over all masses (not only the output grid): a float for one
+        spectrum, shape (m,) for a stack.
     M_H : ndarray [M_sun]
-        Horizon masses of the formation epochs.
+        Horizon masses of the formation epochs, shape (n_H,).
     sigma2 : ndarray [1]
-        Smoothed variance at each M_H.
+        Smoothed variance at each M_H, shape (n_H,) or (m, n_H).
     conventions : PBHConventions
     """
 
     M: np.ndarray
     f_pbh: np.ndarray
-    f_pbh_total: float
+    f_pbh_total: float | np.ndarray
     M_H: np.ndarray
     sigma2: np.ndarray
     conventions: PBHConventions
@@ -40,7 +45,11 @@ class PBHResult:
 
 @dataclass(frozen=True)
 class PBHPlan:
-    """The P_zeta-independent parts of f_PBH(M) (see :func:`plan_pbh`)."""
+    """The P_zeta-independent parts of f_PBH(M) (see :func:`plan_pbh`).
+
+    Every method takes one spectrum, shape (n_k,), or a stack of m spectra on the same
+    table, shape (m, n_k), and then returns arrays with a leading axis of length m.
+    """
 
     k_in: np.ndarray
     M: np.ndarray
@@ -54,38 +63,140 @@ class PBHPlan:
     _weight: np.ndarray | None
 
     def sigma2(self, P_zeta) -> tuple[np.ndarray, np.ndarray]:
-        """sigma^2 [1] and <k^2> R^2 [1] at every formation horizon mass."""
+        """sigma^2 [1] and <k^2> R^2 [1] at every formation horizon mass.
+
+        Parameters
+        ----------
+        P_zeta : array_like [1]
+            Shape (n_k,) or (m, n_k) on ``k_in``.
+
+        Returns
+        -------
+        sigma2, kR2 : ndarray [1]
+            Each of shape (n_H,) or (m, n_H).
+        """
         P = np.asarray(P_zeta, dtype=float)
-        s0 = self._v0 @ P
-        kR2 = (self._v1 @ P) / np.where(s0 > 0, s0, 1.0) if self._v1.size else np.ones_like(s0)
+        if P.ndim not in (1, 2) or P.shape[-1] != self.k_in.size:
+            raise ValueError(f"P_zeta must have shape ({self.k_in.size},) or "
+                             f"(m, {self.k_in.size}), got {P.shape}")
+        s0 = P @ self._v0.T
+        kR2 = (P @ self._v1.T) / np.where(s0 > 0, s0, 1.0) if self._v1.size \
+            else np.ones_like(s0)
         return s0, kR2
 
     def evaluate(self, P_zeta) -> PBHResult:
-        """f_PBH(M) per ln M [1] and the total for ``P_zeta`` [1] on ``k_in``."""
+        """f_PBH(M) per ln M [1] and the total for one or a stack of spectra on ``k_in``.
+
+        Parameters
+        ----------
+        P_zeta : array_like [1]
+            Shape (n_k,) for one spectrum or (m, n_k) for m spectra (evaluated together).
+
+        Returns
+        -------
+        PBHResult
+            ``f_pbh`` of shape (n_M,) or (m, n_M); ``f_pbh_total`` a float or shape (m,).
+        """
         s0, kR2 = self.sigma2(P_zeta)
         return self.from_variance(s0, kR2)
 
     def from_variance(self, sigma2, kR2=None) -> PBHResult:
-        """As :meth:`evaluate`, from sigma^2 (and <k^2>R^2 for peaks) at ``M_H``."""
+        """As :meth:`evaluate`, from sigma^2 (and <k^2>R^2 for peaks) at ``M_H``.
+
+        Parameters
+        ----------
+        sigma2 : array_like [1]
+            Shape (n_H,) or (m, n_H).
+        kR2 : array_like [1], optional
+            <k^2> R^2, same shape (default 1; used by ``peaks`` only).
+
+        Returns
+        -------
+        PBHResult
+        """
         conv = self.conventions
         s0 = np.maximum(np.asarray(sigma2, dtype=float), 1e-300)
-        kR2 = np.ones_like(s0) if kR2 is None else np.asarray(kR2, dtype=float)
+        kR2 = np.ones_like(s0) if kR2 is None else np.broadcast_to(
+            np.asarray(kR2, dtype=float), s0.shape)
         if conv.mass_function == "monochromatic":
             f_h = self._coef * beta_monochromatic(s0, kR2, conv)   # per ln M = per ln M_H
             f = _log_interp(self.M, conv.gamma * self.M_H, f_h)
-            total = float(np.sum(self._wln * f_h))
+            total = np.sum(self._wln * f_h, axis=-1)
         else:
-            p = density(self._y, s0[None, :], kR2[None, :], conv)
-            f = (self._weight * p) @ (self._wln * self._coef)
-            total = float(np.sum(self._wln * self._coef * beta_weighted(s0, kR2, conv)))
+            live = _live_epochs(s0, kR2, conv)
+            f = self._critical_mass_function(s0, kR2, live | ~np.isfinite(self._weight).all(0))
+            beta = np.zeros(s0.shape)
+            beta[live] = beta_weighted(s0[live], kR2[live], conv)
+            total = np.sum(self._wln * self._coef * beta, axis=-1)
+        total = float(total) if s0.ndim == 1 else total
         return PBHResult(self.M, f, total, self.M_H, s0, conv)
+
+    def _critical_mass_function(self, s0: np.ndarray, kR2: np.ndarray,
+                                live: np.ndarray) -> np.ndarray:
+        """f(M) = sum_H weight(M, M_H) p(y(M, M_H)) w_H F(M_H) over the ``live`` epochs.
+
+        Parameters
+        ----------
+        s0, kR2 : ndarray [1]
+            sigma^2 and <k^2> R^2, shape (n_H,) or (m, n_H).
+        live : ndarray of bool
+            Same shape: the (spectrum, epoch) pairs to sum (the others contribute 0).
+
+        Returns
+        -------
+        ndarray [1]
+            Shape (n_M,) or (m, n_M).
+        """
+        s2, k2, lv = np.atleast_2d(s0), np.atleast_2d(kR2), np.atleast_2d(live)
+        i, h = np.nonzero(lv)                                  # grouped by spectrum i
+        p = density(self._y.T[h], s2[i, h][:, None], k2[i, h][:, None], self.conventions)
+        terms = self._weight.T[h] * p * (self._wln * self._coef)[h][:, None]
+        counts = np.bincount(i, minlength=s2.shape[0])
+        f = np.zeros((s2.shape[0], self.M.size))
+        if i.size:
+            starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
+            f[counts > 0] = np.add.reduceat(terms, starts[counts > 0], axis=0)
+        return f if s0.ndim > 1 else f[0]
+
+
+def _live_epochs(sigma2: np.ndarray, kR2: np.ndarray, conv: PBHConventions) -> np.ndarray:
+    """Where the density of the Gaussian variable can be non-zero for some y >= y_th.
+
+    Every critical-collapse node (the mass function's and :func:`beta_weighted`'s) has
+    y >= y_th > 0, and every density carries the factor exp(-nu^2/2), nu = y/sigma;
+    where nu_th^2/2 >= 760 that factor is exactly 0 in double precision (exp
+    underflows to 0 below -745.2), so the epoch contributes exactly 0 and need not be
+    evaluated.  NaN or infinite inputs stay live so that they propagate as before.
+
+    Parameters
+    ----------
+    sigma2, kR2 : ndarray [1]
+        sigma^2 (> 0) and <k^2> R^2 per epoch (any equal shapes).
+    conv : PBHConventions
+
+    Returns
+    -------
+    ndarray of bool
+    """
+    y_th, _ = _relation(conv)
+    nu = y_th / np.sqrt(sigma2)
+    return ~(0.5 * nu * nu >= 760.0) | ~np.isfinite(kR2)
 
 
 def _log_interp(x, xp, fp):
-    """Interpolate fp (>= 0) in ln x, ln fp; zero outside xp."""
+    """Interpolate fp (>= 0, last axis along xp) in ln x, ln fp; zero outside xp.
+
+    Linear interpolation as :func:`numpy.interp` (same formula), for every row of ``fp``.
+    """
     order = np.argsort(xp)
-    xp, fp = np.log(xp[order]), fp[order]
-    lf = np.interp(np.log(x), xp, np.log(np.maximum(fp, 1e-300)), left=-np.inf, right=-np.inf)
+    lxp = np.log(xp[order])
+    lfp = np.log(np.maximum(np.asarray(fp)[..., order], 1e-300))
+    lx = np.log(x)
+    j = np.clip(np.searchsorted(lxp, lx, side="right") - 1, 0, lxp.size - 2)
+    slope = (lfp[..., j + 1] - lfp[..., j]) / (lxp[j + 1] - lxp[j])
+    lf = slope * (lx - lxp[j]) + lfp[..., j]
+    lf = np.where(lx == lxp[-1], lfp[..., -1:], lf)
+    lf = np.where((lx < lxp[0]) | (lx > lxp[-1]), -np.inf, lf)
     out = np.exp(lf)
     return np.where(out > 1e-290, out, 0.0)
 

@@ -50,22 +50,42 @@ class PeakObservables:
         self.pbh = plan_pbh(k, masses)
 
     def omega_peak(self, ln_k_peak: np.ndarray, log10_p: np.ndarray) -> np.ndarray:
-        """log10 of the maximum of Ω_GW,0 h² over frequency, per point."""
-        out = np.empty(len(ln_k_peak))
+        """log10 of the maximum of Ω_GW,0 h² over frequency, per point.
+
+        Parameters
+        ----------
+        ln_k_peak : ndarray, shape (p,)
+            ln k_peak [ln(Mpc^-1)] of each point.
+        log10_p : ndarray, shape (p, n_x)
+            log10 P_zeta on the shape grid ``x``.
+
+        Returns
+        -------
+        ndarray, shape (p,)
+        """
+        ln_k_peak = np.asarray(ln_k_peak, float)
         transfer = np.asarray(self._transfer(np.exp(ln_k_peak[:, None] + self.x_out[None, :])))
-        for i, row in enumerate(log10_p):
-            omega = transfer[i] * self.sigw.omega_gw(10.0 ** row)
-            out[i] = np.log10(max(float(omega.max()), _FLOOR))
-        return out
+        omega = transfer * self.sigw.omega_gw(10.0 ** np.asarray(log10_p, float))
+        return np.log10(np.maximum(omega.max(axis=1), _FLOOR))
 
     def fpbh_total(self, ln_k_peak: np.ndarray, log10_p: np.ndarray) -> np.ndarray:
-        """log10 of the total f_PBH per point."""
-        out = np.empty(len(ln_k_peak))
-        for i, (lnkp, row) in enumerate(zip(ln_k_peak, log10_p)):
-            log_p = np.interp(self.lnk_table, lnkp + self.x, row, left=-np.inf, right=-np.inf)
-            total = self.pbh.evaluate(10.0 ** log_p).f_pbh_total
-            out[i] = np.log10(max(float(total), _FLOOR))
-        return out
+        """log10 of the total f_PBH per point.
+
+        Parameters
+        ----------
+        ln_k_peak : ndarray, shape (p,)
+            ln k_peak [ln(Mpc^-1)] of each point.
+        log10_p : ndarray, shape (p, n_x)
+            log10 P_zeta on the shape grid ``x``.
+
+        Returns
+        -------
+        ndarray, shape (p,)
+        """
+        log_p = _interp_shifted(self.lnk_table, np.asarray(ln_k_peak, float), self.x,
+                                np.asarray(log10_p, float))
+        total = self.pbh.evaluate(10.0 ** log_p).f_pbh_total
+        return np.log10(np.maximum(total, _FLOOR))
 
     def __call__(self, ln_k_peak, log10_P_peak, shape, x) -> dict[str, np.ndarray]:
         """Both observables for p points (``x`` must be the grid given at construction)."""
@@ -75,6 +95,41 @@ class PeakObservables:
         log10_p = np.asarray(log10_P_peak, float)[:, None] + np.asarray(shape, float)
         return {"log10_omega_gw_h2_peak": self.omega_peak(ln_k_peak, log10_p),
                 "log10_fpbh_total": self.fpbh_total(ln_k_peak, log10_p)}
+
+
+def _interp_shifted(x: np.ndarray, shift: np.ndarray, grid: np.ndarray,
+                    fp: np.ndarray) -> np.ndarray:
+    """``np.interp(x, shift[i] + grid, fp[i], left=-inf, right=-inf)`` for all rows at once.
+
+    Parameters
+    ----------
+    x : ndarray, shape (n,)
+        Where to interpolate.
+    shift : ndarray, shape (p,)
+        Offset of each row's abscissae.
+    grid : ndarray, shape (n_x,)
+        Increasing abscissae common to all rows (before the shift).
+    fp : ndarray, shape (p, n_x)
+        Finite ordinates, one row per point.
+
+    Returns
+    -------
+    ndarray, shape (p, n)
+        The formula of :func:`numpy.interp` (slope of the bracketing pair, exact at the
+        nodes) on the abscissae ``shift[i] + grid``; -inf outside each row's range.
+    """
+    xp = shift[:, None] + grid[None, :]
+    rows = np.arange(xp.shape[0])[:, None]
+    top = grid.size - 2
+    # bracket: xp[i, j] <= x < xp[i, j + 1]; searchsorted on x - shift, then one exact
+    # correction step against xp itself (the two differ only by rounding)
+    j = np.clip(np.searchsorted(grid, x[None, :] - shift[:, None], side="right") - 1, 0, top)
+    j = np.where(xp[rows, j] > x, j - 1, j).clip(0, top)
+    j = np.where(xp[rows, j + 1] <= x, j + 1, j).clip(0, top)
+    x0, x1, f0, f1 = xp[rows, j], xp[rows, j + 1], fp[rows, j], fp[rows, j + 1]
+    out = np.where(x == x0, f0, (f1 - f0) / (x1 - x0) * (x - x0) + f0)
+    out = np.where(x == xp[:, -1:], fp[:, -1:], out)
+    return np.where((x < xp[:, :1]) | (x > xp[:, -1:]), -np.inf, out)
 
 
 def observables_for(config, space, ln_k_range: tuple[float, float] | None = None):
