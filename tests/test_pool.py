@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import math
 import os
-import shutil
 import subprocess
 import sys
 import textwrap
@@ -12,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from mpi_support import mpi_missing
 
 from scan.pool import PoolError, ProcessPool, SerialPool, VectorPool, choose_pool
 
@@ -74,15 +74,6 @@ def test_contradictory_options_are_refused():
     assert isinstance(choose_pool(1, False, vectorized=True), VectorPool)
 
 
-def mpi_available() -> str:
-    """Empty string if mpiexec and mpi4py are usable, else the reason to skip."""
-    if shutil.which("mpiexec") is None:
-        return "mpiexec not found (pip install 'zetascan[mpi]')"
-    try:
-        import mpi4py  # noqa: F401
-    except ImportError:
-        return "mpi4py not installed (pip install 'zetascan[mpi]')"
-    return ""
 
 
 MPI_SCRIPT = textwrap.dedent("""
@@ -100,7 +91,7 @@ MPI_SCRIPT = textwrap.dedent("""
 """)
 
 
-@pytest.mark.skipif(bool(mpi_available()), reason=mpi_available() or "MPI available")
+@pytest.mark.skipif(bool(mpi_missing()), reason=mpi_missing() or "MPI available")
 def test_mpi_pool_maps_and_propagates_errors(tmp_path):
     script = tmp_path / "mpi_job.py"
     script.write_text(MPI_SCRIPT)

@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import json
-import shutil
 import signal
 import subprocess
 import sys
@@ -12,6 +11,7 @@ from pathlib import Path
 import h5py
 import numpy as np
 import pytest
+from mpi_support import mpi_missing
 
 from scan.cli import main
 
@@ -149,17 +149,9 @@ def test_posterior_target_refuses_unknown_nuisance_in_one_line(tmp_path, capsys)
     assert len(err.strip().splitlines()) == 1
 
 
-def _mpi_missing() -> str:
-    if shutil.which("mpiexec") is None:
-        return "mpiexec not found (pip install 'zetascan[mpi]')"
-    try:
-        import mpi4py  # noqa: F401
-    except ImportError:
-        return "mpi4py not installed (pip install 'zetascan[mpi]')"
-    return ""
 
 
-@pytest.mark.skipif(bool(_mpi_missing()), reason=_mpi_missing() or "MPI available")
+@pytest.mark.skipif(bool(mpi_missing()), reason=mpi_missing() or "MPI available")
 def test_mpi_smoke_run_matches_serial(tmp_path):
     (tmp_path / "mpi").mkdir()
     (tmp_path / "serial").mkdir()
