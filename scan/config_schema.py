@@ -34,7 +34,13 @@ class PoleSection:
     """One ``[[model.poles]]`` entry: K gains (width/|phi - position|)^power."""
 
     position: float = spec("pole position phi_i", units="M_p")
-    width: float = spec("pole width w_i (> 0)", units="M_p", minimum=0.0, exclusive_minimum=True)
+    width: float | None = spec("pole width w_i (> 0); give either width or sharpness", None,
+                               units="M_p", minimum=0.0, exclusive_minimum=True)
+    sharpness: float | None = spec(
+        "instead of width: lambda_i = (1 - p_i/2) |V'/V|(phi_i) / w_i, the pole's dimensionless "
+        "sharpness (for p = 1 the canonical eta_V = V_chichi/V on either side of the pole; the "
+        "field stalls for lambda below ~3/4); fixes the width from the potential", None,
+        minimum=0.0, exclusive_minimum=True)
     power: float = spec("pole power p_i; 0 < p < 2 is integrable (p >= 2 gives an invalid "
                         "model: infinite field distance)", minimum=0.0, exclusive_minimum=True)
 
@@ -81,6 +87,11 @@ class ModelSection:
             raise ConfigError(source, f"{where}.kinetic_function",
                               "kinetic = 'plugin' needs kinetic_function",
                               "give 'package.module:function', e.g. \"mypackage.models:K\"")
+        for i, pole in enumerate(self.poles):
+            if (pole.width is None) == (pole.sharpness is None):
+                raise ConfigError(source, f"{where}.poles[{i}]",
+                                  "give exactly one of width and sharpness",
+                                  "set width (M_p) or sharpness (dimensionless), not both")
         for key in ("potential_function", "potential_derivative", "kinetic_function"):
             value = getattr(self, key)
             if value and (":" not in value or value.startswith(":") or value.endswith(":")):

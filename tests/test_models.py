@@ -170,3 +170,41 @@ def test_epsilon_V_monomial():
     """ε_V = n²/(2φ²) for V = φⁿ (textbook, Liddle & Lyth 2000)."""
     np.testing.assert_allclose(Model("monomial", exponent=2.0).epsilon_V(PHI), 2 / PHI**2,
                                rtol=1e-14)
+
+
+def test_sharpness_fixes_the_width_from_the_potential_slope():
+    # T-model alpha = 1: V'/V = 4/(sqrt(6) sinh(2 phi/sqrt(6))), from V = tanh^2(phi/sqrt 6)
+    # by hand; w = (1 - p/2)|V'/V|/lambda (definition of model.poles[].sharpness).
+    from scan.config import load_config_text
+
+    text = ('[model]\npotential = "t_model"\nkinetic = "poles"\n[[model.poles]]\n'
+            'position = 5.2\nsharpness = 0.9\npower = 1.2\n')
+    model = model_from_section(load_config_text(text, source="s.toml").model)
+    slope = 4.0 / (math.sqrt(6.0) * math.sinh(2.0 * 5.2 / math.sqrt(6.0)))
+    assert model.poles[0].width == pytest.approx((1.0 - 0.6) * slope / 0.9, rel=1e-13)
+
+
+def test_sharpness_is_the_canonical_eta_at_a_p1_pole():
+    # For p = 1 the canonical potential near the pole is V(phi_1)(1 + lambda sign(chi) chi^2/2)
+    # (derivation in scan.models.types.width_from_sharpness): check d^2 ln V / d chi^2
+    # numerically from chi(phi) on both sides.
+    from scan.models.types import width_from_sharpness
+
+    base = Model("t_model")
+    w = width_from_sharpness(base, 5.0, 1.0, 0.8)
+    model = Model("t_model", kinetic="poles", poles=(Pole(5.0, w, 1.0),))
+    for sign in (-1.0, 1.0):
+        u = sign * np.geomspace(1e-8, 1e-6, 5) * w   # corrections O(|u|/w) from the 1 in K
+        chi = model.canonical_field(5.0 + u, 5.0)
+        dv = model.dV(5.0 + 0.5 * u) * u / model.V(5.0)  # midpoint rule: no cancellation
+        eta = 2.0 * dv / (np.sign(chi) * chi ** 2)
+        assert eta == pytest.approx(0.8, rel=1e-5)
+
+
+def test_sharpness_and_width_together_are_refused():
+    from scan.config import load_config_text
+
+    text = ('[model]\npotential = "t_model"\nkinetic = "poles"\n[[model.poles]]\n'
+            'position = 5.2\nsharpness = 0.9\nwidth = 0.02\npower = 1.0\n')
+    with pytest.raises(ConfigError, match="exactly one of width and sharpness"):
+        load_config_text(text, source="s.toml")

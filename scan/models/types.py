@@ -199,10 +199,48 @@ def _validate(model: Model) -> None:
                           "merge them into one pole")
 
 
+def width_from_sharpness(model: Model, position: float, power: float,
+                         sharpness: float) -> float:
+    """Pole width w = (1 − p/2)|V'/V|(φᵢ)/λ for a pole of sharpness λ [M_p].
+
+    Near a pole K ≈ (w/|u|)^p, so the canonical distance χ = w^{p/2}|u|^{1−p/2}/(1 − p/2)
+    and the canonical slope is V_χ/V = (V'/V)(φᵢ) (|χ|/ℓ)^{p/(2−p)} with ℓ = w/(1 − p/2):
+    the background near the pole depends on w only through λ = |V'/V|(φᵢ)/ℓ (and p).  For
+    p = 1, V ≈ V(φᵢ)(1 + λ sign(χ) χ²/2): λ is η_V on either side, and the slow-roll
+    field stalls (overdamped, χ'' + 3χ' + 3λχ = 0) for λ < 3/4.
+
+    Raises
+    ------
+    ConfigError
+        If V'(φᵢ) = 0 or V(φᵢ) <= 0 (the sharpness does not fix a width there).
+    """
+    k = _kernel(model)
+    V, dV = float(k.V(position, math)), float(k.dV(position, math))
+    if not (V > 0 and math.isfinite(dV) and dV != 0):
+        raise ConfigError(_SOURCE, "poles[].sharpness",
+                          f"V'/V = {dV}/{V} at the pole position {position}: the sharpness "
+                          "does not fix a width there", "give the width instead")
+    return (1.0 - 0.5 * power) * abs(dV / V) / sharpness
+
+
 def model_from_section(section) -> Model:
-    """Build a :class:`Model` from a ``[model]`` config section (duck-typed)."""
-    poles = tuple(Pole(float(p.position), float(p.width), float(p.power))
-                  for p in getattr(section, "poles", ()))
+    """Build a :class:`Model` from a ``[model]`` config section (duck-typed).
+
+    A pole given by ``sharpness`` instead of ``width`` gets the width of
+    :func:`width_from_sharpness`.
+    """
+    base = Model(potential=section.potential, alpha=float(section.alpha),
+                 exponent=float(section.exponent), slope=float(section.slope),
+                 potential_function=section.potential_function,
+                 potential_derivative=section.potential_derivative)
+    poles = []
+    for p in getattr(section, "poles", ()):
+        width = getattr(p, "width", None)
+        if width is None:
+            width = width_from_sharpness(base, float(p.position), float(p.power),
+                                         float(p.sharpness))
+        poles.append(Pole(float(p.position), float(width), float(p.power)))
+    poles = tuple(poles)
     return Model(potential=section.potential, alpha=float(section.alpha),
                  exponent=float(section.exponent), slope=float(section.slope),
                  kinetic=section.kinetic, poles=poles,
