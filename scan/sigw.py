@@ -258,6 +258,40 @@ def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
             raise ValueError("give k_out [Mpc^-1] or f_out [Hz]")
         k_out = cosmo.f_to_k(f_out)
     k_out = np.atleast_1d(np.asarray(k_out, dtype=float))
+    iu_l, fu_l, iv_l, fv_l, w_l, counts = node_table(k_in, k_out, n_gl, grade)
+    n_nodes = int(counts.sum())
+    # weighted segmented sum over each output k's nodes (row j holds k_out[j]'s weights)
+    summation = sparse.csr_matrix(
+        (np.concatenate(w_l), np.arange(n_nodes), np.concatenate([[0], np.cumsum(counts)])),
+        shape=(k_out.size, n_nodes))
+    return SIGWPlan(
+        k_in=k_in, k_out=k_out, f_out=cosmo.k_to_f(k_out),
+        transfer_h2=np.asarray(cosmo.gw_transfer_h2(k_out, dof, n_eff)),
+        n_nodes=n_nodes,
+        _interp=_interpolation_matrix(iu_l, fu_l, iv_l, fv_l, k_in.size),
+        _sum=summation,
+    )
+
+
+def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 10):
+    """The quadrature nodes of every output k, located in the table ``k_in``.
+
+    Parameters
+    ----------
+    k_in : ndarray [Mpc^-1]
+        Strictly increasing table wavenumbers.
+    k_out : ndarray [Mpc^-1]
+    n_gl, grade : int
+        As :func:`plan_sigw`.
+
+    Returns
+    -------
+    iu, fu, iv, fv, w : list of ndarray (one entry per output k)
+        Lower table index and fraction (in ln k) of ku and kv, and the weight times
+        K(u, v), of every node inside the table.
+    counts : ndarray of int
+        Nodes per output k.
+    """
     lnk_in = np.log(k_in)
     h = float(np.median(np.diff(lnk_in)))
     parts, counts = [], []
@@ -277,19 +311,7 @@ def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
         iu_l.append(iu), fu_l.append(fu), iv_l.append(iv), fv_l.append(fv)
         w_l.append(wk[good])
         counts.append(int(good.sum()))
-    counts = np.array(counts)
-    n_nodes = int(counts.sum())
-    # weighted segmented sum over each output k's nodes (row j holds k_out[j]'s weights)
-    summation = sparse.csr_matrix(
-        (np.concatenate(w_l), np.arange(n_nodes), np.concatenate([[0], np.cumsum(counts)])),
-        shape=(k_out.size, n_nodes))
-    return SIGWPlan(
-        k_in=k_in, k_out=k_out, f_out=cosmo.k_to_f(k_out),
-        transfer_h2=np.asarray(cosmo.gw_transfer_h2(k_out, dof, n_eff)),
-        n_nodes=n_nodes,
-        _interp=_interpolation_matrix(iu_l, fu_l, iv_l, fv_l, k_in.size),
-        _sum=summation,
-    )
+    return iu_l, fu_l, iv_l, fv_l, w_l, np.array(counts, dtype=int)
 
 
 def check_spectrum(P_zeta, edge_tol: float = 1e-3, min_peak_points: int = 5) -> None:

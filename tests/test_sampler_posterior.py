@@ -175,7 +175,12 @@ def test_batch_equals_single_calls_and_pickling_keeps_results(trained):
         a, b = np.array(blob1[:-1]), np.array(blob[:-1])
         j = target.blob_dtype.names.index("f_pbh_total")  # exp(-C^2/sigma^2) amplifies
         a[j], b[j] = np.log(a[j]), np.log(b[j])             # rounding: compare its log
-        assert np.allclose(a, b, rtol=1e-10, atol=0.0, equal_nan=True)
+        # per-term ln L near a term's maximum is ~0: compare those absolutely
+        atol = np.array([1e-10 if n.startswith("lnL_") else 0.0
+                         for n in target.blob_dtype.names[:-1]])
+        bad = ~np.isclose(a, b, rtol=1e-10, atol=atol, equal_nan=True)
+        assert not bad.any(), [(n, x, y) for n, x, y, q in
+                               zip(target.blob_dtype.names, a, b, bad) if q]
     clone = pickle.loads(pickle.dumps(target))
     assert "_loaded" not in clone.__dict__  # the loaded data is not shipped to workers
     again = clone.batch(thetas)
@@ -203,7 +208,7 @@ def test_loglike_equals_total_loglike_on_independently_computed_observables(trai
             omega = omega_gw_h2(k, p, f_out)
         lnk = np.arange(lnkp + x[0] - 2.0, lnkp + x[-1] + 2.0, 0.02)
         p_fine = np.interp(lnk, lnkp + x, np.log10(p), left=-np.inf, right=-np.inf)
-        masses = target.loaded["pbh"].M
+        masses = target.loaded["plan"].pbh.M
         pbh = f_pbh(np.exp(lnk), 10.0 ** p_fine, masses, conventions_of(cfg))
         obs = ModelObservables(f_hz=f_out, omega_gw_h2=omega, m_msun=masses,
                                f_pbh_per_lnm=pbh.f_pbh, n_s=pred.n_s[i],

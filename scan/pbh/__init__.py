@@ -7,6 +7,7 @@ from scan.pbh.abundance import (abundance_coefficient, beta_monochromatic, beta_
                                 fpbh_prefactor)
 from scan.pbh.conventions import CRITERIA, MASS_FUNCTIONS, PBHConventions
 from scan.pbh.plan import PBHPlan, PBHResult, f_pbh, plan_pbh
+from scan.pbh.threshold_plan import ThresholdPlan, ThresholdResult, plan_pbh_thresholds
 from scan.pbh.thresholds import (compaction_linear, compaction_linear_threshold,
                                  compaction_nonlinear, delta_c_harada)
 from scan.pbh.variance import (WINDOWS, transfer_rd, variance, variance_delta,
@@ -15,7 +16,8 @@ from scan.pbh.variance import (WINDOWS, transfer_rd, variance, variance_delta,
 __all__ = [
     "abundance_coefficient", "beta_monochromatic", "beta_weighted", "fpbh_prefactor",
     "CRITERIA", "MASS_FUNCTIONS", "PBHConventions", "PBHPlan", "PBHResult", "f_pbh",
-    "plan_pbh", "compaction_linear", "compaction_linear_threshold", "compaction_nonlinear",
+    "plan_pbh", "ThresholdPlan", "ThresholdResult", "plan_pbh_thresholds",
+    "compaction_linear", "compaction_linear_threshold", "compaction_nonlinear",
     "delta_c_harada", "WINDOWS", "transfer_rd", "variance", "variance_delta",
     "variance_matrix", "window",
 ]

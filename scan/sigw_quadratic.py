@@ -1,0 +1,124 @@
+"""Omega_GW of many spectra on one short table as a quadratic form (for samplers).
+
+The induced-GW integral is quadratic in the spectrum.  If P_zeta between the nodes of a
+table is interpolated *linearly in P* (in ln k), the quadrature of :mod:`scan.sigw`
+collapses to
+
+    Omega_GW(eta_c, k_j) = sum_{a <= b} W_jab P_a P_b,
+
+with a fixed matrix W built once from the same nodes and kernel weights.  For m spectra
+that is one (m, n(n+1)/2) x (n(n+1)/2, n_out) matrix product — no exponential per node —
+which is what a sampler evaluating 64 walkers per call needs.
+
+Linear-in-P interpolation is less accurate than :mod:`scan.sigw`'s linear-in-ln P on a
+coarse table (at a node spacing h in ln k where P changes by a factor r, the mid-interval
+difference is (ln r)^2/8).  So the spectrum is first refined ``refine``-fold by
+log-linear interpolation (exactly :mod:`scan.sigw`'s interpolant) and the quadratic form
+acts on the refined table, cutting that difference by ``refine``^2.  The accuracy
+against :func:`scan.sigw.plan_sigw` on the same coarse table is tested
+(``tests/test_sigw_quadratic.py``) and stated in :func:`plan_quadratic`.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from scan.sigw import node_table
+
+
+@dataclass(frozen=True)
+class QuadraticPlan:
+    """Omega_GW(eta_c, k_out) = quadratic form of P on a refined table (see module doc).
+
+    Attributes
+    ----------
+    k_in : ndarray [Mpc^-1]
+        The table spectra are given on (n,).
+    k_out : ndarray [Mpc^-1]
+    refine : int
+        Refinement factor of the table before the quadratic form.
+    """
+
+    k_in: np.ndarray
+    k_out: np.ndarray
+    refine: int
+    _lift: np.ndarray        # (n_fine, n): ln P on k_in -> ln P on the refined table
+    _pairs: tuple[np.ndarray, np.ndarray]
+    _W: np.ndarray           # (n_pairs, n_out)
+
+    def omega_gw(self, P_zeta) -> np.ndarray:
+        """Omega_GW(eta_c, k_out) [1] for one (n,) or a stack (m, n) of spectra on k_in."""
+        P = np.asarray(P_zeta, dtype=float)
+        one = P.ndim == 1
+        P = np.atleast_2d(P)
+        if P.shape[-1] != self.k_in.size:
+            raise ValueError(f"P_zeta must have shape ({self.k_in.size},) or "
+                             f"(m, {self.k_in.size}), got {P.shape}")
+        fine = np.exp(np.log(np.maximum(P, 1e-300)) @ self._lift.T)  # 0 -> 1e-300
+        a, b = self._pairs
+        omega = (fine[:, a] * fine[:, b]) @ self._W
+        return omega[0] if one else omega
+
+
+def plan_quadratic(k_in, k_out, *, refine: int = 2, n_gl: int = 4,
+                   grade: int = 10) -> QuadraticPlan:
+    """Build the quadratic form of Omega_GW for spectra on ``k_in`` (log-spaced).
+
+    Parameters
+    ----------
+    k_in : array_like [Mpc^-1]
+        Strictly increasing, evenly log-spaced table (the emulator's shape grid).
+    k_out : array_like [Mpc^-1]
+        Output wavenumbers.
+    refine : int
+        The spectrum is refined this many times (log-linear) before the quadratic form.
+    n_gl, grade : int
+        Quadrature of :func:`scan.sigw.plan_sigw`.
+
+    Returns
+    -------
+    QuadraticPlan
+
+    Notes
+    -----
+    Measured against :func:`scan.sigw.plan_sigw` on the same 41-point table over
+    ln(k/k_peak) in [-3, 3] (log-normal peaks of width 0.3-1 and broken power laws
+    k^4 / k^-1.5..-5), with ``refine = 2``: see ``tests/test_sigw_quadratic.py``.
+    """
+    k_in = np.asarray(k_in, dtype=float)
+    k_out = np.atleast_1d(np.asarray(k_out, dtype=float))
+    refine = int(refine)
+    if refine < 1:
+        raise ValueError(f"refine must be >= 1, got {refine}")
+    lnk = np.log(k_in)
+    n = lnk.size
+    fine = np.interp(np.linspace(0, n - 1, (n - 1) * refine + 1), np.arange(n), lnk)
+    lift = _linear_lift(lnk, fine)
+    iu, fu, iv, fv, w, counts = node_table(np.exp(fine), k_out, n_gl, grade)
+    nf = fine.size
+    W = np.zeros((k_out.size, nf, nf))
+    for j in range(k_out.size):
+        if not counts[j]:
+            continue
+        for ia, wa, ib, wb in ((iu[j], 1 - fu[j], iv[j], 1 - fv[j]),
+                               (iu[j], 1 - fu[j], iv[j] + 1, fv[j]),
+                               (iu[j] + 1, fu[j], iv[j], 1 - fv[j]),
+                               (iu[j] + 1, fu[j], iv[j] + 1, fv[j])):
+            np.add.at(W[j], (ia, ib), w[j] * wa * wb)
+    a, b = np.triu_indices(nf)
+    sym = W[:, a, b] + np.where(a != b, W[:, b, a], 0.0)
+    used = np.any(sym != 0.0, axis=0)
+    return QuadraticPlan(k_in=k_in, k_out=k_out, refine=refine, _lift=lift,
+                         _pairs=(a[used], b[used]), _W=np.ascontiguousarray(sym[:, used].T))
+
+
+def _linear_lift(x: np.ndarray, x_fine: np.ndarray) -> np.ndarray:
+    """Matrix of linear interpolation from nodes ``x`` to ``x_fine`` (inside [x0, x-1])."""
+    i = np.clip(np.searchsorted(x, x_fine, side="right") - 1, 0, x.size - 2)
+    t = (x_fine - x[i]) / (x[i + 1] - x[i])
+    lift = np.zeros((x_fine.size, x.size))
+    rows = np.arange(x_fine.size)
+    lift[rows, i] = 1.0 - t
+    lift[rows, i + 1] += t
+    return lift
