@@ -359,6 +359,58 @@ class LikelihoodSection:
         "per-curve upper-limit methods ([[likelihood.methods]] tables)", default_factory=tuple)
 
 
+GRID_SPACINGS = ("auto", "linear", "log")
+
+
+@dataclass(frozen=True, kw_only=True)
+class GridSection:
+    """``[grid]``: the 2-D exclusion scan of ``zetascan grid`` (see ``scan.grid``)."""
+
+    x: str = spec("key of the [[parameters]] entry on the horizontal axis, e.g. "
+                  "\"model.poles[0].width\" (required by zetascan grid)", "")
+    y: str = spec("key of the [[parameters]] entry on the vertical axis (required by "
+                  "zetascan grid)", "")
+    x_points: int = spec("grid points along x", 20, minimum=2)
+    y_points: int = spec("grid points along y", 20, minimum=2)
+    x_spacing: str = spec("spacing of the x points: auto is log for a log_uniform prior, "
+                          "linear otherwise; log needs a positive range", "auto",
+                          choices=GRID_SPACINGS)
+    y_spacing: str = spec("spacing of the y points (as x_spacing)", "auto",
+                          choices=GRID_SPACINGS)
+    x_range: tuple[float, ...] = spec("[low, high] of the x axis (default: the prior's bounds; "
+                                      "with source = surrogate it must lie inside them)",
+                                      default_factory=tuple)
+    y_range: tuple[float, ...] = spec("[low, high] of the y axis (as x_range)",
+                                      default_factory=tuple)
+    source: str = spec("observables from the trained surrogate or from exact solves of "
+                       "every point (zetascan grid --exact)", "surrogate",
+                       choices=("surrogate", "exact"))
+    profile: bool = spec("maximise the total ln L over the other [[parameters]] at every "
+                         "point (bounded Powell search; surrogate source only) instead of "
+                         "fixing them at their start values", False)
+    profile_starts: int = spec("starts of the profile search per point: the fixed values, "
+                               "then scrambled Halton points of the free parameters", 3,
+                               minimum=1)
+    profile_evaluations: int = spec("most ln L evaluations per start of the profile search",
+                                    60, minimum=4)
+    progress_every_s: float = spec("interval of the progress lines when stderr is not a "
+                                   "terminal", 30.0, units="s", minimum=0.0,
+                                   exclusive_minimum=True)
+
+    def validate(self, where: str, source: str) -> None:
+        """Two different axes; each given range is [low, high] with low < high."""
+        if self.x and self.x == self.y:
+            raise ConfigError(source, f"{where}.y", f"x and y are both '{self.x}'",
+                              "choose two different [[parameters]] keys")
+        for axis in ("x", "y"):
+            rng = getattr(self, f"{axis}_range")
+            if rng and (len(rng) != 2 or not rng[0] < rng[1]):
+                raise ConfigError(source, f"{where}.{axis}_range",
+                                  f"needs [low, high] with low < high, got {list(rng)}",
+                                  "give two increasing numbers, or leave it out for the "
+                                  "prior's bounds")
+
+
 @dataclass(frozen=True, kw_only=True)
 class RunConfig:
     """A whole run configuration (see ``configs/README.md``)."""
@@ -378,6 +430,7 @@ class RunConfig:
     sampler: SamplerSection = spec("[sampler] table", default_factory=SamplerSection)
     likelihood: LikelihoodSection = spec("[likelihood] table",
                                          default_factory=LikelihoodSection)
+    grid: GridSection = spec("[grid] table", default_factory=GridSection)
     # Not part of the schema: where the config came from (set by load_config).
     source: str = dataclasses.field(default="<config>", compare=False)
     text: str = dataclasses.field(default="", compare=False, repr=False)

@@ -65,6 +65,13 @@ def format_summary(info: dict) -> str:
     if info["derived"]:
         lines.append("derived:")
         lines += [_row(k, q) for k, q in info["derived"].items()]
+    if info.get("binding"):
+        b = info["binding"]
+        top = [f"{name} {100 * share:.0f} %" for name, share in b["fractions"].items()
+               if share > 0]
+        lines.append("binding constraint (most negative ln L term, share of samples): "
+                     + (", ".join(top) if top else "none")
+                     + (f"; none binding {100 * b['none']:.0f} %" if b["none"] else ""))
     lines.append("evaluations by reason: " + ", ".join(
         f"{k} {v}" for k, v in info["invalid_reasons"].items()))
     return "\n".join(lines)

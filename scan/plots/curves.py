@@ -27,8 +27,19 @@ def legend_label(curve: Curve) -> str:
     return f"{curve.label} ({extra}{tag})" if extra or tag else curve.label
 
 
-def _draw(ax, curve: Curve, color: str) -> None:
-    x = curve.x * (M_SUN_G if curve.x_quantity == "mass" else 1.0)
+def draw_curve(ax, curve: Curve, color: str, *, mass_unit: str = "g") -> None:
+    """Draw one curve on ``ax`` by its kind (upper limits shaded above), labelled.
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+    curve : Curve
+    color : str
+    mass_unit : {"g", "M_sun"}
+        Unit of the x axis for mass curves.
+    """
+    to_axis = M_SUN_G if mass_unit == "g" else 1.0
+    x = curve.x * (to_axis if curve.x_quantity == "mass" else 1.0)
     label = legend_label(curve)
     if curve.kind == "upper_limit":
         ax.plot(x, curve.y, color=color, label=label)
@@ -65,7 +76,7 @@ def curves_figure(curves: Sequence[Curve]):
                        ncols=max(len(kinds), 1), squeeze=False)
     for ax, quantity in zip(axes[0], kinds):
         for i, curve in enumerate(c for c in curves if c.x_quantity == quantity):
-            _draw(ax, curve, PALETTE[i % len(PALETTE)])
+            draw_curve(ax, curve, PALETTE[i % len(PALETTE)])
         ax.set_xscale("log")
         ax.set_yscale("log")
         ax.set_xlabel(_AXES[quantity][0])

@@ -1,4 +1,4 @@
-"""Figure: the model a builder looks at first — V(φ), K(φ) near the poles, U(χ)."""
+"""Figure: the model a builder looks at first — V(φ) and K(φ), K near each pole, U(χ)."""
 from __future__ import annotations
 
 import numpy as np
@@ -7,7 +7,8 @@ from scan.plots.style import PAGE_WIDTH_IN, PALETTE, figure
 
 
 def model_figure(model, background):
-    """Two panels: V/V0 and K against φ over the solved range; U(χ)/V0 against χ.
+    """Panels: V/V0 and K against φ over the solved range; K near each pole against
+    (φ − φ_i)/w_i (when the model has poles); U(χ)/V0 against χ.
 
     Parameters
     ----------
@@ -20,11 +21,13 @@ def model_figure(model, background):
     -------
     matplotlib.figure.Figure
     """
-    fig, (ax_phi, ax_chi) = figure(width=PAGE_WIDTH_IN, aspect=0.32, ncols=2)
+    poles = tuple(getattr(model, "poles", ()))
+    fig, axes = figure(width=PAGE_WIDTH_IN, aspect=0.3, ncols=3 if poles else 2)
+    ax_phi, ax_chi = axes[0], axes[-1]
     phi_nodes = np.asarray(background.phi)
     lo, hi = float(np.min(phi_nodes)), float(np.max(phi_nodes))
     phi = np.linspace(lo, hi, 1500)
-    for pole in getattr(model, "poles", ()):  # resolve the poles' neighbourhoods
+    for pole in poles:  # resolve the poles' neighbourhoods
         if lo < pole.position < hi:
             offs = pole.width * np.geomspace(1e-4, 30.0, 300)
             phi = np.concatenate([phi, pole.position - offs, pole.position + offs])
@@ -32,14 +35,32 @@ def model_figure(model, background):
     ax_phi.plot(phi, model.V(phi), color=PALETTE[0], label=r"$V/V_0$")
     ax_phi.set_xlabel(r"$\phi\ [M_p]$")
     ax_phi.set_ylabel(r"$V(\phi)/V_0$")
-    if getattr(model, "poles", ()):
+    if poles:
         twin = ax_phi.twinx()
         twin.semilogy(phi, model.K(phi), color=PALETTE[1], lw=0.8, label=r"$K(\phi)$")
         twin.set_ylabel(r"$K(\phi)$", color=PALETTE[1])
-        for pole in model.poles:
+        for pole in poles:
             ax_phi.axvline(pole.position, color=PALETTE[7], lw=0.6, ls=":")
+        _pole_panel(axes[1], model, poles)
     _canonical_panel(ax_chi, model, background)
     return fig
+
+
+def _pole_panel(ax, model, poles) -> None:
+    """K(φ) against the distance |φ − φ_i|/w_i to each pole (log-log; the side φ < φ_i
+    dashed): K − 1 ∝ |φ − φ_i|^(−p) inside the width, K → 1 outside."""
+    u = np.geomspace(1e-3, 30.0, 300)
+    for i, pole in enumerate(poles):
+        color = PALETTE[(i + 1) % len(PALETTE)]
+        ax.loglog(u, model.K(pole.position + u * pole.width), color=color,
+                  label=rf"$\phi_{i} = {pole.position:.4g}$, $w_{i} = {pole.width:.3g}$ "
+                        rf"[$M_p$], $p_{i} = {pole.power:g}$")
+        left = model.K(pole.position - u * pole.width)
+        if not np.allclose(left, model.K(pole.position + u * pole.width), rtol=1e-2):
+            ax.loglog(u, left, color=color, ls="--", lw=0.8)  # other poles or V break symmetry
+    ax.set_xlabel(r"$|\phi - \phi_i|/w_i$ (dashed: $\phi < \phi_i$ where different)")
+    ax.set_ylabel(r"$K(\phi)$ near the poles")
+    ax.legend(loc="upper right", handlelength=1.2)
 
 
 def _canonical_panel(ax, model, background) -> None:

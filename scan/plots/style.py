@@ -5,6 +5,7 @@ The palette is our own choice of eight hues spaced for deuteranopia/protanopia s
 """
 from __future__ import annotations
 
+import textwrap
 from pathlib import Path
 
 import matplotlib
@@ -44,7 +45,10 @@ _RC = {
     "legend.frameon": False,
     "savefig.bbox": "tight",
     "savefig.pad_inches": 0.02,
-    "mathtext.fontset": "cm",
+    # STIX text and STIX math: one Times-like face for labels, ticks and formulas (LaTeX
+    # look) with full Unicode coverage for labels taken from curve metadata.
+    "font.family": ["STIXGeneral", "DejaVu Serif"],
+    "mathtext.fontset": "stix",
     "axes.prop_cycle": matplotlib.cycler(color=list(PALETTE)),
 }
 
@@ -55,6 +59,30 @@ def figure(width: float = COLUMN_WIDTH_IN, aspect: float = 0.75, **subplot_kw):
     fig, ax = plt.subplots(figsize=(width, width * aspect), **subplot_kw)
     fig.set_layout_engine("constrained")
     return fig, ax
+
+
+#: Height of one legend row below the axes [in] (legend.fontsize 6.5 pt, 1.3 line spacing).
+LEGEND_ROW_IN: float = 0.125
+
+
+def legend_below(fig, handles=None, ncols: int = 1, wrap: int = 72) -> None:
+    """A legend under the axes; the figure grows by its rows so the axes keep their size.
+
+    Labels longer than ``wrap`` characters (without mathtext) are wrapped onto more lines.
+    """
+    if handles is None:
+        handles, labels = fig.axes[0].get_legend_handles_labels()
+    else:
+        labels = [h.get_label() for h in handles]
+    if not handles:
+        return
+    labels = [textwrap.fill(t, wrap, subsequent_indent="  ") if "$" not in t else t
+              for t in labels]
+    lines = sum(t.count("\n") + 1 for t in labels)
+    rows = -(-lines // ncols)
+    width, height = fig.get_size_inches()
+    fig.set_size_inches(width, height + rows * LEGEND_ROW_IN + 0.1)
+    fig.legend(handles, labels, loc="outside lower center", ncols=ncols)
 
 
 def style_context():

@@ -11,6 +11,13 @@ from scan.config_schema import RunConfig
 RESUMABLE_KEYS: frozenset[str] = frozenset({
     "sampler.max_steps", "sampler.check_every", "sampler.progress_every_s",
     "sampler.write_every"})
+#: Sections the chain never reads (the exclusion grid's own settings).
+RESUMABLE_SECTIONS: tuple[str, ...] = ("grid.",)
+
+
+def resumable(key: str) -> bool:
+    """True if a change of ``key`` does not prevent resuming a chain."""
+    return key in RESUMABLE_KEYS or key.startswith(RESUMABLE_SECTIONS)
 
 
 def flatten(value: Any, prefix: str = "") -> dict[str, Any]:

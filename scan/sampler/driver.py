@@ -31,7 +31,7 @@ from scan.pool import BasePool
 from scan.priors import PriorSet
 from scan.sampler import runfile
 from scan.sampler.convergence import Policy, assess, burn_in, estimate_tau, thinning
-from scan.sampler.diff import RESUMABLE_KEYS, config_diff, format_diff, stored_config
+from scan.sampler.diff import config_diff, format_diff, resumable, stored_config
 from scan.sampler.evaluate import Evaluator
 from scan.sampler.targets import TargetBase, build_target
 
@@ -107,7 +107,7 @@ def _check_resumable(plan: RunPlan, stored: runfile.Stored) -> bool:
     if new_hash == stored.config_sha256:
         return False
     old = stored_config(stored.config_text, stored.overrides, stored.run_name)
-    rows = [row for row in config_diff(old, plan.config) if row[0] not in RESUMABLE_KEYS]
+    rows = [row for row in config_diff(old, plan.config) if not resumable(row[0])]
     if rows:
         raise ConfigMismatchError(
             f"{plan.path}: this run was started with a different config: "

@@ -10,7 +10,8 @@ For every walker ``theta = (model parameters, nuisance parameters)``:
    classifier calls invalid (or with non-finite emulated values) ``invalid_model``, a
    peak beyond the planned ln k range ``peak_outside_table``;
 3. Omega_GW,0 h^2(f) and d f_PBH / d ln M of all walkers at once on shared grids
-   (:mod:`scan.sampler.batch`), with the ``[observables]`` conventions;
+   (:mod:`scan.sampler.batch`), with the ``[observables]`` conventions (the collapse
+   threshold per walker when ``pbh.threshold`` is a nuisance parameter);
 4. ln L = the sum of the ``[likelihood]`` terms, each evaluated once for all walkers
    with the nuisance parameters (``A_smbhb``) as arrays; a model a bound rules out
    (ln L = -inf) is ``excluded``.  Every term's ln L is stored as blob ``lnL_<name>``
@@ -32,8 +33,9 @@ import numpy as np
 from scan.config_schema import RunConfig
 from scan.priors import PriorSet
 from scan.sampler.batch import BatchObservables, batch_observables, plan_batch
-from scan.sampler.posterior_setup import (NUISANCE_NAMES, UNSUPPORTED_NUISANCE, build_terms,
-                                          curve_paths_of, posterior_target)
+from scan.sampler.posterior_setup import (NUISANCE_NAMES, THRESHOLD, UNSUPPORTED_NUISANCE,
+                                          build_terms, curve_paths_of, posterior_target,
+                                          threshold_range)
 from scan.sampler.targets import TargetBase
 
 __all__ = ["PosteriorTarget", "Observables", "posterior_target", "build_terms",
@@ -164,9 +166,18 @@ class PosteriorTarget(TargetBase):
         terms = build_terms(self.config, self.curve_paths)
         o = self.config.observables
         dof = gstar.load_table(o.gstar_table) if o.gstar_table else None
-        plan = plan_batch(surrogate.emulator.basis.x, _peak_range(surrogate),
-                          conventions_of(self.config), n_out=self.n_out, n_mass=self.n_mass,
-                          dof=dof, n_eff=o.n_eff)
+        conventions = conventions_of(self.config)
+        span = threshold_range(self.priors)
+        pbh_plan = None
+        if span is not None:
+            from scan.pbh import plan_pbh_thresholds
+
+            def pbh_plan(k_table, masses):
+                return plan_pbh_thresholds(k_table, masses, conventions, span, dof=dof,
+                                           n_eff=o.n_eff)
+        plan = plan_batch(surrogate.emulator.basis.x, _peak_range(surrogate), conventions,
+                          n_out=self.n_out, n_mass=self.n_mass, dof=dof, n_eff=o.n_eff,
+                          pbh_plan=pbh_plan)
         by_name = {t.name: t for t in terms}
         self.__dict__["_loaded"] = dict(
             surrogate=surrogate, order=np.array([keys.index(k) for k in surrogate.space.keys]),
@@ -238,9 +249,12 @@ class PosteriorTarget(TargetBase):
         keep = ok & in_table
         if not keep.any():
             return reason, todo[:0], None
+        thresholds = None
+        if THRESHOLD in self.priors.names[self.priors.n_model:]:
+            thresholds = thetas[todo[keep], self.priors.names.index(THRESHOLD)]
         batch = batch_observables(data["plan"], pred.ln_k_peak[keep], pred.log10_P_peak[keep],
                                   pred.shape[keep], pred.n_s[keep], 10.0 ** pred.log10_r[keep],
-                                  pred.N_star[keep], self.config.pivot.ln_1e10_As)
+                                  pred.N_star[keep], self.config.pivot.ln_1e10_As, thresholds)
         return reason, todo[keep], batch
 
     def observables(self, thetas: np.ndarray) -> tuple[np.ndarray, list[Observables | None]]:
@@ -368,10 +382,16 @@ def _total(per_term: dict[str, np.ndarray], m: int) -> np.ndarray:
     return np.where(np.isneginf(stack).any(axis=0), -np.inf, total)
 
 
+#: Below this d f_PBH / d ln M everywhere, a row has no peak mass (NaN): values that
+#: small are rounding in the exponential tail (subnormal numbers), not an abundance.
+NEGLIGIBLE_FPBH = 1e-200
+
+
 def _mass_at_peak(m_msun: np.ndarray, f_per_lnm: np.ndarray) -> np.ndarray:
-    """Mass of the maximum of d f_PBH / d ln M per row (NaN where f = 0)."""
+    """Mass of the maximum of d f_PBH / d ln M per row (NaN where f is negligible)."""
     f = np.atleast_2d(f_per_lnm)
-    return np.where(np.any(f > 0, axis=1), np.asarray(m_msun)[np.argmax(f, axis=1)], np.nan)
+    return np.where(np.any(f > NEGLIGIBLE_FPBH, axis=1),
+                    np.asarray(m_msun)[np.argmax(f, axis=1)], np.nan)
 
 
 def _peak_range(surrogate) -> tuple[float, float]:

@@ -12,13 +12,16 @@ from scan.config_schema import RunConfig
 from scan.errors import ConfigError
 from scan.priors import PriorSet
 
+#: The nuisance name of the PBH collapse threshold.
+THRESHOLD = "pbh.threshold"
+
 #: Nuisance parameters the posterior understands (name -> what it is).
 NUISANCE_NAMES: dict[str, str] = {
-    "A_smbhb": "SMBH-binary foreground amplitude of the PTA excess terms"}
+    "A_smbhb": "SMBH-binary foreground amplitude of the PTA excess terms",
+    THRESHOLD: "PBH collapse threshold (C_th for the compaction criterion, delta_c for "
+               "the linear ones; replaces observables.threshold; needs low and high)"}
 #: Nuisance parameters that are planned but not yet supported.
-UNSUPPORTED_NUISANCE: dict[str, str] = {
-    "pbh.threshold": "not supported yet: the collapse threshold is fixed by "
-                     "observables.threshold"}
+UNSUPPORTED_NUISANCE: dict[str, str] = {}
 
 
 def curve_paths_of(config: RunConfig) -> tuple[str, ...]:
@@ -127,6 +130,7 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> "PosteriorTarget":
                               f"'{name}' is not a nuisance parameter of the likelihood",
                               "use one of: " + ", ".join(
                                   f"{k} ({v})" for k, v in NUISANCE_NAMES.items()))
+    check_threshold_prior(config, priors)
     paths = curve_paths_of(config)
     surrogate = config.likelihood.surrogate or str(surrogate_path(config))
     if not Path(surrogate).is_file():
@@ -140,3 +144,34 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> "PosteriorTarget":
                              term_names=tuple(t.name for t in terms))
     target.prepare()
     return target
+
+
+def threshold_range(priors: PriorSet) -> tuple[float, float] | None:
+    """(low, high) of the ``pbh.threshold`` nuisance prior, or None if not sampled."""
+    for prior in priors.priors[priors.n_model:]:
+        if prior.name == THRESHOLD:
+            return float(prior.low), float(prior.high)
+    return None
+
+
+def check_threshold_prior(config: RunConfig, priors: PriorSet) -> None:
+    """The threshold prior must be bounded inside the criterion's domain.
+
+    Raises
+    ------
+    ConfigError
+        Unbounded, or outside (0, 2/3) for the compaction criterion / (0, inf) otherwise.
+    """
+    span = threshold_range(priors)
+    if span is None:
+        return
+    i = list(priors.names[priors.n_model:]).index(THRESHOLD)
+    lo, hi = span
+    top = 2.0 / 3.0 if config.observables.criterion == "compaction" else float("inf")
+    if not (0.0 < lo <= hi < top):
+        raise ConfigError(config.source, f"nuisance[{i}]",
+                          f"the pbh.threshold prior spans [{lo:g}, {hi:g}], which is not "
+                          f"inside (0, {top:.4g}) for criterion = "
+                          f"'{config.observables.criterion}'",
+                          "give low and high inside that range (thresholds are "
+                          "window-specific: C_th ~ 0.5 for the Gaussian-window compaction)")

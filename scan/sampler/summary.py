@@ -13,6 +13,40 @@ QUANTILES: dict[str, float] = {"q02.5": 0.025, "q16": 0.16, "median": 0.5, "q84"
                                "q97.5": 0.975}
 
 
+#: Blob fields holding one likelihood term's ln L each (``lnL_<term name>``).
+TERM_PREFIX = "lnL_"
+
+
+def binding_counts(blobs: np.ndarray) -> dict[str, Any] | None:
+    """Which likelihood term binds (is most negative) how often among the samples.
+
+    Parameters
+    ----------
+    blobs : structured ndarray
+        Posterior samples' blobs with ``lnL_<term>`` fields.
+
+    Returns
+    -------
+    dict or None
+        ``{"fractions": {term: share of samples where it is the most negative term},
+        "none": share where every term is 0, "median_lnL": {term: median ln L}}``, terms
+        ordered by share; None without ``lnL_`` fields.
+    """
+    fields = [f for f in blobs.dtype.names if f.startswith(TERM_PREFIX)]
+    if not fields or not len(blobs):
+        return None
+    values = np.column_stack([blobs[f] for f in fields])
+    values = np.where(np.isfinite(values) | np.isneginf(values), values, 0.0)
+    worst = np.argmin(values, axis=1)
+    binds = values[np.arange(len(values)), worst] < 0.0
+    shares = {f[len(TERM_PREFIX):]: float(np.mean(binds & (worst == i)))
+              for i, f in enumerate(fields)}
+    ordered = dict(sorted(shares.items(), key=lambda kv: -kv[1]))
+    return {"fractions": ordered, "none": float(np.mean(~binds)),
+            "median_lnL": {f[len(TERM_PREFIX):]: float(np.median(values[:, i]))
+                           for i, f in enumerate(fields)}}
+
+
 def _quantiles(samples: np.ndarray) -> dict[str, float]:
     values = np.quantile(samples, list(QUANTILES.values()))
     return {key: float(v) for key, v in zip(QUANTILES, values)}
@@ -48,10 +82,12 @@ def summarize(path: str | Path) -> dict[str, Any]:
         for i, name in enumerate(extras.names):
             parameters[name] = _quantiles(post["samples"][:, i])
     derived = {}
+    binding = None
     if post["blobs"] is not None and len(post["blobs"]):
         for field in post["blobs"].dtype.names:
-            if field != "reason":
+            if field != "reason" and not field.startswith(TERM_PREFIX):
                 derived[field] = _quantiles(post["blobs"][field])
+        binding = binding_counts(post["blobs"])
     tau = None if extras.tau is None else [float(t) for t in extras.tau]
     walkers = int(data["chain"].shape[1]) if data["chain"].ndim == 3 else 0
     return {
@@ -62,7 +98,7 @@ def summarize(path: str | Path) -> dict[str, Any]:
         "n_over_tau": (steps / max(tau)) if tau else None,
         "burn_in": post["burn_in"], "thin": post["thin"],
         "samples_used": int(len(post["samples"])),
-        "parameters": parameters, "derived": derived,
+        "parameters": parameters, "derived": derived, "binding": binding,
         "invalid_reasons": {n: int(c) for n, c in zip(extras.reasons, extras.counts)},
         "tau_history": {"steps": extras.tau_steps,
                         "tau": [list(map(float, t)) for t in extras.tau_history]},

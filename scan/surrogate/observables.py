@@ -5,8 +5,9 @@ that grid (so compare like with like: validation feeds the exact hold-out spectr
 through the same grid).
 
 * Ω_GW: the radiation-era integral ∫∫ K(u, v) P(ku) P(kv) depends on k only through
-  P(ku), P(kv), so one :func:`scan.sigw.plan_sigw` on the table ``e^x`` (k_peak = 1)
-  serves every point exactly; the transfer to today is applied at the absolute
+  P(ku), P(kv), so one plan on the table ``e^x`` (k_peak = 1) serves every point: the
+  quadratic form of :mod:`scan.sigw_quadratic` (the sampler's, so the validation report
+  measures what the sampler sees); the transfer to today is applied at the absolute
   wavenumbers ``k_peak e^x_out``.
 * f_PBH: the abundance depends on the absolute horizon mass (g_*), so spectra are put
   on one absolute ln k table covering all peaks and one :func:`scan.pbh.plan_pbh` is
@@ -37,11 +38,11 @@ class PeakObservables:
     def __init__(self, x: np.ndarray, ln_k_range: tuple[float, float], n_out: int = 48) -> None:
         from scan import cosmo
         from scan.pbh import plan_pbh
-        from scan.sigw import plan_sigw
+        from scan.sigw_quadratic import plan_quadratic
 
         self.x = np.asarray(x, float)
         self.x_out = np.linspace(self.x[0], self.x[-1] + np.log(2.0), n_out)
-        self.sigw = plan_sigw(np.exp(self.x), k_out=np.exp(self.x_out))
+        self.sigw = plan_quadratic(np.exp(self.x), np.exp(self.x_out))
         self._transfer = cosmo.gw_transfer_h2
         lo, hi = ln_k_range
         self.lnk_table = np.arange(lo + self.x[0] - 1.0, hi + self.x[-1] + 1.0, LNK_STEP)

@@ -1,0 +1,113 @@
+"""``zetascan grid CONFIG``: a 2-D exclusion grid over two parameters, in one grid file."""
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+from collections.abc import Callable
+
+EXAMPLE = """examples:
+  zetascan grid configs/pole_scan.toml --set 'grid.x="model.poles[0].position"' \\
+      --set 'grid.y="model.poles[0].sharpness"'      # surrogate observables, serial
+  zetascan grid my_grid.toml --resume                # continue after an interruption
+  zetascan grid my_grid.toml --restart --set grid.x_points=40
+  zetascan grid my_grid.toml --exact --processes 2   # exact solves of every point
+  mpiexec -n 3 python -m mpi4py.futures -m scan grid my_grid.toml --exact --mpi
+
+The [grid] table names the two axes (x, y: [[parameters]] keys); the other parameters are
+fixed at their start values (or maximised over with profile = true). The grid file
+<run.output_dir>/<run.name>/grid.h5 is the run's state: --resume continues it (a changed
+config is refused with the list of changed keys), --restart overwrites it.
+
+exit codes: 0 complete, 2 bad input or config mismatch, 143 stopped by SIGTERM,
+  130 stopped by Ctrl-C (finished points are written; rerun with --resume), 1 internal error.
+"""
+
+
+def add_parser(subparsers) -> argparse.ArgumentParser:
+    """Register ``grid``."""
+    parser = subparsers.add_parser(
+        "grid", help="evaluate every constraint on a 2-D parameter grid (exclusion regions)",
+        description="Evaluate the [likelihood] constraints on the [grid] of two [[parameters]]: "
+                    "per point and constraint allowed / excluded / detectable (with the SNR), "
+                    "ln L, k_peak, P_peak, f_PBH and the GW peak, written to "
+                    "<output_dir>/<name>/grid.h5 as points finish.",
+        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("config", help="run configuration (TOML) with a [grid] table")
+    again = parser.add_mutually_exclusive_group()
+    again.add_argument("--resume", action="store_true",
+                       help="continue an existing grid file of the same config")
+    again.add_argument("--restart", action="store_true",
+                       help="overwrite an existing grid file")
+    where = parser.add_mutually_exclusive_group()
+    where.add_argument("--processes", type=int, default=None, metavar="N",
+                       help="worker processes (default: 1 for the surrogate, all cores for "
+                            "--exact)")
+    where.add_argument("--mpi", action="store_true",
+                       help="evaluate on the MPI ranks (run under mpiexec with "
+                            "python -m mpi4py.futures)")
+    parser.add_argument("--exact", action="store_true",
+                        help="exact solves of every point (same as --set grid.source=exact)")
+    parser.add_argument("--set", dest="overrides", metavar="KEY=VALUE", action="append",
+                        default=[], help="override a config key (repeatable)")
+    return parser
+
+
+def _progress(every_s: float) -> Callable[[int, int], None]:
+    """A tqdm bar on a terminal, plain periodic lines on stderr otherwise."""
+    state: dict = {"bar": None, "last": -float("inf"), "t0": time.monotonic(), "n0": None}
+
+    def update(done: int, total: int) -> None:
+        if sys.stderr.isatty():
+            from tqdm import tqdm
+
+            if state["bar"] is None:
+                state["bar"] = tqdm(total=total, initial=done, unit="point")
+            state["bar"].update(done - state["bar"].n)
+            if done >= total:
+                state["bar"].close()
+            return
+        now = time.monotonic()
+        if state["n0"] is None:
+            state.update(n0=done, t0=now)
+        if now - state["last"] >= every_s or done >= total:
+            rate = (done - state["n0"]) / max(now - state["t0"], 1e-9)
+            eta = f"{(total - done) / rate:.0f} s" if rate > 0 else "-"
+            print(f"grid: {done}/{total} points, {rate:.2f} points/s, ETA {eta}",
+                  file=sys.stderr, flush=True)
+            state["last"] = now
+
+    return update
+
+
+def run(args: argparse.Namespace) -> int:
+    """Run or resume the grid; print the summary; the exit code says how it ended."""
+    from scan.config import load_config
+    from scan.grid import install_worker, plan_grid_run, run_grid, summary_lines
+    from scan.grid import grid_path
+    from scan.grid.run import check_config, describe_plan
+    from scan.pool import choose_pool
+    from scan.sampler.stop import EXIT_CODES, graceful_stop
+
+    overrides = list(args.overrides) + (['grid.source="exact"'] if args.exact else [])
+    config = load_config(args.config, overrides=overrides)
+    if grid_path(config).exists() and not args.restart:
+        check_config(config, grid_path(config), args.resume)  # before loading anything
+    grid_run = plan_grid_run(config)
+    processes = args.processes
+    if processes is None and not args.mpi and grid_run.plan.source == "exact":
+        processes = os.cpu_count() or 1
+    pool = choose_pool(processes, args.mpi, initializer=install_worker,
+                       initargs=(grid_run.worker,))
+    print(describe_plan(grid_run), flush=True)
+    with graceful_stop() as flag, pool:
+        outcome = run_grid(grid_run, pool, resume=args.resume, restart=args.restart,
+                           should_stop=flag,
+                           progress=_progress(config.grid.progress_every_s))
+    print("\n".join(summary_lines(outcome.path)), flush=True)
+    if outcome.status == "stopped":
+        print(f"stopped after {outcome.done}/{outcome.total} points; everything finished is "
+              "written; run the same command with --resume to continue", flush=True)
+        return EXIT_CODES.get(getattr(flag, "signal_name", None) or "", 1)
+    return 0

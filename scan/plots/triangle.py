@@ -1,0 +1,58 @@
+"""Figure: the posterior triangle (corner), with its contour levels stated on the figure."""
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+
+from scan.plots.levels import CREDIBLE_MASS, LEVELS_TEXT, default_bins
+from scan.plots.style import COLUMN_WIDTH_IN, PAGE_WIDTH_IN, PALETTE, style_context
+
+#: Parameters up to which the triangle fits one journal column.
+COLUMN_DIM: int = 3
+
+
+def triangle_figure(samples: np.ndarray, labels: Sequence[str], *,
+                    levels: tuple[float, ...] = CREDIBLE_MASS, bins: int | None = None,
+                    smooth: float = 1.0, note: str = ""):
+    """Corner plot of ``samples`` (n, dim) with 2-D contours at mass fractions ``levels``.
+
+    Parameters
+    ----------
+    samples : ndarray, shape (n, dim)
+        Posterior samples (e.g. log10 of log-uniform parameters already taken).
+    labels : sequence of str
+        Axis labels (mathtext), with units.
+    levels : tuple of float
+        Fractions of the 2-D posterior mass enclosed by the contours (passed to corner as
+        ``levels``; corner's default would be sigma levels).
+    bins, smooth : int, float
+        Histogram bins (default :func:`scan.plots.levels.default_bins`) and Gaussian
+        smoothing [bins] of corner's histograms.
+    note : str
+        Extra caption text (e.g. the number of samples, burn-in and thinning).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import corner
+    import matplotlib.pyplot as plt
+
+    samples = np.asarray(samples, float)
+    dim = samples.shape[1]
+    bins = default_bins(len(samples)) if bins is None else bins
+    width = COLUMN_WIDTH_IN if dim <= COLUMN_DIM else PAGE_WIDTH_IN
+    with style_context():
+        fig, _ = plt.subplots(dim, dim, figsize=(width, width))
+        corner.corner(samples, fig=fig, labels=list(labels), levels=tuple(levels), bins=bins,
+                      smooth=smooth, color=PALETTE[0], plot_datapoints=False,
+                      fill_contours=True, quantiles=(0.16, 0.5, 0.84), show_titles=True,
+                      title_fmt=".3g", title_kwargs={"fontsize": 6.5},
+                      label_kwargs={"fontsize": 7.5}, max_n_ticks=3, labelpad=-0.04)
+        for ax in fig.axes:
+            ax.tick_params(labelsize=6.0)
+        lines = [LEVELS_TEXT, "1-D: 16, 50, 84 % quantiles"] + ([note] if note else [])
+        fig.text(0.97, 0.97, "\n".join(lines), ha="right", va="top", fontsize=6.5,
+                 linespacing=1.4)
+    return fig
