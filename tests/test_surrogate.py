@@ -169,3 +169,20 @@ def test_surrogate_file_round_trip_and_refusal(trained, tmp_path):
     assert np.allclose(a.log10_P_peak, c.log10_P_peak, rtol=0, atol=1e-9)
     with pytest.raises(InputFileError, match=r"model.poles\[0\].power"):
         read_surrogate(out, identity(config("model.poles[0].power=1.5"), SPACE))
+
+
+def test_a_spectrum_with_its_feature_at_cmb_scales_is_outside_the_surrogate():
+    """|n_s - 1| > 0.5 at the pivot: the stall sits at CMB scales (measured on the pole
+    scan: such models have n_s = 2.2-4.2; the CMB priors exclude them anyway)."""
+    from types import SimpleNamespace
+
+    from scan.surrogate.record import CMB_FEATURE_REASON, record_from_spectrum
+
+    k = np.geomspace(1e-3, 1e3, 50)
+    base = dict(k=k, P_zeta=np.exp(-np.log(k) ** 2), k_peak=1.0, P_peak=1.0, r=1e-3,
+                V0=1e-10, N_star=55.0, valid=True, reason="")
+    x = np.linspace(-1.0, 1.0, 5)
+    bad = record_from_spectrum(np.zeros(2), SimpleNamespace(**base, n_s=3.0), x)
+    good = record_from_spectrum(np.zeros(2), SimpleNamespace(**base, n_s=0.96), x)
+    assert not bad.valid and bad.reason == CMB_FEATURE_REASON
+    assert good.valid and good.n_s == 0.96

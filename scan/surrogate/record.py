@@ -69,6 +69,22 @@ class TrainingRecord:
                          self.N_star], float)
 
 
+#: A spectrum whose tilt at the CMB pivot is this far from 1 has its feature (the stall)
+#: at CMB scales: the pivot exits outside slow roll.  Such models are outside the
+#: surrogate's domain (treated as invalid; the CMB priors rule them out anyway).  Measured
+#: on the pole scan: every such model has |n_s - 1| > 1 and its peak within 7 e-folds of
+#: the pivot, every other one |n_s - 1| < 0.06.
+CMB_TILT_LIMIT = 0.5
+#: The reason given to those models.
+CMB_FEATURE_REASON = "feature at CMB scales: the pivot exits outside slow roll (|n_s - 1| > 0.5)"
+
+
+def cmb_feature(n_s: np.ndarray) -> np.ndarray:
+    """True where a (valid) spectrum's pivot tilt puts its feature at CMB scales."""
+    with np.errstate(invalid="ignore"):
+        return np.abs(np.asarray(n_s, float) - 1.0) > CMB_TILT_LIMIT
+
+
 def invalid_record(params: np.ndarray, reason: str, n_x: int) -> TrainingRecord:
     """A record of an invalid model (all targets nan)."""
     return TrainingRecord(np.asarray(params, float), False, reason or "invalid",
@@ -121,6 +137,8 @@ def record_from_spectrum(params: np.ndarray, spectrum, x: np.ndarray) -> Trainin
     k_peak, p_peak = float(spectrum.k_peak), float(spectrum.P_peak)
     if not (np.isfinite(k_peak) and np.isfinite(p_peak) and k_peak > 0 and p_peak > 0):
         return invalid_record(params, "no interior peak in P_zeta", len(x))
+    if cmb_feature(spectrum.n_s):
+        return invalid_record(params, CMB_FEATURE_REASON, len(x))
     return TrainingRecord(
         params=params, valid=True, reason="", ln_k_peak=float(np.log(k_peak)),
         log10_P_peak=float(np.log10(p_peak)),

@@ -18,7 +18,7 @@ from scan.surrogate.emulator import (Emulator, EmulatorSettings, TrainingSet, cl
                                      fit_emulator, loo_error_score)
 from scan.surrogate.gp import predictive_sd
 from scan.surrogate.identity import identity
-from scan.surrogate.record import TrainingRecord, shape_grid
+from scan.surrogate.record import SCALARS, TrainingRecord, cmb_feature, shape_grid
 from scan.surrogate.space import ParameterSpace
 from scan.surrogate.threads import single_blas_thread
 from scan.surrogate.store import (StoreWriter, check_identity, create_store, read_plan,
@@ -125,8 +125,9 @@ def training_set(path: Path, space: ParameterSpace, x: np.ndarray,
     keep = is_holdout if holdout else ~is_holdout
     if stages is not None:
         keep &= np.isin(stage[pts.index], stages)
-    return TrainingSet(u[pts.index[keep]], pts.valid[keep], pts.scalars[keep],
-                       pts.shape[keep], x)
+    # stores written before the CMB-scale rule: apply it to the stored tilt (column n_s)
+    valid = pts.valid[keep] & ~cmb_feature(pts.scalars[keep, SCALARS.index("n_s")])
+    return TrainingSet(u[pts.index[keep]], valid, pts.scalars[keep], pts.shape[keep], x)
 
 
 def propose_refinement(emulator: Emulator, data: TrainingSet, plan: TrainingPlan,
