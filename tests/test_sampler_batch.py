@@ -18,3 +18,16 @@ def test_row_shifted_interpolation_equals_numpy_interp_per_row():
         inside = np.isfinite(expected)
         np.testing.assert_allclose(row[inside], expected[inside], rtol=0, atol=1e-12)
         assert np.all(row[~inside] == -np.inf)
+
+
+def test_parabolic_peak_is_exact_for_a_parabola_and_falls_back_at_the_ends():
+    from scan.sampler.batch import parabolic_peak
+
+    x = np.linspace(-3.0, 3.0, 25)
+    centres = np.array([-0.37, 0.1, 1.234])
+    y = 2.0 - 3.0 * (x[None, :] - centres[:, None]) ** 2
+    xp, yp = parabolic_peak(x, y)
+    np.testing.assert_allclose(xp, centres, atol=1e-12)
+    np.testing.assert_allclose(yp, 2.0, atol=1e-12)
+    edge = parabolic_peak(x, x)               # increasing: the maximum is the last sample
+    assert edge == (x[-1], x[-1])

@@ -411,3 +411,21 @@ def test_bad_input_exits_2_with_one_line(chain, tmp_path, capsys):
     runfile.create(tmp_path / "g" / "chain.h5", cfg, extras, np.zeros((2, 1)))
     err = _one_line_error(capsys, ["verify", str(tmp_path / "g")])
     assert "sampler.target" in err and "posterior" in err
+
+
+def test_the_peak_mass_of_a_negligible_pbh_abundance_does_not_flag():
+    """f_PBH ~ 1e-120: where its (meaningless) peak mass lies is no bias (rule in
+    scan.sampler.verify: skipped below NEGLIGIBLE_FPBH); with f_PBH ~ 1e-3 it flags."""
+    from scan.sampler.verify import NEGLIGIBLE_FPBH, Thresholds, flags
+
+    def report(log10_f: float) -> dict:
+        pbh = {"scale": "log10", "shift": 0.0,
+               "unweighted": {"q16": log10_f - 1, "median": log10_f, "q84": log10_f + 1},
+               "reweighted": {"q16": log10_f - 1, "median": log10_f, "q84": log10_f + 1}}
+        mass = {"scale": "log10", "shift": -1.25}
+        return {"positive_weight": 12, "samples": 12, "ess_fraction": 0.99,
+                "parameters": {}, "derived": {"f_pbh_total": pbh, "M_pbh_peak": mass}}
+
+    assert NEGLIGIBLE_FPBH == 1e-30
+    assert flags(report(-120.0), Thresholds()) == []
+    assert len(flags(report(-3.0), Thresholds())) == 1

@@ -172,11 +172,10 @@ def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.n
     ln_omega = np.log(np.maximum(omega_rel, _FLOOR))
     shifted = interp_uniform_shifted(plan.lnk_gw, ln_k_peak, plan.x_out, ln_omega)
     omega = plan.transfer_gw * np.exp(shifted)                       # 0 outside the window
-    top = np.argmax(omega_rel, axis=1)
-    rows = np.arange(len(ln_k_peak))
-    ln_k_top = ln_k_peak + plan.x_out[top]
+    x_top, ln_top = parabolic_peak(plan.x_out, ln_omega)
+    ln_k_top = ln_k_peak + x_top
     # the transfer varies slowly (g_* steps): interpolated on the shared grid in ln k
-    omega_peak = omega_rel[rows, top] * np.interp(ln_k_top, plan.lnk_gw, plan.transfer_gw)
+    omega_peak = np.exp(ln_top) * np.interp(ln_k_top, plan.lnk_gw, plan.transfer_gw)
     from scan import cosmo
 
     log_p_table = interp_uniform_shifted(plan.lnk_table, ln_k_peak, plan.x, log10_p)
@@ -220,3 +219,39 @@ def interp_uniform_shifted(x: np.ndarray, shift: np.ndarray, grid: np.ndarray,
     f0 = np.take_along_axis(fp, j, axis=1)
     f1 = np.take_along_axis(fp, j + 1, axis=1)
     return np.where(inside, f0 + (f1 - f0) * frac, -np.inf)
+
+
+def parabolic_peak(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Position and height of each row's maximum, refined by a parabola through the
+    largest sample and its two neighbours (exact for a parabola; the sample itself at
+    an end of the grid).
+
+    Parameters
+    ----------
+    x : ndarray, shape (n,)
+        Increasing abscissae (e.g. ln f).
+    y : ndarray, shape (m, n) or (n,)
+        Ordinates (e.g. ln Omega).
+
+    Returns
+    -------
+    x_peak, y_peak : ndarray, shape (m,) (floats for one row)
+    """
+    y2 = np.atleast_2d(np.asarray(y, float))
+    rows = np.arange(y2.shape[0])
+    top = np.argmax(y2, axis=1)
+    inner = (top > 0) & (top < x.size - 1)
+    j = np.clip(top, 1, x.size - 2)
+    x0, x1, x2 = x[j - 1], x[j], x[j + 1]
+    y0, y1, yb = y2[rows, j - 1], y2[rows, j], y2[rows, j + 1]
+    d01, d12 = (y1 - y0) / (x1 - x0), (yb - y1) / (x2 - x1)
+    curv = (d12 - d01) / (x2 - x0)                      # half the second derivative
+    ok = inner & (curv < 0) & np.isfinite(curv)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        xv = 0.5 * (x0 + x1) - d01 / (2.0 * curv)
+        yv = y0 + d01 * (xv - x0) + curv * (xv - x0) * (xv - x1)
+    x_peak = np.where(ok, xv, x[top])
+    y_peak = np.where(ok, yv, y2[rows, top])
+    if np.ndim(y) == 1:
+        return float(x_peak[0]), float(y_peak[0])
+    return x_peak, y_peak

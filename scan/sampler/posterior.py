@@ -32,7 +32,7 @@ import numpy as np
 
 from scan.config_schema import RunConfig
 from scan.priors import PriorSet
-from scan.sampler.batch import BatchObservables, batch_observables, plan_batch
+from scan.sampler.batch import BatchObservables, batch_observables, parabolic_peak, plan_batch
 from scan.sampler.posterior_setup import (NUISANCE_NAMES, THRESHOLD, UNSUPPORTED_NUISANCE,
                                           build_terms, curve_paths_of, posterior_target,
                                           threshold_range)
@@ -326,10 +326,11 @@ class PosteriorTarget(TargetBase):
                 continue
             per_term = self._per_term(ob, self.nuisance_of(thetas[i]), 1)
             rows = np.array([i])
-            top = int(np.argmax(ob.omega_gw_h2))
+            ln_f, ln_omega = parabolic_peak(np.log(ob.f_hz),
+                                            np.log(np.maximum(ob.omega_gw_h2, 1e-300)))
             self._store(blobs, rows, per_term, ob.f_hz, np.atleast_2d(ob.omega_gw_h2), dict(
-                k_peak=ob.k_peak, P_peak=ob.P_peak, f_gw_peak=ob.f_hz[top],
-                omega_gw_h2_peak=ob.omega_gw_h2[top], f_pbh_total=ob.f_pbh_total,
+                k_peak=ob.k_peak, P_peak=ob.P_peak, f_gw_peak=math.exp(ln_f),
+                omega_gw_h2_peak=math.exp(ln_omega), f_pbh_total=ob.f_pbh_total,
                 M_pbh_peak=_mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
                 n_s=ob.n_s, r=ob.r, N_star=ob.N_star))
             self._finish(log_p, reason, rows, per_term, log_prior)

@@ -28,7 +28,8 @@ post-burn-in chain of a surrogate posterior run:
   none), or
 * for any parameter or derived quantity (not the log-likelihood fields), the reweighted
   median moves from the unweighted one by more than ``shift`` (default 0.5) times the
-  unweighted 68 % half-width ``(q84 - q16) / 2``, or
+  unweighted 68 % half-width ``(q84 - q16) / 2`` (f_PBH total and the peak mass are
+  skipped when f_PBH stays below :data:`NEGLIGIBLE_FPBH`: no PBHs, no PBH bias), or
 * no sample has a positive weight (then nothing can be reweighted).
 
 Reweighting is only trustworthy where the surrogate posterior covers the exact one; a
@@ -297,12 +298,34 @@ def flags(report: dict[str, Any], thresholds: Thresholds) -> list[str]:
         return out
     if report["ess_fraction"] < thresholds.ess_fraction:
         out.append(f"ESS/M = {report['ess_fraction']:.3f} < {thresholds.ess_fraction:g}")
+    negligible_pbh = _pbh_negligible(report)
     for group in ("parameters", "derived"):
         for name, row in report[group].items():
+            if group == "derived" and name in PBH_FIELDS and negligible_pbh:
+                continue
             if np.isfinite(row["shift"]) and abs(row["shift"]) > thresholds.shift:
                 out.append(f"reweighted median of {name} moved by {row['shift']:+.2f} x its "
                            f"68% half-width (limit {thresholds.shift:g})")
     return out
+
+
+#: Derived quantities that only mean something where PBHs are not negligible.
+PBH_FIELDS: tuple[str, ...] = ("f_pbh_total", "M_pbh_peak")
+#: A posterior whose f_PBH total stays below this (84 % quantile, both sides) makes no
+#: PBHs to speak of: 1e-30 is ~20 orders of magnitude below the tightest f_PBH limits, so
+#: where its (meaningless) peak mass falls is not a bias of the posterior.
+NEGLIGIBLE_FPBH = 1e-30
+
+
+def _pbh_negligible(report: dict[str, Any]) -> bool:
+    row = report["derived"].get("f_pbh_total")
+    if not row:
+        return False
+    tops = [side.get("q84") for side in (row.get("unweighted"), row.get("reweighted"))
+            if isinstance(side, dict)]
+    tops = [t for t in tops if t is not None and np.isfinite(t)]
+    limit = math.log10(NEGLIGIBLE_FPBH) if row.get("scale") == "log10" else NEGLIGIBLE_FPBH
+    return bool(tops) and max(tops) < limit
 
 
 def _counts(counts: dict[str, int]) -> str:
