@@ -429,3 +429,10 @@ def test_the_peak_mass_of_a_negligible_pbh_abundance_does_not_flag():
     assert NEGLIGIBLE_FPBH == 1e-30
     assert flags(report(-120.0), Thresholds()) == []
     assert len(flags(report(-3.0), Thresholds())) == 1
+    # an SNR of ~3e-9 (far below any threshold) moving is no bias; an SNR of ~8 is
+    faint = report(-120.0)
+    faint["derived"]["snr_x"] = {"scale": "log10", "shift": -2.4,
+                                 "unweighted": {"q84": -8.5}, "reweighted": {"q84": -8.4}}
+    assert flags(faint, Thresholds()) == []
+    faint["derived"]["snr_x"]["unweighted"]["q84"] = 0.9
+    assert len(flags(faint, Thresholds())) == 1

@@ -29,7 +29,8 @@ post-burn-in chain of a surrogate posterior run:
 * for any parameter or derived quantity (not the log-likelihood fields), the reweighted
   median moves from the unweighted one by more than ``shift`` (default 0.5) times the
   unweighted 68 % half-width ``(q84 - q16) / 2`` (f_PBH total and the peak mass are
-  skipped when f_PBH stays below :data:`NEGLIGIBLE_FPBH`: no PBHs, no PBH bias), or
+  skipped when f_PBH stays below :data:`NEGLIGIBLE_FPBH`, an SNR when it stays below
+  :data:`NEGLIGIBLE_SNR`: no PBHs or no detection, no bias), or
 * no sample has a positive weight (then nothing can be reweighted).
 
 Reweighting is only trustworthy where the surrogate posterior covers the exact one; a
@@ -303,6 +304,8 @@ def flags(report: dict[str, Any], thresholds: Thresholds) -> list[str]:
         for name, row in report[group].items():
             if group == "derived" and name in PBH_FIELDS and negligible_pbh:
                 continue
+            if group == "derived" and name.startswith("snr_") and _below(row, NEGLIGIBLE_SNR):
+                continue
             if np.isfinite(row["shift"]) and abs(row["shift"]) > thresholds.shift:
                 out.append(f"reweighted median of {name} moved by {row['shift']:+.2f} x its "
                            f"68% half-width (limit {thresholds.shift:g})")
@@ -317,14 +320,23 @@ PBH_FIELDS: tuple[str, ...] = ("f_pbh_total", "M_pbh_peak")
 NEGLIGIBLE_FPBH = 1e-30
 
 
+#: An SNR below this on both sides (84 % quantile) is no detection either way: where it
+#: moves is rounding in the far tail of the spectrum, not a bias (thresholds are ~10).
+NEGLIGIBLE_SNR = 0.01
+
+
 def _pbh_negligible(report: dict[str, Any]) -> bool:
     row = report["derived"].get("f_pbh_total")
-    if not row:
-        return False
+    return bool(row) and _below(row, NEGLIGIBLE_FPBH)
+
+
+def _below(row: dict[str, Any], limit: float) -> bool:
+    """True if the 84 % quantile of both sides is below ``limit`` (on the row's scale)."""
     tops = [side.get("q84") for side in (row.get("unweighted"), row.get("reweighted"))
             if isinstance(side, dict)]
     tops = [t for t in tops if t is not None and np.isfinite(t)]
-    limit = math.log10(NEGLIGIBLE_FPBH) if row.get("scale") == "log10" else NEGLIGIBLE_FPBH
+    if row.get("scale") == "log10":
+        limit = math.log10(limit)
     return bool(tops) and max(tops) < limit
 
 
