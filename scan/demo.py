@@ -53,11 +53,6 @@ class DemoPlan:
     band_samples: int
     quick: bool = False
 
-    @property
-    def run_dir(self) -> Path:
-        """``<out>``: every result file of the demo."""
-        return self.out
-
 
 def plan_demo(out: str | Path, quick: bool, processes: int | None = None) -> DemoPlan:
     """The demo's steps for an output folder.
@@ -119,10 +114,10 @@ def quick_config(out: Path) -> Path:
 def steps(plan: DemoPlan) -> list[tuple[str, list[str]]]:
     """The verbs the demo runs, as ``(title, argv)``."""
     sets = [arg for item in plan.overrides for arg in ("--set", item)]
-    cfg, run = str(plan.config), str(plan.run_dir)
+    cfg, run = str(plan.config), str(plan.out)
     procs = ["--processes", str(plan.processes)]
     solve = [("solve the config's model exactly (spectrum, model, Omega_GW, f_PBH figures)",
-              ["solve", cfg, "--out", str(plan.run_dir / "solve.h5"), *sets])]
+              ["solve", cfg, "--out", str(plan.out / "solve.h5"), *sets])]
     return (solve if not plan.quick else []) + [
         ("train the surrogate on exact solves", ["train", cfg, *procs, *sets]),
         ("sample the posterior (surrogate, vectorised)", ["sample", cfg, "--restart", *sets]),

@@ -124,3 +124,73 @@ def read_config_text(path: str | Path) -> str:
     except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
     return raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
+
+
+def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = None
+                       ) -> tuple[Any, h5py.File]:
+    """Become the one writer of an append-only HDF5 file: lock file, then SWMR mode.
+
+    Parameters
+    ----------
+    path : str or Path
+        An existing HDF5 file.
+    busy : str
+        The message when another process holds the lock (what is writing, what to do).
+    hdf5_locking : bool, optional
+        HDF5's own file locking (h5py's ``locking``; default: the library's).
+
+    Returns
+    -------
+    lock, handle
+        The open lock file (close it to release) and the file open "r+" in SWMR mode;
+        a file left flagged by a killed writer is first rewritten (:func:`recover_store`).
+
+    Raises
+    ------
+    InputFileError
+        Another writer holds the lock.
+    """
+    import fcntl
+
+    path = Path(path)
+    lock = open(path.with_name(path.name + ".lock"), "w")
+    try:
+        fcntl.flock(lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except BlockingIOError:
+        lock.close()
+        raise InputFileError(str(path), busy) from None
+    try:
+        try:
+            handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
+        except OSError as err:
+            if "h5clear" not in str(err):
+                raise
+            recover_store(path)
+            handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
+    except BaseException:
+        lock.close()
+        raise
+    handle.swmr_mode = True
+    return lock, handle
+
+
+def recover_store(path: str | Path) -> None:
+    """Rewrite a store left by a killed writer (read in SWMR mode) with clean flags.
+
+    Every object and attribute is copied (dataset layouts, fill values and contents as
+    the reader sees them); the copy replaces the original atomically.  Call it only
+    while holding the store's lock.
+    """
+    path = Path(path)
+    tmp = path.with_name(f".{path.name}.recover-{os.getpid()}")
+    try:
+        with h5py.File(path, "r", libver="latest", swmr=True) as src, \
+                h5py.File(tmp, "w", libver="latest") as dst:
+            for key, value in src.attrs.items():
+                dst.attrs[key] = value
+            for name in src:
+                src.copy(src[name], dst, name=name)
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()

@@ -173,8 +173,9 @@ def test_epsilon_V_monomial():
 
 
 def test_sharpness_fixes_the_width_from_the_potential_slope():
-    # T-model alpha = 1: V'/V = 4/(sqrt(6) sinh(2 phi/sqrt(6))), from V = tanh^2(phi/sqrt 6)
-    # by hand; w = (1 - p/2)|V'/V|/lambda (definition of model.poles[].sharpness).
+    # T-model alpha = 1, V = tanh^2(phi/sqrt 6) (Kallosh & Linde 2013, arXiv:1306.5220):
+    # V'/V = 4/(sqrt(6) sinh(2 phi/sqrt(6))) differentiated by hand;
+    # w = (1 - p/2)|V'/V|/lambda (definition of model.poles[].sharpness).
     from scan.config import load_config_text
 
     text = ('[model]\npotential = "t_model"\nkinetic = "poles"\n[[model.poles]]\n'

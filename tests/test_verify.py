@@ -235,7 +235,7 @@ def test_surrogate_as_its_own_exact_side_gives_zero_errors_and_full_ess(chain):
     assert set(r["errors"]) >= {"k_peak", "P_peak", "f_gw_peak", "omega_gw_h2_peak",
                                 "f_pbh_total", "M_pbh_peak", "n_s", "r", "N_star"}
     # log_and_blobs takes the GW peak on each walker's relative output grid, score() on
-    # the shared absolute grid (scan.sampler.batch): they differ by < one grid step
+    # the shared absolute grid (scan.surrogate.observables): they differ by < one grid step
     step_dex = (6.0 + math.log(2.0)) / 63 / math.log(10.0)  # x_out: 64 points, [-3, 3+ln2]
     assert r["errors"]["f_gw_peak"]["max"] <= step_dex * (1.0 + 1e-9)
     # its height: ln Omega interpolated linearly within one 0.11-e-fold step of the peak

@@ -21,11 +21,10 @@ only overwrites values in place.  A block's values are written and flushed befor
 ``done`` flags, so a killed run leaves every point either complete or not done; the file
 is written in SWMR mode (readable while it grows) and a lock file keeps out a second
 writer.  A writer killed mid-run leaves HDF5's "open for writing" flags set: the next
-writer copies the file into a clean one (:func:`scan.surrogate.store.recover_store`).
+writer copies the file into a clean one (:func:`scan.store.recover_store`).
 """
 from __future__ import annotations
 
-import fcntl
 import hashlib
 import os
 from pathlib import Path
@@ -39,7 +38,7 @@ from scan.grid.evaluate import DERIVED, REASONS, BlockResult
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import (NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative,
                                relative_status)
-from scan.store import provenance, write_attrs, write_config
+from scan.store import open_single_writer, provenance, write_attrs, write_config
 
 KIND = "zetascan grid"
 
@@ -144,27 +143,12 @@ class GridWriter:
     """
 
     def __init__(self, path: str | Path, infos: list[TermInfo]) -> None:
-        from scan.surrogate.store import recover_store
-
         self.path, self.infos = Path(path), list(infos)
-        self._lock = open(self.path.with_name(self.path.name + ".lock"), "w")
-        try:
-            fcntl.flock(self._lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
-        except BlockingIOError:
-            self._lock.close()
-            raise InputFileError(str(path), "another zetascan grid is writing this file; "
-                                 "wait for it or stop it first") from None
-        # HDF5's own file lock is off for the writer: the lock file above keeps writers
-        # out, and a reader that opened the file a moment earlier must not block it
-        try:
-            self.handle = h5py.File(self.path, "r+", libver="latest", locking=False)
-        except OSError as err:
-            if "h5clear" not in str(err):
-                self._lock.close()
-                raise
-            recover_store(self.path)
-            self.handle = h5py.File(self.path, "r+", libver="latest", locking=False)
-        self.handle.swmr_mode = True
+        # HDF5's own file lock is off for the writer: the lock file keeps writers out,
+        # and a reader that opened the file a moment earlier must not block it
+        self._lock, self.handle = open_single_writer(
+            self.path, "another zetascan grid is writing this file; wait for it or stop it "
+            "first", hdf5_locking=False)
         g = self.handle["grid"]
         self.nx = g["x"].shape[0]
         self.done, self.valid = g["done"][()], g["valid"][()]
@@ -179,10 +163,11 @@ class GridWriter:
         self.close()
 
     def close(self) -> None:
-        """Flush and close."""
+        """Flush and close (and release the writer's lock file)."""
         if self.handle.id.valid:
             self.handle.flush()
             self.handle.close()
+        self._lock.close()
         self._lock.close()
 
     @property

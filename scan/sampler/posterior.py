@@ -10,7 +10,7 @@ For every walker ``theta = (model parameters, nuisance parameters)``:
    classifier calls invalid (or with non-finite emulated values) ``invalid_model``, a
    peak beyond the planned ln k range ``peak_outside_table``;
 3. Omega_GW,0 h^2(f) and d f_PBH / d ln M of all walkers at once on shared grids
-   (:mod:`scan.sampler.batch`), with the ``[observables]`` conventions (the collapse
+   (:mod:`scan.surrogate.observables`), with the ``[observables]`` conventions (the collapse
    threshold per walker when ``pbh.threshold`` is a nuisance parameter);
 4. ln L = the sum of the ``[likelihood]`` terms, each evaluated once for all walkers
    with the nuisance parameters (``A_smbhb``) as arrays; a model a bound rules out
@@ -32,7 +32,8 @@ import numpy as np
 
 from scan.config_schema import RunConfig
 from scan.priors import PriorSet
-from scan.sampler.batch import BatchObservables, batch_observables, parabolic_peak, plan_batch
+from scan.surrogate.observables import (BatchObservables, batch_observables, parabolic_peak,
+                                       plan_batch)
 from scan.sampler.posterior_setup import (NUISANCE_NAMES, THRESHOLD, UNSUPPORTED_NUISANCE,
                                           build_terms, curve_paths_of, posterior_target,
                                           threshold_range)
@@ -290,12 +291,13 @@ class PosteriorTarget(TargetBase):
             nuisance = {name: thetas[rows, n + j]
                         for j, name in enumerate(self.priors.names[n:])}
             per_term = self._per_term(batch, nuisance, len(rows))
-            self._store(blobs, rows, per_term, batch.f_hz, batch.omega_gw_h2, dict(
+            total = _total(per_term, len(rows))
+            self._store(blobs, rows, per_term, total, batch.f_hz, batch.omega_gw_h2, dict(
                 k_peak=batch.k_peak, P_peak=batch.P_peak, f_gw_peak=batch.f_gw_peak,
                 omega_gw_h2_peak=batch.omega_gw_h2_peak, f_pbh_total=batch.f_pbh_total,
                 M_pbh_peak=_mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm),
                 n_s=batch.n_s, r=batch.r, N_star=batch.N_star))
-            self._finish(log_p, reason, rows, per_term, self.priors.log_prior(thetas))
+            self._finish(log_p, reason, rows, total, self.priors.log_prior(thetas))
         blobs["reason"] = reason
         return log_p, blobs
 
@@ -325,15 +327,16 @@ class PosteriorTarget(TargetBase):
             if ob is None:
                 continue
             per_term = self._per_term(ob, self.nuisance_of(thetas[i]), 1)
+            total = _total(per_term, 1)
             rows = np.array([i])
             ln_f, ln_omega = parabolic_peak(np.log(ob.f_hz),
                                             np.log(np.maximum(ob.omega_gw_h2, 1e-300)))
-            self._store(blobs, rows, per_term, ob.f_hz, np.atleast_2d(ob.omega_gw_h2), dict(
+            self._store(blobs, rows, per_term, total, ob.f_hz, np.atleast_2d(ob.omega_gw_h2), dict(
                 k_peak=ob.k_peak, P_peak=ob.P_peak, f_gw_peak=math.exp(ln_f),
                 omega_gw_h2_peak=math.exp(ln_omega), f_pbh_total=ob.f_pbh_total,
                 M_pbh_peak=_mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
                 n_s=ob.n_s, r=ob.r, N_star=ob.N_star))
-            self._finish(log_p, reason, rows, per_term, log_prior)
+            self._finish(log_p, reason, rows, total, log_prior)
         blobs["reason"] = reason
         return log_p, blobs
 
@@ -353,11 +356,10 @@ class PosteriorTarget(TargetBase):
             out[term.name] = np.broadcast_to(np.asarray(term(obs, nuisance), float), (m,))
         return out
 
-    def _store(self, blobs: np.ndarray, rows: np.ndarray, per_term: dict, f_hz: np.ndarray,
-               omega: np.ndarray, derived: dict) -> None:
+    def _store(self, blobs: np.ndarray, rows: np.ndarray, per_term: dict, total: np.ndarray,
+               f_hz: np.ndarray, omega: np.ndarray, derived: dict) -> None:
         for name, value in derived.items():
             blobs[name][rows] = value
-        total = _total(per_term, len(rows))
         blobs["log_like"][rows] = total
         for name, term in zip(self.snr_curves, self.loaded["snr"]):
             blobs[f"snr_{name}"][rows] = term.snr(f_hz, omega)
@@ -365,9 +367,8 @@ class PosteriorTarget(TargetBase):
             blobs[f"lnL_{name}"][rows] = value
 
     @staticmethod
-    def _finish(log_p: np.ndarray, reason: np.ndarray, rows: np.ndarray, per_term: dict,
+    def _finish(log_p: np.ndarray, reason: np.ndarray, rows: np.ndarray, total: np.ndarray,
                 log_prior: np.ndarray) -> None:
-        total = _total(per_term, len(rows))
         excluded = total == -np.inf
         reason[rows[excluded]] = R_EXCLUDED
         log_p[rows[~excluded]] = log_prior[rows[~excluded]] + total[~excluded]

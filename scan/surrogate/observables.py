@@ -1,106 +1,244 @@
-"""Ω_GW h² and f_PBH recomputed from emulated spectra (through :mod:`scan.sigw`, :mod:`scan.pbh`).
+"""Omega_GW h^2 and f_PBH of many emulated spectra at once, on grids shared by all of them.
 
-The emulated spectrum is log10 P on ``x = ln(k/k_peak)``; it is taken as zero outside
-that grid (so compare like with like: validation feeds the exact hold-out spectra
-through the same grid).
+Used by the posterior (every walker in one call) and by the surrogate's validation
+report (:class:`PeakObservables`), so both see the same numbers.  Each emulated
+spectrum is log10 P on ``x = ln(k/k_peak)`` around its own peak (0 outside it: compare
+like with like, the validation feeds the exact hold-out spectra through the same grid);
+everything is put on grids common to all spectra:
 
-* Ω_GW: the radiation-era integral ∫∫ K(u, v) P(ku) P(kv) depends on k only through
-  P(ku), P(kv), so one plan on the table ``e^x`` (k_peak = 1) serves every point: the
-  quadratic form of :mod:`scan.sigw_quadratic` (the sampler's, so the validation report
-  measures what the sampler sees); the transfer to today is applied at the absolute
-  wavenumbers ``k_peak e^x_out``.
-* f_PBH: the abundance depends on the absolute horizon mass (g_*), so spectra are put
-  on one absolute ln k table covering all peaks and one :func:`scan.pbh.plan_pbh` is
-  reused.
+* Omega_GW: the radiation-era integral depends on k only through P(ku) P(kv), so one
+  plan on the relative table ``e^x`` serves every walker (output at ``e^x_out``): the
+  quadratic form of :mod:`scan.sigw_quadratic` (one matrix product for all walkers;
+  within 2 % of :func:`scan.sigw.plan_sigw` at the peak, 6 % in the wings, ~10x faster).
+  ln Omega is then interpolated (linear in ln k, exact at the nodes) onto one absolute
+  ln k grid of the same spacing, and the transfer to today is applied there; outside a
+  walker's window Omega is 0 (below any curve).
+* f_PBH: the abundance depends on the absolute horizon mass (g_*), so log10 P is
+  interpolated onto one absolute ln k table and one :func:`scan.pbh.plan_pbh` evaluates
+  the stack (an optional per-walker threshold goes through a threshold plan).
+
+All functions are pure; :class:`BatchPlan` holds the precomputed plans.
 """
 from __future__ import annotations
 
+import dataclasses
+import math
+from typing import Any
+
 import numpy as np
 
-#: Table spacing of the absolute ln k grid for f_PBH [e-folds of k].
+from scan import cosmo
+
+#: Spacing of the absolute ln k table of the f_PBH plan [e-folds of k].
 LNK_STEP = 0.05
 _FLOOR = 1e-300
 
 
-class PeakObservables:
-    """``(ln_k_peak, log10_P_peak, shape, x) -> {log10_omega_peak, log10_fpbh_total}``.
+@dataclasses.dataclass(frozen=True, eq=False)
+class BatchObservables:
+    """Observables of m walkers on shared grids (what the likelihood terms read).
+
+    Attributes
+    ----------
+    f_hz : ndarray, shape (n_f,) [Hz]
+    omega_gw_h2 : ndarray, shape (m, n_f) [1]
+    m_msun : ndarray, shape (n_M,) [M_sun]
+    f_pbh_per_lnm : ndarray, shape (m, n_M) [1]
+    f_pbh_total : ndarray, shape (m,) [1]
+    n_s, r, N_star : ndarray, shape (m,)
+    ln_1e10_as : float
+    k_peak : ndarray, shape (m,) [Mpc^-1]
+    P_peak : ndarray, shape (m,) [1]
+    f_gw_peak, omega_gw_h2_peak : ndarray, shape (m,) [Hz], [1]
+        Maximum of Omega_GW,0 h^2 on the walker's own (relative) output grid.
+    """
+
+    f_hz: np.ndarray
+    omega_gw_h2: np.ndarray
+    m_msun: np.ndarray
+    f_pbh_per_lnm: np.ndarray
+    f_pbh_total: np.ndarray
+    n_s: np.ndarray
+    r: np.ndarray
+    N_star: np.ndarray
+    ln_1e10_as: float
+    k_peak: np.ndarray
+    P_peak: np.ndarray
+    f_gw_peak: np.ndarray
+    omega_gw_h2_peak: np.ndarray
+
+    def row(self, i: int) -> dict[str, Any]:
+        """Walker ``i``'s observables as a mapping the likelihood terms accept."""
+        out = {}
+        for fld in dataclasses.fields(self):
+            value = getattr(self, fld.name)
+            shared = fld.name in ("f_hz", "m_msun", "ln_1e10_as")
+            out[fld.name] = value if shared else value[i]
+        return out
+
+
+@dataclasses.dataclass(frozen=True, eq=False)
+class BatchPlan:
+    """Plans shared by every call (built once per process by :func:`plan_batch`)."""
+
+    x: np.ndarray
+    x_out: np.ndarray
+    sigw: Any
+    lnk_gw: np.ndarray
+    f_gw: np.ndarray
+    transfer_gw: np.ndarray
+    lnk_table: np.ndarray
+    pbh: Any
+    peak_range: tuple[float, float]
+
+
+def plan_batch(x: np.ndarray, peak_range: tuple[float, float], conventions, *,
+               n_out: int = 64, n_mass: int = 64, dof=None, n_eff: float | None = None,
+               pbh_plan=None) -> BatchPlan:
+    """Plan Omega_GW and f_PBH for spectra on ``x`` with ln k_peak in ``peak_range``.
 
     Parameters
     ----------
     x : ndarray
-        The shape grid ln(k/k_peak).
-    ln_k_range : (float, float)
-        Range of ln k_peak [ln(Mpc^-1)] the f_PBH table must cover.
+        Shape grid ln(k/k_peak) of the emulator.
+    peak_range : (float, float)
+        Range of ln k_peak [ln(Mpc^-1)] the absolute grids must cover.
+    conventions : PBHConventions
     n_out : int
-        Output wavenumbers of Ω_GW (over ``x[0] .. x[-1] + ln 2``).
+        Output wavenumbers of Omega_GW on the relative grid (``x[0] .. x[-1] + ln 2``).
+    n_mass : int
+        Masses of d f_PBH / d ln M.
+    dof, n_eff
+        g_*(T) table and N_eff (see :mod:`scan.cosmo`).
+    pbh_plan : callable, optional
+        ``pbh_plan(k_table, masses) -> plan`` with ``evaluate(P_stack[, thresholds])``
+        (default: :func:`scan.pbh.plan_pbh` with ``conventions``).
+
+    Returns
+    -------
+    BatchPlan
     """
+    from scan.pbh import plan_pbh
+    from scan.sigw_quadratic import plan_quadratic
 
-    def __init__(self, x: np.ndarray, ln_k_range: tuple[float, float], n_out: int = 48) -> None:
-        from scan import cosmo
-        from scan.pbh import plan_pbh
-        from scan.sigw_quadratic import plan_quadratic
+    n_eff = cosmo.N_EFF_DEFAULT if n_eff is None else n_eff
+    x = np.asarray(x, float)
+    x_out = np.linspace(x[0], x[-1] + math.log(2.0), n_out)
+    sigw = plan_quadratic(np.exp(x), np.exp(x_out))
+    lo, hi = peak_range
+    step = float(x_out[1] - x_out[0])
+    lnk_gw = np.arange(lo + x_out[0], hi + x_out[-1] + step, step)
+    lnk_table = np.arange(math.floor((lo + x[0]) / LNK_STEP) * LNK_STEP,
+                          hi + x[-1] + LNK_STEP, LNK_STEP)
+    k_table = np.exp(lnk_table)
+    m_hi = float(cosmo.horizon_mass_msun(k_table[0], dof, n_eff))
+    m_lo = float(cosmo.horizon_mass_msun(k_table[-1], dof, n_eff)) * 1e-3
+    masses = np.geomspace(m_lo, m_hi, n_mass)
+    if pbh_plan is None:
+        pbh = plan_pbh(k_table, masses, conventions, dof=dof, n_eff=n_eff)
+    else:
+        pbh = pbh_plan(k_table, masses)
 
-        self.x = np.asarray(x, float)
-        self.x_out = np.linspace(self.x[0], self.x[-1] + np.log(2.0), n_out)
-        self.sigw = plan_quadratic(np.exp(self.x), np.exp(self.x_out))
-        self._transfer = cosmo.gw_transfer_h2
-        lo, hi = ln_k_range
-        self.lnk_table = np.arange(lo + self.x[0] - 1.0, hi + self.x[-1] + 1.0, LNK_STEP)
-        k = np.exp(self.lnk_table)
-        masses = np.geomspace(cosmo.horizon_mass_msun(k[-1]), cosmo.horizon_mass_msun(k[0]), 32)
-        self.pbh = plan_pbh(k, masses)
-
-    def omega_peak(self, ln_k_peak: np.ndarray, log10_p: np.ndarray) -> np.ndarray:
-        """log10 of the maximum of Ω_GW,0 h² over frequency, per point.
-
-        Parameters
-        ----------
-        ln_k_peak : ndarray, shape (p,)
-            ln k_peak [ln(Mpc^-1)] of each point.
-        log10_p : ndarray, shape (p, n_x)
-            log10 P_zeta on the shape grid ``x``.
-
-        Returns
-        -------
-        ndarray, shape (p,)
-        """
-        ln_k_peak = np.asarray(ln_k_peak, float)
-        transfer = np.asarray(self._transfer(np.exp(ln_k_peak[:, None] + self.x_out[None, :])))
-        omega = transfer * self.sigw.omega_gw(10.0 ** np.asarray(log10_p, float))
-        return np.log10(np.maximum(omega.max(axis=1), _FLOOR))
-
-    def fpbh_total(self, ln_k_peak: np.ndarray, log10_p: np.ndarray) -> np.ndarray:
-        """log10 of the total f_PBH per point.
-
-        Parameters
-        ----------
-        ln_k_peak : ndarray, shape (p,)
-            ln k_peak [ln(Mpc^-1)] of each point.
-        log10_p : ndarray, shape (p, n_x)
-            log10 P_zeta on the shape grid ``x``.
-
-        Returns
-        -------
-        ndarray, shape (p,)
-        """
-        log_p = _interp_shifted(self.lnk_table, np.asarray(ln_k_peak, float), self.x,
-                                np.asarray(log10_p, float))
-        total = self.pbh.evaluate(10.0 ** log_p).f_pbh_total
-        return np.log10(np.maximum(total, _FLOOR))
-
-    def __call__(self, ln_k_peak, log10_P_peak, shape, x) -> dict[str, np.ndarray]:
-        """Both observables for p points (``x`` must be the grid given at construction)."""
-        if not np.array_equal(np.asarray(x, float), self.x):
-            raise ValueError("shape grid differs from the one the observables were planned on")
-        ln_k_peak = np.asarray(ln_k_peak, float)
-        log10_p = np.asarray(log10_P_peak, float)[:, None] + np.asarray(shape, float)
-        return {"log10_omega_gw_h2_peak": self.omega_peak(ln_k_peak, log10_p),
-                "log10_fpbh_total": self.fpbh_total(ln_k_peak, log10_p)}
+    return BatchPlan(x=x, x_out=x_out, sigw=sigw, lnk_gw=lnk_gw,
+                     f_gw=np.asarray(cosmo.k_to_f(np.exp(lnk_gw))),
+                     transfer_gw=np.asarray(cosmo.gw_transfer_h2(np.exp(lnk_gw), dof, n_eff)),
+                     lnk_table=lnk_table, pbh=pbh, peak_range=(float(lo), float(hi)))
 
 
-def _interp_shifted(x: np.ndarray, shift: np.ndarray, grid: np.ndarray,
-                    fp: np.ndarray) -> np.ndarray:
-    """``np.interp(x, shift[i] + grid, fp[i], left=-inf, right=-inf)`` for all rows at once.
+def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.ndarray,
+                      shape: np.ndarray, n_s: np.ndarray, r: np.ndarray, N_star: np.ndarray,
+                      ln_1e10_as: float, thresholds: np.ndarray | None = None
+                      ) -> BatchObservables:
+    """Omega_GW,0 h^2 and f_PBH of m emulated spectra, on the plan's shared grids.
+
+    Parameters
+    ----------
+    plan : BatchPlan
+    ln_k_peak, log10_P_peak : ndarray, shape (m,)
+        Peak position [ln(Mpc^-1)] and height [dex]; every ln k_peak must lie in
+        ``plan.peak_range``.
+    shape : ndarray, shape (m, n_x)
+        log10 P - log10 P_peak on ``plan.x`` [dex].
+    n_s, r, N_star : ndarray, shape (m,)
+    ln_1e10_as : float
+    thresholds : ndarray, shape (m,), optional
+        Per-walker collapse thresholds (needs a threshold-aware ``plan.pbh``).
+
+    Returns
+    -------
+    BatchObservables
+    """
+    ln_k_peak = np.asarray(ln_k_peak, float)
+    log10_p = np.asarray(log10_P_peak, float)[:, None] + np.asarray(shape, float)
+    omega, ln_k_top, omega_peak = gw_on_grids(plan, ln_k_peak, log10_p)
+    pbh = pbh_on_table(plan, ln_k_peak, log10_p, thresholds)
+    return BatchObservables(
+        f_hz=plan.f_gw, omega_gw_h2=omega, m_msun=np.asarray(plan.pbh.M),
+        f_pbh_per_lnm=np.atleast_2d(pbh.f_pbh), f_pbh_total=np.atleast_1d(pbh.f_pbh_total),
+        n_s=np.asarray(n_s, float), r=np.asarray(r, float), N_star=np.asarray(N_star, float),
+        ln_1e10_as=float(ln_1e10_as), k_peak=np.exp(ln_k_peak),
+        P_peak=10.0 ** np.asarray(log10_P_peak, float),
+        f_gw_peak=np.asarray(cosmo.k_to_f(np.exp(ln_k_top))), omega_gw_h2_peak=omega_peak)
+
+
+def gw_on_grids(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray
+                ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Omega_GW,0 h^2 of m spectra on the shared frequency grid, and each one's peak.
+
+    Parameters
+    ----------
+    plan : BatchPlan
+    ln_k_peak : ndarray, shape (m,) [ln(Mpc^-1)]
+    log10_p : ndarray, shape (m, n_x)
+        log10 P_zeta on ``plan.x`` (relative to each peak).
+
+    Returns
+    -------
+    omega : ndarray, shape (m, n_f) [1]
+        On ``plan.f_gw``; 0 outside each spectrum's window.
+    ln_k_top : ndarray, shape (m,) [ln(Mpc^-1)]
+        Wavenumber of each maximum (parabola through the largest samples).
+    omega_peak : ndarray, shape (m,) [1]
+        Omega_GW,0 h^2 there.
+    """
+    omega_rel = plan.sigw.omega_gw(10.0 ** log10_p)                  # (m, n_out)
+    ln_omega = np.log(np.maximum(omega_rel, _FLOOR))
+    shifted = interp_uniform_shifted(plan.lnk_gw, ln_k_peak, plan.x_out, ln_omega)
+    omega = plan.transfer_gw * np.exp(shifted)                       # 0 outside the window
+    x_top, ln_top = parabolic_peak(plan.x_out, ln_omega)
+    ln_k_top = ln_k_peak + x_top
+    # the transfer varies slowly (g_* steps): interpolated on the shared grid in ln k
+    omega_peak = np.exp(ln_top) * np.interp(ln_k_top, plan.lnk_gw, plan.transfer_gw)
+    return omega, ln_k_top, omega_peak
+
+
+def pbh_on_table(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray,
+                 thresholds: np.ndarray | None = None):
+    """f_PBH of m spectra: each put on the shared absolute ln k table, one plan for all.
+
+    Parameters
+    ----------
+    plan : BatchPlan
+    ln_k_peak : ndarray, shape (m,) [ln(Mpc^-1)]
+    log10_p : ndarray, shape (m, n_x)
+        log10 P_zeta on ``plan.x``; taken as 0 outside it.
+    thresholds : ndarray, shape (m,), optional
+        Per-spectrum collapse thresholds (needs a threshold-aware ``plan.pbh``).
+
+    Returns
+    -------
+    PBHResult-like
+        ``f_pbh`` (m, n_M) per ln M on ``plan.pbh.M`` [M_sun], ``f_pbh_total`` (m,).
+    """
+    p_table = 10.0 ** interp_uniform_shifted(plan.lnk_table, ln_k_peak, plan.x, log10_p)
+    if thresholds is None:
+        return plan.pbh.evaluate(p_table)
+    return plan.pbh.evaluate(p_table, np.asarray(thresholds, float))
+
+
+def interp_uniform_shifted(x: np.ndarray, shift: np.ndarray, grid: np.ndarray,
+                           fp: np.ndarray) -> np.ndarray:
+    """Row-wise linear interpolation at ``x`` of ``fp[i]`` given on ``shift[i] + grid``.
 
     Parameters
     ----------
@@ -109,28 +247,94 @@ def _interp_shifted(x: np.ndarray, shift: np.ndarray, grid: np.ndarray,
     shift : ndarray, shape (p,)
         Offset of each row's abscissae.
     grid : ndarray, shape (n_x,)
-        Increasing abscissae common to all rows (before the shift).
+        Evenly spaced increasing abscissae common to all rows (before the shift).
     fp : ndarray, shape (p, n_x)
-        Finite ordinates, one row per point.
 
     Returns
     -------
     ndarray, shape (p, n)
-        The formula of :func:`numpy.interp` (slope of the bracketing pair, exact at the
-        nodes) on the abscissae ``shift[i] + grid``; -inf outside each row's range.
+        Linear interpolation (the bracketing index found arithmetically on the even
+        grid); -inf outside each row's range.
     """
-    xp = shift[:, None] + grid[None, :]
-    rows = np.arange(xp.shape[0])[:, None]
-    top = grid.size - 2
-    # bracket: xp[i, j] <= x < xp[i, j + 1]; searchsorted on x - shift, then one exact
-    # correction step against xp itself (the two differ only by rounding)
-    j = np.clip(np.searchsorted(grid, x[None, :] - shift[:, None], side="right") - 1, 0, top)
-    j = np.where(xp[rows, j] > x, j - 1, j).clip(0, top)
-    j = np.where(xp[rows, j + 1] <= x, j + 1, j).clip(0, top)
-    x0, x1, f0, f1 = xp[rows, j], xp[rows, j + 1], fp[rows, j], fp[rows, j + 1]
-    out = np.where(x == x0, f0, (f1 - f0) / (x1 - x0) * (x - x0) + f0)
-    out = np.where(x == xp[:, -1:], fp[:, -1:], out)
-    return np.where((x < xp[:, :1]) | (x > xp[:, -1:]), -np.inf, out)
+    step = (grid[-1] - grid[0]) / (grid.size - 1)
+    t = (x[None, :] - shift[:, None] - grid[0]) / step
+    inside = (t >= -1e-9) & (t <= grid.size - 1 + 1e-9)
+    j = np.clip(np.floor(t).astype(np.intp), 0, grid.size - 2)
+    frac = t - j
+    f0 = np.take_along_axis(fp, j, axis=1)
+    f1 = np.take_along_axis(fp, j + 1, axis=1)
+    return np.where(inside, f0 + (f1 - f0) * frac, -np.inf)
+
+
+def parabolic_peak(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Position and height of each row's maximum, refined by a parabola through the
+    largest sample and its two neighbours (exact for a parabola; the sample itself at
+    an end of the grid).
+
+    Parameters
+    ----------
+    x : ndarray, shape (n,)
+        Increasing abscissae (e.g. ln f).
+    y : ndarray, shape (m, n) or (n,)
+        Ordinates (e.g. ln Omega).
+
+    Returns
+    -------
+    x_peak, y_peak : ndarray, shape (m,) (floats for one row)
+    """
+    y2 = np.atleast_2d(np.asarray(y, float))
+    rows = np.arange(y2.shape[0])
+    top = np.argmax(y2, axis=1)
+    inner = (top > 0) & (top < x.size - 1)
+    j = np.clip(top, 1, x.size - 2)
+    x0, x1, x2 = x[j - 1], x[j], x[j + 1]
+    y0, y1, yb = y2[rows, j - 1], y2[rows, j], y2[rows, j + 1]
+    d01, d12 = (y1 - y0) / (x1 - x0), (yb - y1) / (x2 - x1)
+    curv = (d12 - d01) / (x2 - x0)                      # half the second derivative
+    ok = inner & (curv < 0) & np.isfinite(curv)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        xv = 0.5 * (x0 + x1) - d01 / (2.0 * curv)
+        yv = y0 + d01 * (xv - x0) + curv * (xv - x0) * (xv - x1)
+    x_peak = np.where(ok, xv, x[top])
+    y_peak = np.where(ok, yv, y2[rows, top])
+    if np.ndim(y) == 1:
+        return float(x_peak[0]), float(y_peak[0])
+    return x_peak, y_peak
+
+
+class PeakObservables:
+    """``(ln_k_peak, log10_P_peak, shape, x) -> {log10_omega_gw_h2_peak, log10_fpbh_total}``.
+
+    The validation report's view of the observables: the same shared-grid plan and the
+    same functions the posterior uses (:func:`plan_batch`, :func:`gw_on_grids`,
+    :func:`pbh_on_table`), with the default PBH conventions.
+
+    Parameters
+    ----------
+    x : ndarray
+        The shape grid ln(k/k_peak).
+    ln_k_range : (float, float)
+        Range of ln k_peak [ln(Mpc^-1)] the grids must cover.
+    n_out : int
+        Output wavenumbers of Omega_GW (over ``x[0] .. x[-1] + ln 2``).
+    """
+
+    def __init__(self, x: np.ndarray, ln_k_range: tuple[float, float], n_out: int = 48) -> None:
+        from scan.pbh import PBHConventions
+
+        self.x = np.asarray(x, float)
+        self.plan = plan_batch(self.x, ln_k_range, PBHConventions(), n_out=n_out, n_mass=32)
+
+    def __call__(self, ln_k_peak, log10_P_peak, shape, x) -> dict[str, np.ndarray]:
+        """Both observables for p points (``x`` must be the grid given at construction)."""
+        if not np.array_equal(np.asarray(x, float), self.x):
+            raise ValueError("shape grid differs from the one the observables were planned on")
+        ln_k_peak = np.asarray(ln_k_peak, float)
+        log10_p = np.asarray(log10_P_peak, float)[:, None] + np.asarray(shape, float)
+        omega_peak = gw_on_grids(self.plan, ln_k_peak, log10_p)[2]
+        total = pbh_on_table(self.plan, ln_k_peak, log10_p).f_pbh_total
+        return {"log10_omega_gw_h2_peak": np.log10(np.maximum(omega_peak, _FLOOR)),
+                "log10_fpbh_total": np.log10(np.maximum(total, _FLOOR))}
 
 
 def observables_for(config, space, ln_k_range: tuple[float, float] | None = None):

@@ -22,9 +22,7 @@ fresh file with the flags clear (:func:`recover_store`) and continues.
 """
 from __future__ import annotations
 
-import fcntl
 import json
-import os
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -32,7 +30,8 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import config_hash, provenance, write_config
+from scan.store import (config_hash, open_single_writer, provenance,  # noqa: F401
+                        recover_store, write_config)
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
 
@@ -117,21 +116,9 @@ class StoreWriter:
 
     def __init__(self, path: str | Path) -> None:
         self.path = Path(path)
-        self._lock = open(self.path.with_name(self.path.name + ".lock"), "w")
-        try:
-            fcntl.flock(self._lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
-        except BlockingIOError:
-            self._lock.close()
-            raise InputFileError(str(path), "another training run is writing this store; "
-                                 "wait for it or stop it first") from None
-        try:
-            self.handle = h5py.File(self.path, "r+", libver="latest")
-        except OSError as err:
-            if "h5clear" not in str(err):
-                raise
-            recover_store(self.path)
-            self.handle = h5py.File(self.path, "r+", libver="latest")
-        self.handle.swmr_mode = True
+        self._lock, self.handle = open_single_writer(
+            self.path, "another training run is writing this store; wait for it or stop "
+            "it first")
 
     def __enter__(self) -> "StoreWriter":
         return self
@@ -177,28 +164,6 @@ class StoreWriter:
             dset.flush()
         self._grow(pts["index"], np.asarray(indices, "i8"))
         self.handle.flush()
-
-
-def recover_store(path: str | Path) -> None:
-    """Rewrite a store left by a killed writer (read in SWMR mode) with clean flags.
-
-    Every object and attribute is copied (dataset layouts, fill values and contents as
-    the reader sees them); the copy replaces the original atomically.  Call it only
-    while holding the store's lock.
-    """
-    path = Path(path)
-    tmp = path.with_name(f".{path.name}.recover-{os.getpid()}")
-    try:
-        with h5py.File(path, "r", libver="latest", swmr=True) as src, \
-                h5py.File(tmp, "w", libver="latest") as dst:
-            for key, value in src.attrs.items():
-                dst.attrs[key] = value
-            for name in src:
-                src.copy(src[name], dst, name=name)
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
 
 
 def read_plan(path: str | Path) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

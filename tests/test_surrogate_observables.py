@@ -1,9 +1,9 @@
-"""Shared-grid helpers of the batched posterior (scan.sampler.batch)."""
+"""Shared-grid helpers of the batched observables (scan.surrogate.observables)."""
 from __future__ import annotations
 
 import numpy as np
 
-from scan.sampler.batch import interp_uniform_shifted
+from scan.surrogate.observables import interp_uniform_shifted
 
 
 def test_row_shifted_interpolation_equals_numpy_interp_per_row():
@@ -21,7 +21,7 @@ def test_row_shifted_interpolation_equals_numpy_interp_per_row():
 
 
 def test_parabolic_peak_is_exact_for_a_parabola_and_falls_back_at_the_ends():
-    from scan.sampler.batch import parabolic_peak
+    from scan.surrogate.observables import parabolic_peak
 
     x = np.linspace(-3.0, 3.0, 25)
     centres = np.array([-0.37, 0.1, 1.234])
