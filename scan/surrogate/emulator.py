@@ -17,7 +17,10 @@ Three kernel regressors (:mod:`scan.surrogate.gp`) on unit-cube inputs:
 
 Each block's kernel is Matérn-5/2 or Gaussian, whichever has the lower leave-one-out
 error (``kernel = "auto"``): which kernel wins depends on the target's smoothness, so it
-is measured per block rather than fixed.
+is measured per block rather than fixed.  Likewise measured: whether a block gets the
+bottleneck coordinate of :mod:`scan.surrogate.bottleneck` as an extra input (singular at
+the boundary to models that get stuck; its softening is chosen on the peak block, the
+other blocks take it or not by their own leave-one-out error).
 Predicting 64 vectors costs four (64 × n) kernel blocks and four small matrix products;
 all functions here are pure.
 """
@@ -27,7 +30,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scan.surrogate.gp import KERNELS, GPFit, fit_best, predict_gp
+from scan.surrogate.bottleneck import Bottleneck, augment, candidates
+from scan.surrogate.gp import KERNELS, GPFit, fit_best, predict_gp, predictive_sd
 from scan.surrogate.shape import ShapeBasis, decode, encode, fit_basis
 
 PEAK_COLUMNS = ("ln_k_peak", "log10_P_peak")
@@ -74,7 +78,8 @@ class Emulator:
     """A fitted emulator (plain arrays; stored by :mod:`scan.surrogate.store`).
 
     ``classifier`` is None when all training points had the same label
-    (``constant_valid`` then gives it).
+    (``constant_valid`` then gives it).  ``bottleneck`` is the extra input of the blocks
+    named in ``bottleneck_blocks`` (None and () when no block gained from it).
     """
 
     classifier: GPFit | None
@@ -83,6 +88,12 @@ class Emulator:
     shape: GPFit
     cmb: GPFit
     basis: ShapeBasis
+    bottleneck: Bottleneck | None = None
+    bottleneck_blocks: tuple[str, ...] = ()
+
+    def inputs(self, block: str, u: np.ndarray) -> np.ndarray:
+        """The inputs of regressor ``block`` at unit-cube points ``u`` (p, d)."""
+        return augment(u, self.bottleneck if block in self.bottleneck_blocks else None)
 
 
 @dataclass(frozen=True)
@@ -126,7 +137,7 @@ def _complete(rows: np.ndarray) -> np.ndarray:
 
 
 def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSettings()) -> Emulator:
-    """Fit the classifier, the peak-and-shape block and the CMB block.
+    """Fit the classifier, the peak, shape and CMB blocks (with or without the bottleneck).
 
     Raises
     ------
@@ -144,13 +155,26 @@ def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSetting
         raise ValueError(f"only {int(good.sum())} valid training points; need at least 3")
     basis = fit_basis(data.x, data.shapes[good], settings.shape_components,
                       settings.shape_tolerance)
-    peak = fit_best(data.u[good], data.scalars[good, :2], **opts)
-    shape = fit_best(data.u[good], encode(basis, data.shapes[good]), **opts)
+    tried = candidates(data.u, data.valid)
+    peak, bottleneck = _fit_block(data.u[good], data.scalars[good, :2], [None, *tried], opts)
+    shape, shape_bn = _fit_block(data.u[good], encode(basis, data.shapes[good]),
+                                 [None, bottleneck], opts)
     cmb_rows = data.valid & _complete(data.scalars[:, 2:])
     cmb_rows = cmb_rows if cmb_rows.sum() >= 3 else good
-    cmb_y = np.nan_to_num(data.scalars[cmb_rows, 2:])
-    cmb = fit_best(data.u[cmb_rows], cmb_y, **opts)
-    return Emulator(classifier, bool(data.valid.all()), peak, shape, cmb, basis)
+    cmb, cmb_bn = _fit_block(data.u[cmb_rows], np.nan_to_num(data.scalars[cmb_rows, 2:]),
+                             [None, bottleneck], opts)
+    blocks = tuple(name for name, bn in (("peak", bottleneck), ("shape", shape_bn),
+                                         ("cmb", cmb_bn)) if bn is not None)
+    return Emulator(classifier, bool(data.valid.all()), peak, shape, cmb, basis,
+                    bottleneck if blocks else None, blocks)
+
+
+def _fit_block(u: np.ndarray, y: np.ndarray, inputs: list[Bottleneck | None],
+               opts: dict) -> tuple[GPFit, Bottleneck | None]:
+    """The best (lowest leave-one-out error) fit over the candidate extra inputs."""
+    unique = [None] + [bn for bn in inputs if bn is not None]
+    fits = [(fit_best(augment(u, bn), y, **opts), bn) for bn in unique]
+    return min(fits, key=lambda pair: pair[0].loo_score)
 
 
 def classify(emulator: Emulator, u: np.ndarray) -> np.ndarray:
@@ -165,13 +189,18 @@ def predict_unit(emulator: Emulator, u: np.ndarray) -> Prediction:
     """Emulate at unit-cube points ``u`` (p, d)."""
     u = np.atleast_2d(np.asarray(u, float))
     margin = classify(emulator, u)
-    peak = predict_gp(emulator.peak, u)
-    cmb = predict_gp(emulator.cmb, u)
+    peak = predict_gp(emulator.peak, emulator.inputs("peak", u))
+    cmb = predict_gp(emulator.cmb, emulator.inputs("cmb", u))
+    shape = predict_gp(emulator.shape, emulator.inputs("shape", u))
     return Prediction(valid=margin > 0, margin=margin, ln_k_peak=peak[:, 0],
-                      log10_P_peak=peak[:, 1],
-                      shape=decode(emulator.basis, predict_gp(emulator.shape, u)),
+                      log10_P_peak=peak[:, 1], shape=decode(emulator.basis, shape),
                       x=emulator.basis.x, n_s=cmb[:, 0], log10_r=cmb[:, 1],
                       log10_V0=cmb[:, 2], N_star=cmb[:, 3])
+
+
+def peak_sd(emulator: Emulator, u: np.ndarray) -> np.ndarray:
+    """Relative predictive standard deviation of the peak block at ``u`` (p, d)."""
+    return predictive_sd(emulator.peak, emulator.inputs("peak", u))
 
 
 def loo_error_score(emulator: Emulator, data: TrainingSet) -> np.ndarray:

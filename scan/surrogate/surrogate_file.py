@@ -2,7 +2,8 @@
 
 Layout: root provenance and ``identity_json``; ``config`` (text); group ``surrogate``
 with ``space`` attributes and one sub-group per kernel block (``classifier``, ``peak``,
-``shape``, ``cmb``) plus ``basis``; group ``validation`` with the report (JSON attribute
+``shape``, ``cmb``) plus ``basis`` and, if any block uses it, ``bottleneck`` (the
+extra input of :mod:`scan.surrogate.bottleneck`; attribute ``blocks``); group ``validation`` with the report (JSON attribute
 and the printable text).  Written atomically (:func:`scan.store.atomic_h5`).
 """
 from __future__ import annotations
@@ -15,6 +16,7 @@ import numpy as np
 
 from scan.errors import InputFileError
 from scan.store import atomic_h5, provenance, write_config, write_dataset
+from scan.surrogate.bottleneck import Bottleneck
 from scan.surrogate.emulator import Emulator
 from scan.surrogate.gp import GPFit
 from scan.surrogate.identity import differences
@@ -36,6 +38,23 @@ def _write_gp(group: h5py.Group, fit: GPFit) -> None:
 def _read_gp(group: h5py.Group) -> GPFit:
     arrays = {name: group[name][()] for name in _GP_ARRAYS}
     return GPFit(noise=float(group.attrs["noise"]), kernel=str(group.attrs["kernel"]), **arrays)
+
+
+def _write_bottleneck(group: h5py.Group, emulator: Emulator) -> None:
+    bn = emulator.bottleneck
+    write_dataset(group, "normal", bn.normal, "1", "unit normal of the boundary plane")
+    for name in ("offset", "s_min", "softening"):
+        group.attrs[name] = float(getattr(bn, name))
+    group.attrs["blocks"] = list(emulator.bottleneck_blocks)
+
+
+def _read_bottleneck(grp: h5py.Group) -> tuple[Bottleneck | None, tuple[str, ...]]:
+    if "bottleneck" not in grp:  # files written before the bottleneck input existed
+        return None, ()
+    g = grp["bottleneck"]
+    bn = Bottleneck(g["normal"][()], float(g.attrs["offset"]), float(g.attrs["s_min"]),
+                    float(g.attrs["softening"]))
+    return bn, tuple(str(b) for b in g.attrs["blocks"])
 
 
 def _json_default(value):
@@ -71,6 +90,8 @@ def write_surrogate(path: str | Path, config, space: ParameterSpace, emulator: E
         write_dataset(basis, "mean", emulator.basis.mean, "dex")
         write_dataset(basis, "components", emulator.basis.components, "1")
         basis.attrs["max_error"] = emulator.basis.max_error
+        if emulator.bottleneck is not None:
+            _write_bottleneck(grp.create_group("bottleneck"), emulator)
         val = handle.create_group("validation")
         val.attrs["report_json"] = json.dumps(report, default=_json_default)
         val.create_dataset("text", data="\n".join(format_report(report)),
@@ -121,5 +142,6 @@ def read_surrogate(path: str | Path, ident: dict | None = None
                            float(b.attrs["max_error"]))
         classifier = _read_gp(grp["classifier"]) if grp.attrs["has_classifier"] else None
         emulator = Emulator(classifier, bool(grp.attrs["constant_valid"]), _read_gp(grp["peak"]),
-                            _read_gp(grp["shape"]), _read_gp(grp["cmb"]), basis)
+                            _read_gp(grp["shape"]), _read_gp(grp["cmb"]), basis,
+                            *_read_bottleneck(grp))
     return emulator, space

@@ -15,8 +15,7 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.surrogate import design
 from scan.surrogate.emulator import (Emulator, EmulatorSettings, TrainingSet, classify,
-                                     fit_emulator, loo_error_score)
-from scan.surrogate.gp import predictive_sd
+                                     fit_emulator, loo_error_score, peak_sd)
 from scan.surrogate.identity import identity
 from scan.surrogate.record import SCALARS, TrainingRecord, cmb_feature, shape_grid
 from scan.surrogate.space import ParameterSpace
@@ -139,7 +138,7 @@ def propose_refinement(emulator: Emulator, data: TrainingSet, plan: TrainingPlan
     margin = classify(emulator, cand)
     loo = loo_error_score(emulator, data)
     nearest = np.argmin(((cand[:, None, :] - data.u[None, :, :]) ** 2).sum(-1), axis=1)
-    sd = predictive_sd(emulator.peak, cand)
+    sd = peak_sd(emulator, cand)
     score = sd * np.maximum(loo[nearest], loo[loo > 0].mean() if np.any(loo > 0) else 1.0)
     score = np.where(margin > -0.5, score, 0.0)  # errors only matter where valid
     return design.refine_points(data.u, score, margin, cand, plan.refine_points,
