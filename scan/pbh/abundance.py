@@ -72,6 +72,14 @@ def density(y, sigma2, kR2, conv: PBHConventions):
     return conv.ps_factor * np.exp(-0.5 * nu * nu) / (math.sqrt(2 * math.pi) * sigma)
 
 
+def prefactor(sigma2, kR2, conv: PBHConventions):
+    """The y-independent factor p_0 [1] of :func:`density` at ``sigma2`` [1] (and <k^2> R^2
+    = ``kR2`` [1] for peaks): p = p_0 e^{-nu^2/2} (times (nu^3 - 3 nu)_+ for peaks)."""
+    if conv.criterion == "peaks":
+        return (kR2 / 3)**1.5 / (3 * math.pi * np.sqrt(sigma2))
+    return conv.ps_factor / (math.sqrt(2 * math.pi) * np.sqrt(sigma2))
+
+
 def beta_monochromatic(sigma2, kR2, conv: PBHConventions):
     """Mass fraction beta [1] above threshold (no extra factor gamma; Carr et al. 2010)."""
     y_th, y_max = _relation(conv)

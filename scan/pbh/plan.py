@@ -7,9 +7,15 @@ import numpy as np
 
 from scan import cosmo
 from scan.pbh.abundance import (_relation, abundance_coefficient, beta_monochromatic,
-                                beta_weighted, critical_kernel, density)
+                                beta_weighted, critical_kernel)
 from scan.pbh.conventions import PBHConventions
+from scan.pbh.kernel import MassKernel, mass_function, mass_kernel
+from scan.pbh.tables import BetaTable, beta_table, beta_tabulated
 from scan.pbh.variance import variance_matrix
+
+#: exp(-nu^2/2) is exactly 0 in double precision for nu^2/2 >= this (exp underflows to 0
+#: below -745.2).
+UNDERFLOW_HALF_NU2: float = 760.0
 
 
 @dataclass(frozen=True)
@@ -61,6 +67,8 @@ class PBHPlan:
     _wln: np.ndarray
     _y: np.ndarray | None
     _weight: np.ndarray | None
+    _kernel: MassKernel | None = None
+    _beta_table: BetaTable | None = None
 
     def sigma2(self, P_zeta) -> tuple[np.ndarray, np.ndarray]:
         """sigma^2 [1] and <k^2> R^2 [1] at every formation horizon mass.
@@ -79,9 +87,13 @@ class PBHPlan:
         if P.ndim not in (1, 2) or P.shape[-1] != self.k_in.size:
             raise ValueError(f"P_zeta must have shape ({self.k_in.size},) or "
                              f"(m, {self.k_in.size}), got {P.shape}")
-        s0 = P @ self._v0.T
-        kR2 = (P @ self._v1.T) / np.where(s0 > 0, s0, 1.0) if self._v1.size \
-            else np.ones_like(s0)
+        # columns where every spectrum vanishes add exactly 0: skip them (a walker's
+        # window covers a fraction of the shared table)
+        cols = np.flatnonzero(np.any(P != 0, axis=tuple(range(P.ndim - 1))))
+        lo, hi = (int(cols[0]), int(cols[-1]) + 1) if cols.size else (0, 0)
+        s0 = P[..., lo:hi] @ self._v0[:, lo:hi].T
+        kR2 = (P[..., lo:hi] @ self._v1[:, lo:hi].T) / np.where(s0 > 0, s0, 1.0) \
+            if self._v1.size else np.ones_like(s0)
         return s0, kR2
 
     def evaluate(self, P_zeta) -> PBHResult:
@@ -123,40 +135,36 @@ class PBHPlan:
             f = _log_interp(self.M, conv.gamma * self.M_H, f_h)
             total = np.sum(self._wln * f_h, axis=-1)
         else:
-            live = _live_epochs(s0, kR2, conv)
-            f = self._critical_mass_function(s0, kR2, live | ~np.isfinite(self._weight).all(0))
-            beta = np.zeros(s0.shape)
-            beta[live] = beta_weighted(s0[live], kR2[live], conv)
-            total = np.sum(self._wln * self._coef * beta, axis=-1)
+            f, total = self._critical(np.atleast_2d(s0), np.atleast_2d(kR2))
+            f, total = (f, total) if s0.ndim > 1 else (f[0], total[0])
         total = float(total) if s0.ndim == 1 else total
         return PBHResult(self.M, f, total, self.M_H, s0, conv)
 
-    def _critical_mass_function(self, s0: np.ndarray, kR2: np.ndarray,
-                                live: np.ndarray) -> np.ndarray:
-        """f(M) = sum_H weight(M, M_H) p(y(M, M_H)) w_H F(M_H) over the ``live`` epochs.
+    def _critical(self, s2: np.ndarray, k2: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Critical collapse: f(M) [1], shape (m, n_M), and the totals [1], shape (m,).
+
+        f(M) = sum_H weight(M, M_H) p(y(M, M_H)) w_H F(M_H) and the total
+        sum_H w_H F(M_H) beta_weighted over the live (spectrum, epoch) pairs; the others
+        contribute exactly 0 (:func:`_live_epochs`).
 
         Parameters
         ----------
-        s0, kR2 : ndarray [1]
-            sigma^2 and <k^2> R^2, shape (n_H,) or (m, n_H).
-        live : ndarray of bool
-            Same shape: the (spectrum, epoch) pairs to sum (the others contribute 0).
-
-        Returns
-        -------
-        ndarray [1]
-            Shape (n_M,) or (m, n_M).
+        s2, k2 : ndarray [1]
+            sigma^2 (> 0) and <k^2> R^2, shape (m, n_H).
         """
-        s2, k2, lv = np.atleast_2d(s0), np.atleast_2d(kR2), np.atleast_2d(live)
-        i, h = np.nonzero(lv)                                  # grouped by spectrum i
-        p = density(self._y.T[h], s2[i, h][:, None], k2[i, h][:, None], self.conventions)
-        terms = self._weight.T[h] * p * (self._wln * self._coef)[h][:, None]
-        counts = np.bincount(i, minlength=s2.shape[0])
-        f = np.zeros((s2.shape[0], self.M.size))
-        if i.size:
-            starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
-            f[counts > 0] = np.add.reduceat(terms, starts[counts > 0], axis=0)
-        return f if s0.ndim > 1 else f[0]
+        conv = self.conventions
+        live = _live_epochs(s2, k2, conv)
+        n_h = s2.shape[1]
+        i, h = np.divmod(np.flatnonzero(live | self._kernel.force), n_h)  # by spectrum
+        f = mass_function(self._kernel, s2, k2, i, h, conv)
+        if self._kernel.force.any():
+            i, h = np.divmod(np.flatnonzero(live), n_h)
+        s, k = s2[i, h], k2[i, h]
+        beta = beta_tabulated(self._beta_table, s, k) if self._beta_table is not None \
+            else beta_weighted(s, k, conv)
+        total = np.bincount(i, weights=(self._wln * self._coef)[h] * beta,
+                            minlength=s2.shape[0])
+        return f, total
 
 
 def _live_epochs(sigma2: np.ndarray, kR2: np.ndarray, conv: PBHConventions) -> np.ndarray:
@@ -179,8 +187,8 @@ def _live_epochs(sigma2: np.ndarray, kR2: np.ndarray, conv: PBHConventions) -> n
     ndarray of bool
     """
     y_th, _ = _relation(conv)
-    nu = y_th / np.sqrt(sigma2)
-    return ~(0.5 * nu * nu >= 760.0) | ~np.isfinite(kR2)
+    # nu^2/2 >= 760  <=>  sigma^2 <= y_th^2 / 1520 (NaN stays live)
+    return ~(sigma2 <= y_th * y_th / (2 * UNDERFLOW_HALF_NU2)) | ~np.isfinite(kR2)
 
 
 def _log_interp(x, xp, fp):
@@ -203,12 +211,14 @@ def _log_interp(x, xp, fp):
 
 def plan_pbh(k_in, M_msun, conventions: PBHConventions | None = None, *,
              n_formation: int = 256, dof: cosmo.Dof = None,
-             n_eff: float = cosmo.N_EFF_DEFAULT) -> PBHPlan:
+             n_eff: float = cosmo.N_EFF_DEFAULT, tabulate: bool = True) -> PBHPlan:
     """Precompute f_PBH(M) for spectra on ``k_in`` [Mpc^-1] at masses ``M_msun`` [M_sun].
 
     Formation epochs: ``n_formation`` horizon scales k_H log-spaced over the table's
     range (R = 1/k_H), weighted by the trapezoid rule in ln M_H.  Masses may be given
-    as an astropy Quantity (e.g. grams).
+    as an astropy Quantity (e.g. grams).  ``tabulate``: the mass-weighted beta of
+    critical collapse from a table in nu_th (:mod:`scan.pbh.tables`, equal to the direct
+    quadrature to rounding; ~4 ms to build), else by the direct quadrature per epoch.
     """
     conv = conventions or PBHConventions()
     k_in = np.asarray(k_in, dtype=float)
@@ -222,11 +232,13 @@ def plan_pbh(k_in, M_msun, conventions: PBHConventions | None = None, *,
     coef = np.asarray(abundance_coefficient(M_H, dof, conv.omega_dm_h2, n_eff))
     v1 = variance_matrix(k_in, 1 / k_h, conv.window, 1) if conv.criterion == "peaks" \
         else np.empty((0, k_in.size))
-    y = weight = None
+    y = weight = kernel = table = None
     if conv.mass_function == "critical":
         y, weight, _ = critical_kernel(M, M_H, conv)
+        kernel = mass_kernel(y, weight, w * coef, conv)
+        table = beta_table(conv) if tabulate else None
     return PBHPlan(k_in, M, M_H, conv, variance_matrix(k_in, 1 / k_h, conv.window, 0),
-                   v1, coef, w, y, weight)
+                   v1, coef, w, y, weight, kernel, table)
 
 
 def f_pbh(k_in, P_zeta, M_msun, conventions: PBHConventions | None = None,

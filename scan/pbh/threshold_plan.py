@@ -6,19 +6,20 @@ for the plan's window.  :func:`plan_pbh_thresholds` plans once for a spectrum ta
 output masses and a threshold range; :meth:`ThresholdPlan.evaluate` then takes m
 spectra and m thresholds and returns f_PBH(M) and its total for every row.
 
-Exact, not interpolated.  Everything that costs a matrix product or a power of the
-(M, M_H) grid does not depend on the threshold and is planned once: the variance
-matrices (shared with a :class:`scan.pbh.plan.PBHPlan`), the formation epochs and their
-weights, and the critical-collapse variable x = (M/(K M_H))^{1/gamma_c}.  What does
+Exact, not interpolated in the threshold.  Everything that costs a matrix product or a
+power of the (M, M_H) grid does not depend on the threshold and is planned once: the
+variance matrices (shared with a :class:`scan.pbh.plan.PBHPlan`), the formation epochs and
+their weights, and the critical-collapse variable x = (M/(K M_H))^{1/gamma_c}.  What does
 depend on the threshold is elementwise: C = C_th + x, its Gaussian variable y (y = C
 for the linear criteria, y = C_l(C) = (4/3)[1 - sqrt(1 - 3C/2)] for the compaction
 function, Young, Musco & Byrnes 2019, arXiv:1904.00984), dy/dC, and the density p(y).
 These are evaluated per (spectrum, epoch) pair with that spectrum's threshold, on the
-same pairs and with the same quadrature as :meth:`PBHPlan.from_variance`, so each row
-equals ``plan_pbh(..., replace(conventions, threshold=t)).evaluate(row)`` to rounding
-(the tests pin this to 1e-12 relative) at about the cost of one fixed-threshold
-evaluation.  Interpolating ln f between a few threshold nodes would cost one such
-evaluation per node, and still be approximate.
+same pairs and with the same quadrature as :meth:`PBHPlan.from_variance` (for the linear
+criteria from its threshold-free table, :mod:`scan.pbh.tables`), so each row equals
+``plan_pbh(..., replace(conventions, threshold=t)).evaluate(row)`` to rounding (the
+tests pin this to 1e-12 relative) at about the cost of one fixed-threshold evaluation.
+Interpolating ln f between a few threshold nodes would cost one such evaluation per
+node, and still be approximate.
 
 Units: k [Mpc^-1], masses [M_sun], P_zeta, sigma^2, thresholds and f [1].
 """
@@ -33,11 +34,10 @@ from scipy import special
 from scan import cosmo
 from scan.pbh.abundance import _GL_W, _GL_Z
 from scan.pbh.conventions import PBHConventions
-from scan.pbh.plan import PBHPlan, _log_interp, plan_pbh
+from scan.pbh.kernel import half_exp
+from scan.pbh.plan import UNDERFLOW_HALF_NU2, PBHPlan, _log_interp, plan_pbh
+from scan.pbh.tables import beta_tabulated
 from scan.pbh.thresholds import C_L_MAX, C_MAX, compaction_linear
-
-#: exp(-nu^2/2) is exactly 0 in double precision for nu^2/2 >= this (as in plan.py).
-_UNDERFLOW_HALF_NU2: float = 760.0
 
 
 @dataclass(frozen=True)
@@ -198,12 +198,18 @@ class ThresholdPlan:
             f = _log_interp(self.M, conv.gamma * self.M_H, f_h)
             total = np.sum(self.base._wln * f_h, axis=-1)
         else:
-            nu = y_th[:, None] / np.sqrt(s2)
-            live = ~(0.5 * nu * nu >= _UNDERFLOW_HALF_NU2) | ~np.isfinite(k2)
+            # nu^2/2 >= 760  <=>  sigma^2 <= y_th^2 / 1520 (NaN stays live)
+            live = ~(s2 <= (y_th * y_th / (2 * UNDERFLOW_HALF_NU2))[:, None]) \
+                | ~np.isfinite(k2)
             f = self._critical_mass_function(s2, k2, t, y_th, live | self._force)
             i, h = np.nonzero(live)
             beta = np.zeros(s2.shape)
-            beta[i, h] = _beta_weighted(s2[i, h], k2[i, h], y_th[i], conv)
+            table = self.base._beta_table
+            if table is not None and conv.criterion != "compaction":
+                # linear criteria: the table of ln S does not depend on delta_c
+                beta[i, h] = beta_tabulated(table, s2[i, h], k2[i, h], y_th[i])
+            else:
+                beta[i, h] = _beta_weighted(s2[i, h], k2[i, h], y_th[i], conv)
             total = np.sum(self.base._wln * self.base._coef * beta, axis=-1)
         if s0.ndim == 1:
             return ThresholdResult(self.M, f[0], float(total[0]), self.M_H, s0,
@@ -244,7 +250,7 @@ class ThresholdPlan:
         else:
             y, weight = c, self._rxcT[h]
         s, k = s2[i, h][:, None], k2[i, h][:, None]
-        g = np.exp(y * y * (-0.5 / s))
+        g = half_exp(y * y * (-0.25 / s), valid if conv.criterion == "compaction" else None)
         if conv.criterion == "peaks":
             nu = y / np.sqrt(s)
             g *= np.clip(nu * (nu * nu - 3), 0.0, None)
@@ -327,7 +333,7 @@ def _beta_weighted(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
     if conv.criterion == "compaction":
         with np.errstate(divide="ignore"):
             arg += gam * np.log(np.maximum(1 - 0.375 * (y + y0), 0.0))
-    g = np.exp(arg)
+    g = half_exp(0.5 * arg)
     if conv.criterion == "peaks":
         nu = y / np.sqrt(sc)
         g *= np.clip(nu * (nu * nu - 3), 0.0, None)
@@ -378,7 +384,8 @@ def plan_pbh_thresholds(k_in, M_msun, conventions: PBHConventions | None = None,
         if not lo_d < lo <= hi < hi_d:
             raise ValueError(f"threshold_range [{lo}, {hi}] for {_name(conv)} must satisfy "
                              f"{lo_d} < lo <= hi < {hi_d} ({conv.criterion} criterion)")
-    base = plan_pbh(k_in, M_msun, conv, n_formation=n_formation, dof=dof, n_eff=n_eff)
+    base = plan_pbh(k_in, M_msun, conv, n_formation=n_formation, dof=dof, n_eff=n_eff,
+                    tabulate=conv.criterion != "compaction")   # the table serves any delta_c
     xT = rxcT = force = None
     if conv.mass_function == "critical":
         ratio = base.M[None, :] / base.M_H[:, None]

@@ -14,8 +14,10 @@ everything is put on grids common to all spectra:
   ln k grid of the same spacing, and the transfer to today is applied there; outside a
   walker's window Omega is 0 (below any curve).
 * f_PBH: the abundance depends on the absolute horizon mass (g_*), so log10 P is
-  interpolated onto one absolute ln k table and one :func:`scan.pbh.plan_pbh` evaluates
-  the stack (an optional per-walker threshold goes through a threshold plan).
+  interpolated onto one absolute ln k table (only the ~span/step points of each walker's
+  window are evaluated, :func:`spectra_on_table`; the rest is 0) and one
+  :func:`scan.pbh.plan_pbh` evaluates the stack (with the tabulated mass-weighted beta of
+  :mod:`scan.pbh.tables`; an optional per-walker threshold goes through a threshold plan).
 
 All functions are pure; :class:`BatchPlan` holds the precomputed plans.
 """
@@ -28,6 +30,7 @@ from typing import Any
 import numpy as np
 
 from scan import cosmo
+from scan.surrogate.window import spectra_on_table
 
 #: Spacing of the absolute ln k table of the f_PBH plan [e-folds of k].
 LNK_STEP = 0.05
@@ -230,7 +233,7 @@ def pbh_on_table(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray,
     PBHResult-like
         ``f_pbh`` (m, n_M) per ln M on ``plan.pbh.M`` [M_sun], ``f_pbh_total`` (m,).
     """
-    p_table = 10.0 ** interp_uniform_shifted(plan.lnk_table, ln_k_peak, plan.x, log10_p)
+    p_table = spectra_on_table(plan.lnk_table, ln_k_peak, plan.x, log10_p)
     if thresholds is None:
         return plan.pbh.evaluate(p_table)
     return plan.pbh.evaluate(p_table, np.asarray(thresholds, float))
@@ -261,8 +264,10 @@ def interp_uniform_shifted(x: np.ndarray, shift: np.ndarray, grid: np.ndarray,
     inside = (t >= -1e-9) & (t <= grid.size - 1 + 1e-9)
     j = np.clip(np.floor(t).astype(np.intp), 0, grid.size - 2)
     frac = t - j
-    f0 = np.take_along_axis(fp, j, axis=1)
-    f1 = np.take_along_axis(fp, j + 1, axis=1)
+    flat = np.ascontiguousarray(fp, dtype=float).ravel()
+    j += (np.arange(fp.shape[0]) * grid.size)[:, None]      # index into the flat rows
+    f0 = flat[j]
+    f1 = flat[j + 1]
     return np.where(inside, f0 + (f1 - f0) * frac, -np.inf)
 
 
