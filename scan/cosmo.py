@@ -44,6 +44,9 @@ def _value(x, unit) -> np.ndarray | float:
     return np.asarray(x, dtype=float) if np.ndim(x) else float(x)
 
 
+_INV_MPC = 1 / u.Mpc  # built once: composing the unit costs ~40 us per call
+
+
 def k_to_f(k_Mpc):
     """Frequency f = c k / (2 pi).
 
@@ -55,7 +58,7 @@ def k_to_f(k_Mpc):
     -------
     f : ndarray or float [Hz]
     """
-    return _value(k_Mpc, 1 / u.Mpc) * C.HZ_PER_INV_MPC
+    return _value(k_Mpc, _INV_MPC) * C.HZ_PER_INV_MPC
 
 
 def f_to_k(f_Hz):
@@ -160,7 +163,7 @@ def _ln_grid(dof: Dof, n_eff: float) -> tuple[np.ndarray, np.ndarray, np.ndarray
 def temperature_of_k(k_Mpc, dof: Dof = None, n_eff: float = N_EFF_DEFAULT):
     """Re-entry temperature T [GeV] of the mode k [Mpc^-1] (k = a H, see module doc)."""
     lnT, lnk, _ = _ln_grid(dof, n_eff)
-    x = np.log(_value(k_Mpc, 1 / u.Mpc))
+    x = np.log(_value(k_Mpc, _INV_MPC))
     return np.exp(_interp_extrap(x, lnk, lnT))
 
 

@@ -314,3 +314,29 @@ def test_threshold_nuisance_equals_a_fixed_threshold_run(trained):
         _, ref = fixed.log_and_blobs(np.array([model + [1e-15]]))
         assert blob["f_pbh_total"] == pytest.approx(ref["f_pbh_total"][0], rel=1e-10)
         np.testing.assert_equal(blob["M_pbh_peak"], ref["M_pbh_peak"][0])  # NaN == NaN
+
+
+def test_planned_terms_on_the_shared_grids_equal_the_terms_themselves(trained):
+    """The vectorised call scores the batch through terms planned once on the shared
+    grids (scan.likelihood.grid); the terms called directly on the same batch give the
+    same ln L and SNR to rounding (common practice: 1e-12 relative, sums reordered)."""
+    _, _, plan = trained
+    target = plan.target
+    thetas = plan.priors.sample(np.random.default_rng(4), 48)
+    reason, rows, batch = target.predict(thetas)
+    assert rows.size >= 10
+    assert target.loaded["planned"].covers(batch)
+    n = target.priors.n_model
+    nuisance = {name: thetas[rows, n + j] for j, name in enumerate(target.priors.names[n:])}
+    per_term, snr = target._scores(batch, nuisance, rows.size)
+    assert list(per_term) == [t.name for t in target.terms]
+    for term in target.terms:
+        direct = np.broadcast_to(np.asarray(term(batch, nuisance), float), (rows.size,))
+        np.testing.assert_allclose(per_term[term.name], direct, rtol=1e-12, atol=0.0)
+    for name, term in zip(target.snr_curves, target.loaded["snr"]):
+        np.testing.assert_allclose(snr[name], term.snr(batch.f_hz, batch.omega_gw_h2),
+                                   rtol=1e-12, atol=0.0)
+        assert np.any(snr[name] > 0.0)
+    # and the vectorised call stores them
+    _, blobs = target.log_and_blobs(thetas)
+    np.testing.assert_array_equal(blobs["lnL_demo_heron_ul"][rows], per_term["demo_heron_ul"])

@@ -8,11 +8,14 @@ returning ln L.  ``obs`` is any object (or mapping) with the attributes it needs
 * ``m_msun`` [M_sun] and ``f_pbh_per_lnm`` [1] — d f_PBH / d ln M;
 * scalars ``n_s``, ``ln_1e10_as``, ``r`` at the pivot k* = 0.05 Mpc^-1.
 
-Each term also offers ``loglike(x, y, ...)`` on plain arrays, vectorised over leading axes.
+Each term also offers ``loglike(x, y, ...)`` on plain arrays, vectorised over leading axes,
+and most offer ``on_grid(f_hz, m_msun)``: the same ln L for observables that always come on
+those grids, with the interpolation weights computed once (see ``scan.likelihood.grid``).
 """
 from __future__ import annotations
 
-from collections.abc import Mapping
+import functools
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -20,6 +23,8 @@ import numpy as np
 
 #: Smallest value taken before a logarithm (a zero spectrum is "nothing there").
 TINY: float = 1e-300
+#: log10 of :data:`TINY` as ``np.log10`` gives it.
+LOG10_TINY: float = float(np.log10(TINY))
 
 
 @dataclass(frozen=True, eq=False)
@@ -68,12 +73,68 @@ def interp_last(y: np.ndarray, idx: np.ndarray, w: np.ndarray) -> np.ndarray:
     return y[..., idx] * (1.0 - w) + y[..., idx + 1] * w
 
 
-def log10_model_at(x_model: np.ndarray, y_model: np.ndarray,
-                   x_at: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """log10 y_model at ``x_at`` (log-log interpolation) and the mask of points inside."""
+def log10_weights(x_model: np.ndarray, x_at: np.ndarray
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``interp_weights`` in log10 x from ``x_model`` to ``x_at``, and the mask of the
+    points of ``x_at`` inside the model's range."""
     lx = np.log10(x_model)
     lat = np.log10(x_at)
     inside = (lat >= lx[0]) & (lat <= lx[-1])
-    ly = np.log10(np.maximum(y_model, TINY))
     idx, w = interp_weights(lx, lat)
+    return idx, w, inside
+
+
+def log10_model_at(x_model: np.ndarray, y_model: np.ndarray,
+                   x_at: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """log10 y_model at ``x_at`` (log-log interpolation) and the mask of points inside."""
+    idx, w, inside = log10_weights(x_model, x_at)
+    ly = np.log10(np.maximum(y_model, TINY))
     return interp_last(ly, idx, w), inside
+
+
+class GridSpectra:
+    """The observables of one call on a term set's planned grids, with shared work.
+
+    Built by :meth:`scan.likelihood.grid.PlannedTerms.spectra`.  log10 Omega_GW h^2 (every
+    GW term reads it) and each sensitivity curve's SNR are computed once per call, on
+    first use.
+
+    Parameters
+    ----------
+    obs : object or Mapping
+        Observables whose ``f_hz`` and ``m_msun`` are the planned grids.
+    """
+
+    def __init__(self, obs: Any) -> None:
+        self.obs = obs
+        self._memo: dict[Any, Any] = {}
+
+    @functools.cached_property
+    def omega(self) -> np.ndarray:
+        """Omega_GW h^2 on the planned frequencies [1], shape (..., n_f)."""
+        return np.asarray(get(self.obs, "omega_gw_h2"), dtype=float)
+
+    @functools.cached_property
+    def log10_omega(self) -> np.ndarray:
+        """log10 of Omega_GW h^2, floored at :data:`TINY` (as every term takes it).
+
+        The same numbers as ``np.log10(np.maximum(omega, TINY))``; the logarithm is taken
+        only where Omega exceeds the floor (a spectrum on a shared grid is 0 outside its
+        own window, most of the grid).
+        """
+        omega = self.omega
+        above = ~(omega <= TINY)                         # NaN stays NaN
+        out = np.full(omega.shape, LOG10_TINY)
+        out[above] = np.log10(omega[above])
+        return out
+
+    @functools.cached_property
+    def f_pbh_per_lnm(self) -> np.ndarray:
+        """d f_PBH / d ln M on the planned masses [1], shape (..., n_M)."""
+        return np.asarray(get(self.obs, "f_pbh_per_lnm"), dtype=float)
+
+    def once(self, key: Any, compute: Callable[[], Any]) -> Any:
+        """``compute()``, evaluated on the first call with ``key`` only."""
+        if key not in self._memo:
+            self._memo[key] = compute()
+        return self._memo[key]

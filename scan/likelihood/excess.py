@@ -16,7 +16,8 @@ import numpy as np
 from scan.constants import F_YR_HZ, GW_OMEGA_PREFACTOR_S2
 from scan.curves import Curve
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import TINY, as_result, get, log10_model_at, nuisance_value
+from scan.likelihood.base import (TINY, GridSpectra, as_result, get, interp_last,
+                                  log10_model_at, log10_weights, nuisance_value)
 
 #: Nuisance key of the foreground amplitude A (h_c = A (f/f_yr)^(-2/3)).
 FOREGROUND_KEY: str = "A_smbhb"
@@ -51,10 +52,52 @@ def smbhb_omega_h2(f_hz: np.ndarray, amplitude) -> np.ndarray:
 def _model_at_bins(f_hz, omega_h2, bins_hz, foreground: bool, amplitude) -> np.ndarray:
     """log10 of model (zero outside its range) plus foreground at the bins."""
     lm, inside = log10_model_at(np.asarray(f_hz), np.asarray(omega_h2), bins_hz)
-    total = np.where(inside, 10.0**lm, 0.0)
-    if foreground:
-        total = total + smbhb_omega_h2(bins_hz, amplitude)
+    return _with_foreground(np.where(inside, 10.0**lm, 0.0), bins_hz, foreground, amplitude)
+
+
+def _with_foreground(model: np.ndarray, bins_hz, foreground: bool, amplitude) -> np.ndarray:
+    """log10 of the model at the bins plus (optionally) the foreground, floored."""
+    total = model + smbhb_omega_h2(bins_hz, amplitude) if foreground else model
     return np.log10(np.maximum(total, TINY))
+
+
+@dataclass(frozen=True, eq=False)
+class BinsOnGrid:
+    """An excess term on a fixed frequency grid: its bins inside the model's range and
+    their log-log interpolation weights, found once (the numbers of ``_model_at_bins``).
+
+    Attributes
+    ----------
+    term : SplitNormalExcess or DensityGridExcess
+    inside : numpy.ndarray of bool
+        Bins inside the grid (the model is 0 at the others).
+    idx, w : numpy.ndarray
+        Interpolation of log10 Omega_GW h^2 at the bins inside.
+    """
+
+    term: "SplitNormalExcess | DensityGridExcess"
+    inside: np.ndarray
+    idx: np.ndarray
+    w: np.ndarray
+
+    @classmethod
+    def plan(cls, term, f_hz: np.ndarray) -> "BinsOnGrid":
+        """Weights of ``term``'s bins on the model frequencies ``f_hz`` [Hz]."""
+        idx, w, inside = log10_weights(np.asarray(f_hz, dtype=float), term.f_hz)
+        return cls(term, inside, idx[inside], w[inside])
+
+    @property
+    def name(self) -> str:
+        return self.term.name
+
+    def __call__(self, spectra: GridSpectra, nuisance=None) -> float | np.ndarray:
+        t = self.term
+        ly = spectra.log10_omega
+        model = np.zeros(ly.shape[:-1] + (t.f_hz.size,))
+        if self.idx.size:
+            model[..., self.inside] = 10.0 ** interp_last(ly, self.idx, self.w)
+        amp = nuisance_value(nuisance, FOREGROUND_KEY, t.default_amplitude)
+        return t.score_bins(_with_foreground(model, t.f_hz, t.foreground, amp))
 
 
 @dataclass(frozen=True, eq=False)
@@ -96,7 +139,10 @@ class SplitNormalExcess:
     def loglike(self, f_hz, omega_h2, amplitude=None) -> float | np.ndarray:
         """ln L (normalised split normals) for spectra (..., n) on ``f_hz`` [Hz]."""
         amp = self.default_amplitude if amplitude is None else amplitude
-        m = _model_at_bins(f_hz, omega_h2, self.f_hz, self.foreground, amp)
+        return self.score_bins(_model_at_bins(f_hz, omega_h2, self.f_hz, self.foreground, amp))
+
+    def score_bins(self, m: np.ndarray) -> float | np.ndarray:
+        """ln L of log10 Omega_GW h^2 (model plus foreground) at the bins (..., n_bins)."""
         d = m - self.mu
         sigma = np.where(d < 0.0, self.sigma_lo, self.sigma_hi)
         norm = np.log(math.sqrt(2 * math.pi) * 0.5 * (self.sigma_lo + self.sigma_hi))
@@ -105,6 +151,10 @@ class SplitNormalExcess:
     def __call__(self, obs, nuisance=None) -> float | np.ndarray:
         amp = nuisance_value(nuisance, FOREGROUND_KEY, self.default_amplitude)
         return self.loglike(get(obs, "f_hz"), get(obs, "omega_gw_h2"), amp)
+
+    def on_grid(self, f_hz: np.ndarray, m_msun: np.ndarray | None = None) -> BinsOnGrid:
+        """This term for spectra that always come on ``f_hz`` [Hz] (weights found once)."""
+        return BinsOnGrid.plan(self, f_hz)
 
 
 @dataclass(frozen=True, eq=False)
@@ -144,7 +194,10 @@ class DensityGridExcess:
     def loglike(self, f_hz, omega_h2, amplitude=None) -> float | np.ndarray:
         """ln L for spectra (..., n) on ``f_hz`` [Hz]; the model is clipped to each grid."""
         amp = self.default_amplitude if amplitude is None else amplitude
-        m = _model_at_bins(f_hz, omega_h2, self.f_hz, self.foreground, amp)
+        return self.score_bins(_model_at_bins(f_hz, omega_h2, self.f_hz, self.foreground, amp))
+
+    def score_bins(self, m: np.ndarray) -> float | np.ndarray:
+        """ln L of log10 Omega_GW h^2 (model plus foreground) at the bins (..., n_bins)."""
         total = 0.0
         for k, (grid, logd) in enumerate(zip(self.grids, self.log_density)):
             total = total + np.interp(m[..., k], grid, logd)
@@ -153,3 +206,7 @@ class DensityGridExcess:
     def __call__(self, obs, nuisance=None) -> float | np.ndarray:
         amp = nuisance_value(nuisance, FOREGROUND_KEY, self.default_amplitude)
         return self.loglike(get(obs, "f_hz"), get(obs, "omega_gw_h2"), amp)
+
+    def on_grid(self, f_hz: np.ndarray, m_msun: np.ndarray | None = None) -> BinsOnGrid:
+        """This term for spectra that always come on ``f_hz`` [Hz] (weights found once)."""
+        return BinsOnGrid.plan(self, f_hz)

@@ -15,7 +15,7 @@ import numpy as np
 
 from scan.cosmo import omega_gamma_h2
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import as_result, get, interp_last, interp_weights
+from scan.likelihood.base import GridSpectra, as_result, get, interp_last, interp_weights
 
 #: (7/8)(4/11)^(4/3) Omega_gamma h^2: integrated Omega_GW h^2 per unit Delta N_eff.
 NEFF_COEFFICIENT: float = (7.0 / 8.0) * (4.0 / 11.0) ** (4.0 / 3.0) * omega_gamma_h2()
@@ -75,11 +75,55 @@ class NeffBound:
 
     def loglike(self, f_hz: np.ndarray, omega_h2: np.ndarray) -> float | np.ndarray:
         i_gw = integrated_omega_h2(f_hz, omega_h2, self.f_min_hz, self.f_max_hz)
+        return self.loglike_of_integral(i_gw)
+
+    def loglike_of_integral(self, i_gw) -> float | np.ndarray:
+        """ln L of int d ln f Omega_GW h^2 = ``i_gw``."""
         return as_result(one_sided(i_gw, self.limit, self.method,
                                    two_sided_z(self.confidence)))
 
     def __call__(self, obs, nuisance=None) -> float | np.ndarray:
         return self.loglike(get(obs, "f_hz"), get(obs, "omega_gw_h2"))
+
+    def on_grid(self, f_hz: np.ndarray, m_msun: np.ndarray | None = None) -> "NeffOnGrid":
+        """This bound for spectra that always come on ``f_hz`` [Hz]."""
+        f_hz = np.asarray(f_hz, dtype=float)
+        # the integral is linear in Omega: its coefficients integrate the unit vectors
+        v = integrated_omega_h2(f_hz, np.eye(f_hz.size), self.f_min_hz, self.f_max_hz)
+        return NeffOnGrid(self, f_hz, v)
+
+
+@dataclass(frozen=True, eq=False)
+class NeffOnGrid:
+    """:class:`NeffBound` on a fixed grid: int d ln f Omega_GW h^2 = Omega @ v.
+
+    The sums of :func:`integrated_omega_h2` in another order (equal to rounding); rows with
+    a non-finite Omega (a non-finite product: 0 * inf is NaN) are integrated directly.
+
+    Attributes
+    ----------
+    term : NeffBound
+    f_hz : numpy.ndarray [Hz]
+    v : numpy.ndarray [1]
+        Interpolation times trapezoid weights in ln f.
+    """
+
+    term: NeffBound
+    f_hz: np.ndarray
+    v: np.ndarray
+
+    @property
+    def name(self) -> str:
+        return self.term.name
+
+    def __call__(self, spectra: GridSpectra, nuisance=None) -> float | np.ndarray:
+        t, omega = self.term, spectra.omega
+        with np.errstate(invalid="ignore"):
+            i_gw = np.asarray(omega @ self.v)
+        bad = ~np.isfinite(i_gw)      # every sample enters the product: a non-finite one shows
+        if np.any(bad):
+            i_gw[bad] = integrated_omega_h2(self.f_hz, omega[bad], t.f_min_hz, t.f_max_hz)
+        return t.loglike_of_integral(i_gw)
 
 
 @dataclass(frozen=True)

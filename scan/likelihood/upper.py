@@ -11,7 +11,8 @@ import numpy as np
 
 from scan.curves import Curve
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import TINY, as_result, get, log10_model_at
+from scan.likelihood.base import (TINY, GridSpectra, as_result, get, interp_last,
+                                  log10_model_at, log10_weights)
 
 METHODS: tuple[str, ...] = ("step", "half_normal", "soft_log")
 
@@ -84,6 +85,61 @@ class UpperLimit:
         return as_result(penalty(self.worst_log10_ratio(f_hz, omega_h2), self.method,
                                  self.z, self.width_dex))
 
+    def on_grid(self, f_hz: np.ndarray, m_msun: np.ndarray | None = None) -> "UpperLimitOnGrid":
+        """This limit for spectra that always come on ``f_hz`` [Hz] (weights computed once)."""
+        f_hz = np.asarray(f_hz, dtype=float)
+        lf = np.log10(f_hz)
+        cols = np.flatnonzero((lf >= self.log10_x[0]) & (lf <= self.log10_x[-1]))
+        lu_at_model = np.interp(lf, self.log10_x, self.log10_u)[cols]
+        idx, w, in_model = log10_weights(f_hz, 10.0**self.log10_x)
+        return UpperLimitOnGrid(self, cols, lu_at_model, idx[in_model], w[in_model],
+                                self.log10_u[in_model])
+
     def __call__(self, obs, nuisance=None) -> float | np.ndarray:
         """ln L of the observables' GW spectrum."""
         return self.loglike(np.asarray(get(obs, "f_hz")), np.asarray(get(obs, "omega_gw_h2")))
+
+
+@dataclass(frozen=True, eq=False)
+class UpperLimitOnGrid:
+    """:class:`UpperLimit` on a fixed frequency grid: the model points inside the curve and
+    the curve points inside the model, with their interpolation weights, found once.
+
+    Attributes
+    ----------
+    term : UpperLimit
+    cols : numpy.ndarray of int
+        Model frequencies inside the curve's range.
+    lu_at_cols : numpy.ndarray [log10 Omega_GW h^2]
+        The limit there.
+    idx, w : numpy.ndarray
+        Log-log interpolation of the model at the curve points inside the model's range.
+    lu_inside : numpy.ndarray [log10 Omega_GW h^2]
+        The limit at those curve points.
+    """
+
+    term: UpperLimit
+    cols: np.ndarray
+    lu_at_cols: np.ndarray
+    idx: np.ndarray
+    w: np.ndarray
+    lu_inside: np.ndarray
+
+    @property
+    def name(self) -> str:
+        return self.term.name
+
+    def worst_log10_ratio(self, spectra: GridSpectra) -> np.ndarray:
+        """As :meth:`UpperLimit.worst_log10_ratio` (the same numbers)."""
+        ly = spectra.log10_omega
+        worst = np.full(ly.shape[:-1], -np.inf)
+        if self.cols.size:
+            worst = np.maximum(worst, (ly[..., self.cols] - self.lu_at_cols).max(axis=-1))
+        if self.idx.size:
+            at_curve = interp_last(ly, self.idx, self.w) - self.lu_inside
+            worst = np.maximum(worst, at_curve.max(axis=-1))
+        return worst
+
+    def __call__(self, spectra: GridSpectra, nuisance=None) -> float | np.ndarray:
+        t = self.term
+        return as_result(penalty(self.worst_log10_ratio(spectra), t.method, t.z, t.width_dex))

@@ -13,7 +13,8 @@ For every walker ``theta = (model parameters, nuisance parameters)``:
    (:mod:`scan.surrogate.observables`), with the ``[observables]`` conventions (the collapse
    threshold per walker when ``pbh.threshold`` is a nuisance parameter);
 4. ln L = the sum of the ``[likelihood]`` terms, each evaluated once for all walkers
-   with the nuisance parameters (``A_smbhb``) as arrays; a model a bound rules out
+   with the nuisance parameters (``A_smbhb``) as arrays, planned once per process on the
+   shared grids (:func:`scan.likelihood.plan_terms`); a model a bound rules out
    (ln L = -inf) is ``excluded``.  Every term's ln L is stored as blob ``lnL_<name>``
    (so summaries can say which constraint binds).
 
@@ -31,7 +32,9 @@ from typing import Any
 import numpy as np
 
 from scan.config_schema import RunConfig
+from scan.likelihood.grid import plan_terms
 from scan.priors import PriorSet
+from scan.sampler.posterior_math import mass_at_peak, peak_range, total_of_terms
 from scan.surrogate.observables import (BatchObservables, batch_observables, parabolic_peak,
                                        plan_batch)
 from scan.sampler.posterior_setup import (NUISANCE_NAMES, THRESHOLD, UNSUPPORTED_NUISANCE,
@@ -51,10 +54,6 @@ R_PRIOR, R_BOX, R_INVALID, R_TABLE, R_EXCLUDED = 1, 2, 3, 4, 5
 BLOB_FIELDS: tuple[str, ...] = ("k_peak", "P_peak", "f_gw_peak", "omega_gw_h2_peak",
                                 "f_pbh_total", "M_pbh_peak", "n_s", "r", "N_star",
                                 "log_like")
-#: Surrogate predictions used to find the range of ln k_peak the shared grids cover.
-RANGE_POINTS = 1024
-#: Padding of that range on each side [e-folds of k].
-RANGE_PAD = 3.0
 
 
 @dataclasses.dataclass(frozen=True)
@@ -176,13 +175,14 @@ class PosteriorTarget(TargetBase):
             def pbh_plan(k_table, masses):
                 return plan_pbh_thresholds(k_table, masses, conventions, span, dof=dof,
                                            n_eff=o.n_eff)
-        plan = plan_batch(surrogate.emulator.basis.x, _peak_range(surrogate), conventions,
+        plan = plan_batch(surrogate.emulator.basis.x, peak_range(surrogate), conventions,
                           n_out=self.n_out, n_mass=self.n_mass, dof=dof, n_eff=o.n_eff,
                           pbh_plan=pbh_plan)
         by_name = {t.name: t for t in terms}
         self.__dict__["_loaded"] = dict(
             surrogate=surrogate, order=np.array([keys.index(k) for k in surrogate.space.keys]),
-            terms=terms, plan=plan, snr=[by_name[name] for name in self.snr_curves])
+            terms=terms, plan=plan, snr=[by_name[name] for name in self.snr_curves],
+            planned=plan_terms(terms, plan.f_gw, np.asarray(plan.pbh.M)))
 
     @property
     def loaded(self) -> dict[str, Any]:
@@ -224,10 +224,15 @@ class PosteriorTarget(TargetBase):
         batch : BatchObservables or None
             Their observables (None when m = 0).
         """
+        return self._predict(np.atleast_2d(np.asarray(thetas, float)))[:3]
+
+    def _predict(self, thetas: np.ndarray) -> tuple[np.ndarray, np.ndarray,
+                                                    BatchObservables | None, np.ndarray]:
+        """:meth:`predict` of 2-D ``thetas``, and their log-prior."""
         data = self.loaded
-        thetas = np.atleast_2d(np.asarray(thetas, float))
+        log_prior = self.priors.log_prior(thetas)
         reason = np.zeros(len(thetas), dtype=np.int16)
-        reason[~np.isfinite(self.priors.log_prior(thetas))] = R_PRIOR
+        reason[~np.isfinite(log_prior)] = R_PRIOR
         model = thetas[:, :self.priors.n_model][:, data["order"]]
         space = data["surrogate"].space
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -237,7 +242,7 @@ class PosteriorTarget(TargetBase):
         reason[(reason == 0) & ~in_box] = R_BOX
         todo = np.flatnonzero(reason == 0)
         if not todo.size:
-            return reason, todo, None
+            return reason, todo, None, log_prior
         pred = data["surrogate"].predict(model[todo])
         scalars = np.column_stack([pred.ln_k_peak, pred.log10_P_peak, pred.n_s, pred.log10_r,
                                    pred.N_star])
@@ -249,14 +254,14 @@ class PosteriorTarget(TargetBase):
         reason[todo[ok & ~in_table]] = R_TABLE
         keep = ok & in_table
         if not keep.any():
-            return reason, todo[:0], None
+            return reason, todo[:0], None, log_prior
         thresholds = None
         if THRESHOLD in self.priors.names[self.priors.n_model:]:
             thresholds = thetas[todo[keep], self.priors.names.index(THRESHOLD)]
         batch = batch_observables(data["plan"], pred.ln_k_peak[keep], pred.log10_P_peak[keep],
                                   pred.shape[keep], pred.n_s[keep], 10.0 ** pred.log10_r[keep],
                                   pred.N_star[keep], self.config.pivot.ln_1e10_As, thresholds)
-        return reason, todo[keep], batch
+        return reason, todo[keep], batch, log_prior
 
     def observables(self, thetas: np.ndarray) -> tuple[np.ndarray, list[Observables | None]]:
         """Reason codes and per-point :class:`Observables` (None where not valid)."""
@@ -283,21 +288,21 @@ class PosteriorTarget(TargetBase):
             NaN derived fields where the model was not evaluated.
         """
         thetas = np.atleast_2d(np.asarray(thetas, float))
-        reason, rows, batch = self.predict(thetas)
+        reason, rows, batch, log_prior = self._predict(thetas)
         blobs = self._empty_blobs(len(thetas))
         log_p = np.full(len(thetas), -np.inf)
         if batch is not None:
             n = self.priors.n_model
             nuisance = {name: thetas[rows, n + j]
                         for j, name in enumerate(self.priors.names[n:])}
-            per_term = self._per_term(batch, nuisance, len(rows))
-            total = _total(per_term, len(rows))
-            self._store(blobs, rows, per_term, total, batch.f_hz, batch.omega_gw_h2, dict(
+            per_term, snr = self._scores(batch, nuisance, len(rows))
+            total = total_of_terms(per_term, len(rows))
+            self._store(blobs, rows, per_term, total, snr, dict(
                 k_peak=batch.k_peak, P_peak=batch.P_peak, f_gw_peak=batch.f_gw_peak,
                 omega_gw_h2_peak=batch.omega_gw_h2_peak, f_pbh_total=batch.f_pbh_total,
-                M_pbh_peak=_mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm),
+                M_pbh_peak=mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm),
                 n_s=batch.n_s, r=batch.r, N_star=batch.N_star))
-            self._finish(log_p, reason, rows, total, self.priors.log_prior(thetas))
+            self._finish(log_p, reason, rows, total, log_prior)
         blobs["reason"] = reason
         return log_p, blobs
 
@@ -326,15 +331,15 @@ class PosteriorTarget(TargetBase):
         for i, ob in enumerate(obs):
             if ob is None:
                 continue
-            per_term = self._per_term(ob, self.nuisance_of(thetas[i]), 1)
-            total = _total(per_term, 1)
+            per_term, snr = self._scores(ob, self.nuisance_of(thetas[i]), 1)
+            total = total_of_terms(per_term, 1)
             rows = np.array([i])
             ln_f, ln_omega = parabolic_peak(np.log(ob.f_hz),
                                             np.log(np.maximum(ob.omega_gw_h2, 1e-300)))
-            self._store(blobs, rows, per_term, total, ob.f_hz, np.atleast_2d(ob.omega_gw_h2), dict(
+            self._store(blobs, rows, per_term, total, snr, dict(
                 k_peak=ob.k_peak, P_peak=ob.P_peak, f_gw_peak=math.exp(ln_f),
                 omega_gw_h2_peak=math.exp(ln_omega), f_pbh_total=ob.f_pbh_total,
-                M_pbh_peak=_mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
+                M_pbh_peak=mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
                 n_s=ob.n_s, r=ob.r, N_star=ob.N_star))
             self._finish(log_p, reason, rows, total, log_prior)
         blobs["reason"] = reason
@@ -347,22 +352,40 @@ class PosteriorTarget(TargetBase):
             blobs[name] = np.nan
         return blobs
 
-    def _per_term(self, obs: Any, nuisance: dict, m: int) -> dict[str, np.ndarray]:
-        """Each term's ln L for m points, shape (m,); two terms with one name refused."""
-        out: dict[str, np.ndarray] = {}
-        for term in self.terms:
-            if term.name in out:
-                raise ValueError(f"two likelihood terms are named {term.name!r}")
-            out[term.name] = np.broadcast_to(np.asarray(term(obs, nuisance), float), (m,))
-        return out
+    def _scores(self, obs: Any, nuisance: dict, m: int
+                ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+        """Each term's ln L and each stored SNR for m points, shape (m,).
+
+        Observables on the planned shared grids go through the planned terms
+        (:mod:`scan.likelihood.grid`: weights found once, shared log10 Omega and SNRs);
+        others (one point on its own grids) through the terms themselves.  Two terms
+        with one name are refused.
+        """
+        planned = self.loaded["planned"]
+        if planned.covers(obs):
+            spectra = planned.spectra(obs)
+            values = planned.loglikes(spectra, nuisance)
+            snr = {name: planned.snr(name, spectra) for name in self.snr_curves}
+        else:
+            values = {}
+            for term in self.terms:
+                if term.name in values:
+                    raise ValueError(f"two likelihood terms are named {term.name!r}")
+                values[term.name] = term(obs, nuisance)
+            f_hz, omega = obs.f_hz, np.atleast_2d(obs.omega_gw_h2)
+            snr = {name: term.snr(f_hz, omega)
+                   for name, term in zip(self.snr_curves, self.loaded["snr"])}
+        per_term = {name: np.broadcast_to(np.asarray(v, float), (m,))
+                    for name, v in values.items()}
+        return per_term, snr
 
     def _store(self, blobs: np.ndarray, rows: np.ndarray, per_term: dict, total: np.ndarray,
-               f_hz: np.ndarray, omega: np.ndarray, derived: dict) -> None:
+               snr: dict, derived: dict) -> None:
         for name, value in derived.items():
             blobs[name][rows] = value
         blobs["log_like"][rows] = total
-        for name, term in zip(self.snr_curves, self.loaded["snr"]):
-            blobs[f"snr_{name}"][rows] = term.snr(f_hz, omega)
+        for name, value in snr.items():
+            blobs[f"snr_{name}"][rows] = value
         for name, value in per_term.items():
             blobs[f"lnL_{name}"][rows] = value
 
@@ -372,39 +395,3 @@ class PosteriorTarget(TargetBase):
         excluded = total == -np.inf
         reason[rows[excluded]] = R_EXCLUDED
         log_p[rows[~excluded]] = log_prior[rows[~excluded]] + total[~excluded]
-
-
-def _total(per_term: dict[str, np.ndarray], m: int) -> np.ndarray:
-    """Sum of the terms, -inf where any term is -inf (shape (m,))."""
-    if not per_term:
-        return np.zeros(m)
-    stack = np.vstack(list(per_term.values()))
-    with np.errstate(invalid="ignore"):
-        total = np.where(np.isneginf(stack), 0.0, stack).sum(axis=0)
-    return np.where(np.isneginf(stack).any(axis=0), -np.inf, total)
-
-
-#: Below this d f_PBH / d ln M everywhere, a row has no peak mass (NaN): values that
-#: small are rounding in the exponential tail (subnormal numbers), not an abundance.
-NEGLIGIBLE_FPBH = 1e-200
-
-
-def _mass_at_peak(m_msun: np.ndarray, f_per_lnm: np.ndarray) -> np.ndarray:
-    """Mass of the maximum of d f_PBH / d ln M per row (NaN where f is negligible)."""
-    f = np.atleast_2d(f_per_lnm)
-    return np.where(np.any(f > NEGLIGIBLE_FPBH, axis=1),
-                    np.asarray(m_msun)[np.argmax(f, axis=1)], np.nan)
-
-
-def _peak_range(surrogate) -> tuple[float, float]:
-    """ln k_peak range the shared grids cover: a fixed quasi-random sample of the
-    surrogate's box (valid predictions), padded by :data:`RANGE_PAD` e-folds."""
-    from scipy.stats import qmc
-
-    u = qmc.Sobol(surrogate.space.dim, scramble=True, seed=0).random(RANGE_POINTS)
-    u = np.clip(u, 1e-6, 1.0 - 1e-6)
-    pred = surrogate.predict(surrogate.space.from_unit(u))
-    ln_k = pred.ln_k_peak[pred.valid & np.isfinite(pred.ln_k_peak)]
-    if not ln_k.size:
-        ln_k = pred.ln_k_peak[np.isfinite(pred.ln_k_peak)]
-    return float(ln_k.min()) - RANGE_PAD, float(ln_k.max()) + RANGE_PAD

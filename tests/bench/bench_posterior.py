@@ -8,9 +8,15 @@ solved) with 256 training points, builds the posterior target exactly as
 * the vectorised call (``log_and_blobs``: one emulator call, batched Omega_GW / f_PBH,
   each likelihood term once for all walkers), and
 * the same observables scored one walker at a time (``score``: the per-walker path
-  ``zetascan verify`` uses for exact solves).
+  ``zetascan verify`` uses for exact solves);
 
-Prints evaluations per second and the ratio.  Goal: >= 10,000 evaluations/s.
+and two parts of the vectorised call against what they replaced, on the same batch:
+
+* the likelihood terms and SNRs planned once on the shared grids
+  (:mod:`scan.likelihood.grid`) vs the terms called directly on the batch;
+* Omega_GW of the quadratic form by output blocks vs the dense product.
+
+Prints evaluations per second and the ratios.  Goal: >= 10,000 evaluations/s.
 Run:  python tests/bench/bench_posterior.py
 """
 from __future__ import annotations
@@ -67,9 +73,31 @@ def main() -> None:
         valid = int(np.isfinite(log_p).sum())
         reason, obs = target.observables(thetas)
 
+        _, rows, batch = target.predict(thetas)
+        n = target.priors.n_model
+        nuisance = {name: thetas[rows, n + j] for j, name in enumerate(target.names[n:])}
+        snr_terms = target.loaded["snr"]
+
+        def direct_terms():
+            [term(batch, nuisance) for term in target.terms]
+            [term.snr(batch.f_hz, batch.omega_gw_h2) for term in snr_terms]
+
+        sigw = target.loaded["plan"].sigw
+        pred = target.loaded["surrogate"].predict(thetas[rows, :n][:, target.loaded["order"]])
+        spectra = 10.0 ** (pred.log10_P_peak[:, None] + pred.shape)
+
+        def dense_sigw():
+            fine = np.exp(np.log(np.maximum(spectra, 1e-300)) @ sigw._lift.T)
+            a, b = sigw._pairs
+            return (fine[:, a] * fine[:, b]) @ sigw._W
+
         with single_blas_thread():
             t_batch = median_s(lambda: target.log_and_blobs(thetas), 50)
             t_loop = median_s(lambda: target.score(thetas, reason, obs), 10)
+            t_planned = median_s(lambda: target._scores(batch, nuisance, len(rows)), 100)
+            t_direct = median_s(direct_terms, 100)
+            t_blocks = median_s(lambda: sigw.omega_gw(spectra), 100)
+            t_dense = median_s(dense_sigw, 100)
         print(f"{WALKERS} walkers ({valid} valid), {len(target.terms)} likelihood terms, "
               f"{len(train.u)} training points")
         print(f"vectorised call : {1e3 * t_batch:7.2f} ms  -> {WALKERS / t_batch:9.0f} "
@@ -77,6 +105,10 @@ def main() -> None:
         print(f"per-walker score: {1e3 * t_loop:7.2f} ms  -> {WALKERS / t_loop:9.0f} "
               "evaluations/s (likelihood only, observables precomputed)")
         print(f"ratio per-walker / vectorised: {t_loop / t_batch:.1f}x")
+        print(f"terms + SNR, planned on the grids: {1e3 * t_planned:6.2f} ms, called directly: "
+              f"{1e3 * t_direct:6.2f} ms ({t_direct / t_planned:.1f}x)")
+        print(f"Omega_GW quadratic form by blocks: {1e3 * t_blocks:6.2f} ms, dense product:  "
+              f"{1e3 * t_dense:6.2f} ms ({t_dense / t_blocks:.1f}x)")
 
 
 if __name__ == "__main__":

@@ -35,7 +35,7 @@ def median_ms(func, repeats: int) -> float:
 
 
 def main() -> None:
-    for points in (128, 384):
+    for points in (128, 384, 560):  # 560: the size of the pole-scan surrogate
         cfg = config(f"surrogate.points={points}", "surrogate.holdout=64",
                      "surrogate.refine_rounds=0")
         with tempfile.TemporaryDirectory() as tmp:
