@@ -186,3 +186,24 @@ def test_a_spectrum_with_its_feature_at_cmb_scales_is_outside_the_surrogate():
     good = record_from_spectrum(np.zeros(2), SimpleNamespace(**base, n_s=0.96), x)
     assert not bad.valid and bad.reason == CMB_FEATURE_REASON
     assert good.valid and good.n_s == 0.96
+
+
+def test_validation_compares_fpbh_only_where_either_side_makes_pbhs(trained):
+    """Rows where both the exact and the emulated f_PBH are below NEGLIGIBLE_FPBH (1e-30)
+    are left out of the f_PBH error (an error between 1e-170 and 1e-174 means nothing)."""
+    _, _, em, train, hold = trained
+    n_valid = int(hold.valid.sum())
+    calls = []
+
+    def observables(ln_k, log10_p, shape, x):
+        calls.append(len(ln_k))
+        exact = len(calls) == 1                    # validate asks for the exact side first
+        fpbh = np.full(len(ln_k), -170.0 if exact else -174.0)
+        fpbh[:3] = (-5.0, -40.0, -29.0) if exact else (-5.1, -20.0, -31.0)
+        return {"log10_omega_gw_h2_peak": np.zeros(len(ln_k)), "log10_fpbh_total": fpbh}
+
+    report = validate(em, train, hold, observables)
+    row = report["errors"]["log10_fpbh_total where f_PBH > 1e-30 [dex]"]
+    assert calls == [n_valid, n_valid]
+    assert row["n"] == 3                           # (-5, -5.1), (-40, -20), (-29, -31)
+    assert row["max"] == pytest.approx(20.0) and row["median"] == pytest.approx(2.0)

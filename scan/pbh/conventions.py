@@ -11,6 +11,11 @@ CRITERIA: tuple[str, ...] = ("compaction", "press-schechter", "peaks")
 MASS_FUNCTIONS: tuple[str, ...] = ("critical", "monochromatic")
 
 
+#: An abundance below this makes no PBHs to speak of: 1e-30 is ~20 orders of magnitude below
+#: the tightest f_PBH limits (used by the surrogate's validation report and by ``verify``).
+NEGLIGIBLE_FPBH = 1e-30
+
+
 @dataclass(frozen=True)
 class PBHConventions:
     """How PBH abundances are computed.  Thresholds are window-specific: record both.

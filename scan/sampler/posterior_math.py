@@ -25,13 +25,13 @@ def total_of_terms(per_term: dict[str, np.ndarray], m: int) -> np.ndarray:
 
 #: Below this d f_PBH / d ln M everywhere, a row has no peak mass (NaN): values that
 #: small are rounding in the exponential tail (subnormal numbers), not an abundance.
-NEGLIGIBLE_FPBH = 1e-200
+NO_PEAK_FPBH = 1e-200
 
 
 def mass_at_peak(m_msun: np.ndarray, f_per_lnm: np.ndarray) -> np.ndarray:
     """Mass of the maximum of d f_PBH / d ln M per row (NaN where f is negligible)."""
     f = np.atleast_2d(f_per_lnm)
-    return np.where(np.any(f > NEGLIGIBLE_FPBH, axis=1),
+    return np.where(np.any(f > NO_PEAK_FPBH, axis=1),
                     np.asarray(m_msun)[np.argmax(f, axis=1)], np.nan)
 
 

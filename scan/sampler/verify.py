@@ -47,6 +47,7 @@ from typing import Any
 
 import numpy as np
 
+from scan.pbh.conventions import NEGLIGIBLE_FPBH
 from scan.pool import BasePool
 from scan.sampler.importance import kish_ess, median_shift, normalised_weights, \
     weighted_quantiles
@@ -314,10 +315,9 @@ def flags(report: dict[str, Any], thresholds: Thresholds) -> list[str]:
 
 #: Derived quantities that only mean something where PBHs are not negligible.
 PBH_FIELDS: tuple[str, ...] = ("f_pbh_total", "M_pbh_peak")
-#: A posterior whose f_PBH total stays below this (84 % quantile, both sides) makes no
-#: PBHs to speak of: 1e-30 is ~20 orders of magnitude below the tightest f_PBH limits, so
-#: where its (meaningless) peak mass falls is not a bias of the posterior.
-NEGLIGIBLE_FPBH = 1e-30
+#: A posterior whose f_PBH total stays below NEGLIGIBLE_FPBH (84 % quantile, both sides;
+#: :mod:`scan.pbh.conventions`) makes no PBHs to speak of, so where its (meaningless) peak
+#: mass falls is not a bias of the posterior.
 
 
 #: An SNR below this on both sides (84 % quantile) is no detection either way: where it
