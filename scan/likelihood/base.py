@@ -61,6 +61,23 @@ def as_result(value: np.ndarray) -> float | np.ndarray:
     return float(value) if value.ndim == 0 else value
 
 
+def product_or_direct(values: np.ndarray, weights: np.ndarray,
+                      direct: Callable[[np.ndarray], np.ndarray]) -> np.ndarray:
+    """``values @ weights``, with rows whose product is not finite recomputed by ``direct``.
+
+    Every sample of a row enters the product, so a non-finite one shows in it (0 * inf is
+    NaN); ``direct(values[bad])`` then gives those rows as the unplanned term would.
+    """
+    with np.errstate(invalid="ignore"):
+        out = np.asarray(values @ weights)
+    bad = ~np.isfinite(out)
+    if out.ndim > np.ndim(values) - 1:      # a matrix of weights: one column per output
+        bad = np.any(bad, axis=-1)
+    if np.any(bad):
+        out[bad] = direct(values[bad])
+    return out
+
+
 def interp_weights(x_src: np.ndarray, x_dst: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Left indices and weights for linear interpolation of samples at ``x_src``."""
     idx = np.clip(np.searchsorted(x_src, x_dst, side="right") - 1, 0, len(x_src) - 2)

@@ -15,7 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan.curves import Curve
-from scan.likelihood.base import GridSpectra, as_result, get, interp_last, interp_weights
+from scan.likelihood.base import (GridSpectra, as_result, get, interp_last, interp_weights,
+                                  product_or_direct)
 
 COMBINE: tuple[str, ...] = ("max", "quadrature")
 METHODS: tuple[str, ...] = ("step", "soft_log")
@@ -151,13 +152,8 @@ class PBHBoundsOnGrid:
 
     def integrals(self, spectra: GridSpectra) -> np.ndarray:
         """I_j for every bound, shape (..., n_bounds)."""
-        f = spectra.f_pbh_per_lnm
-        with np.errstate(invalid="ignore"):
-            i = f @ self.V
-        bad = ~np.all(np.isfinite(i), axis=-1)  # every f enters: a non-finite one shows
-        if np.any(bad):
-            i[bad] = self.term.integrals(self.m_msun, f[bad])
-        return i
+        return product_or_direct(spectra.f_pbh_per_lnm, self.V,
+                                 lambda f: self.term.integrals(self.m_msun, f))
 
     def __call__(self, spectra: GridSpectra, nuisance=None) -> float | np.ndarray:
         t = self.term

@@ -15,7 +15,8 @@ import numpy as np
 
 from scan.cosmo import omega_gamma_h2
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import GridSpectra, as_result, get, interp_last, interp_weights
+from scan.likelihood.base import (GridSpectra, as_result, get, interp_last, interp_weights,
+                                  product_or_direct)
 
 #: (7/8)(4/11)^(4/3) Omega_gamma h^2: integrated Omega_GW h^2 per unit Delta N_eff.
 NEFF_COEFFICIENT: float = (7.0 / 8.0) * (4.0 / 11.0) ** (4.0 / 3.0) * omega_gamma_h2()
@@ -117,12 +118,9 @@ class NeffOnGrid:
         return self.term.name
 
     def __call__(self, spectra: GridSpectra, nuisance=None) -> float | np.ndarray:
-        t, omega = self.term, spectra.omega
-        with np.errstate(invalid="ignore"):
-            i_gw = np.asarray(omega @ self.v)
-        bad = ~np.isfinite(i_gw)      # every sample enters the product: a non-finite one shows
-        if np.any(bad):
-            i_gw[bad] = integrated_omega_h2(self.f_hz, omega[bad], t.f_min_hz, t.f_max_hz)
+        t = self.term
+        i_gw = product_or_direct(spectra.omega, self.v, lambda omega: integrated_omega_h2(
+            self.f_hz, omega, t.f_min_hz, t.f_max_hz))
         return t.loglike_of_integral(i_gw)
 
 
