@@ -116,10 +116,13 @@ def steps(plan: DemoPlan) -> list[tuple[str, list[str]]]:
     sets = [arg for item in plan.overrides for arg in ("--set", item)]
     cfg, run = str(plan.config), str(plan.out)
     procs = ["--processes", str(plan.processes)]
+    # a second demo into the same folder continues its training store (finished exact
+    # solves are kept; the emulator is refitted) instead of refusing to overwrite it
+    resume = ["--resume"] if (plan.out / "training.h5").is_file() else []
     solve = [("solve the config's model exactly (spectrum, model, Omega_GW, f_PBH figures)",
               ["solve", cfg, "--out", str(plan.out / "solve.h5"), *sets])]
     return (solve if not plan.quick else []) + [
-        ("train the surrogate on exact solves", ["train", cfg, *procs, *sets]),
+        ("train the surrogate on exact solves", ["train", cfg, *resume, *procs, *sets]),
         ("sample the posterior (surrogate, vectorised)", ["sample", cfg, "--restart", *sets]),
         ("verify posterior samples with exact solves",
          ["verify", run, "--samples", str(plan.verify_samples), *procs]),
