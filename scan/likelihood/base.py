@@ -109,6 +109,16 @@ def log10_model_at(x_model: np.ndarray, y_model: np.ndarray,
     return interp_last(ly, idx, w), inside
 
 
+class OnGrid:
+    """Base of a term's planned form: named after the term it plans (``self.term``)."""
+
+    term: Any
+
+    @property
+    def name(self) -> str:
+        return self.term.name
+
+
 class GridSpectra:
     """The observables of one call on a term set's planned grids, with shared work.
 

@@ -16,7 +16,7 @@ import numpy as np
 from scan.constants import F_YR_HZ, GW_OMEGA_PREFACTOR_S2
 from scan.curves import Curve
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import (TINY, GridSpectra, as_result, get, interp_last,
+from scan.likelihood.base import (OnGrid, TINY, GridSpectra, as_result, get, interp_last,
                                   log10_model_at, log10_weights, nuisance_value)
 
 #: Nuisance key of the foreground amplitude A (h_c = A (f/f_yr)^(-2/3)).
@@ -62,7 +62,7 @@ def _with_foreground(model: np.ndarray, bins_hz, foreground: bool, amplitude) ->
 
 
 @dataclass(frozen=True, eq=False)
-class BinsOnGrid:
+class BinsOnGrid(OnGrid):
     """An excess term on a fixed frequency grid: its bins inside the model's range and
     their log-log interpolation weights, found once (the numbers of ``_model_at_bins``).
 
@@ -85,10 +85,6 @@ class BinsOnGrid:
         """Weights of ``term``'s bins on the model frequencies ``f_hz`` [Hz]."""
         idx, w, inside = log10_weights(np.asarray(f_hz, dtype=float), term.f_hz)
         return cls(term, inside, idx[inside], w[inside])
-
-    @property
-    def name(self) -> str:
-        return self.term.name
 
     def __call__(self, spectra: GridSpectra, nuisance=None) -> float | np.ndarray:
         t = self.term

@@ -20,18 +20,14 @@ from typing import Any
 
 import numpy as np
 
-from scan.likelihood.base import GridSpectra, get
+from scan.likelihood.base import GridSpectra, OnGrid, get
 
 
 @dataclass(frozen=True, eq=False)
-class DirectTerm:
+class DirectTerm(OnGrid):
     """A term without a planned form, called on the observables as they are."""
 
     term: Any
-
-    @property
-    def name(self) -> str:
-        return self.term.name
 
     def __call__(self, spectra: GridSpectra, nuisance: Mapping[str, Any] | None = None):
         return self.term(spectra.obs, nuisance)

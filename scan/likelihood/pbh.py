@@ -15,8 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan.curves import Curve
-from scan.likelihood.base import (GridSpectra, as_result, get, interp_last, interp_weights,
-                                  product_or_direct)
+from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, interp_last,
+                                  interp_weights, product_or_direct)
 
 COMBINE: tuple[str, ...] = ("max", "quadrature")
 METHODS: tuple[str, ...] = ("step", "soft_log")
@@ -128,7 +128,7 @@ class PBHBounds:
 
 
 @dataclass(frozen=True, eq=False)
-class PBHBoundsOnGrid:
+class PBHBoundsOnGrid(OnGrid):
     """:class:`PBHBounds` on a fixed mass grid: I_j = f @ V[:, j], one matrix product.
 
     The same sums as :func:`carr_integral` in another order (equal to rounding); rows
@@ -145,10 +145,6 @@ class PBHBoundsOnGrid:
     term: PBHBounds
     m_msun: np.ndarray
     V: np.ndarray
-
-    @property
-    def name(self) -> str:
-        return self.term.name
 
     def integrals(self, spectra: GridSpectra) -> np.ndarray:
         """I_j for every bound, shape (..., n_bounds)."""

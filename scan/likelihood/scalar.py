@@ -15,8 +15,8 @@ import numpy as np
 
 from scan.cosmo import omega_gamma_h2
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import (GridSpectra, as_result, get, interp_last, interp_weights,
-                                  product_or_direct)
+from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, interp_last,
+                                  interp_weights, product_or_direct)
 
 #: (7/8)(4/11)^(4/3) Omega_gamma h^2: integrated Omega_GW h^2 per unit Delta N_eff.
 NEFF_COEFFICIENT: float = (7.0 / 8.0) * (4.0 / 11.0) ** (4.0 / 3.0) * omega_gamma_h2()
@@ -95,7 +95,7 @@ class NeffBound:
 
 
 @dataclass(frozen=True, eq=False)
-class NeffOnGrid:
+class NeffOnGrid(OnGrid):
     """:class:`NeffBound` on a fixed grid: int d ln f Omega_GW h^2 = Omega @ v.
 
     The sums of :func:`integrated_omega_h2` in another order (equal to rounding); rows with
@@ -112,10 +112,6 @@ class NeffOnGrid:
     term: NeffBound
     f_hz: np.ndarray
     v: np.ndarray
-
-    @property
-    def name(self) -> str:
-        return self.term.name
 
     def __call__(self, spectra: GridSpectra, nuisance=None) -> float | np.ndarray:
         t = self.term

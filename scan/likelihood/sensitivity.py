@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan.curves import Curve
-from scan.likelihood.base import (TINY, GridSpectra, as_result, get, interp_last,
+from scan.likelihood.base import (OnGrid, TINY, GridSpectra, as_result, get, interp_last,
                                   interp_weights)
 from scan.noise import SNR_FACTORS
 
@@ -151,7 +151,7 @@ _ZERO_LN = -750.0
 
 
 @dataclass(frozen=True, eq=False)
-class SensitivityOnGrid:
+class SensitivityOnGrid(OnGrid):
     """:class:`Sensitivity` on a fixed frequency grid (SNR nodes or PLI points found once).
 
     Attributes
@@ -167,10 +167,6 @@ class SensitivityOnGrid:
     nodes: tuple[np.ndarray, ...] | None
     cols: np.ndarray | None
     curve_at_cols: np.ndarray | None
-
-    @property
-    def name(self) -> str:
-        return self.term.name
 
     def snr(self, spectra: GridSpectra) -> np.ndarray:
         """SNR of every spectrum (computed once per ``spectra``), shape (...,)."""

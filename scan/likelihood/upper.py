@@ -11,7 +11,7 @@ import numpy as np
 
 from scan.curves import Curve
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import (TINY, GridSpectra, as_result, get, interp_last,
+from scan.likelihood.base import (OnGrid, TINY, GridSpectra, as_result, get, interp_last,
                                   log10_model_at, log10_weights)
 
 METHODS: tuple[str, ...] = ("step", "half_normal", "soft_log")
@@ -101,7 +101,7 @@ class UpperLimit:
 
 
 @dataclass(frozen=True, eq=False)
-class UpperLimitOnGrid:
+class UpperLimitOnGrid(OnGrid):
     """:class:`UpperLimit` on a fixed frequency grid: the model points inside the curve and
     the curve points inside the model, with their interpolation weights, found once.
 
@@ -124,10 +124,6 @@ class UpperLimitOnGrid:
     idx: np.ndarray
     w: np.ndarray
     lu_inside: np.ndarray
-
-    @property
-    def name(self) -> str:
-        return self.term.name
 
     def worst_log10_ratio(self, spectra: GridSpectra) -> np.ndarray:
         """As :meth:`UpperLimit.worst_log10_ratio` (the same numbers)."""
