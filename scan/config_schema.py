@@ -257,7 +257,7 @@ class ParameterSection(PriorFields):
 class NuisanceSection(PriorFields):
     """One ``[[nuisance]]`` entry: a likelihood nuisance parameter and its prior."""
 
-    name: str = spec("nuisance parameter name, e.g. \"pta.foreground_amplitude\"")
+    name: str = spec("nuisance parameter name: A_smbhb, pbh.threshold or pbh.collapse_K")
 
 
 @dataclass(frozen=True, kw_only=True)

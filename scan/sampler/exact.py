@@ -7,8 +7,9 @@ one parameter vector into that target's :class:`~scan.sampler.posterior.Observab
 
 * the model parameters (the first ``n_model`` entries of ``theta``) are set in the
   config with :func:`scan.priors.apply_parameters`; the nuisance entries are left to the
-  likelihood (the target reads them from ``theta``), except ``pbh.threshold``, which
-  sets ``observables.threshold`` (:func:`with_nuisance_threshold`);
+  likelihood (the target reads them from ``theta``), except ``pbh.threshold`` and
+  ``pbh.collapse_K``, which set ``observables.threshold`` and ``observables.collapse_K``
+  (:func:`with_nuisance_conventions`);
 * Ω_GW h²(f) and f_PBH(M) are those of the exact spectrum, computed by
   :func:`scan.observables.compute_observables` with the config's ``[observables]``
   conventions and grids (what ``zetascan solve`` reports);
@@ -139,8 +140,9 @@ def exact_outcome(config: RunConfig, theta: np.ndarray,
 
     if solve is None:
         from scan.pipeline import solve_config as solve
-    result = solve(with_nuisance_threshold(apply_parameters(config, np.asarray(theta, float)),
-                                           theta), with_modes=True, with_observables=True)
+    sample_config = with_nuisance_conventions(apply_parameters(config, np.asarray(theta, float)),
+                                              theta)
+    result = solve(sample_config, with_modes=True, with_observables=True)
     if not result.valid or result.spectrum is None or result.observables is None:
         return ExactOutcome(None, result.reason or "invalid")
     s = result.spectrum
@@ -154,20 +156,24 @@ def exact_outcome(config: RunConfig, theta: np.ndarray,
                         "", tuple(result.observables.notes))
 
 
-def with_nuisance_threshold(config: RunConfig, theta: np.ndarray) -> RunConfig:
-    """``config`` with ``observables.threshold`` set to the sample's ``pbh.threshold``.
+def with_nuisance_conventions(config: RunConfig, theta: np.ndarray) -> RunConfig:
+    """``config`` with ``observables.threshold`` and ``observables.collapse_K`` set to the
+    sample's ``pbh.threshold`` and ``pbh.collapse_K`` (where sampled).
 
-    The collapse threshold is the one nuisance parameter that changes an observable (not
-    only a likelihood term), so the exact side must use it too.
+    These nuisance parameters change an observable (f_PBH), not only a likelihood term,
+    so the exact side must use them too.
     """
-    from scan.sampler.posterior_setup import THRESHOLD
+    from scan.sampler.posterior_setup import COLLAPSE_K, THRESHOLD
 
     names = [n.name for n in config.nuisance]
-    if THRESHOLD not in names:
+    theta = np.asarray(theta, float)
+    fields = {key: float(theta[len(config.parameters) + names.index(name)])
+              for name, key in ((THRESHOLD, "threshold"), (COLLAPSE_K, "collapse_K"))
+              if name in names}
+    if not fields:
         return config
-    value = float(np.asarray(theta, float)[len(config.parameters) + names.index(THRESHOLD)])
     return dataclasses.replace(config, observables=dataclasses.replace(config.observables,
-                                                                       threshold=value))
+                                                                       **fields))
 
 
 class ExactSolve:

@@ -11,7 +11,9 @@ For every walker ``theta = (model parameters, nuisance parameters)``:
    peak beyond the planned ln k range ``peak_outside_table``;
 3. Omega_GW,0 h^2(f) and d f_PBH / d ln M of all walkers at once on shared grids
    (:mod:`scan.surrogate.observables`), with the ``[observables]`` conventions (the collapse
-   threshold per walker when ``pbh.threshold`` is a nuisance parameter);
+   threshold per walker when ``pbh.threshold`` is a nuisance parameter; a sampled
+   ``pbh.collapse_K`` rescales each walker's f_PBH(M) exactly,
+   :func:`scan.surrogate.observables.with_collapse_coefficient`);
 4. ln L = the sum of the ``[likelihood]`` terms, each evaluated once for all walkers
    with the nuisance parameters (``A_smbhb``) as arrays, planned once per process on the
    shared grids (:func:`scan.likelihood.plan_terms`); a model a bound rules out
@@ -34,12 +36,13 @@ import numpy as np
 from scan.config_schema import RunConfig
 from scan.likelihood.grid import plan_terms
 from scan.priors import PriorSet
-from scan.sampler.posterior_math import mass_at_peak, peak_range, total_of_terms
+from scan.sampler.posterior_math import (empty_blobs, finish_log_posterior, mass_at_peak,
+                                         peak_range, store_blobs, total_of_terms)
 from scan.surrogate.observables import (BatchObservables, batch_observables, parabolic_peak,
-                                       plan_batch)
-from scan.sampler.posterior_setup import (NUISANCE_NAMES, THRESHOLD, UNSUPPORTED_NUISANCE,
-                                          build_terms, curve_paths_of, posterior_target,
-                                          threshold_range)
+                                       plan_batch, with_collapse_coefficient)
+from scan.sampler.posterior_setup import (COLLAPSE_K, NUISANCE_NAMES, THRESHOLD,
+                                          UNSUPPORTED_NUISANCE, build_terms, curve_paths_of,
+                                          posterior_target, threshold_range)
 from scan.sampler.targets import TargetBase
 
 __all__ = ["PosteriorTarget", "Observables", "posterior_target", "build_terms",
@@ -255,13 +258,22 @@ class PosteriorTarget(TargetBase):
         keep = ok & in_table
         if not keep.any():
             return reason, todo[:0], None, log_prior
-        thresholds = None
-        if THRESHOLD in self.priors.names[self.priors.n_model:]:
-            thresholds = thetas[todo[keep], self.priors.names.index(THRESHOLD)]
+        rows = todo[keep]
         batch = batch_observables(data["plan"], pred.ln_k_peak[keep], pred.log10_P_peak[keep],
                                   pred.shape[keep], pred.n_s[keep], 10.0 ** pred.log10_r[keep],
-                                  pred.N_star[keep], self.config.pivot.ln_1e10_As, thresholds)
-        return reason, todo[keep], batch, log_prior
+                                  pred.N_star[keep], self.config.pivot.ln_1e10_As,
+                                  self._nuisance_column(thetas, rows, THRESHOLD))
+        k_values = self._nuisance_column(thetas, rows, COLLAPSE_K)
+        if k_values is not None:
+            batch = with_collapse_coefficient(batch, k_values / self.config.observables.collapse_K)
+        return reason, rows, batch, log_prior
+
+    def _nuisance_column(self, thetas: np.ndarray, rows: np.ndarray, name: str
+                         ) -> np.ndarray | None:
+        """The sampled nuisance ``name`` of ``thetas[rows]``, or None if not sampled."""
+        if name not in self.priors.names[self.priors.n_model:]:
+            return None
+        return thetas[rows, self.priors.names.index(name)]
 
     def observables(self, thetas: np.ndarray) -> tuple[np.ndarray, list[Observables | None]]:
         """Reason codes and per-point :class:`Observables` (None where not valid)."""
@@ -289,7 +301,7 @@ class PosteriorTarget(TargetBase):
         """
         thetas = np.atleast_2d(np.asarray(thetas, float))
         reason, rows, batch, log_prior = self._predict(thetas)
-        blobs = self._empty_blobs(len(thetas))
+        blobs = empty_blobs(self.blob_dtype, len(thetas))
         log_p = np.full(len(thetas), -np.inf)
         if batch is not None:
             n = self.priors.n_model
@@ -297,12 +309,13 @@ class PosteriorTarget(TargetBase):
                         for j, name in enumerate(self.priors.names[n:])}
             per_term, snr = self._scores(batch, nuisance, len(rows))
             total = total_of_terms(per_term, len(rows))
-            self._store(blobs, rows, per_term, total, snr, dict(
+            store_blobs(blobs, rows, per_term, total, snr, dict(
                 k_peak=batch.k_peak, P_peak=batch.P_peak, f_gw_peak=batch.f_gw_peak,
                 omega_gw_h2_peak=batch.omega_gw_h2_peak, f_pbh_total=batch.f_pbh_total,
-                M_pbh_peak=mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm),
+                M_pbh_peak=mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm,
+                                        batch.ln_mass_shift),
                 n_s=batch.n_s, r=batch.r, N_star=batch.N_star))
-            self._finish(log_p, reason, rows, total, log_prior)
+            finish_log_posterior(log_p, reason, rows, total, log_prior, R_EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs
 
@@ -325,7 +338,7 @@ class PosteriorTarget(TargetBase):
         """
         thetas = np.atleast_2d(np.asarray(thetas, float))
         reason = np.array(reason, dtype=np.int16)
-        blobs = self._empty_blobs(len(thetas))
+        blobs = empty_blobs(self.blob_dtype, len(thetas))
         log_p = np.full(len(thetas), -np.inf)
         log_prior = self.priors.log_prior(thetas)
         for i, ob in enumerate(obs):
@@ -336,22 +349,16 @@ class PosteriorTarget(TargetBase):
             rows = np.array([i])
             ln_f, ln_omega = parabolic_peak(np.log(ob.f_hz),
                                             np.log(np.maximum(ob.omega_gw_h2, 1e-300)))
-            self._store(blobs, rows, per_term, total, snr, dict(
+            store_blobs(blobs, rows, per_term, total, snr, dict(
                 k_peak=ob.k_peak, P_peak=ob.P_peak, f_gw_peak=math.exp(ln_f),
                 omega_gw_h2_peak=math.exp(ln_omega), f_pbh_total=ob.f_pbh_total,
                 M_pbh_peak=mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
                 n_s=ob.n_s, r=ob.r, N_star=ob.N_star))
-            self._finish(log_p, reason, rows, total, log_prior)
+            finish_log_posterior(log_p, reason, rows, total, log_prior, R_EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs
 
     # ----------------------------------------------------------------- helpers
-    def _empty_blobs(self, p: int) -> np.ndarray:
-        blobs = np.zeros(p, dtype=self.blob_dtype)
-        for name in self.blob_dtype.names[:-1]:
-            blobs[name] = np.nan
-        return blobs
-
     def _scores(self, obs: Any, nuisance: dict, m: int
                 ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
         """Each term's ln L and each stored SNR for m points, shape (m,).
@@ -378,20 +385,3 @@ class PosteriorTarget(TargetBase):
         per_term = {name: np.broadcast_to(np.asarray(v, float), (m,))
                     for name, v in values.items()}
         return per_term, snr
-
-    def _store(self, blobs: np.ndarray, rows: np.ndarray, per_term: dict, total: np.ndarray,
-               snr: dict, derived: dict) -> None:
-        for name, value in derived.items():
-            blobs[name][rows] = value
-        blobs["log_like"][rows] = total
-        for name, value in snr.items():
-            blobs[f"snr_{name}"][rows] = value
-        for name, value in per_term.items():
-            blobs[f"lnL_{name}"][rows] = value
-
-    @staticmethod
-    def _finish(log_p: np.ndarray, reason: np.ndarray, rows: np.ndarray, total: np.ndarray,
-                log_prior: np.ndarray) -> None:
-        excluded = total == -np.inf
-        reason[rows[excluded]] = R_EXCLUDED
-        log_p[rows[~excluded]] = log_prior[rows[~excluded]] + total[~excluded]

@@ -14,12 +14,16 @@ from scan.priors import PriorSet
 
 #: The nuisance name of the PBH collapse threshold.
 THRESHOLD = "pbh.threshold"
+#: The nuisance name of the critical-collapse coefficient K.
+COLLAPSE_K = "pbh.collapse_K"
 
 #: Nuisance parameters the posterior understands (name -> what it is).
 NUISANCE_NAMES: dict[str, str] = {
     "A_smbhb": "SMBH-binary foreground amplitude of the PTA excess terms",
     THRESHOLD: "PBH collapse threshold (C_th for the compaction criterion, delta_c for "
-               "the linear ones; replaces observables.threshold; needs low and high)"}
+               "the linear ones; replaces observables.threshold; needs low and high)",
+    COLLAPSE_K: "critical-collapse coefficient K of M = K M_H (C - C_th)^gamma_c (replaces "
+                "observables.collapse_K; critical mass function; needs low > 0 and high)"}
 #: Nuisance parameters that are planned but not yet supported.
 UNSUPPORTED_NUISANCE: dict[str, str] = {}
 
@@ -131,6 +135,7 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> "PosteriorTarget":
                               "use one of: " + ", ".join(
                                   f"{k} ({v})" for k, v in NUISANCE_NAMES.items()))
     check_threshold_prior(config, priors)
+    check_collapse_k_prior(config, priors)
     paths = curve_paths_of(config)
     surrogate = config.likelihood.surrogate or str(surrogate_path(config))
     if not Path(surrogate).is_file():
@@ -146,12 +151,42 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> "PosteriorTarget":
     return target
 
 
-def threshold_range(priors: PriorSet) -> tuple[float, float] | None:
-    """(low, high) of the ``pbh.threshold`` nuisance prior, or None if not sampled."""
+def nuisance_range(priors: PriorSet, name: str) -> tuple[float, float] | None:
+    """(low, high) of the nuisance prior ``name``, or None if not sampled."""
     for prior in priors.priors[priors.n_model:]:
-        if prior.name == THRESHOLD:
+        if prior.name == name:
             return float(prior.low), float(prior.high)
     return None
+
+
+def threshold_range(priors: PriorSet) -> tuple[float, float] | None:
+    """(low, high) of the ``pbh.threshold`` nuisance prior, or None if not sampled."""
+    return nuisance_range(priors, THRESHOLD)
+
+
+def check_collapse_k_prior(config: RunConfig, priors: PriorSet) -> None:
+    """A sampled K needs a positive, bounded prior and the critical mass function.
+
+    Raises
+    ------
+    ConfigError
+        Not inside (0, inf), or ``observables.mass_function`` is not ``critical``.
+    """
+    span = nuisance_range(priors, COLLAPSE_K)
+    if span is None:
+        return
+    where = f"nuisance[{list(priors.names[priors.n_model:]).index(COLLAPSE_K)}]"
+    if config.observables.mass_function != "critical":
+        raise ConfigError(config.source, where, "pbh.collapse_K enters only the critical-"
+                          f"collapse mass function, the run has mass_function = "
+                          f"'{config.observables.mass_function}'",
+                          "set observables.mass_function = \"critical\" or remove this table")
+    lo, hi = span
+    if not (0.0 < lo <= hi < float("inf")):
+        raise ConfigError(config.source, where, f"the pbh.collapse_K prior spans [{lo:g}, "
+                          f"{hi:g}]; K must be positive and bounded",
+                          "give 0 < low <= high around the default K = 3.3 (Niemeyer & "
+                          "Jedamzik 1998); K depends on the perturbation profile")
 
 
 def check_threshold_prior(config: RunConfig, priors: PriorSet) -> None:

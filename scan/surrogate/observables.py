@@ -54,6 +54,9 @@ class BatchObservables:
     P_peak : ndarray, shape (m,) [1]
     f_gw_peak, omega_gw_h2_peak : ndarray, shape (m,) [Hz], [1]
         Maximum of Omega_GW,0 h^2 on the walker's own (relative) output grid.
+    ln_mass_shift : ndarray, shape (m,) [ln M_sun], or None
+        Walker i's masses are ``m_msun * exp(ln_mass_shift[i])`` (None: all on
+        ``m_msun``); see :func:`with_collapse_coefficient`.
     """
 
     f_hz: np.ndarray
@@ -69,15 +72,47 @@ class BatchObservables:
     P_peak: np.ndarray
     f_gw_peak: np.ndarray
     omega_gw_h2_peak: np.ndarray
+    ln_mass_shift: np.ndarray | None = None
 
     def row(self, i: int) -> dict[str, Any]:
-        """Walker ``i``'s observables as a mapping the likelihood terms accept."""
+        """Walker ``i``'s observables as a mapping the likelihood terms accept (its own
+        masses in ``m_msun``)."""
         out = {}
         for fld in dataclasses.fields(self):
             value = getattr(self, fld.name)
             shared = fld.name in ("f_hz", "m_msun", "ln_1e10_as")
-            out[fld.name] = value if shared else value[i]
+            out[fld.name] = value if shared or value is None else value[i]
+        shift = out.pop("ln_mass_shift")
+        if shift is not None:
+            out["m_msun"] = self.m_msun * math.exp(shift)
         return out
+
+
+def with_collapse_coefficient(batch: BatchObservables, ratio: np.ndarray) -> BatchObservables:
+    """The PBHs of ``batch`` for critical-collapse coefficients K = ratio * K_0.
+
+    With M = K M_H (C - C_th)^gamma_c (Niemeyer & Jedamzik 1998, astro-ph/9709072) K
+    enters only through M/K, and the mass-weighted abundance is proportional to K, so
+    exactly f_K(M) = (K/K_0) f_K0(M K_0/K) (d f / d ln M) and f_total,K = (K/K_0)
+    f_total,K0: each walker's f scales by ``ratio`` on masses shifted by ln ``ratio``.
+
+    Parameters
+    ----------
+    batch : BatchObservables
+        Computed with K_0 (critical collapse), masses unshifted.
+    ratio : ndarray, shape (m,) [1]
+        K / K_0 per walker (positive).
+
+    Returns
+    -------
+    BatchObservables
+    """
+    ratio = np.asarray(ratio, dtype=float)
+    if batch.ln_mass_shift is not None:
+        raise ValueError("the batch's masses are shifted already")
+    return dataclasses.replace(batch, f_pbh_per_lnm=batch.f_pbh_per_lnm * ratio[:, None],
+                               f_pbh_total=batch.f_pbh_total * ratio,
+                               ln_mass_shift=np.log(ratio))
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
