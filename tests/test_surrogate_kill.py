@@ -63,3 +63,49 @@ def test_sigkill_midway_then_resume(tmp_path):
     before = np.isin(final.index, killed.index)
     assert np.array_equal(final.params[before], killed.params)
     assert np.array_equal(final.valid[before], killed.valid)
+
+
+class _StopAfter:
+    """A solver that raises after ``n`` solves (a run interrupted between points)."""
+
+    def __init__(self, n: int) -> None:
+        self.inner, self.left = StandinSolve(shape_grid(3.0, 41)), n
+
+    def __call__(self, theta):
+        if self.left == 0:
+            raise KeyboardInterrupt
+        self.left -= 1
+        return self.inner(theta)
+
+
+def test_a_torn_row_is_overwritten_not_paired_with_the_next_index(tmp_path):
+    """A kill between a point's values and its index leaves the values one row longer
+    than ``points/index`` (and ``plan/u`` longer than ``plan/seq``).  The resumed writer
+    must overwrite those torn rows: every stored index keeps its own parameters (the
+    plan point it names), none lost, none twice."""
+    import h5py
+
+    path = tmp_path / "training.h5"
+    cfg = config("surrogate.points=40", "surrogate.holdout=8", "surrogate.refine_rounds=0")
+    plan = TrainingPlan.from_config(cfg)
+    try:
+        run_training(path, cfg, SPACE, _StopAfter(12), serial_map, plan, chunk=1)
+    except KeyboardInterrupt:
+        pass
+    assert len(read_points(path).index) == 12
+    with h5py.File(path, "a", libver="latest") as handle:   # the torn row of a kill
+        pts = handle["points"]
+        for name in ("params", "valid", "reason", "scalars", "shape"):
+            dset = pts[name]
+            dset.resize(dset.shape[0] + 1, axis=0)
+            dset[-1] = dset[0]                   # plausible-looking values of point 0
+        u = handle["plan/u"]
+        u.resize(u.shape[0] + 1, axis=0)
+        u[-1] = 0.5
+    run_training(path, cfg, SPACE, StandinSolve(shape_grid(3.0, 41)), serial_map, plan,
+                 resume=True)
+    final = read_points(path)
+    u, _, seq = read_plan(path)
+    assert len(u) == len(seq) == 48
+    assert sorted(final.index.tolist()) == list(range(48))
+    np.testing.assert_array_equal(final.params, SPACE.from_unit(u[final.index]))

@@ -133,37 +133,50 @@ class StoreWriter:
             self.handle.close()
         self._lock.close()
 
-    @staticmethod
-    def _grow(dset: h5py.Dataset, rows: np.ndarray) -> None:
-        n = dset.shape[0]
-        dset.resize(n + len(rows), axis=0)
-        dset[n:] = rows
-
     def add_plan(self, u: np.ndarray, stage: int, seq: np.ndarray) -> np.ndarray:
-        """Append planned unit-cube points; return their plan indices."""
+        """Append planned unit-cube points (``seq`` last); return their plan indices.
+
+        As in :meth:`append`, rows go where ``seq`` ends (torn rows are overwritten).
+        """
         plan = self.handle["plan"]
-        start = plan["u"].shape[0]
-        self._grow(plan["u"], np.atleast_2d(u))
-        self._grow(plan["stage"], np.full(len(u), stage, "i4"))
-        self._grow(plan["seq"], np.asarray(seq, "i8"))
+        start = plan["seq"].shape[0]
+        self._put(plan["u"], start, np.atleast_2d(u))
+        self._put(plan["stage"], start, np.full(len(u), stage, "i4"))
+        plan["u"].flush()
+        plan["stage"].flush()
+        self._put(plan["seq"], start, np.asarray(seq, "i8"))
         self.handle.flush()
         return np.arange(start, start + len(u))
 
     def append(self, indices: list[int], records: list[TrainingRecord]) -> None:
-        """Append finished solves (index written last), then flush."""
+        """Append finished solves (index written last), then flush.
+
+        Rows go where ``index`` ends, not where each dataset ends: a writer killed
+        between the values and the index leaves the values longer than the index, and
+        those torn rows are overwritten here (appending after them would pair the next
+        index with the torn values).
+        """
         if not records:
             return
         pts = self.handle["points"]
+        row = pts["index"].shape[0]
         reasons = [r.reason.encode("utf-8")[:REASON_BYTES] for r in records]
-        self._grow(pts["params"], np.array([r.params for r in records], float))
-        self._grow(pts["valid"], np.array([r.valid for r in records], "i1"))
-        self._grow(pts["reason"], np.array(reasons, f"S{REASON_BYTES}"))
-        self._grow(pts["scalars"], np.array([r.scalar_targets() for r in records]))
-        self._grow(pts["shape"], np.array([r.shape for r in records], float))
-        for dset in (pts["params"], pts["valid"], pts["reason"], pts["scalars"], pts["shape"]):
-            dset.flush()
-        self._grow(pts["index"], np.asarray(indices, "i8"))
+        values = {"params": np.array([r.params for r in records], float),
+                  "valid": np.array([r.valid for r in records], "i1"),
+                  "reason": np.array(reasons, f"S{REASON_BYTES}"),
+                  "scalars": np.array([r.scalar_targets() for r in records]),
+                  "shape": np.array([r.shape for r in records], float)}
+        for name, rows in values.items():
+            self._put(pts[name], row, rows)
+            pts[name].flush()
+        self._put(pts["index"], row, np.asarray(indices, "i8"))
         self.handle.flush()
+
+    @staticmethod
+    def _put(dset: h5py.Dataset, start: int, rows: np.ndarray) -> None:
+        """Write ``rows`` from row ``start`` on; the dataset ends after them."""
+        dset.resize(start + len(rows), axis=0)
+        dset[start:] = rows
 
 
 def read_plan(path: str | Path) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
