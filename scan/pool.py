@@ -24,7 +24,8 @@ from __future__ import annotations
 import os
 import signal
 import traceback
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from concurrent.futures import as_completed
 from typing import Any
 
 import numpy as np
@@ -89,6 +90,16 @@ class BasePool:
         """Apply ``func`` to every item; return the results in order."""
         raise NotImplementedError
 
+    def each_as_completed(self, func: Callable[[Any], Any],
+                          keyed: Iterable[tuple[Any, Any]]) -> Iterator[tuple[Any, Any]]:
+        """``(key, func(item))`` for ``(key, item)`` pairs, as each result is ready.
+
+        Here one item per :meth:`map` call, in order; executor pools submit every item
+        at once and yield in completion order (no worker waits for a slow neighbour).
+        """
+        for key, item in keyed:
+            yield key, self.map(func, [item])[0]
+
     def describe(self) -> str:
         """One line for logs and provenance."""
         return f"{type(self).__name__}(workers={self.workers})"
@@ -151,6 +162,20 @@ class _ExecutorPool(BasePool):
             self._abort()
             _reraise(err)
             raise  # unreachable; keeps type checkers happy
+
+    def each_as_completed(self, func: Callable[[Any], Any],
+                          keyed: Iterable[tuple[Any, Any]]) -> Iterator[tuple[Any, Any]]:
+        """``(key, func(item))`` in completion order; a worker's exception cancels the
+        rest and is raised with its traceback (as :meth:`map`)."""
+        if self.executor is None:
+            raise RuntimeError("use the pool inside a 'with' block")
+        futures = {self.executor.submit(_Traced(func), item): key for key, item in keyed}
+        try:
+            for future in as_completed(futures):
+                yield futures[future], future.result()
+        except Exception as err:
+            self._abort()
+            _reraise(err)
 
     def _abort(self) -> None:
         if self.executor is not None:

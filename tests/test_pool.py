@@ -63,6 +63,22 @@ def test_worker_exception_aborts_with_its_traceback_and_does_not_hang():
     assert time.monotonic() - start < 60
 
 
+def test_each_as_completed_yields_every_key_once_with_its_result():
+    """Serial pools yield in order, process pools in completion order; a worker's error
+    is raised with its traceback, as ``map`` does."""
+    keyed = [(f"k{i}", float(i)) for i in range(13)]
+    expected = {key: math.sqrt(v) for key, v in keyed}
+    with SerialPool() as pool:
+        assert list(pool.each_as_completed(math.sqrt, keyed)) == list(expected.items())
+    with choose_pool(2, False) as pool:
+        got = list(pool.each_as_completed(math.sqrt, keyed))
+    assert len(got) == len(keyed) and dict(got) == expected
+    with pytest.raises(ValueError, match="math domain error") as info:
+        with choose_pool(2, False) as pool:
+            list(pool.each_as_completed(math.log, [(0, 1.0), (1, -1.0), (2, 2.0)]))
+    assert "worker traceback" in "\n".join(getattr(info.value, "__notes__", []))
+
+
 def test_contradictory_options_are_refused():
     with pytest.raises(PoolError, match="not both"):
         choose_pool(2, True)

@@ -3,7 +3,9 @@ from __future__ import annotations
 
 import argparse
 import json
+import sys
 import time
+from collections.abc import Callable
 
 from scan.pool import choose_pool
 from scan.sampler.verify import DEFAULT_SAMPLES, Thresholds
@@ -14,6 +16,7 @@ EXAMPLE = f"""examples:
   zetascan verify results/pole_scan/chain.h5 --samples 400 --processes 2
   mpiexec -n 9 python -m mpi4py.futures -m scan verify results/pole_scan --mpi
   zetascan verify results/pole_scan --json               # the report as JSON
+  zetascan verify results/pole_scan --resume             # continue after a kill
 
 M samples are drawn without replacement (seed run.seed) from the chain after burn-in and
 thinning and solved exactly (~ seconds each); they are scored by the run's own likelihood.
@@ -22,6 +25,12 @@ medians / 68 % intervals.  The run is flagged as biased when ESS/M < --min-ess, 
 reweighted median moves by more than --max-shift x its 68 % half-width, or when no sample
 has weight.  The result is stored as group 'verify' of the chain file (replacing an
 earlier one).
+
+Every exact solve is kept as it finishes in chain.verify_partial.h5 next to the chain
+(removed once 'verify' is written).  After an interruption, --resume solves only the
+samples still missing (same --samples and chain: the draw is fixed by run.seed) and
+writes the same 'verify' group an uninterrupted run would; without --resume, earlier
+partial results are discarded.
 
 exit codes: 0 done (flagged or not: read the report), 2 bad input, 1 internal error.
 """
@@ -48,6 +57,9 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     parser.add_argument("--max-shift", type=float, default=Thresholds.shift, metavar="S",
                         help="flag when a reweighted median moves by more than S x its "
                              "68%% half-width (default %(default)s)")
+    parser.add_argument("--resume", action="store_true",
+                        help="continue an interrupted verification of the same draw, "
+                             "solving only the samples it lacks")
     parser.add_argument("--json", action="store_true", help="print the report as JSON")
     return parser
 
@@ -68,13 +80,19 @@ def run(args: argparse.Namespace) -> int:
             print(f"verifying {run_.path}: {args.samples} exact solves ({pool.describe()})",
                   flush=True)
         result = verify_run(run_, args.samples, pool, thresholds=thresholds,
-                            on_progress=progress)
+                            on_progress=progress, resume=args.resume, log=_log(args.json))
     print(json.dumps(result.report, indent=2) if args.json else format_report(result.report))
     return 0
 
 
+def _log(as_json: bool) -> Callable[[str], None]:
+    """Notes on earlier partial results: stdout, or stderr when stdout carries JSON."""
+    stream = sys.stderr if as_json else sys.stdout
+    return lambda line: print(line, file=stream, flush=True)
+
+
 class _Progress:
-    """One line per chunk of exact solves, at most every few seconds."""
+    """A line on the exact solves done (resumed ones included), at most every few seconds."""
 
     def __init__(self, every_s: float = 10.0) -> None:
         self.t0 = self.last = time.monotonic()

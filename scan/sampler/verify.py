@@ -6,7 +6,8 @@ post-burn-in chain of a surrogate posterior run:
 1. the surrogate posterior ln q and its blobs are recomputed with the run's target
    (:meth:`~scan.sampler.posterior.PosteriorTarget.log_and_blobs`);
 2. each sample is solved exactly (an injectable ``exact(theta) -> ExactOutcome``, by
-   default :class:`scan.sampler.exact.ExactSolve`, mapped over a :mod:`scan.pool` pool)
+   default :class:`scan.sampler.exact.ExactSolve`, through a :mod:`scan.pool` pool, each
+   kept on disk as it finishes: :mod:`scan.sampler.verify_partial`)
    and scored by the *same* likelihood code (``target.score``): ln p and blobs;
 3. per derived quantity the surrogate error ``Δ = exact - surrogate`` on the samples
    valid on both sides — in log10 for positive quantities (:data:`LOG_FIELDS`,
@@ -42,13 +43,12 @@ import dataclasses
 import math
 import re
 from collections import Counter
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
 
 from scan.pbh.conventions import NEGLIGIBLE_FPBH
-from scan.pool import BasePool
 from scan.sampler.importance import kish_ess, median_shift, normalised_weights, \
     weighted_quantiles
 from scan.surrogate.validate import error_stats
@@ -116,24 +116,16 @@ def draw_indices(available: int, samples: int, seed: int) -> np.ndarray:
     return np.sort(rng.choice(int(available), size=int(samples), replace=False))
 
 
-def evaluate(target: Any, thetas: np.ndarray, exact: Callable[[np.ndarray], Any],
-             pool: BasePool, on_progress: Callable[[int, int], None] | None = None,
-             chunk: int | None = None) -> Evaluated:
-    """Surrogate and exact log posteriors and blobs of the samples ``thetas``.
+def score_outcomes(target: Any, thetas: np.ndarray, outcomes: Sequence[Any]) -> Evaluated:
+    """Both posteriors at ``thetas`` given their exact outcomes (no exact solve here).
 
     Parameters
     ----------
     target : PosteriorTarget
-        The run's prepared posterior target.
     thetas : ndarray, shape (m, dim)
-    exact : callable
-        ``exact(theta) -> ExactOutcome`` (picklable for process or MPI pools).
-    pool : BasePool
-        An entered pool.
-    on_progress : callable, optional
-        ``on_progress(done, m)`` after every chunk of exact solves.
-    chunk : int, optional
-        Exact solves per pool call (default: 4 per worker).
+    outcomes : sequence of ExactOutcome, length m
+        The exact side of each row of ``thetas`` (solved now, or read back from the
+        partial results of :mod:`scan.sampler.verify_partial`).
 
     Returns
     -------
@@ -143,18 +135,12 @@ def evaluate(target: Any, thetas: np.ndarray, exact: Callable[[np.ndarray], Any]
 
     thetas = np.atleast_2d(np.asarray(thetas, float))
     log_q, blobs_q = target.log_and_blobs(thetas)
-    step = max(1, int(chunk) if chunk else 4 * max(1, pool.workers))
-    outcomes: list[Any] = []
-    for start in range(0, len(thetas), step):
-        outcomes += pool.map(exact, list(thetas[start:start + step]))
-        if on_progress is not None:
-            on_progress(len(outcomes), len(thetas))
     obs = [o.observables for o in outcomes]
     reason = np.array([0 if ob is not None else R_INVALID for ob in obs], dtype=np.int16)
     log_p, blobs_p = target.score(thetas, reason, obs)
     return Evaluated(thetas, np.asarray(log_q, float), blobs_q, np.asarray(log_p, float),
                      blobs_p, tuple(str(o.reason) for o in outcomes),
-                     np.array([bool(o.notes) for o in outcomes]))
+                     np.array([bool(o.notes) for o in outcomes], dtype=bool))
 
 
 # ----------------------------------------------------------------------- comparisons

@@ -12,6 +12,12 @@ evaluates (:mod:`scan.sampler.verify`) and writes the group ``verify`` of the ch
   ``theta``, ``log_post_surrogate``, ``log_post_exact``, ``weight``, ``exact_reason``,
   groups ``surrogate`` and ``exact`` with one dataset per blob field, and ``report``
   (the JSON report).
+
+Nothing is lost when the verification is killed: each exact solve is kept as it finishes
+in ``<chain stem>.verify_partial.h5`` next to the chain (:mod:`scan.sampler.verify_partial`
+says why there), ``resume=True`` solves only the samples it lacks, and the final group is
+built from the kept outcomes in draw order, so it equals an uninterrupted run's (apart
+from ``created_utc``).  The partial file is removed after the final group is written.
 """
 from __future__ import annotations
 
@@ -31,7 +37,8 @@ from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.pool import BasePool
 from scan.sampler import runfile
 from scan.sampler.verify import MIN_SAMPLES, Evaluated, Thresholds, compare, draw_indices, \
-    evaluate, jsonable
+    jsonable, score_outcomes
+from scan.sampler.verify_partial import draw_of, open_partial
 
 GROUP = "verify"
 #: Units of the blob fields the posterior target writes (others: "unspecified").
@@ -159,8 +166,13 @@ def verify_run(run: Run, samples: int, pool: BasePool,
                exact: Callable[[np.ndarray], Any] | None = None,
                thresholds: Thresholds = Thresholds(),
                on_progress: Callable[[int, int], None] | None = None,
-               write: bool = True) -> Verification:
+               write: bool = True, resume: bool = False,
+               log: Callable[[str], None] | None = None) -> Verification:
     """Draw ``samples`` samples, solve them exactly, compare, and store the result.
+
+    With ``write``, every finished exact solve is kept at once in the chain's partial
+    results (:mod:`scan.sampler.verify_partial`), which are deleted after the final
+    ``verify`` group is written; ``resume`` solves only the samples they lack.
 
     Parameters
     ----------
@@ -172,35 +184,95 @@ def verify_run(run: Run, samples: int, pool: BasePool,
         An entered pool for the exact solves.
     exact : callable, optional
         ``exact(theta) -> ExactOutcome`` (default :class:`scan.sampler.exact.ExactSolve`
-        of the run's config).
+        of the run's config); its ``describe()`` identifies it (resuming needs the same).
     thresholds : Thresholds
         The flag rule.
     on_progress : callable, optional
-        ``on_progress(done, total)`` after each chunk of exact solves.
+        ``on_progress(done, total)`` after each exact solve (``done`` counts resumed ones).
     write : bool
-        Store the ``verify`` group in the chain file.
+        Keep partial results and store the ``verify`` group in the chain file (False:
+        no file is written).
+    resume : bool
+        Continue the partial results of an interrupted verification of the same draw;
+        without it, earlier partial results are discarded.
+    log : callable, optional
+        ``log(line)``: what happened to earlier partial results.
 
     Returns
     -------
     Verification
+
+    Raises
+    ------
+    InputFileError
+        ``resume`` of partial results of another draw (the message says what differs).
     """
     from scan.sampler.exact import ExactSolve
 
     check_samples(run, samples)
     exact = ExactSolve(run.config) if exact is None else exact
     index = draw_indices(len(run.samples), samples, run.config.run.seed)
-    ev = evaluate(run.target, run.samples[index], exact, pool, on_progress)
+    solver = solver_name(exact)
+    if not write:
+        kept: dict[int, Any] = {}
+        solve_missing(pool, exact, run.samples, index, set(),
+                      lambda i, _theta, outcome: kept.__setitem__(i, outcome), on_progress)
+        return assemble(run, index, [kept[int(i)] for i in index], solver, thresholds)
+    draw = draw_of(run, index, solver)
+    with open_partial(run.path, draw, run.samples.shape[1], run.config, resume,
+                      log) as partial:
+        solve_missing(pool, exact, run.samples, index, set(partial.rows()), partial.append,
+                      on_progress)
+        result = assemble(run, index, partial.outcomes(index), solver, thresholds)
+        write_group(run.path, result)
+        partial.remove()
+    return result
+
+
+def solver_name(exact: Callable[[np.ndarray], Any]) -> str:
+    """The exact side's ``describe()`` (else its repr): reports and resume checks."""
+    describe = getattr(exact, "describe", None)
+    return str(describe()) if callable(describe) else repr(exact)
+
+
+def solve_missing(pool: BasePool, exact: Callable[[np.ndarray], Any], samples: np.ndarray,
+                  index: np.ndarray, done: set[int],
+                  on_result: Callable[[int, np.ndarray, Any], None],
+                  on_progress: Callable[[int, int], None] | None = None) -> None:
+    """Solve the drawn samples not in ``done``; ``on_result(i, theta, outcome)`` each."""
+    todo = [(int(i), samples[i]) for i in index if int(i) not in done]
+    count = len(index) - len(todo)
+
+    def record(i: int, outcome: Any) -> None:
+        nonlocal count
+        on_result(i, samples[i], outcome)
+        count += 1
+        if on_progress is not None:
+            on_progress(count, len(index))
+
+    solve_each(pool, exact, todo, record)
+
+
+def solve_each(pool: BasePool, exact: Callable[[np.ndarray], Any],
+               items: list[tuple[int, np.ndarray]],
+               on_result: Callable[[int, Any], None]) -> None:
+    """Solve ``(key, theta)`` items, calling ``on_result(key, outcome)`` as each finishes
+    (:meth:`scan.pool.BasePool.each_as_completed`: a process or MPI pool gets every item
+    at once, so no worker waits for a slow neighbour)."""
+    for key, outcome in pool.each_as_completed(exact, items):
+        on_result(key, outcome)
+
+
+def assemble(run: Run, index: np.ndarray, outcomes: list[Any], solver: str,
+             thresholds: Thresholds) -> Verification:
+    """Score the outcomes (in draw order) and build the report."""
+    ev = score_outcomes(run.target, run.samples[index], outcomes)
     report, weights = compare(ev, run.target.names, run.target.reasons, thresholds,
                               stored_log_prob=run.log_prob[index])
-    describe = getattr(exact, "describe", None)
     report = {"file": str(run.path), "available": int(len(run.samples)),
               "seed": int(run.config.run.seed), "burn_in": run.burn_in, "thin": run.thin,
-              "chain_status": run.status,
-              "exact_solver": describe() if callable(describe) else repr(exact), **report}
-    result = Verification(jsonable(report), ev, weights, index)
-    if write:
-        write_group(run.path, result)
-    return result
+              "chain_status": run.status, "exact_solver": solver, **report}
+    return Verification(jsonable(report), ev, weights, index)
 
 
 def write_group(path: str | Path, result: Verification) -> None:
