@@ -174,6 +174,37 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
     return lock, handle
 
 
+
+class SingleWriter:
+    """The one writer of an append-only HDF5 file (:func:`open_single_writer`), as a
+    context manager: :meth:`close` flushes and closes the file and releases the lock.
+
+    Attributes
+    ----------
+    path : Path
+    handle : h5py.File
+        Open "r+" in SWMR mode.
+    """
+
+    def __init__(self, path: str | Path, busy: str, hdf5_locking: bool | None = None
+                 ) -> None:
+        self.path = Path(path)
+        self._lock, self.handle = open_single_writer(self.path, busy, hdf5_locking)
+
+    def __enter__(self) -> "SingleWriter":
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def close(self) -> None:
+        """Flush and close (and release the lock file)."""
+        if self.handle.id.valid:
+            self.handle.flush()
+            self.handle.close()
+        self._lock.close()
+
+
 def recover_store(path: str | Path) -> None:
     """Rewrite a store left by a killed writer (read in SWMR mode) with clean flags.
 

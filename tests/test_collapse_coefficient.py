@@ -24,7 +24,7 @@ from scan.likelihood.pbh import SHIFT_MAX, PBHBoundsOnGrid
 from scan.pbh import PBHConventions, f_pbh
 from scan.sampler import plan_run
 from scan.sampler.exact import with_nuisance_conventions
-from test_sampler_posterior import make_config, trained  # noqa: F401  (the fixture)
+from test_sampler_posterior import make_config, nuisance_config, trained  # noqa: F401
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PBH = sorted((ROOT / "constraints" / "demo").glob("fpbh_*.csv"))
@@ -71,11 +71,7 @@ def test_planned_bounds_on_shifted_masses_equal_the_direct_integral():
 
 
 def k_config(tmp: Path, sur: Path, low: float, high: float, extra: str = ""):
-    text = make_config(tmp, surrogate=sur).text.replace(
-        'name = "A_smbhb"\nprior = "log_uniform"\nlow = 1e-16\nhigh = 1e-14',
-        f'name = "pbh.collapse_K"\nprior = "uniform"\nlow = {low}\nhigh = {high}')
-    assert "pbh.collapse_K" in text
-    return load_config_text(text + extra, "collapse_k_test.toml")
+    return nuisance_config(tmp, sur, "pbh.collapse_K", low, high, extra)
 
 
 def test_sampled_K_equals_runs_with_that_fixed_K(trained):  # noqa: F811

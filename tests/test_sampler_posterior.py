@@ -288,12 +288,19 @@ def test_short_chain_runs_with_blobs(trained):
     np.testing.assert_allclose(values.sum(axis=1), blobs.reshape(-1)["log_like"], rtol=1e-12)
 
 
-def threshold_config(tmp: Path, sur: Path, low: float, high: float, extra: str = ""):
+def nuisance_config(tmp: Path, sur: Path, name: str, low: float, high: float,
+                    extra: str = ""):
+    """The test config with the nuisance ``name`` (uniform on [low, high]) in place of
+    A_smbhb."""
     text = make_config(tmp, surrogate=sur).text.replace(
         'name = "A_smbhb"\nprior = "log_uniform"\nlow = 1e-16\nhigh = 1e-14',
-        f'name = "pbh.threshold"\nprior = "uniform"\nlow = {low}\nhigh = {high}')
-    assert "pbh.threshold" in text
-    return load_config_text(text + extra, "threshold_test.toml")
+        f'name = "{name}"\nprior = "uniform"\nlow = {low}\nhigh = {high}')
+    assert f'name = "{name}"' in text
+    return load_config_text(text + extra, "nuisance_test.toml")
+
+
+def threshold_config(tmp: Path, sur: Path, low: float, high: float, extra: str = ""):
+    return nuisance_config(tmp, sur, "pbh.threshold", low, high, extra)
 
 
 def test_threshold_nuisance_equals_a_fixed_threshold_run(trained):

@@ -38,7 +38,7 @@ from scan.grid.evaluate import DERIVED, REASONS, BlockResult
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import (NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative,
                                relative_status)
-from scan.store import open_single_writer, provenance, write_attrs, write_config
+from scan.store import SingleWriter, provenance, write_attrs, write_config
 
 KIND = "zetascan grid"
 
@@ -132,7 +132,7 @@ def _spans(points: np.ndarray, nx: int):
             start = k
 
 
-class GridWriter:
+class GridWriter(SingleWriter):
     """The one writer of a grid file (SWMR; use as a context manager).
 
     Parameters
@@ -143,32 +143,17 @@ class GridWriter:
     """
 
     def __init__(self, path: str | Path, infos: list[TermInfo]) -> None:
-        self.path, self.infos = Path(path), list(infos)
+        self.infos = list(infos)
         # HDF5's own file lock is off for the writer: the lock file keeps writers out,
         # and a reader that opened the file a moment earlier must not block it
-        self._lock, self.handle = open_single_writer(
-            self.path, "another zetascan grid is writing this file; wait for it or stop it "
-            "first", hdf5_locking=False)
+        super().__init__(path, "another zetascan grid is writing this file; wait for it or "
+                         "stop it first", hdf5_locking=False)
         g = self.handle["grid"]
         self.nx = g["x"].shape[0]
         self.done, self.valid = g["done"][()], g["valid"][()]
         self.relative = {m: g[f"terms/{info.name}/log_like"][()]
                          for m, info in enumerate(self.infos) if is_relative(info.kind)}
         self.refresh()
-
-    def __enter__(self) -> "GridWriter":
-        return self
-
-    def __exit__(self, *exc: object) -> None:
-        self.close()
-
-    def close(self) -> None:
-        """Flush and close (and release the writer's lock file)."""
-        if self.handle.id.valid:
-            self.handle.flush()
-            self.handle.close()
-        self._lock.close()
-        self._lock.close()
 
     @property
     def pending(self) -> np.ndarray:

@@ -54,7 +54,7 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.sampler.exact import ExactOutcome
 from scan.sampler.posterior import Observables
-from scan.store import config_hash, open_single_writer, provenance, write_attrs
+from scan.store import SingleWriter, config_hash, provenance, write_attrs
 
 GROUP = "verify_partial"
 KIND = "zetascan verify partial results"
@@ -223,7 +223,7 @@ ROWS = ("theta", "valid", "scalars", "array_start", "array_length", "text_start"
         "text_length")
 
 
-class PartialWriter:
+class PartialWriter(SingleWriter):
     """The one writer of a partial-results file (SWMR; use as a context manager).
 
     Attributes
@@ -233,27 +233,13 @@ class PartialWriter:
     """
 
     def __init__(self, path: str | Path) -> None:
-        self.path = Path(path)
-        self._lock, self.handle = open_single_writer(self.path, BUSY, hdf5_locking=False)
+        super().__init__(path, BUSY, hdf5_locking=False)
         try:
             self.group = self.handle[GROUP]
             self.draw = Draw.from_attrs(self.group.attrs)
         except KeyError:
             self.close()
             raise
-
-    def __enter__(self) -> "PartialWriter":
-        return self
-
-    def __exit__(self, *exc: object) -> None:
-        self.close()
-
-    def close(self) -> None:
-        """Flush and close (and release the lock file)."""
-        if self.handle.id.valid:
-            self.handle.flush()
-            self.handle.close()
-        self._lock.close()
 
     def remove(self) -> None:
         """Close and delete the file and its lock file (after the final ``verify`` group)."""

@@ -30,7 +30,7 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import (config_hash, open_single_writer, provenance,  # noqa: F401
+from scan.store import (SingleWriter, config_hash, provenance,  # noqa: F401
                         recover_store, write_config)
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
@@ -111,27 +111,12 @@ def stored_config_hash(path: str | Path) -> str:
     return config_hash(raw.decode() if isinstance(raw, bytes) else str(raw))
 
 
-class StoreWriter:
+class StoreWriter(SingleWriter):
     """The one writer of a training store (open in SWMR mode; use as a context manager)."""
 
     def __init__(self, path: str | Path) -> None:
-        self.path = Path(path)
-        self._lock, self.handle = open_single_writer(
-            self.path, "another training run is writing this store; wait for it or stop "
-            "it first")
-
-    def __enter__(self) -> "StoreWriter":
-        return self
-
-    def __exit__(self, *exc) -> None:
-        self.close()
-
-    def close(self) -> None:
-        """Flush and close."""
-        if self.handle.id.valid:
-            self.handle.flush()
-            self.handle.close()
-        self._lock.close()
+        super().__init__(path, "another training run is writing this store; wait for it or "
+                         "stop it first")
 
     def add_plan(self, u: np.ndarray, stage: int, seq: np.ndarray) -> np.ndarray:
         """Append planned unit-cube points (``seq`` last); return their plan indices.
