@@ -174,6 +174,14 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
     return lock, handle
 
 
+def put_rows(dset: h5py.Dataset, start: int, rows: Any) -> None:
+    """Write ``rows`` (along axis 0) into a growing dataset from row ``start`` on; the
+    dataset then ends after them (rows beyond ``start`` that a killed writer left are
+    overwritten)."""
+    rows = np.asarray(rows)
+    dset.resize(start + len(rows), axis=0)
+    dset[start:] = rows
+
 
 class SingleWriter:
     """The one writer of an append-only HDF5 file (:func:`open_single_writer`), as a

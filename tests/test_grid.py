@@ -8,11 +8,7 @@ from __future__ import annotations
 
 import math
 import os
-import signal
-import subprocess
-import sys
 import textwrap
-import time
 from pathlib import Path
 
 import h5py
@@ -20,6 +16,7 @@ import numpy as np
 import pytest
 from scipy.stats import chi2, norm
 
+from kill_support import sigkill_after_progress
 from scan.cli import main
 from scan.config import load_config_text
 from scan.errors import ZetascanError
@@ -219,20 +216,9 @@ def test_sigkill_midway_then_resume_equals_the_uninterrupted_grid(full_grid, sur
                                                                    tmp_path):
     text = grid_text(tmp_path, surrogate)
     path = tmp_path / "standin" / "grid.h5"
-    proc = subprocess.Popen([sys.executable, "-c", SCRIPT.format(tests=str(TESTS), text=text,
-                                                                 sets=SETS)])
-    deadline, seen = time.monotonic() + 60, 0
-    while time.monotonic() < deadline and proc.poll() is None:
-        time.sleep(0.05)
-        try:
-            seen = int(read_grid(path)["done"].sum())
-        except (ZetascanError, OSError, KeyError):
-            continue  # not created yet
-        if seen >= 12:
-            break
-    os.kill(proc.pid, signal.SIGKILL)
-    proc.wait()
-    assert proc.returncode == -signal.SIGKILL
+    sigkill_after_progress(SCRIPT.format(tests=str(TESTS), text=text, sets=SETS),
+                           lambda: int(read_grid(path)["done"].sum()), 12,
+                           not_ready=(ZetascanError, OSError, KeyError))
     killed = read_grid(path)
     before = killed["done"].copy()
     assert 12 <= before.sum() < 30 and np.all(before.sum(axis=1) % 6 == 0)  # whole rows

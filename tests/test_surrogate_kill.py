@@ -1,16 +1,12 @@
 """The training store survives SIGKILL: resume loses no finished point, duplicates none."""
 from __future__ import annotations
 
-import os
-import signal
-import subprocess
-import sys
 import textwrap
-import time
 from pathlib import Path
 
 import numpy as np
 
+from kill_support import sigkill_after_progress
 from scan.surrogate.record import shape_grid
 from scan.surrogate.store import read_plan, read_points
 from scan.surrogate.train import TrainingPlan, run_training, serial_map
@@ -33,21 +29,8 @@ SCRIPT = textwrap.dedent("""
 
 def test_sigkill_midway_then_resume(tmp_path):
     path = tmp_path / "training.h5"
-    proc = subprocess.Popen([sys.executable, "-c", SCRIPT.format(tests=str(TESTS),
-                                                                 path=str(path))])
-    deadline = time.monotonic() + 60
-    seen = 0
-    while time.monotonic() < deadline and proc.poll() is None:
-        time.sleep(0.1)
-        try:
-            seen = len(read_points(path).index)
-        except (OSError, KeyError):
-            continue  # the file is being created
-        if seen >= 10:
-            break
-    os.kill(proc.pid, signal.SIGKILL)
-    proc.wait()
-    assert proc.returncode == -signal.SIGKILL
+    sigkill_after_progress(SCRIPT.format(tests=str(TESTS), path=str(path)),
+                           lambda: len(read_points(path).index), 10, poll_s=0.1)
     killed = read_points(path)
     assert 10 <= len(killed.index) < 48  # interrupted midway, file readable
     cfg = config("surrogate.points=40", "surrogate.holdout=8", "surrogate.refine_rounds=0")

@@ -10,11 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 import hashlib
-import os
 import shutil
-import signal
-import subprocess
-import sys
 import textwrap
 import time
 from pathlib import Path
@@ -24,6 +20,7 @@ import h5py
 import numpy as np
 import pytest
 
+from kill_support import sigkill_after_progress
 from scan import store
 from scan.cli import main
 from scan.errors import InputFileError
@@ -186,20 +183,8 @@ def test_sigkill_midway_then_resume_equals_an_uninterrupted_run(copy):
         del f["verify"]
 
     part = partial_path(copy)
-    proc = subprocess.Popen([sys.executable, "-c", SCRIPT.format(
-        tests=str(TESTS), path=str(copy), samples=SAMPLES)])
-    deadline, seen = time.monotonic() + 60, 0
-    while time.monotonic() < deadline and proc.poll() is None:
-        time.sleep(0.05)
-        try:
-            seen = len(partial_rows(part))
-        except (OSError, KeyError):
-            continue  # not created yet
-        if seen >= 5:
-            break
-    os.kill(proc.pid, signal.SIGKILL)
-    proc.wait()
-    assert proc.returncode == -signal.SIGKILL
+    sigkill_after_progress(SCRIPT.format(tests=str(TESTS), path=str(copy), samples=SAMPLES),
+                           lambda: len(partial_rows(part)), 5)
     kept = partial_rows(part)
     assert 5 <= len(kept) < SAMPLES  # killed midway; every finished solve is on disk
     with h5py.File(copy, "r") as f:

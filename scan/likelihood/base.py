@@ -42,10 +42,15 @@ class ModelObservables:
 
 def get(obs: Any, key: str) -> Any:
     """``obs.key`` or ``obs[key]``; a clear KeyError naming the term's need otherwise."""
-    value = obs.get(key) if isinstance(obs, Mapping) else getattr(obs, key, None)
+    value = get_optional(obs, key)
     if value is None:
         raise KeyError(f"the observables have no '{key}'")
     return value
+
+
+def get_optional(obs: Any, key: str) -> Any:
+    """``obs.key`` or ``obs[key]``, None where the observables do not have it."""
+    return obs.get(key) if isinstance(obs, Mapping) else getattr(obs, key, None)
 
 
 def nuisance_value(nuisance: Mapping[str, Any] | None, key: str, default: float) -> Any:

@@ -15,16 +15,15 @@ shifted integrals come from a table over the shift (:data:`SHIFT_STEP`).
 """
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
-
 import functools
+from collections.abc import Sequence
+from dataclasses import dataclass
 
 import numpy as np
 
 from scan.curves import Curve
-from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, interp_last,
-                                  interp_weights, product_or_direct)
+from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, get_optional,
+                                  interp_last, interp_weights, product_or_direct)
 
 COMBINE: tuple[str, ...] = ("max", "quadrature")
 METHODS: tuple[str, ...] = ("step", "soft_log")
@@ -219,6 +218,5 @@ class PBHBoundsOnGrid(OnGrid):
 
 def mass_shift_of(obs) -> np.ndarray | None:
     """The observables' ``ln_mass_shift`` [ln M_sun] per model, or None (no shift)."""
-    value = obs.get("ln_mass_shift") if isinstance(obs, Mapping) else \
-        getattr(obs, "ln_mass_shift", None)
+    value = get_optional(obs, "ln_mass_shift")
     return None if value is None else np.asarray(value, dtype=float)

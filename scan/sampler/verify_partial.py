@@ -54,7 +54,7 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.sampler.exact import ExactOutcome
 from scan.sampler.posterior import Observables
-from scan.store import SingleWriter, config_hash, provenance, write_attrs
+from scan.store import SingleWriter, config_hash, provenance, put_rows, write_attrs
 
 GROUP = "verify_partial"
 KIND = "zetascan verify partial results"
@@ -266,9 +266,9 @@ class PartialWriter(SingleWriter):
                   "text_start": _extend(g["text"], np.frombuffer(text, np.uint8)),
                   "text_length": len(text)}
         for name in ROWS:
-            _put(g[name], row, values[name])
+            put_rows(g[name], row, [values[name]])
         self.handle.flush()
-        _put(g["index"], row, index)
+        put_rows(g["index"], row, [index])
         self.handle.flush()
 
     def outcomes(self, indices: Iterable[int]) -> list[ExactOutcome]:
@@ -286,14 +286,8 @@ def _extend(dset: h5py.Dataset, values: np.ndarray) -> int:
     """Append ``values`` to a 1-D growing dataset; return where they start."""
     start = dset.shape[0]
     if len(values):
-        dset.resize(start + len(values), axis=0)
-        dset[start:] = values
+        put_rows(dset, start, values)
     return start
-
-
-def _put(dset: h5py.Dataset, row: int, value: Any) -> None:
-    dset.resize(row + 1, axis=0)
-    dset[row] = value
 
 
 # ----------------------------------------------------------------------- start / resume

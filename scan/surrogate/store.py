@@ -30,7 +30,7 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import (SingleWriter, config_hash, provenance,  # noqa: F401
+from scan.store import (SingleWriter, config_hash, provenance, put_rows,  # noqa: F401
                         recover_store, write_config)
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
@@ -125,11 +125,11 @@ class StoreWriter(SingleWriter):
         """
         plan = self.handle["plan"]
         start = plan["seq"].shape[0]
-        self._put(plan["u"], start, np.atleast_2d(u))
-        self._put(plan["stage"], start, np.full(len(u), stage, "i4"))
+        put_rows(plan["u"], start, np.atleast_2d(u))
+        put_rows(plan["stage"], start, np.full(len(u), stage, "i4"))
         plan["u"].flush()
         plan["stage"].flush()
-        self._put(plan["seq"], start, np.asarray(seq, "i8"))
+        put_rows(plan["seq"], start, np.asarray(seq, "i8"))
         self.handle.flush()
         return np.arange(start, start + len(u))
 
@@ -152,16 +152,10 @@ class StoreWriter(SingleWriter):
                   "scalars": np.array([r.scalar_targets() for r in records]),
                   "shape": np.array([r.shape for r in records], float)}
         for name, rows in values.items():
-            self._put(pts[name], row, rows)
+            put_rows(pts[name], row, rows)
             pts[name].flush()
-        self._put(pts["index"], row, np.asarray(indices, "i8"))
+        put_rows(pts["index"], row, np.asarray(indices, "i8"))
         self.handle.flush()
-
-    @staticmethod
-    def _put(dset: h5py.Dataset, start: int, rows: np.ndarray) -> None:
-        """Write ``rows`` from row ``start`` on; the dataset ends after them."""
-        dset.resize(start + len(rows), axis=0)
-        dset[start:] = rows
 
 
 def read_plan(path: str | Path) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
