@@ -4,7 +4,7 @@ Physics: with M = K M_H (C - C_th)^gamma_c (Niemeyer & Jedamzik 1998, astro-ph/9
 K enters the mass function only through M/K and multiplies the mass-weighted abundance,
 so f_K(M) = (K/K_0) f_K0(M K_0/K) exactly (d f / d ln M) and f_total is proportional to
 K.  The posterior applies that identity per walker (a scale and a ln M shift) instead of
-recomputing f_PBH; these tests check the identity against scan.pbh with K changed, the
+recomputing f_PBH; these tests check the identity against scan.observables.pbh with K changed, the
 planned bounds on shifted masses against the direct integral, and the posterior against
 runs whose fixed observables.collapse_K is the walker's value.
 """
@@ -21,9 +21,9 @@ from scan.curves import load_curve
 from scan.errors import ConfigError
 from scan.likelihood import PBHBounds
 from scan.likelihood.pbh import SHIFT_MAX, PBHBoundsOnGrid
-from scan.pbh import PBHConventions, f_pbh
+from scan.observables.pbh import PBHConventions, f_pbh
 from scan.sampler import plan_run
-from scan.sampler.exact import with_nuisance_conventions
+from scan.posterior.exact import with_nuisance_conventions
 from test_sampler_posterior import make_config, nuisance_config, trained  # noqa: F401
 
 ROOT = Path(__file__).resolve().parents[1]

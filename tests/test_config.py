@@ -8,7 +8,7 @@ import pytest
 
 from scan.cli import main
 from scan.config import describe, load_config, load_config_text
-from scan.config_schema import RunConfig
+from scan.config.schema import RunConfig
 from scan.errors import ConfigError
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from astropy import units as u
 
-from scan import cosmo, gstar
+from scan.observables import cosmo, gstar
 from scan.errors import InputFileError
 
 G106, G10 = (106.75, 106.75), (10.75, 10.75)

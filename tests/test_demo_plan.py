@@ -1,7 +1,7 @@
 """``zetascan demo`` planning: a second demo into the same folder continues its store."""
 from __future__ import annotations
 
-from scan.demo import plan_demo, steps
+from scan.cli.demo_plan import plan_demo, steps
 
 
 def _train_argv(plan):

@@ -386,7 +386,7 @@ y_points = 2
 @solver
 def test_exact_two_by_two_grid(tmp_path, capsys):
     """Four exact solves of the pole model (a few seconds each), one repeated directly."""
-    from scan.sampler.exact import exact_outcome
+    from scan.posterior.exact import exact_outcome
 
     cfg = tmp_path / "pole.toml"
     cfg.write_text(POLE.format(out=tmp_path, curves=", ".join(f'"{p}"' for p in CURVES)))

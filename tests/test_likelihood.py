@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from scan import constants as C
-from scan.cosmo import omega_gamma_h2
+from scan.observables.cosmo import omega_gamma_h2
 from scan.curves import load_curve, parse_text
 from scan import likelihood as L
 
@@ -202,7 +202,7 @@ def test_density_grid_excess():
 
 # --- sensitivity and CMB priors, total ---
 def test_sensitivity_snr_against_noise_curve():
-    from scan import noise as N
+    from scan.curves import noise as N
     c = load_curve(DEMO.parent / "lisa_noise_4yr.csv")
     term = L.Sensitivity.from_curve(c)
     f = np.geomspace(1e-5, 1, 3001)

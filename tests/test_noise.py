@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 from scan.constants import YEAR_S
-from scan import noise as N
+from scan.curves import noise as N
 
 F = np.geomspace(1e-5, 1.0, 4001)
 

@@ -9,12 +9,12 @@ import numpy as np
 import pytest
 from scipy import optimize
 
-from scan import cosmo
+from scan.observables import cosmo
 from scan.errors import ConfigError
-from scan.pbh import (PBHConventions, abundance_coefficient, beta_monochromatic,
+from scan.observables.pbh import (PBHConventions, abundance_coefficient, beta_monochromatic,
                       compaction_linear_threshold, compaction_nonlinear, delta_c_harada,
                       fpbh_prefactor, plan_pbh, variance, variance_delta)
-from scan.pbh.variance import variance_integrand
+from scan.observables.pbh.variance import variance_integrand
 
 X = np.geomspace(0.1, 10, 20001)
 

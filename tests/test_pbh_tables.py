@@ -1,10 +1,10 @@
 """Fast paths of the batched f_PBH evaluation against the direct computations they replace.
 
-* :mod:`scan.pbh.tables`: the mass-weighted beta from a table in nu_th against the
-  48-node quadrature :func:`scan.pbh.abundance.beta_weighted` (and the same quadrature in
+* :mod:`scan.observables.pbh.tables`: the mass-weighted beta from a table in nu_th against the
+  48-node quadrature :func:`scan.observables.pbh.abundance.beta_weighted` (and the same quadrature in
   extended precision);
-* :mod:`scan.pbh.kernel`: the mass function and ``half_exp`` against the density of
-  :func:`scan.pbh.abundance.density` on :func:`scan.pbh.abundance.critical_kernel`, and
+* :mod:`scan.observables.pbh.kernel`: the mass function and ``half_exp`` against the density of
+  :func:`scan.observables.pbh.abundance.density` on :func:`scan.observables.pbh.abundance.critical_kernel`, and
   against numpy's exp;
 * a plan with tables against one without (``plan_pbh(..., tabulate=False)``).
 
@@ -29,11 +29,11 @@ import math
 import numpy as np
 import pytest
 
-from scan import cosmo
-from scan.pbh import PBHConventions, beta_weighted, plan_pbh
-from scan.pbh.abundance import _GL_W, _GL_Z, _relation, critical_kernel, density
-from scan.pbh.kernel import half_exp, mass_function
-from scan.pbh.tables import TOLERANCE, V_RANGE, beta_table, beta_tabulated
+from scan.observables import cosmo
+from scan.observables.pbh import PBHConventions, beta_weighted, plan_pbh
+from scan.observables.pbh.abundance import _GL_W, _GL_Z, _relation, critical_kernel, density
+from scan.observables.pbh.kernel import half_exp, mass_function
+from scan.observables.pbh.tables import TOLERANCE, V_RANGE, beta_table, beta_tabulated
 
 RTOL, ATOL = 2e-12, 1e-290
 #: nu_th^2/2 < 760 is the live range (plan._live_epochs); beyond it beta is exactly 0.
@@ -231,7 +231,7 @@ def test_sigma2_skips_empty_columns_only():
 
 def test_threshold_plan_uses_the_table_for_linear_criteria():
     # per-row delta_c through the (threshold-free) table equals plan_pbh at that delta_c
-    from scan.pbh import plan_pbh_thresholds
+    from scan.observables.pbh import plan_pbh_thresholds
 
     k = np.geomspace(1e9, 1e15, 300)
     M = np.geomspace(float(cosmo.horizon_mass_msun(k[-1])) * 1e-3,

@@ -1,6 +1,6 @@
-"""f_PBH with a collapse threshold per spectrum (scan.pbh.threshold_plan).
+"""f_PBH with a collapse threshold per spectrum (scan.observables.pbh.threshold_plan).
 
-Reference: the single-threshold plan :func:`scan.pbh.plan_pbh`, whose physics is tested
+Reference: the single-threshold plan :func:`scan.observables.pbh.plan_pbh`, whose physics is tested
 in tests/test_pbh.py against shared/physics/observables.md sect. 5-6 (Carr et al. 2010,
 arXiv:0912.5297; Young, Musco & Byrnes 2019, arXiv:1904.00984).  The per-row plan
 evaluates the same formulas with the same quadrature, so it must agree to rounding.
@@ -19,9 +19,9 @@ import numpy as np
 import pytest
 from scipy import optimize
 
-from scan import cosmo
-from scan.pbh import PBHConventions, plan_pbh, plan_pbh_thresholds
-from scan.pbh.thresholds import compaction_linear_threshold
+from scan.observables import cosmo
+from scan.observables.pbh import PBHConventions, plan_pbh, plan_pbh_thresholds
+from scan.observables.pbh.thresholds import compaction_linear_threshold
 
 K_IN = np.geomspace(1e9, 1e15, 300)
 M_OUT = np.geomspace(float(cosmo.horizon_mass_msun(K_IN[-1])) * 1e-3,

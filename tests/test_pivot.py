@@ -1,4 +1,4 @@
-"""Tests of scan.pivot: N* matching, the N <-> k map, flow parameters, SR2 n_s and r."""
+"""Tests of scan.background.pivot: N* matching, the N <-> k map, flow parameters, SR2 n_s and r."""
 from __future__ import annotations
 
 import math
@@ -9,7 +9,7 @@ import pytest
 from scan.background import solve_background
 from scan.constants import M_PLANCK_REDUCED_GEV
 from scan.models import Model
-from scan.pivot import (Reheating, exit_efold, hubble_flow, leading_ns_r, ln_k_over_a0H0,
+from scan.background.pivot import (Reheating, exit_efold, hubble_flow, leading_ns_r, ln_k_over_a0H0,
                         ln_k_over_kstar, matching_constant, n_star_matching, slow_roll_ns_r,
                         solve_pivot)
 

@@ -254,7 +254,7 @@ def test_solve_figures_have_units_and_name_every_curve(solve_file):
         assert any(t.startswith(curve.label) for t in texts), (curve.label, texts)
     assert "this model" in texts
     top = ax.child_axes[0]  # the mass axis is the horizon mass at re-entry of k = 2 pi f / c
-    from scan.cosmo import horizon_mass_of_f
+    from scan.observables.cosmo import horizon_mass_of_f
     assert top._functions[0](np.array([1e-8]))[0] == pytest.approx(
         float(horizon_mass_of_f(1e-8)), rel=1e-12)
     plt.close(fig)

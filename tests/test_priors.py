@@ -7,7 +7,7 @@ from scipy import integrate, stats
 
 from scan.config import load_config_text
 from scan.errors import ConfigError
-from scan.priors import Prior, PriorSet, apply_parameters, get_key
+from scan.config.priors import Prior, PriorSet, apply_parameters, get_key
 
 BASE = """
 [model]

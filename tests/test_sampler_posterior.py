@@ -17,17 +17,17 @@ import numpy as np
 import pytest
 
 from scan.config import load_config_text
-from scan.cosmo import k_to_f
+from scan.observables.cosmo import k_to_f
 from scan.errors import ConfigError
 from scan.likelihood import ModelObservables, total_loglike
-from scan.pbh import f_pbh
+from scan.observables.pbh import f_pbh
 from scan.pipeline import conventions_of
 from scan.pool import choose_pool
 from scan.sampler import plan_run, run_chain
 from scan.sampler.evaluate import Evaluator
-from scan.sampler.posterior import BLOB_FIELDS, PosteriorTarget
+from scan.posterior.target import BLOB_FIELDS, PosteriorTarget
 from scan.sampler.runfile import load_chain
-from scan.sigw import TruncationWarning, omega_gw_h2
+from scan.observables.sigw import TruncationWarning, omega_gw_h2
 from scan.surrogate.identity import identity
 from scan.surrogate.record import shape_grid
 from scan.surrogate.surrogate_file import write_surrogate
@@ -191,7 +191,7 @@ def test_batch_equals_single_calls_and_pickling_keeps_results(trained):
 
 
 def test_loglike_equals_total_loglike_on_independently_computed_observables(trained):
-    """Ω_GW from the one-shot scan.sigw call on absolute k, f_PBH from scan.pbh.f_pbh on a
+    """Ω_GW from the one-shot scan.observables.sigw call on absolute k, f_PBH from scan.observables.pbh.f_pbh on a
     finer table of our own: the posterior's ln L must be total_loglike of them."""
     _, cfg, plan = trained
     target = plan.target

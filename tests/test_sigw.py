@@ -10,7 +10,7 @@ import warnings
 import numpy as np
 import pytest
 
-from scan import cosmo, sigw
+from scan.observables import cosmo, sigw
 
 SQ3 = math.sqrt(3.0)
 

@@ -1,8 +1,8 @@
-"""Omega_GW as a quadratic form of P on a short table (scan.sigw_quadratic).
+"""Omega_GW as a quadratic form of P on a short table (scan.observables.quadratic).
 
 Check values: the flat spectrum Omega_GW = 0.8222 A^2 (Kohri & Terada 2018,
 arXiv:1804.08577; 0.822244 computed in observables.md sect. 1.4); the reference for
-peaked spectra is scan.sigw.plan_sigw (tested against KT18 and the closed-form delta
+peaked spectra is scan.observables.sigw.plan_sigw (tested against KT18 and the closed-form delta
 peak in tests/test_sigw.py) on the same table.
 """
 from __future__ import annotations
@@ -12,8 +12,8 @@ import warnings
 import numpy as np
 import pytest
 
-from scan.sigw import TruncationWarning, plan_sigw
-from scan.sigw_quadratic import plan_quadratic
+from scan.observables.sigw import TruncationWarning, plan_sigw
+from scan.observables.quadratic import plan_quadratic
 
 X = np.linspace(-3.0, 3.0, 41)                  # the emulator's default shape grid
 X_OUT = np.linspace(-3.0, 3.0 + np.log(2.0), 64)

@@ -1,9 +1,9 @@
-"""Shared-grid helpers of the batched observables (scan.surrogate.observables)."""
+"""Shared-grid helpers of the batched observables (scan.observables.batch)."""
 from __future__ import annotations
 
 import numpy as np
 
-from scan.surrogate.observables import interp_uniform_shifted
+from scan.observables.batch import interp_uniform_shifted
 
 
 def test_row_shifted_interpolation_equals_numpy_interp_per_row():
@@ -21,7 +21,7 @@ def test_row_shifted_interpolation_equals_numpy_interp_per_row():
 
 
 def test_parabolic_peak_is_exact_for_a_parabola_and_falls_back_at_the_ends():
-    from scan.surrogate.observables import parabolic_peak
+    from scan.observables.batch import parabolic_peak
 
     x = np.linspace(-3.0, 3.0, 25)
     centres = np.array([-0.37, 0.1, 1.234])
@@ -39,7 +39,7 @@ def test_spectra_on_table_equals_the_full_row_shifted_interpolation():
     # Tolerance: |ln P| <= 70 here; each path rounds its interpolated exponent about 3
     # times and its power once, ln 10 * log10 P once more: <= 7 * 70 * 1.1e-16 = 5.4e-14
     # relative in P (IEEE 754 rounding, common practice).
-    from scan.surrogate.window import spectra_on_table
+    from scan.observables.window import spectra_on_table
 
     rng = np.random.default_rng(11)
     grid = np.linspace(-3.0, 3.0, 41)
@@ -60,8 +60,8 @@ def test_pbh_on_table_equals_the_direct_path():
     # interpolation and a plan without the beta table.  P differs by <= 6e-14 (above),
     # sigma^2 alike, and f ~ exp(-y^2 / (2 sigma^2)) with y^2/(2 sigma^2) < 760 turns that
     # into <= 760 * 6e-14 = 4.6e-11 relative (IEEE 754 rounding, common practice)
-    from scan.pbh import PBHConventions, plan_pbh
-    from scan.surrogate.observables import pbh_on_table, plan_batch
+    from scan.observables.pbh import PBHConventions, plan_pbh
+    from scan.observables.batch import pbh_on_table, plan_batch
 
     x = np.linspace(-3.0, 3.0, 41)
     rng = np.random.default_rng(2)

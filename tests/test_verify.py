@@ -25,10 +25,10 @@ from scan.cli.verify import format_report
 from scan.config import load_config_text
 from scan.pool import SerialPool, choose_pool
 from scan.sampler import plan_run, run_chain, runfile
-from scan.sampler.exact import ExactOutcome, ExactSolve, observables_from_table
-from scan.sampler.importance import kish_ess, normalised_weights, weighted_quantiles
-from scan.sampler.verify import Evaluated, Thresholds, compare, draw_indices, reason_key
-from scan.sampler.verify_run import open_run, read_report, verify_run
+from scan.posterior.exact import ExactOutcome, ExactSolve, observables_from_table
+from scan.verify.importance import kish_ess, normalised_weights, weighted_quantiles
+from scan.verify.compare import Evaluated, Thresholds, compare, draw_indices, reason_key
+from scan.verify.run import open_run, read_report, verify_run
 from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
 from test_surrogate_standin import standin_spectrum, standin_truth
 
@@ -235,7 +235,7 @@ def test_surrogate_as_its_own_exact_side_gives_zero_errors_and_full_ess(chain):
     assert set(r["errors"]) >= {"k_peak", "P_peak", "f_gw_peak", "omega_gw_h2_peak",
                                 "f_pbh_total", "M_pbh_peak", "n_s", "r", "N_star"}
     # log_and_blobs takes the GW peak on each walker's relative output grid, score() on
-    # the shared absolute grid (scan.surrogate.observables): they differ by < one grid step
+    # the shared absolute grid (scan.observables.batch): they differ by < one grid step
     step_dex = (6.0 + math.log(2.0)) / 63 / math.log(10.0)  # x_out: 64 points, [-3, 3+ln2]
     assert r["errors"]["f_gw_peak"]["max"] <= step_dex * (1.0 + 1e-9)
     # its height: ln Omega interpolated linearly within one 0.11-e-fold step of the peak
@@ -351,8 +351,8 @@ def test_exact_solve_maps_a_real_pole_model_solve():
     """The product's exact side on one real solve (configs/tmodel_pole.toml): the model
     parameter is applied, the nuisance entry is not, and every field is the solve's."""
     from scan.pipeline import solve_config
-    from scan.priors import apply_parameters
-    from scan.sampler.exact import exact_outcome
+    from scan.config.priors import apply_parameters
+    from scan.posterior.exact import exact_outcome
 
     cfg = _pole_config("model.poles[0].width", 0.02, 0.03)
     applied = apply_parameters(cfg, {"model.poles[0].width": 0.027})
@@ -415,8 +415,8 @@ def test_bad_input_exits_2_with_one_line(chain, tmp_path, capsys):
 
 def test_the_peak_mass_of_a_negligible_pbh_abundance_does_not_flag():
     """f_PBH ~ 1e-120: where its (meaningless) peak mass lies is no bias (rule in
-    scan.sampler.verify: skipped below NEGLIGIBLE_FPBH); with f_PBH ~ 1e-3 it flags."""
-    from scan.sampler.verify import NEGLIGIBLE_FPBH, Thresholds, flags
+    scan.verify.compare: skipped below NEGLIGIBLE_FPBH); with f_PBH ~ 1e-3 it flags."""
+    from scan.verify.compare import NEGLIGIBLE_FPBH, Thresholds, flags
 
     def report(log10_f: float) -> dict:
         pbh = {"scale": "log10", "shift": 0.0,

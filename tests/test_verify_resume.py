@@ -25,11 +25,11 @@ from scan import store
 from scan.cli import main
 from scan.errors import InputFileError
 from scan.pool import ProcessPool, SerialPool
-from scan.sampler.exact import ExactOutcome
-from scan.sampler.posterior import Observables
-from scan.sampler.verify import draw_indices
-from scan.sampler.verify_partial import ARRAYS, GROUP, SCALARS, PartialWriter, partial_path
-from scan.sampler.verify_run import Run, open_run, verify_run
+from scan.posterior.exact import ExactOutcome
+from scan.posterior.target import Observables
+from scan.verify.compare import draw_indices
+from scan.verify.partial import ARRAYS, GROUP, SCALARS, PartialWriter, partial_path
+from scan.verify.run import Run, open_run, verify_run
 from test_sampler_posterior import trained  # noqa: F401  (fixture)
 from test_verify import NS_SIGMA, StandinExact, SurrogateAsExact, chain  # noqa: F401
 
@@ -152,7 +152,7 @@ SCRIPT = textwrap.dedent("""
     import sys
     sys.path.insert(0, {tests!r})
     from scan.pool import SerialPool
-    from scan.sampler.verify_run import open_run, verify_run
+    from scan.verify.run import open_run, verify_run
     from test_verify_resume import marked
     run = open_run({path!r})
     exact = marked(run)
@@ -310,7 +310,7 @@ def test_resume_of_another_draw_is_refused_naming_the_difference(copy):
 
 def test_cli_refuses_a_resume_with_other_samples_in_one_line(copy, capsys, monkeypatch):
     interrupted(copy, 12, after=4, exact=StandinExact(open_run(copy).config))
-    monkeypatch.setattr("scan.sampler.exact.ExactSolve", CountingStandin)
+    monkeypatch.setattr("scan.posterior.exact.ExactSolve", CountingStandin)
     CountingStandin.calls = 0
     assert main(["verify", str(copy), "--samples", "10", "--resume"]) == 2
     err = capsys.readouterr().err
@@ -327,7 +327,7 @@ def test_cli_refuses_a_resume_with_other_samples_in_one_line(copy, capsys, monke
 def test_without_resume_a_leftover_partial_is_discarded(copy, capsys, monkeypatch):
     interrupted(copy, 12, after=4, exact=StandinExact(open_run(copy).config))
     part = partial_path(copy)
-    monkeypatch.setattr("scan.sampler.exact.ExactSolve", CountingStandin)
+    monkeypatch.setattr("scan.posterior.exact.ExactSolve", CountingStandin)
     CountingStandin.calls = 0
     assert main(["verify", str(copy), "--samples", "12"]) == 0
     out = capsys.readouterr().out

@@ -76,7 +76,7 @@ def sensitivity_text(snr: float, years: float, confusion: bool, form: str,
     """The curve file text of a LISA sensitivity (Robson, Cornish & Liu 2019)."""
     from scan.constants import YEAR_S
     from scan.errors import InputFileError
-    from scan.noise import LISA_CONFUSION_TABLE, lisa_sensitivity
+    from scan.curves.noise import LISA_CONFUSION_TABLE, lisa_sensitivity
     if confusion and years not in LISA_CONFUSION_TABLE:
         raise InputFileError("--years", f"galactic confusion noise is tabulated for "
                                         f"{sorted(LISA_CONFUSION_TABLE)} years, not {years:g}")

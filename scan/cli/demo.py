@@ -1,4 +1,4 @@
-"""``zetascan demo``: the whole job on the invented scenario (see :mod:`scan.demo`)."""
+"""``zetascan demo``: the whole job on the invented scenario (see :mod:`scan.cli.demo_plan`)."""
 from __future__ import annotations
 
 import argparse
@@ -31,7 +31,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 def run(args: argparse.Namespace) -> int:
     """Run the demo's steps; exit with the first failing step's code."""
     from scan.cli import main
-    from scan.demo import plan_demo, run_demo
+    from scan.cli.demo_plan import plan_demo, run_demo
 
     plan = plan_demo(args.out, args.quick, args.processes)
     return run_demo(plan, main, lambda line: print(line, flush=True))

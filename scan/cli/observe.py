@@ -17,11 +17,12 @@ from pathlib import Path
 import h5py
 import numpy as np
 
-from scan import cosmo, gstar, store
+from scan.observables import cosmo, gstar
+from scan import store
 from scan.errors import InputFileError
 from scan.observables import Observables, compute_observables
-from scan.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
-from scan.results import write_observables
+from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
+from scan.pipeline.result_file import write_observables
 
 #: Fewest table points accepted.
 MIN_POINTS: int = 8

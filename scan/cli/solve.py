@@ -6,7 +6,8 @@ from pathlib import Path
 
 from scan.config import load_config
 from scan.pipeline import SolveResult, solve_config
-from scan.results import write_solve_result
+from scan.pipeline.result_file import write_solve_result
+from scan.plots.solve import draw_solve_figures
 
 EXAMPLE = """example:
   zetascan solve configs/tmodel_pole.toml
@@ -43,8 +44,6 @@ def run(args: argparse.Namespace) -> int:
 
 def _draw_figures(out: Path, result: SolveResult) -> list[Path]:
     """Figures next to the result file (only for what was computed)."""
-    from scan.results import draw_solve_figures
-
     return draw_solve_figures(out.with_suffix(""), result)
 
 

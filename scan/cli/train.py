@@ -100,7 +100,7 @@ def _train(args: argparse.Namespace) -> int:
     from scan.surrogate import surrogate_path, training_path
     from scan.surrogate.adapter import SolvePoint
     from scan.surrogate.identity import identity
-    from scan.surrogate.observables import observables_for
+    from scan.observables.batch import observables_for
     from scan.surrogate.space import from_config
     from scan.surrogate.surrogate_file import write_surrogate
     from scan.surrogate.train import TrainingPlan, run_training

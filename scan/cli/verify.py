@@ -8,8 +8,8 @@ import time
 from collections.abc import Callable
 
 from scan.pool import choose_pool
-from scan.sampler.verify import DEFAULT_SAMPLES, Thresholds
-from scan.sampler.verify_run import open_run, verify_run
+from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
+from scan.verify.run import open_run, verify_run
 
 EXAMPLE = f"""examples:
   zetascan verify results/pole_scan                      # {DEFAULT_SAMPLES} samples, serial

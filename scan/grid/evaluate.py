@@ -1,7 +1,7 @@
 """Evaluate blocks of grid points: observables, ln L per term, verdicts, derived values.
 
 Observables come from the surrogate (:meth:`PosteriorTarget.observables`, one call per
-block) or from exact solves (:func:`scan.sampler.exact.exact_outcome`, i.e.
+block) or from exact solves (:func:`scan.posterior.exact.exact_outcome`, i.e.
 :func:`scan.pipeline.solve_config`, one per point; a spectrum without an interior peak
 counts as ``invalid_spectrum``).  With ``profile``, each point first maximises the total
 ln L over the free parameters: the fixed values are the first candidate, then a bounded
@@ -22,7 +22,7 @@ from typing import Any
 
 import numpy as np
 
-from scan.config_schema import RunConfig
+from scan.config.schema import RunConfig
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, is_relative, point_verdict, term_kind
 
@@ -116,7 +116,7 @@ class GridWorker:
             self.target.prepare()
             self._terms = list(self.target.terms)
         else:
-            from scan.sampler.posterior import build_terms
+            from scan.posterior.target import build_terms
 
             self._terms = build_terms(self.config, self.curve_paths)
 
@@ -140,7 +140,7 @@ class GridWorker:
             reason = np.array([REASONS.index(names[c]) if names[c] in REASONS
                                else REASONS.index("invalid_model") for c in codes], np.int16)
             return reason, list(obs)
-        from scan.sampler.exact import exact_outcome
+        from scan.posterior.exact import exact_outcome
 
         reason = np.zeros(len(thetas), dtype=np.int16)
         obs: list = []

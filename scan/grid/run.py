@@ -21,7 +21,7 @@ from pathlib import Path
 
 import numpy as np
 
-from scan.config_schema import RunConfig
+from scan.config.schema import RunConfig
 from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.grid.evaluate import REASONS, GridWorker, RunBlock
 from scan.grid.plan import GridPlan, plan_grid
@@ -29,7 +29,7 @@ from scan.grid.store import (GridWriter, create_grid_file, file_digest, grid_pat
                              read_grid)
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
-from scan.priors import PriorSet
+from scan.config.priors import PriorSet
 
 #: Config keys that may change between invocations of one grid: they change nothing in it.
 RESUMABLE_PREFIXES: tuple[str, ...] = ("sampler.", "grid.progress_every_s")
@@ -83,7 +83,7 @@ def plan_grid_run(config: RunConfig, path: str | Path | None = None) -> GridRun:
     InputFileError
         A curve or surrogate file that cannot be used.
     """
-    from scan.sampler.posterior import NUISANCE_NAMES, curve_paths_of, posterior_target
+    from scan.posterior.target import NUISANCE_NAMES, curve_paths_of, posterior_target
 
     priors = PriorSet.from_config(config)
     plan = plan_grid(config, priors)
@@ -120,7 +120,7 @@ def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:
     GridMismatchError
         The file was made from a different config (the message lists the keys).
     """
-    from scan.sampler.diff import config_diff, format_diff, stored_config
+    from scan.config.diff import config_diff, format_diff, stored_config
 
     if not resume:
         raise InputFileError(str(path), "a grid file already exists; pass --resume to "

@@ -1,7 +1,7 @@
 """A set of likelihood terms planned for observables that always come on the same grids.
 
 A sampler's observables come on frequency and mass grids fixed for the whole run
-(:mod:`scan.surrogate.observables`).  :func:`plan_terms` asks every term for its
+(:mod:`scan.observables.batch`).  :func:`plan_terms` asks every term for its
 ``on_grid(f_hz, m_msun)`` form — the same ln L with the interpolation indices and weights,
 integration nodes and linear functionals (trapezoid weights over the grid) found once —
 and :meth:`PlannedTerms.loglikes` evaluates them on a :class:`GridSpectra`, which takes

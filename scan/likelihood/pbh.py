@@ -10,7 +10,7 @@ is not offered as the default because it treats every bound as the same observab
 Observables may carry ``ln_mass_shift`` (one value per model, [ln M_sun]): model i's
 masses are then ``m_msun * exp(ln_mass_shift[i])`` (how a sampled critical-collapse
 coefficient K moves a mass function computed with another K, see
-:func:`scan.surrogate.observables.with_collapse_coefficient`).  On a planned grid the
+:func:`scan.observables.batch.with_collapse_coefficient`).  On a planned grid the
 shifted integrals come from a table over the shift (:data:`SHIFT_STEP`).
 """
 from __future__ import annotations

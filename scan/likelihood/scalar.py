@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scan.cosmo import omega_gamma_h2
+from scan.observables.cosmo import omega_gamma_h2
 from scan.curves.schema import two_sided_z
 from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, interp_last,
                                   interp_weights, product_or_direct)

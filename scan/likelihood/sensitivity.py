@@ -1,7 +1,7 @@
 """Sensitivity curves: SNR of a model spectrum, for "detectable or not" statements.
 
 With a noise curve (``curve_form = noise``) the SNR is computed directly,
-SNR^2 = c T int df (Omega_GW/Omega_n)^2 (c = 1 "single", 2 "cross"; ``scan.noise.snr``).
+SNR^2 = c T int df (Omega_GW/Omega_n)^2 (c = 1 "single", 2 "cross"; ``scan.curves.noise.snr``).
 A power-law-integrated curve is exact only for power laws (constraints.md Sec. 2.5): there
 "detectable" means the spectrum touches the curve somewhere, and no SNR is given.
 """
@@ -15,7 +15,7 @@ import numpy as np
 from scan.curves import Curve
 from scan.likelihood.base import (OnGrid, TINY, GridSpectra, as_result, get, interp_last,
                                   interp_weights)
-from scan.noise import SNR_FACTORS
+from scan.curves.noise import SNR_FACTORS
 
 MODES: tuple[str, ...] = ("report", "exclude_detectable", "require_detectable")
 _TWO_LN10 = 2.0 * math.log(10.0)

@@ -52,7 +52,7 @@ class Pole:
 class Model:
     """An inflation model: potential shape V/V0 (V0 = 1) and kinetic function K(φ).
 
-    Field names follow the ``[model]`` config section (``scan.config_schema``).
+    Field names follow the ``[model]`` config section (``scan.config.schema``).
 
     Parameters
     ----------

@@ -3,7 +3,7 @@
 With the map k = aH and k_* exiting at N_pivot = N_end - N_*, the spectra at V0 = 1 are
 computed for a five-mode stencil ln(k/k_*) in {-2, -1, 0, 1, 2} * step.  Since the
 background in N does not depend on V0 and P scales as V0, V0 = A_s / P_zeta(k_*; V0 = 1).
-When N_* depends on V0 (reheating matching, ``scan.pivot``) the pair is iterated.
+When N_* depends on V0 (reheating matching, ``scan.background.pivot``) the pair is iterated.
 """
 from __future__ import annotations
 
@@ -82,7 +82,7 @@ def iterate_normalisation(pivot_at: Callable[[float], PivotValues], N_end: float
     N_end : float
         End of inflation [e-folds].
     n_star_of_V0 : callable
-        The matching N_*(V0) (e.g. reheating, ``scan.pivot``).
+        The matching N_*(V0) (e.g. reheating, ``scan.background.pivot``).
     A_s : float
         Target amplitude.
     N_star_guess : float

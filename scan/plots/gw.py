@@ -1,7 +1,7 @@
 """Figure: Ω_GW h² against frequency, with bound curves, posterior bands and a mass axis.
 
 The top axis gives the horizon mass M_H [M_sun] when the mode k = 2π f / c re-enters
-the horizon (:func:`scan.cosmo.horizon_mass_of_f`): the mass scale of the PBHs the same
+the horizon (:func:`scan.observables.cosmo.horizon_mass_of_f`): the mass scale of the PBHs the same
 curvature peak forms (M_PBH = γ M_H, or K M_H (C − C_th)^γc for critical collapse).
 """
 from __future__ import annotations
@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from scan import cosmo
+from scan.observables import cosmo
 from scan.curves import Curve
 from scan.plots.bands import draw_band
 from scan.plots.curves import draw_curve

@@ -49,7 +49,7 @@ def read_solve(path: Path) -> dict[str, Any]:
 
 def _units_of_keys() -> dict[str, str]:
     from scan.config import describe
-    from scan.config_schema import RunConfig
+    from scan.config.schema import RunConfig
 
     return {row[0]: row[3] for row in describe(RunConfig)}
 
@@ -97,7 +97,7 @@ class Inputs:
     def curves(self) -> list:
         """Bound curves (CSV files only; scalar bounds have no curve to draw)."""
         from scan.curves import load_curve
-        from scan.sampler.posterior import curve_paths_of
+        from scan.posterior.target import curve_paths_of
 
         if self.curve_files is not None:
             for name in self.curve_files:
@@ -134,7 +134,7 @@ class Inputs:
     @functools.cached_property
     def posterior(self) -> dict[str, Any]:
         """Chain samples after burn-in and thinning, with names, labels and prior kinds."""
-        from scan.priors import PriorSet
+        from scan.config.priors import PriorSet
         from scan.sampler.summary import posterior_samples
 
         chain = self.sources.chain

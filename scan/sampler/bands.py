@@ -179,9 +179,9 @@ def chain_target(path: str | Path):
         The stored config's curves or surrogate cannot be found from here.
     """
     from scan.config import load_config_text
-    from scan.priors import PriorSet
+    from scan.config.priors import PriorSet
     from scan.sampler import runfile
-    from scan.sampler.posterior import posterior_target
+    from scan.posterior.target import posterior_target
 
     stored = runfile.read(path)
     config = load_config_text(stored.config_text, f"{path} (stored config)",

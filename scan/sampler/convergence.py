@@ -15,7 +15,7 @@ import math
 import emcee
 import numpy as np
 
-from scan.config_schema import SamplerSection
+from scan.config.schema import SamplerSection
 
 
 @dataclasses.dataclass(frozen=True)

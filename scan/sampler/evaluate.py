@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from scan.pool import BasePool
-from scan.sampler.targets import TargetBase
+from scan.posterior.targets import TargetBase
 
 
 class Evaluator:

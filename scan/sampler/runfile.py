@@ -27,7 +27,7 @@ import numpy as np
 from emcee.backends import HDFBackend
 
 from scan import store
-from scan.config_schema import RunConfig
+from scan.config.schema import RunConfig
 from scan.errors import InputFileError
 
 GROUP = "mcmc"

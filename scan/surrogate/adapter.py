@@ -12,12 +12,12 @@ def configure(config, keys: Sequence[str], values: Sequence[float]):
     """``config`` with the parameters at ``keys`` set to ``values``.
 
     When ``keys`` are the config's ``[[parameters]]`` this is
-    :func:`scan.priors.apply_parameters`; other keys go through the config's own ``--set``
+    :func:`scan.config.priors.apply_parameters`; other keys go through the config's own ``--set``
     override machinery (same key paths, same validation).
     """
     declared = [p.key for p in getattr(config, "parameters", ())]
     if set(keys) <= set(declared):
-        from scan.priors import apply_parameters
+        from scan.config.priors import apply_parameters
 
         return apply_parameters(config, {k: float(v) for k, v in zip(keys, values)})
     from scan.config import load_config_text

@@ -11,7 +11,7 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from scan.config import as_dict
+from scan.config.spec import as_dict
 
 #: Config sections that change an exact solve.
 PHYSICS_SECTIONS: tuple[str, ...] = ("model", "background", "pivot", "modes")
@@ -36,7 +36,7 @@ def identity(config, space) -> dict[str, Any]:
 
     Parameters
     ----------
-    config : scan.config_schema.RunConfig
+    config : scan.config.schema.RunConfig
     space : scan.surrogate.space.ParameterSpace
     """
     varied = set(space.keys)

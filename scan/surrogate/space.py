@@ -2,7 +2,7 @@
 
 The emulator works in unit-cube coordinates ``u`` (the inverse of the prior transform),
 so its inputs are O(1) whatever the physical ranges are.  The forward map ``u -> theta``
-goes through :mod:`scan.priors` when that module provides it (see :func:`from_config`).
+goes through :mod:`scan.config.priors` when that module provides it (see :func:`from_config`).
 """
 from __future__ import annotations
 
@@ -29,7 +29,7 @@ class ParameterSpace:
     low, high : tuple of float
         Bounds (uniform, log_uniform) or mean and standard deviation (untruncated
         gaussian), in the parameter's own units.  The transforms are the priors' CDFs,
-        as in :class:`scan.priors.Prior`; they are kept here so that a surrogate file
+        as in :class:`scan.config.priors.Prior`; they are kept here so that a surrogate file
         can be used without its config.
     """
 
@@ -83,7 +83,7 @@ class ParameterSpace:
 
 
 def from_config(config) -> ParameterSpace:
-    """The parameter space of a run config's ``[[parameters]]`` (via :mod:`scan.priors`).
+    """The parameter space of a run config's ``[[parameters]]`` (via :mod:`scan.config.priors`).
 
     Only the model parameters are emulator inputs (``[[nuisance]]`` entries enter the
     likelihood, not the solve).  Uniform and log-uniform priors keep their bounds; an
@@ -94,7 +94,7 @@ def from_config(config) -> ParameterSpace:
     ConfigError
         If the config declares no parameters or a truncated gaussian prior.
     """
-    from scan.priors import PriorSet
+    from scan.config.priors import PriorSet
 
     if not tuple(getattr(config, "parameters", ()) or ()):
         raise ConfigError(config.source, "parameters", "no [[parameters]] tables: the "

@@ -9,7 +9,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from scan.pbh.conventions import NEGLIGIBLE_FPBH
+from scan.observables.pbh.conventions import NEGLIGIBLE_FPBH
 from scan.surrogate import design
 from scan.surrogate.emulator import Emulator, Prediction, TrainingSet, predict_unit
 
@@ -76,7 +76,7 @@ def validate(emulator: Emulator, train: TrainingSet, holdout: TrainingSet,
 
     Regression errors are over the truly valid hold-out points; that of log10 f_PBH,total
     only over those where the exact or the emulated spectrum gives f_PBH above
-    :data:`scan.pbh.conventions.NEGLIGIBLE_FPBH` (elsewhere both are "no PBHs", and an
+    :data:`scan.observables.pbh.conventions.NEGLIGIBLE_FPBH` (elsewhere both are "no PBHs", and an
     error between 1e-170 and 1e-174 means nothing).
     """
     pred = predict_unit(emulator, holdout.u)

@@ -8,8 +8,8 @@ import time
 
 import numpy as np
 
-from scan import cosmo
-from scan.pbh import PBHConventions, plan_pbh
+from scan.observables import cosmo
+from scan.observables.pbh import PBHConventions, plan_pbh
 
 K_IN = np.geomspace(1e10, 1e14, 256)
 P_IN = 3e-2 * np.exp(-np.log(K_IN / 1e12)**2 / (2 * 0.5**2))

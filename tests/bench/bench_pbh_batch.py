@@ -1,11 +1,11 @@
-"""Benchmark: f_PBH of 64 walkers on the shared table (scan.surrogate.observables.pbh_on_table).
+"""Benchmark: f_PBH of 64 walkers on the shared table (scan.observables.batch.pbh_on_table).
 
 64 Gaussian peaks in log10 P on the emulator's relative grid (41 points, x in [-3, 3]),
 ln k_peak uniform in [13, 31], log10 P_peak uniform in [-3, -1.3] (f_PBH,total from 0 up
 to ~1e-15, default compaction criterion), 32 masses, as the posterior's plan.  Timed
 side by side in alternating blocks (thread CPU time; medians and min-based ratios):
 
-* pbh_on_table as used (windowed interpolation, beta from scan.pbh.tables) vs the direct
+* pbh_on_table as used (windowed interpolation, beta from scan.observables.pbh.tables) vs the direct
   path (10 ** interp_uniform_shifted on the whole table, plan_pbh(..., tabulate=False));
 * its pieces: table interpolation, sigma^2, mass-weighted beta on the live pairs.
 
@@ -23,12 +23,12 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
-from scan.pbh import PBHConventions, beta_weighted, plan_pbh  # noqa: E402
-from scan.pbh.plan import _live_epochs  # noqa: E402
-from scan.pbh.tables import beta_tabulated  # noqa: E402
-from scan.surrogate.observables import (interp_uniform_shifted, pbh_on_table,  # noqa: E402
+from scan.observables.pbh import PBHConventions, beta_weighted, plan_pbh  # noqa: E402
+from scan.observables.pbh.plan import _live_epochs  # noqa: E402
+from scan.observables.pbh.tables import beta_tabulated  # noqa: E402
+from scan.observables.batch import (interp_uniform_shifted, pbh_on_table,  # noqa: E402
                                         plan_batch)
-from scan.surrogate.window import spectra_on_table  # noqa: E402
+from scan.observables.window import spectra_on_table  # noqa: E402
 
 M_WALKERS, BLOCKS, BLOCK = 64, 20, 10
 

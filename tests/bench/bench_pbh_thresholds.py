@@ -19,8 +19,8 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
-from scan import cosmo  # noqa: E402
-from scan.pbh import PBHConventions, plan_pbh, plan_pbh_thresholds  # noqa: E402
+from scan.observables import cosmo  # noqa: E402
+from scan.observables.pbh import PBHConventions, plan_pbh, plan_pbh_thresholds  # noqa: E402
 
 LNK = np.log(1e6) + 0.05 * np.arange(600)
 K_IN = np.exp(LNK)

@@ -11,7 +11,7 @@ import time
 import numpy as np
 from scipy import integrate
 
-from scan import cosmo, sigw
+from scan.observables import cosmo, sigw
 
 K_IN = np.geomspace(1e3, 1e9, 256)
 P_IN = 1e-2 * np.exp(-np.log(K_IN / 1e6)**2 / (2 * 0.5**2))

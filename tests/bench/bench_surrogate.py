@@ -3,7 +3,7 @@
 Trains on the analytic stand-in of the tests (a test double; the timing of the emulator
 depends only on the number of training points, not on what was solved), then times
 (a) the emulator alone and (b) the emulator plus Omega_GW h^2 peak and f_PBH total
-recomputed through scan.sigw / scan.pbh.  Run:  python tests/bench/bench_surrogate.py
+recomputed through scan.observables.sigw / scan.observables.pbh.  Run:  python tests/bench/bench_surrogate.py
 Give a surrogate file (e.g. the pole scan's, ``results/pole_scan/surrogate.h5``) to time
 that emulator too, on 64 random points of its box:
 python tests/bench/bench_surrogate.py results/pole_scan/surrogate.h5
@@ -22,7 +22,7 @@ from test_surrogate import config  # noqa: E402
 from test_surrogate_standin import SPACE, StandinSolve  # noqa: E402
 
 from scan.surrogate import Surrogate  # noqa: E402
-from scan.surrogate.observables import PeakObservables  # noqa: E402
+from scan.observables.batch import PeakObservables  # noqa: E402
 from scan.surrogate.record import shape_grid  # noqa: E402
 from scan.surrogate.threads import single_blas_thread  # noqa: E402
 from scan.surrogate.train import TrainingPlan, run_training, serial_map  # noqa: E402

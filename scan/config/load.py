@@ -1,0 +1,106 @@
+"""Run configuration: TOML files read with ``tomllib`` into the frozen schema.
+
+:func:`load_config` reads a file, applies ``--set section.key=value`` overrides to the raw
+tables (recorded in :attr:`RunConfig.overrides`) and validates the result against the
+schema (:mod:`scan.config.schema`, keys checked by :mod:`scan.config.spec`).  The keys are
+documented in ``configs/README.md``.
+"""
+from __future__ import annotations
+
+import dataclasses
+import re
+import tomllib
+from pathlib import Path
+from typing import Any
+
+from scan.config.schema import RunConfig
+from scan.config.spec import build_section
+from scan.errors import ConfigError
+
+
+# --------------------------------------------------------------------------- overrides
+_KEY_PATH = re.compile(r"^[A-Za-z_][\w]*(\[\d+\])?(\.[A-Za-z_][\w]*(\[\d+\])?)*$")
+
+
+def parse_override(text: str) -> tuple[list[str | int], Any]:
+    """Split ``"model.poles[0].width=0.03"`` into a key path and a TOML-parsed value."""
+    if "=" not in text:
+        raise ConfigError("--set", text, "expected section.key=value",
+                          "e.g. --set model.alpha=2.0")
+    key, raw = (part.strip() for part in text.split("=", 1))
+    if not _KEY_PATH.match(key):
+        raise ConfigError("--set", key, "malformed key path", "e.g. model.poles[0].width")
+    try:
+        value = tomllib.loads(f"v = {raw}")["v"]
+    except tomllib.TOMLDecodeError:
+        value = raw  # an unquoted string such as t_model
+    path: list[str | int] = []
+    for part in key.split("."):
+        name, _, index = part.partition("[")
+        path.append(name)
+        if index:
+            path.append(int(index.rstrip("]")))
+    return path, value
+
+
+def apply_override(raw: dict[str, Any], text: str) -> None:
+    """Apply one ``--set`` override to the raw TOML tables in place."""
+    path, value = parse_override(text)
+    node: Any = raw
+    for step, nxt in zip(path[:-1], path[1:]):
+        if isinstance(step, int):
+            if not isinstance(node, list) or step >= len(node):
+                raise ConfigError("--set", text, f"index [{step}] does not exist",
+                                  "define the entry in the config file first")
+            node = node[step]
+        else:
+            node = node.setdefault(step, [] if isinstance(nxt, int) else {})
+            if not isinstance(node, (dict, list)):
+                raise ConfigError("--set", text, f"'{step}' is a value, not a table")
+    last = path[-1]
+    if isinstance(last, int):
+        if not isinstance(node, list) or last >= len(node):
+            raise ConfigError("--set", text, f"index [{last}] does not exist")
+    node[last] = value
+
+
+# --------------------------------------------------------------------------- loading
+def load_config(path: str | Path, overrides: tuple[str, ...] | list[str] = ()):
+    """Read and validate a run config.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+    overrides : sequence of str
+        ``section.key=value`` strings applied before validation.
+
+    Returns
+    -------
+    scan.config.schema.RunConfig
+        The frozen configuration, with its source text and overrides attached.
+    """
+    source = str(path)
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ConfigError(source, "", "file not found", "check the path") from None
+    except (OSError, UnicodeDecodeError) as err:
+        raise ConfigError(source, "", f"cannot read the file ({err})") from None
+    return load_config_text(text, source=source, overrides=tuple(overrides),
+                            default_name=Path(path).stem)
+
+
+def load_config_text(text: str, source: str = "<config>", overrides: tuple[str, ...] = (),
+                     default_name: str = "run"):
+    """Validate config ``text`` (see :func:`load_config`)."""
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise ConfigError(source, "", f"not valid TOML: {err}",
+                          "check quotes, brackets and '=' signs on that line") from None
+    for item in overrides:
+        apply_override(raw, item)
+    raw.setdefault("run", {}).setdefault("name", default_name)
+    config = build_section(RunConfig, raw, "", source)
+    return dataclasses.replace(config, source=source, text=text, overrides=tuple(overrides))

@@ -1,0 +1,397 @@
+"""f_PBH(M) for a stack of spectra with a collapse threshold per spectrum.
+
+The sampler treats the collapse threshold as a nuisance parameter: every walker carries
+its own C_th (``compaction``) or delta_c (``press-schechter``, ``peaks``), calibrated
+for the plan's window.  :func:`plan_pbh_thresholds` plans once for a spectrum table,
+output masses and a threshold range; :meth:`ThresholdPlan.evaluate` then takes m
+spectra and m thresholds and returns f_PBH(M) and its total for every row.
+
+Exact, not interpolated in the threshold.  Everything that costs a matrix product or a
+power of the (M, M_H) grid does not depend on the threshold and is planned once: the
+variance matrices (shared with a :class:`scan.observables.pbh.plan.PBHPlan`), the formation epochs and
+their weights, and the critical-collapse variable x = (M/(K M_H))^{1/gamma_c}.  What does
+depend on the threshold is elementwise: C = C_th + x, its Gaussian variable y (y = C
+for the linear criteria, y = C_l(C) = (4/3)[1 - sqrt(1 - 3C/2)] for the compaction
+function, Young, Musco & Byrnes 2019, arXiv:1904.00984), dy/dC, and the density p(y).
+These are evaluated per (spectrum, epoch) pair with that spectrum's threshold, on the
+same pairs and with the same quadrature as :meth:`PBHPlan.from_variance` (for the linear
+criteria from its threshold-free table, :mod:`scan.observables.pbh.tables`), so each row equals
+``plan_pbh(..., replace(conventions, threshold=t)).evaluate(row)`` to rounding (the
+tests pin this to 1e-12 relative) at about the cost of one fixed-threshold evaluation.
+Interpolating ln f between a few threshold nodes would cost one such evaluation per
+node, and still be approximate.
+
+Units: k [Mpc^-1], masses [M_sun], P_zeta, sigma^2, thresholds and f [1].
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from scan.observables import cosmo
+from scan.observables.pbh.abundance import _GL_W, _GL_Z
+from scan.observables.pbh.conventions import PBHConventions
+from scan.observables.pbh.kernel import half_exp
+from scan.observables.pbh.plan import UNDERFLOW_HALF_NU2, PBHPlan, _log_interp, plan_pbh
+from scan.observables.pbh.tables import beta_tabulated
+from scan.observables.pbh.thresholds import C_L_MAX, C_MAX, compaction_linear
+
+
+@dataclass(frozen=True)
+class ThresholdResult:
+    """f_PBH(M) per ln M for m spectra, each at its own collapse threshold.
+
+    The spectrum-dependent attributes drop the leading axis when one spectrum was given.
+
+    Attributes
+    ----------
+    M : ndarray [M_sun]
+        Output masses, shape (n_M,).
+    f_pbh : ndarray [1]
+        Fraction of dark matter per ln M, shape (m, n_M) (or (n_M,)).
+    f_pbh_total : ndarray or float [1]
+        int f dln M over all masses, shape (m,) (or a float).
+    M_H : ndarray [M_sun]
+        Horizon masses of the formation epochs, shape (n_H,).
+    sigma2 : ndarray [1]
+        Smoothed variance at each M_H, shape (m, n_H) (or (n_H,)).
+    threshold : ndarray or float [1]
+        The threshold of each row (C_th or delta_c), shape (m,) (or a float).
+    conventions : PBHConventions
+        Every other convention (``threshold`` is only the default of ``evaluate``).
+    """
+
+    M: np.ndarray
+    f_pbh: np.ndarray
+    f_pbh_total: float | np.ndarray
+    M_H: np.ndarray
+    sigma2: np.ndarray
+    threshold: float | np.ndarray
+    conventions: PBHConventions
+
+
+@dataclass(frozen=True)
+class ThresholdPlan:
+    """The P_zeta- and threshold-independent parts of f_PBH(M) (see
+    :func:`plan_pbh_thresholds`).
+
+    Attributes
+    ----------
+    base : PBHPlan
+        Holds the table ``k_in``, masses ``M``, epochs ``M_H``, the variance matrices,
+        epoch weights and abundance coefficients (used, not copied).
+    threshold_range : tuple of float [1]
+        Accepted thresholds: the closed interval [lo, hi] if ``closed``, else the
+        criterion's open domain (lo, hi).
+    closed : bool
+    """
+
+    base: PBHPlan
+    threshold_range: tuple[float, float]
+    closed: bool
+    _xT: np.ndarray | None        # x = (M/(K M_H))^{1/gamma_c}, shape (n_H, n_M)
+    _rxcT: np.ndarray | None      # (M/M_H) x / gamma_c w_H F(M_H), shape (n_H, n_M)
+    _force: np.ndarray | None     # epochs kept live because a kernel weight is not finite
+
+    @property
+    def k_in(self) -> np.ndarray:
+        """Spectrum table [Mpc^-1], shape (n_k,)."""
+        return self.base.k_in
+
+    @property
+    def M(self) -> np.ndarray:
+        """Output masses [M_sun], shape (n_M,)."""
+        return self.base.M
+
+    @property
+    def M_H(self) -> np.ndarray:
+        """Formation horizon masses [M_sun], shape (n_H,)."""
+        return self.base.M_H
+
+    @property
+    def conventions(self) -> PBHConventions:
+        """The planned conventions (``threshold``: the default of :meth:`evaluate`)."""
+        return self.base.conventions
+
+    def check_thresholds(self, threshold: float | np.ndarray, m: int) -> np.ndarray:
+        """The thresholds as shape (m,) [1]; ValueError outside ``threshold_range``.
+
+        Parameters
+        ----------
+        threshold : float or array_like [1]
+            One threshold for every row, or one per row, shape (m,).
+        m : int
+            Number of spectra.
+
+        Returns
+        -------
+        ndarray [1]
+            Shape (m,).
+        """
+        t = np.asarray(threshold, dtype=float)
+        if t.ndim > 1 or (t.ndim == 1 and t.size != m):
+            raise ValueError(f"threshold must be a number or have shape ({m},), got "
+                             f"{t.shape}")
+        t = np.broadcast_to(t, (m,))
+        lo, hi = self.threshold_range
+        if self.closed:
+            bad, where = ~((t >= lo) & (t <= hi)), f"the planned range [{lo}, {hi}]"
+        else:
+            bad, where = ~((t > lo) & (t < hi)), f"the criterion's domain ({lo}, {hi})"
+        if bad.any():
+            j = int(np.flatnonzero(bad)[0])
+            raise ValueError(f"{_name(self.conventions)} = {float(t[j])} (row {j}) is "
+                             f"outside {where}; plan with a wider threshold_range")
+        return t
+
+    def evaluate(self, P_zeta: np.ndarray,
+                 threshold: float | np.ndarray | None = None) -> ThresholdResult:
+        """f_PBH(M) per ln M [1] and the total for spectra on ``k_in``, one threshold each.
+
+        Parameters
+        ----------
+        P_zeta : array_like [1]
+            Shape (m, n_k) on ``k_in`` (or (n_k,) for one spectrum).
+        threshold : float or array_like [1], optional
+            C_th (compaction) or delta_c (linear criteria) per row, shape (m,), or one
+            number for all rows; inside ``threshold_range``.  Default: the planned
+            ``conventions.threshold`` for every row (as :meth:`PBHPlan.evaluate`).
+
+        Returns
+        -------
+        ThresholdResult
+            ``f_pbh`` of shape (m, n_M), ``f_pbh_total`` and ``threshold`` of shape (m,).
+        """
+        s0, kR2 = self.base.sigma2(P_zeta)
+        return self.from_variance(s0, threshold, kR2)
+
+    def from_variance(self, sigma2: np.ndarray, threshold: float | np.ndarray | None = None,
+                      kR2: np.ndarray | None = None) -> ThresholdResult:
+        """As :meth:`evaluate`, from sigma^2 [1] (and <k^2>R^2 [1] for peaks) at ``M_H``.
+
+        Parameters
+        ----------
+        sigma2 : array_like [1]
+            Shape (m, n_H) or (n_H,).
+        threshold : float or array_like [1], optional
+            Shape (m,) or a number (default ``conventions.threshold``).
+        kR2 : array_like [1], optional
+            Same shape as ``sigma2`` (default 1; used by ``peaks`` only).
+
+        Returns
+        -------
+        ThresholdResult
+        """
+        conv = self.conventions
+        s0 = np.maximum(np.asarray(sigma2, dtype=float), 1e-300)
+        kR2 = np.ones_like(s0) if kR2 is None else np.broadcast_to(
+            np.asarray(kR2, dtype=float), s0.shape)
+        s2, k2 = np.atleast_2d(s0), np.atleast_2d(kR2)
+        t = self.check_thresholds(conv.threshold if threshold is None else threshold,
+                                  s2.shape[0])
+        y_th = compaction_linear(t) if conv.criterion == "compaction" else t
+        if conv.mass_function == "monochromatic":
+            f_h = self.base._coef * _beta_mono(s2, k2, y_th, conv)
+            f = _log_interp(self.M, conv.gamma * self.M_H, f_h)
+            total = np.sum(self.base._wln * f_h, axis=-1)
+        else:
+            # nu^2/2 >= 760  <=>  sigma^2 <= y_th^2 / 1520 (NaN stays live)
+            live = ~(s2 <= (y_th * y_th / (2 * UNDERFLOW_HALF_NU2))[:, None]) \
+                | ~np.isfinite(k2)
+            f = self._critical_mass_function(s2, k2, t, y_th, live | self._force)
+            i, h = np.nonzero(live)
+            beta = np.zeros(s2.shape)
+            table = self.base._beta_table
+            if table is not None and conv.criterion != "compaction":
+                # linear criteria: the table of ln S does not depend on delta_c
+                beta[i, h] = beta_tabulated(table, s2[i, h], k2[i, h], y_th[i])
+            else:
+                beta[i, h] = _beta_weighted(s2[i, h], k2[i, h], y_th[i], conv)
+            total = np.sum(self.base._wln * self.base._coef * beta, axis=-1)
+        if s0.ndim == 1:
+            return ThresholdResult(self.M, f[0], float(total[0]), self.M_H, s0,
+                                   float(t[0]), conv)
+        return ThresholdResult(self.M, f, total, self.M_H, s0, t, conv)
+
+    def _critical_mass_function(self, s2: np.ndarray, k2: np.ndarray, t: np.ndarray,
+                                y_th: np.ndarray, live: np.ndarray) -> np.ndarray:
+        """f(M) = sum_H weight p(y) w_H F(M_H) over ``live`` (row, epoch) pairs.
+
+        Per pair and mass: C = t + x, y(C), weight = (M/M_H)(dy/dC) x / gamma_c, and
+        p(y) = prefactor * exp(-y^2/(2 sigma^2)) [* (nu^3 - 3 nu)_+ for peaks] (the
+        densities of :func:`scan.observables.pbh.abundance.density`).
+
+        Parameters
+        ----------
+        s2, k2 : ndarray [1]
+            sigma^2 and <k^2> R^2, shape (m, n_H).
+        t, y_th : ndarray [1]
+            Threshold and its Gaussian-variable value per row, shape (m,).
+        live : ndarray of bool
+            Shape (m, n_H).
+
+        Returns
+        -------
+        ndarray [1]
+            Shape (m, n_M).
+        """
+        conv = self.conventions
+        i, h = np.nonzero(live)                               # grouped by row i
+        c = t[i][:, None] + self._xT[h]
+        if conv.criterion == "compaction":
+            valid = c < C_MAX
+            root = np.sqrt(np.maximum(1 - 1.5 * c, 1e-300))   # 1/(dy/dC) where valid
+            y = np.where(valid, (4 / 3) * (1 - root), y_th[i][:, None])
+            with np.errstate(over="ignore", invalid="ignore"):
+                weight = np.where(valid, self._rxcT[h] / root, 0.0)
+        else:
+            y, weight = c, self._rxcT[h]
+        s, k = s2[i, h][:, None], k2[i, h][:, None]
+        g = half_exp(y * y * (-0.25 / s), valid if conv.criterion == "compaction" else None)
+        if conv.criterion == "peaks":
+            nu = y / np.sqrt(s)
+            g *= np.clip(nu * (nu * nu - 3), 0.0, None)
+        terms = weight * g * _prefactor(s, k, conv)
+        counts = np.bincount(i, minlength=s2.shape[0])
+        f = np.zeros((s2.shape[0], self.M.size))
+        if i.size:
+            starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
+            f[counts > 0] = np.add.reduceat(terms, starts[counts > 0], axis=0)
+        return f
+
+
+def _y_max(conv: PBHConventions) -> float:
+    """Upper limit of the Gaussian variable: 4/3 (type I compaction) or infinity."""
+    return C_L_MAX if conv.criterion == "compaction" else math.inf
+
+
+def _name(conv: PBHConventions) -> str:
+    """What the threshold is called for ``conv``'s criterion."""
+    return "C_th" if conv.criterion == "compaction" else "delta_c"
+
+
+def _beta_mono(s2: np.ndarray, k2: np.ndarray, y_th: np.ndarray,
+               conv: PBHConventions) -> np.ndarray:
+    """Mass fraction above threshold [1], shape (m, n_H), threshold ``y_th`` per row.
+
+    The formulas of :func:`scan.observables.pbh.abundance.beta_monochromatic` (Press-Schechter or
+    the BBKS high-peak number density), with y_th of shape (m,).
+    """
+    sigma = np.sqrt(s2)
+    nu = y_th[:, None] / sigma
+    if conv.criterion == "peaks":
+        return (k2 / 3)**1.5 * (nu * nu - 1) * np.exp(-0.5 * nu * nu) / (3 * math.pi)
+    y_max = _y_max(conv)
+    upper = 0.0 if math.isinf(y_max) else special.erfc(y_max / (math.sqrt(2) * sigma))
+    return 0.5 * conv.ps_factor * (special.erfc(nu / math.sqrt(2)) - upper)
+
+
+def _prefactor(s: np.ndarray, k: np.ndarray, conv: PBHConventions) -> np.ndarray:
+    """The y-independent factor of the density p(y) [1] (:func:`abundance.density`).
+
+    p = factor * exp(-nu^2/2), times (nu^3 - 3 nu)_+ for peaks, with nu = y/sigma.
+    """
+    if conv.criterion == "peaks":
+        return (k / 3)**1.5 / (3 * math.pi * np.sqrt(s))
+    return conv.ps_factor / (math.sqrt(2 * math.pi) * np.sqrt(s))
+
+
+def _beta_weighted(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
+                   conv: PBHConventions) -> np.ndarray:
+    """int dy K (C - C_th)^gamma_c p(y) [1] per pair, thresholds per pair, shape (n,).
+
+    The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: 48-point Gauss-Legendre
+    in z on (0, 1) with y = y_th + span z^{1/gamma_c}, span = min(y_max - y_th,
+    14 sigma).  With e = y - y_th = span z^{1/gamma_c} the excess is C - C_th = e for
+    the linear criteria and e (1 - (3/8)(y + y_th)) for the compaction function, so
+    (C - C_th)^gamma_c = span^gamma_c z [(1 - (3/8)(y + y_th))^gamma_c]: the power of
+    the grid is taken once per pair (and, for compaction, folded into the exponential).
+
+    Parameters
+    ----------
+    s, k : ndarray [1]
+        sigma^2 and <k^2> R^2 per pair, shape (n,).
+    y_th : ndarray [1]
+        Threshold of the Gaussian variable per pair, shape (n,).
+    conv : PBHConventions
+
+    Returns
+    -------
+    ndarray [1]
+        Shape (n,).
+    """
+    gam = conv.gamma_c
+    a = _GL_Z**(1 / gam)                                   # e / span at the nodes
+    wq = _GL_W * a / gam            # w z z^{1/gamma_c - 1}/gamma_c: (e/span)^gamma_c dy/dz
+    sc, y0 = s[:, None], y_th[:, None]
+    span = np.minimum(_y_max(conv) - y0, 14 * np.sqrt(sc) + 1e-300)
+    y = y0 + span * a
+    arg = y * y * (-0.5 / sc)
+    if conv.criterion == "compaction":
+        with np.errstate(divide="ignore"):
+            arg += gam * np.log(np.maximum(1 - 0.375 * (y + y0), 0.0))
+    g = half_exp(0.5 * arg)
+    if conv.criterion == "peaks":
+        nu = y / np.sqrt(sc)
+        g *= np.clip(nu * (nu * nu - 3), 0.0, None)
+    row = conv.K * span[:, 0]**(1 + gam) * _prefactor(s, k, conv)
+    return row * (g @ wq)
+
+
+def threshold_domain(conv: PBHConventions) -> tuple[float, float]:
+    """Open interval of thresholds the criterion allows [1]: (0, 2/3) for C_th (type I),
+    (0, inf) for delta_c."""
+    return (0.0, C_MAX) if conv.criterion == "compaction" else (0.0, math.inf)
+
+
+def plan_pbh_thresholds(k_in, M_msun, conventions: PBHConventions | None = None,
+                        threshold_range: tuple[float, float] | None = None, *,
+                        n_formation: int = 256, dof: cosmo.Dof = None,
+                        n_eff: float = cosmo.N_EFF_DEFAULT) -> ThresholdPlan:
+    """Plan f_PBH(M) with a threshold per spectrum, for spectra on ``k_in`` [Mpc^-1].
+
+    Parameters
+    ----------
+    k_in : array_like [Mpc^-1]
+        Spectrum table (increasing), shape (n_k,).
+    M_msun : array_like [M_sun] or Quantity
+        Output masses, shape (n_M,).
+    conventions : PBHConventions, optional
+        Window, criterion, mass function, gamma_c, K, gamma, ps_factor, Omega_DM h^2;
+        ``threshold`` is used only where :meth:`ThresholdPlan.evaluate` gets none.
+    threshold_range : (float, float) [1], optional
+        Closed range [lo, hi] of thresholds :meth:`ThresholdPlan.evaluate` accepts
+        (e.g. the prior's support): C_th for ``compaction`` (0 < lo <= hi < 2/3),
+        delta_c for the linear criteria (0 < lo <= hi).  Default: the whole domain.
+    n_formation : int
+        Number of formation epochs (as :func:`scan.observables.pbh.plan_pbh`).
+    dof, n_eff
+        g_*(T) and N_eff (as :func:`scan.observables.pbh.plan_pbh`).
+
+    Returns
+    -------
+    ThresholdPlan
+    """
+    conv = conventions or PBHConventions()
+    lo_d, hi_d = threshold_domain(conv)
+    if threshold_range is None:
+        lo, hi = lo_d, hi_d
+    else:
+        lo, hi = (float(v) for v in threshold_range)
+        if not lo_d < lo <= hi < hi_d:
+            raise ValueError(f"threshold_range [{lo}, {hi}] for {_name(conv)} must satisfy "
+                             f"{lo_d} < lo <= hi < {hi_d} ({conv.criterion} criterion)")
+    base = plan_pbh(k_in, M_msun, conv, n_formation=n_formation, dof=dof, n_eff=n_eff,
+                    tabulate=conv.criterion != "compaction")   # the table serves any delta_c
+    xT = rxcT = force = None
+    if conv.mass_function == "critical":
+        ratio = base.M[None, :] / base.M_H[:, None]
+        with np.errstate(over="ignore", invalid="ignore"):
+            xT = (ratio / conv.K)**(1 / conv.gamma_c)
+            rxcT = ratio * xT / conv.gamma_c * (base._wln * base._coef)[:, None]
+        force = np.zeros(base.M_H.size, bool) if conv.criterion == "compaction" \
+            else ~np.isfinite(rxcT).all(1)
+    return ThresholdPlan(base, (lo, hi), threshold_range is not None, xT, rxcT, force)

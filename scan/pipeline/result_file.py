@@ -1,0 +1,120 @@
+"""Writing one solve (``zetascan solve``) into the run's HDF5 file, and its figures.
+
+Layout (every dataset has a ``units`` attribute):
+
+* root attributes: provenance (see :func:`scan.store.provenance`), ``valid``, ``reason``;
+* ``config``: the TOML text, attribute ``overrides``;
+* ``background/``: ``N``, ``phi``, ``chi``, ``dchi_dN``, ``H`` (V0 = 1), ``eps1``, ``eps2``;
+  attributes ``valid``, ``reason``, ``N_start``, ``N_end``; sub-group ``crossings`` with one
+  dataset per crossing field;
+* ``cmb/``: attributes ``N_star``, ``n_s``, ``r``, ``V0``, ``k_star`` (exact-mode values when
+  the spectrum exists, otherwise the background's second-order slow-roll values) plus
+  ``n_s_slow_roll``, ``r_slow_roll``, ``eps1``, ``eps2``, ``eps3``, ``source``;
+* ``spectrum/``: ``k`` [Mpc^-1], ``P_zeta``, ``P_tensor``, ``N_exit``; attributes ``k_peak``,
+  ``P_peak``, ``k_dip``, ``P_dip``, ``n_s``, ``r``, ``alpha_s``, ``A_s``, ``V0``, ``N_star``,
+  ``usr_efolds``, ``valid``, ``reason``;
+* ``gw/``: ``f`` [Hz], ``k`` [Mpc^-1], ``omega_gw_h2``; attributes ``f_peak``, ``omega_gw_h2_peak``;
+* ``pbh/``: ``M`` [M_sun], ``M_g`` [g], ``f_pbh`` (per ln M); attribute ``f_pbh_total`` and
+  every convention (window, criterion, threshold, gamma_c, K, ...).
+"""
+from __future__ import annotations
+
+import dataclasses
+import math
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from scan import store
+from scan.config.schema import RunConfig
+from scan.observables import cosmo
+from scan.pipeline.solve import SolveResult
+
+_BACKGROUND_UNITS = {"N": "e-folds", "phi": "M_p", "chi": "M_p", "dchi_dN": "M_p",
+                     "H": "M_p (for V0 = 1; scales as sqrt(V0))", "eps1": "1", "eps2": "1"}
+
+
+def write_solve_result(path: str | Path, config: RunConfig, result: SolveResult) -> Path:
+    """Write a new result file for one solve (atomically); return its path."""
+    path = Path(path)
+    with store.atomic_h5(path) as handle:
+        store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
+        store.write_attrs(handle, {"valid": result.valid, "reason": result.reason})
+        store.write_config(handle, config.text, config.overrides)
+        _write_background(handle.create_group("background"), result)
+        _write_cmb(handle.create_group("cmb"), result)
+        if result.spectrum is not None:
+            _write_spectrum(handle.create_group("spectrum"), result)
+        if result.observables is not None:
+            write_observables(handle, result.observables)
+    return path
+
+
+def _write_background(group: h5py.Group, result: SolveResult) -> None:
+    bg = result.background
+    for name, units in _BACKGROUND_UNITS.items():
+        store.write_dataset(group, name, getattr(bg, name), units)
+    store.write_attrs(group, {"valid": bg.valid, "reason": bg.reason, "N_start": bg.N_start,
+                              "N_end": bg.N_end, "n_crossings": len(bg.crossings)})
+    if bg.crossings:
+        sub = group.create_group("crossings")
+        for fld in dataclasses.fields(bg.crossings[0]):
+            values = [getattr(c, fld.name) for c in bg.crossings]
+            units = "1" if fld.name == "index" else ("M_p" if fld.name == "position"
+                                                     else "e-folds")
+            store.write_dataset(sub, fld.name, values, units)
+
+
+def _write_cmb(group: h5py.Group, result: SolveResult) -> None:
+    p, s = result.pivot, result.spectrum
+    nan = math.nan
+    attrs = {"k_star": nan, "N_star": nan, "n_s": nan, "r": nan, "V0": nan,
+             "source": "none", "units_k_star": "Mpc^-1", "units_V0": "M_p^4"}
+    if p is not None:
+        attrs.update(k_star=p.k_star, N_star=p.N_star, n_s=p.n_s, r=p.r, V0=p.V0,
+                     n_s_slow_roll=p.n_s, r_slow_roll=p.r, eps1=p.eps1, eps2=p.eps2,
+                     eps3=p.eps3, source="second-order slow roll on the exact background",
+                     valid=p.valid, reason=p.reason)
+    if s is not None and s.valid:
+        attrs.update(N_star=s.N_star, n_s=s.n_s, r=s.r, V0=s.V0, alpha_s=s.alpha_s, A_s=s.A_s,
+                     source="exact Mukhanov-Sasaki modes")
+    store.write_attrs(group, attrs)
+
+
+def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
+    s = result.spectrum
+    store.write_dataset(group, "k", s.k, "Mpc^-1")
+    store.write_dataset(group, "P_zeta", s.P_zeta, "1", "dimensionless curvature power spectrum")
+    store.write_dataset(group, "P_tensor", s.P_tensor, "1", "dimensionless tensor power "
+                        "spectrum (both polarisations)")
+    store.write_dataset(group, "N_exit", s.N_exit, "e-folds", "e-fold of horizon exit k = aH")
+    store.write_attrs(group, {
+        "k_peak": s.k_peak, "P_peak": s.P_peak, "k_dip": s.k_dip, "P_dip": s.P_dip,
+        "n_s": s.n_s, "r": s.r, "alpha_s": s.alpha_s, "A_s": s.A_s, "V0": s.V0,
+        "N_star": s.N_star, "k_star": s.k_star, "usr_efolds": s.usr_efolds,
+        "valid": s.valid, "reason": s.reason, "units_k_peak": "Mpc^-1", "units_V0": "M_p^4"})
+
+
+def write_observables(handle: h5py.Group, obs) -> None:
+    """Groups ``gw`` (``f`` [Hz], ``k``, ``omega_gw_h2``) and ``pbh`` (``M`` [M_sun], ``M_g``,
+    ``f_pbh`` per ln M; attribute ``f_pbh_total`` and every PBH convention)."""
+    gw = handle.create_group("gw")
+    store.write_dataset(gw, "f", obs.f, "Hz", "GW frequency today")
+    store.write_dataset(gw, "k", cosmo.f_to_k(obs.f), "Mpc^-1", "comoving wavenumber")
+    store.write_dataset(gw, "omega_gw_h2", obs.omega_gw_h2, "1", "Omega_GW,0 h^2 per ln f")
+    f_peak, omega_peak = obs.peak
+    store.write_attrs(gw, {"f_peak": f_peak, "omega_gw_h2_peak": omega_peak,
+                           "units_f_peak": "Hz", "notes": list(obs.notes) or ["none"]})
+    pbh = handle.create_group("pbh")
+    store.write_dataset(pbh, "M", obs.pbh.M, "M_sun", "PBH mass")
+    store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(obs.pbh.M), "g", "PBH mass")
+    store.write_dataset(pbh, "f_pbh", obs.pbh.f_pbh, "1", "fraction of dark matter per ln M")
+    pbh.attrs["f_pbh_total"] = obs.pbh.f_pbh_total
+    store.write_attrs(pbh, obs.pbh.conventions.as_attrs())
+
+
+def read_spectrum(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
+    """``(k [Mpc^-1], P_zeta)`` from a result file's ``spectrum`` group."""
+    with h5py.File(path, "r") as handle:
+        return handle["spectrum/k"][()], handle["spectrum/P_zeta"][()]

@@ -1,0 +1,178 @@
+"""One exact solve of one configured model: model → background → pivot → spectrum.
+
+Pure orchestration of the physics stages (no file I/O, no printing).  The command line
+(``zetascan solve``), the surrogate's training and the sampler's ``--exact`` mode all
+call :func:`solve_config`.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from scan.background import Background, solve_background
+from scan.config.schema import RunConfig
+from scan.models import Model, model_from_section
+from scan.modes import ModeSettings, Spectrum, compute_spectrum
+from scan.observables import Observables, compute_observables
+from scan.observables.pbh import PBHConventions
+from scan.background.pivot import Pivot, Reheating, solve_pivot
+
+#: E-folds the background must provide before the pivot exits (initial data of the
+#: pivot modes start ~ln(x_in) e-folds earlier; common practice: a few e-folds more).
+PIVOT_MARGIN_EFOLDS: float = 8.0
+
+
+@dataclass(frozen=True)
+class SolveResult:
+    """Everything one exact solve produced (stages after an invalid one are ``None``).
+
+    Attributes
+    ----------
+    model : Model
+    background : Background
+    pivot : Pivot or None
+    spectrum : Spectrum or None
+    observables : Observables or None
+        Ω_GW h²(f) and f_PBH(M) of the exact spectrum.
+    valid : bool
+    reason : str
+        The first stage's reason for an invalid model ("" when valid).
+    """
+
+    model: Model
+    background: Background
+    pivot: Pivot | None
+    spectrum: Spectrum | None
+    valid: bool
+    reason: str
+    observables: Observables | None = None
+
+    def summary_lines(self) -> list[str]:
+        """A short human summary (the CLI prints it)."""
+        bg = self.background
+        lines = [f"model: {'valid' if self.valid else 'INVALID: ' + self.reason}"]
+        if math.isfinite(bg.N_end):
+            lines.append(f"N_total = {bg.N_end - bg.N_start:.3f} e-folds")
+        for c in bg.crossings:
+            lines.append(f"pole {c.index} at phi = {c.position:.6g}: crossed at N = "
+                         f"{c.N_cross:.3f}, {c.efolds_near:.3f} e-folds with |phi - phi_i| < w, "
+                         f"{c.usr_efolds:.3f} e-folds of ultra-slow roll (eps2 < -3)")
+        if self.pivot is not None and self.pivot.valid:
+            p = self.pivot
+            lines.append(f"pivot k* = {p.k_star:g} Mpc^-1: N* = {p.N_star:.3f}; slow roll "
+                         f"(2nd order): n_s = {p.n_s:.5f}, r = {p.r:.4g}")
+        s = self.spectrum
+        if s is not None and s.valid:
+            lines.append(f"exact modes: n_s = {s.n_s:.5f}, alpha_s = {s.alpha_s:.3g}, "
+                         f"r = {s.r:.4g}, V0 = {s.V0:.4g} M_p^4, N* = {s.N_star:.3f}")
+            if math.isfinite(s.k_peak):
+                lines.append(f"peak: P_zeta = {s.P_peak:.4g} at k = {s.k_peak:.4g} Mpc^-1"
+                             + (f"; dip P = {s.P_dip:.3g} at k = {s.k_dip:.3g} Mpc^-1"
+                                if math.isfinite(s.k_dip) else ""))
+        o = self.observables
+        if o is not None:
+            f_peak, omega_peak = o.peak
+            lines.append(f"induced GWs: max Omega_GW h^2 = {omega_peak:.3e} at f = {f_peak:.3e} Hz")
+            lines.append(f"PBHs: f_PBH total = {o.pbh.f_pbh_total:.3e} "
+                         f"({o.pbh.conventions.criterion}, {o.pbh.conventions.window} window, "
+                         f"threshold {o.pbh.conventions.threshold:g})")
+            lines += [f"note: {note}" for note in o.notes]
+        return lines
+
+
+def model_of(config: RunConfig) -> Model:
+    """The :class:`Model` a config describes."""
+    return model_from_section(config.model)
+
+
+def reheating_of(config: RunConfig) -> Reheating:
+    """The reheating history of the ``[pivot]`` section."""
+    p = config.pivot
+    return Reheating(kind=p.reheating, w=p.reheat_w, T_GeV=p.reheat_temperature_GeV,
+                     rho_GeV4=p.reheat_density_GeV4, g_th=p.g_reheat)
+
+
+def mode_settings_of(config: RunConfig) -> ModeSettings:
+    """Mode-solver settings of the ``[modes]`` section."""
+    m = config.modes
+    return ModeSettings(x_in=m.x_in, x_out=m.x_out, rtol=m.rtol, p_zeta_max=m.stochastic_limit)
+
+
+def conventions_of(config: RunConfig) -> PBHConventions:
+    """PBH conventions of the ``[observables]`` section."""
+    o = config.observables
+    return PBHConventions(window=o.window, criterion=o.criterion, threshold=o.threshold,
+                          mass_function=o.mass_function, gamma_c=o.gamma_c, K=o.collapse_K,
+                          gamma=o.gamma, ps_factor=o.ps_factor, omega_dm_h2=o.omega_dm_h2)
+
+
+def observables_of(config: RunConfig, spectrum: Spectrum) -> Observables:
+    """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions."""
+    from scan.observables import gstar
+
+    o = config.observables
+    dof = gstar.load_table(o.gstar_table) if o.gstar_table else None
+    return compute_observables(spectrum.k, spectrum.P_zeta, conventions=conventions_of(config),
+                               n_f=o.n_f, n_m=o.n_m, dof=dof, n_eff=o.n_eff)
+
+
+def solve_background_of(config: RunConfig, model: Model | None = None) -> Background:
+    """The exact background of a configured model (V0 = 1)."""
+    model = model_of(config) if model is None else model
+    b = config.background
+    n_star_hint = config.pivot.n_star if config.pivot.n_star is not None else 60.0
+    return solve_background(model, phi_start=b.phi_start, velocity_start=b.velocity_start,
+                            n_max=b.n_max, rtol=b.rtol, efolds_auto=n_star_hint + 15.0)
+
+
+def solve_config(config: RunConfig, *, with_modes: bool = True,
+                 with_observables: bool = True) -> SolveResult:
+    """Solve a configured model exactly.
+
+    Parameters
+    ----------
+    config : RunConfig
+        The run configuration.
+    with_modes : bool
+        Also solve the Mukhanov–Sasaki modes (the exact spectrum and normalisation).
+    with_observables : bool
+        Also compute Ω_GW h²(f) and f_PBH(M) of the spectrum.
+
+    Returns
+    -------
+    SolveResult
+        Invalid models are values with a reason, never exceptions.
+    """
+    model = model_of(config)
+    bg = solve_background_of(config, model)
+    if not bg.valid:
+        return SolveResult(model, bg, None, None, False, f"background: {bg.reason}")
+    reheating = reheating_of(config)
+    A_s = math.exp(config.pivot.ln_1e10_As) * 1e-10
+    pivot = solve_pivot(bg, N_star=config.pivot.n_star, k_star=config.pivot.k_star,
+                        reheating=reheating, A_s=A_s, margin=PIVOT_MARGIN_EFOLDS)
+    if not pivot.valid:
+        return SolveResult(model, bg, pivot, None, False, f"pivot: {pivot.reason}")
+    if not with_modes:
+        return SolveResult(model, bg, pivot, None, True, "")
+    spectrum = compute_spectrum(bg, N_star=_n_star_rule(config, bg, reheating, A_s),
+                                n_modes=config.modes.n_k, k_star=config.pivot.k_star,
+                                ln10As=config.pivot.ln_1e10_As,
+                                settings=mode_settings_of(config), N_star_guess=pivot.N_star)
+    if not spectrum.valid:
+        return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {spectrum.reason}")
+    observables = observables_of(config, spectrum) if with_observables else None
+    return SolveResult(model, bg, pivot, spectrum, True, "", observables)
+
+
+def _n_star_rule(config: RunConfig, bg: Background, reheating: Reheating, A_s: float):
+    """N* as given, or as a function of V0 through the matching equation."""
+    if config.pivot.n_star is not None:
+        return config.pivot.n_star
+    k_star = config.pivot.k_star
+
+    def n_star_of_V0(V0: float) -> float:
+        return solve_pivot(bg, k_star=k_star, reheating=reheating, A_s=A_s, V0=V0,
+                           margin=PIVOT_MARGIN_EFOLDS).N_star
+
+    return n_star_of_V0
