@@ -6,7 +6,8 @@ config -> models -> background -> pivot -> modes -> cosmo/sigw/pbh -> curves/lik
 -> surrogate -> sampler/grid.  I/O (``store``), the command line (``cli``) and figures
 (``plots``) live at the edges.
 """
-from importlib.metadata import PackageNotFoundError, version as _version
+from importlib.metadata import PackageNotFoundError
+from importlib.metadata import version as _version
 
 try:
     __version__ = _version("zetascan")

@@ -45,9 +45,13 @@ def resolve(name: str, known: dict[str, Path]) -> str | None:
 def imports_of(path: Path, known: dict[str, Path]) -> tuple[set[str], list[str]]:
     """(scan modules imported at any depth, scan imports found inside functions)."""
     tree = ast.parse(path.read_text(encoding="utf-8"))
+    typing_only = {id(n) for block in ast.walk(tree) if _is_type_checking_block(block)
+                   for n in ast.walk(block)}
     found: set[str] = set()
     hidden: list[str] = []
     for node in ast.walk(tree):
+        if id(node) in typing_only:   # `if TYPE_CHECKING:` imports never run
+            continue
         targets: list[str] = []
         if isinstance(node, ast.Import):
             targets = [a.name for a in node.names]
@@ -61,6 +65,11 @@ def imports_of(path: Path, known: dict[str, Path]) -> tuple[set[str], list[str]]
             hidden += [t for t in targets if t.startswith("scan")
                        and resolve(t, known) not in LAZY_ALLOWED]
     return found, hidden
+
+
+def _is_type_checking_block(node: ast.AST) -> bool:
+    return isinstance(node, ast.If) and isinstance(node.test, ast.Name) \
+        and node.test.id == "TYPE_CHECKING"
 
 
 def _inside_function(tree: ast.AST, target: ast.AST) -> bool:

@@ -12,8 +12,8 @@ from scipy import optimize
 from scan.observables import cosmo
 from scan.errors import ConfigError
 from scan.observables.pbh import (PBHConventions, abundance_coefficient, beta_monochromatic,
-                      compaction_linear_threshold, compaction_nonlinear, delta_c_harada,
-                      fpbh_prefactor, plan_pbh, variance, variance_delta)
+                                  compaction_linear_threshold, compaction_nonlinear, delta_c_harada,
+                                  fpbh_prefactor, plan_pbh, variance, variance_delta)
 from scan.observables.pbh.variance import variance_integrand
 
 X = np.geomspace(0.1, 10, 20001)

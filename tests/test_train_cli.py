@@ -3,9 +3,7 @@ model (skipped when the exact solver is absent or ZETASCAN_SKIP_SOLVER is set)."
 from __future__ import annotations
 
 import os
-from pathlib import Path
 
-import numpy as np
 import pytest
 
 from scan.cli import main

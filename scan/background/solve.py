@@ -11,8 +11,8 @@ from scipy.integrate import quad, solve_ivp
 from scipy.optimize import brentq
 
 from scan.background.crossing import crossing_report
-from scan.background.types import (Background, Chart, Segment, chart_map, chart_of, charts,
-                                   point, to_chart)
+from scan.background.types import (Background, Chart, Segment, chart_map, chart_of, charts, point,
+                                   to_chart)
 from scan.errors import ConfigError
 from scan.models import Model, kernel
 

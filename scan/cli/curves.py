@@ -3,11 +3,15 @@ from __future__ import annotations
 
 import argparse
 import warnings
-from pathlib import Path
 
 import numpy as np
 
+from scan.constants import YEAR_S
 from scan.curves import CurveWarning, format_curve, load_curve, write_curve
+from scan.curves.noise import LISA_CONFUSION_TABLE, lisa_sensitivity
+from scan.errors import InputFileError
+from scan.plots.curves import curves_figure
+from scan.plots.style import save
 
 EPILOG = """examples:
   zetascan curves check constraints/demo/*.csv
@@ -64,8 +68,6 @@ def _check(args) -> int:
 
 
 def _plot(args) -> int:
-    from scan.plots.curves import curves_figure
-    from scan.plots.style import save
     paths = save(curves_figure(_load_all(args.files)), args.out)
     print("wrote " + ", ".join(str(p) for p in paths))
     return 0
@@ -74,9 +76,6 @@ def _plot(args) -> int:
 def sensitivity_text(snr: float, years: float, confusion: bool, form: str,
                      points: int) -> str:
     """The curve file text of a LISA sensitivity (Robson, Cornish & Liu 2019)."""
-    from scan.constants import YEAR_S
-    from scan.errors import InputFileError
-    from scan.curves.noise import LISA_CONFUSION_TABLE, lisa_sensitivity
     if confusion and years not in LISA_CONFUSION_TABLE:
         raise InputFileError("--years", f"galactic confusion noise is tabulated for "
                                         f"{sorted(LISA_CONFUSION_TABLE)} years, not {years:g}")

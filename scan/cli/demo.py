@@ -3,6 +3,9 @@ from __future__ import annotations
 
 import argparse
 
+from scan.cli import main
+from scan.cli.demo_plan import plan_demo, run_demo
+
 EXAMPLE = """examples:
   zetascan demo                    # about 10 minutes on 2 cores: results/demo/
   zetascan demo --quick            # about 2 minutes, smaller surrogate, grid and chain
@@ -30,8 +33,6 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 
 def run(args: argparse.Namespace) -> int:
     """Run the demo's steps; exit with the first failing step's code."""
-    from scan.cli import main
-    from scan.cli.demo_plan import plan_demo, run_demo
 
     plan = plan_demo(args.out, args.quick, args.processes)
     return run_demo(plan, main, lambda line: print(line, flush=True))

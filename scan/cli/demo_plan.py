@@ -28,6 +28,9 @@ import time
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
+from scan.config import load_config
+from scan.errors import InputFileError
+
 #: The repository root (configs/ and constraints/ live beside the package).
 ROOT = Path(__file__).resolve().parents[2]
 CONFIG = ROOT / "configs" / "demo.toml"
@@ -68,8 +71,6 @@ def plan_demo(out: str | Path, quick: bool, processes: int | None = None) -> Dem
     """
     import os
 
-    from scan.config import load_config
-    from scan.errors import InputFileError
 
     if not CONFIG.is_file():
         raise InputFileError(str(CONFIG), "the demo config is missing; run the demo from "

@@ -7,6 +7,12 @@ import sys
 import time
 from collections.abc import Callable
 
+from scan.config import load_config
+from scan.grid import grid_path, install_worker, plan_grid_run, run_grid, summary_lines
+from scan.grid.run import check_config, describe_plan
+from scan.pool import choose_pool
+from scan.sampler.stop import EXIT_CODES, graceful_stop
+
 EXAMPLE = """examples:
   zetascan grid configs/pole_scan.toml --set 'grid.x="model.poles[0].position"' \\
       --set 'grid.y="model.poles[0].sharpness"'      # surrogate observables, serial
@@ -83,12 +89,6 @@ def _progress(every_s: float) -> Callable[[int, int], None]:
 
 def run(args: argparse.Namespace) -> int:
     """Run or resume the grid; print the summary; the exit code says how it ended."""
-    from scan.config import load_config
-    from scan.grid import install_worker, plan_grid_run, run_grid, summary_lines
-    from scan.grid import grid_path
-    from scan.grid.run import check_config, describe_plan
-    from scan.pool import choose_pool
-    from scan.sampler.stop import EXIT_CODES, graceful_stop
 
     overrides = list(args.overrides) + (['grid.source="exact"'] if args.exact else [])
     config = load_config(args.config, overrides=overrides)

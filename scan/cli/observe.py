@@ -17,12 +17,13 @@ from pathlib import Path
 import h5py
 import numpy as np
 
-from scan.observables import cosmo, gstar
 from scan import store
 from scan.errors import InputFileError
-from scan.observables import Observables, compute_observables
+from scan.observables import Observables, compute_observables, cosmo, gstar
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
 from scan.pipeline.result_file import write_observables
+from scan.plots import gw as gw_plot
+from scan.plots import pbh as pbh_plot
 
 #: Fewest table points accepted.
 MIN_POINTS: int = 8
@@ -200,7 +201,6 @@ def run(args: argparse.Namespace) -> int:
     print(f"wrote {out}: max Omega_GW h^2 = {omega[peak]:.3e} at f = {f[peak]:.3e} Hz; "
           f"f_PBH total = {result.f_pbh_total:.3e}")
     if args.figures:
-        from scan.plots import gw as gw_plot, pbh as pbh_plot
         paths = gw_plot.save_omega_gw(f, omega, Path(args.figures) / "omega_gw")
         paths += pbh_plot.save_f_pbh(result.M, result.f_pbh, Path(args.figures) / "f_pbh",
                                      total=result.f_pbh_total)

@@ -4,7 +4,10 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from scan.plots.sources import KINDS
+from scan.errors import InputFileError
+from scan.plots.inputs import Inputs
+from scan.plots.make import make_figures, select_kinds
+from scan.plots.sources import KINDS, resolve
 from scan.sampler.bands import N_SAMPLES, SEED
 
 EXAMPLE = """examples:
@@ -60,10 +63,6 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 
 def run(args: argparse.Namespace) -> int:
     """Make the figures; print the files written (and notes); 2 for an unsupported kind."""
-    from scan.errors import InputFileError
-    from scan.plots.inputs import Inputs
-    from scan.plots.make import make_figures, select_kinds
-    from scan.plots.sources import resolve
 
     if args.samples < 1:
         raise InputFileError("--samples", f"needs at least 1 sample, got {args.samples}")

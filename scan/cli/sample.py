@@ -7,9 +7,9 @@ import time
 
 from scan.config import load_config
 from scan.pool import choose_pool
+from scan.posterior.targets import prepare_target
 from scan.sampler.driver import Progress, RunOutcome, plan_run, run_chain
 from scan.sampler.stop import EXIT_CODES, graceful_stop
-from scan.posterior.targets import prepare_target
 
 EXAMPLE = """examples:
   zetascan sample configs/gaussian_test.toml                 # start, or resume the same chain

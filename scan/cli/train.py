@@ -6,7 +6,17 @@ import sys
 import time
 from collections.abc import Callable
 
+from scan.config import load_config
 from scan.errors import ConfigError
+from scan.surrogate.peak_observables import observables_for
+from scan.pool import choose_pool
+from scan.surrogate import surrogate_path, training_path
+from scan.surrogate.adapter import SolvePoint
+from scan.surrogate.identity import identity
+from scan.surrogate.space import from_config
+from scan.surrogate.surrogate_file import read_report, write_surrogate
+from scan.surrogate.train import TrainingPlan, run_training
+from scan.surrogate.validate import format_report, validate
 
 EXAMPLE = """example:
   zetascan train configs/tmodel_pole.toml --processes 2
@@ -75,7 +85,6 @@ def _pool(args: argparse.Namespace):
     """The pool of :mod:`scan.pool` (processes by default: one per core)."""
     import os
 
-    from scan.pool import choose_pool
 
     processes = None if args.mpi else (args.processes or os.cpu_count() or 1)
     return choose_pool(processes, args.mpi), processes or 1
@@ -83,8 +92,6 @@ def _pool(args: argparse.Namespace):
 
 def run(args: argparse.Namespace) -> int:
     """Train (or reprint a report); exit 0 on success."""
-    from scan.surrogate.surrogate_file import read_report
-    from scan.surrogate.validate import format_report
 
     if args.report:
         print("\n".join(format_report(read_report(args.report))))
@@ -96,15 +103,6 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _train(args: argparse.Namespace) -> int:
-    from scan.config import load_config
-    from scan.surrogate import surrogate_path, training_path
-    from scan.surrogate.adapter import SolvePoint
-    from scan.surrogate.identity import identity
-    from scan.observables.batch import observables_for
-    from scan.surrogate.space import from_config
-    from scan.surrogate.surrogate_file import write_surrogate
-    from scan.surrogate.train import TrainingPlan, run_training
-    from scan.surrogate.validate import format_report, validate
 
     config = load_config(args.config, overrides=args.overrides)
     space = from_config(config)

@@ -7,6 +7,7 @@ import sys
 import time
 from collections.abc import Callable
 
+from scan.errors import ZetascanError
 from scan.pool import choose_pool
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
 from scan.verify.run import open_run, verify_run
@@ -66,7 +67,6 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 
 def run(args: argparse.Namespace) -> int:
     """Verify the run, store the group, print the report."""
-    from scan.errors import ZetascanError
 
     if not 0.0 < args.min_ess <= 1.0:
         raise ZetascanError(f"--min-ess {args.min_ess}: give a fraction in (0, 1]")

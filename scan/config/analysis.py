@@ -6,7 +6,6 @@ from dataclasses import dataclass
 from scan.config.spec import spec
 from scan.errors import ConfigError
 
-
 UPPER_LIMIT_METHODS = ("step", "half_normal", "soft_log")
 
 

@@ -4,8 +4,8 @@ from __future__ import annotations
 from typing import Any
 
 from scan.config.load import load_config_text
-from scan.config.spec import as_dict
 from scan.config.schema import RunConfig
+from scan.config.spec import as_dict
 
 #: Keys that may change between invocations of the same run: they do not change the
 #: chain's steps, only when it stops, how often it is written and what is printed.

@@ -17,7 +17,6 @@ from scan.config.schema import RunConfig
 from scan.config.spec import build_section
 from scan.errors import ConfigError
 
-
 # --------------------------------------------------------------------------- overrides
 _KEY_PATH = re.compile(r"^[A-Za-z_][\w]*(\[\d+\])?(\.[A-Za-z_][\w]*(\[\d+\])?)*$")
 

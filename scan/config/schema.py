@@ -9,9 +9,8 @@ from __future__ import annotations
 import dataclasses
 from dataclasses import dataclass
 
+from scan.config.analysis import (GridSection, LikelihoodSection)
 from scan.config.spec import spec
-from scan.config.analysis import (GRID_SPACINGS, UPPER_LIMIT_METHODS, CurveMethodSection,  # noqa: F401
-                                  GridSection, LikelihoodSection)
 from scan.errors import ConfigError
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS

@@ -14,7 +14,7 @@ import math
 
 import numpy as np
 
-from scan.constants import GW_OMEGA_PREFACTOR_S2
+from scan.constants import GW_OMEGA_PREFACTOR_S2, YEAR_S
 
 #: LISA arm length [m] and transfer frequency f* = c/(2 pi L) [Hz] (Robson et al. 2019).
 LISA_ARM_M: float = 2.5e9
@@ -158,7 +158,6 @@ def lisa_sensitivity(f: np.ndarray, snr_threshold: float = 10.0, t_obs_yr: float
                      confusion: bool = False, form: str = "power_law_integrated",
                      f_out: np.ndarray | None = None) -> np.ndarray:
     """LISA Omega_n h^2 (``form="noise"``) or its PLI curve on ``f_out`` (default ``f``)."""
-    from scan.constants import YEAR_S
     omega_n = omega_noise_h2(f, lisa_strain_psd(f, confusion, t_obs_yr))
     if form == "noise":
         return omega_n if f_out is None else np.exp(np.interp(np.log(f_out), np.log(f),

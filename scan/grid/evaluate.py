@@ -25,6 +25,9 @@ import numpy as np
 from scan.config.schema import RunConfig
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, is_relative, point_verdict, term_kind
+from scan.likelihood import total_loglike
+from scan.posterior.exact import exact_outcome
+from scan.posterior.setup import build_terms
 
 #: Reason codes of the ``reason`` dataset (-1: not evaluated yet).
 REASONS: tuple[str, ...] = ("ok", "outside_prior", "outside_surrogate", "invalid_model",
@@ -116,7 +119,6 @@ class GridWorker:
             self.target.prepare()
             self._terms = list(self.target.terms)
         else:
-            from scan.posterior.target import build_terms
 
             self._terms = build_terms(self.config, self.curve_paths)
 
@@ -140,7 +142,6 @@ class GridWorker:
             reason = np.array([REASONS.index(names[c]) if names[c] in REASONS
                                else REASONS.index("invalid_model") for c in codes], np.int16)
             return reason, list(obs)
-        from scan.posterior.exact import exact_outcome
 
         reason = np.zeros(len(thetas), dtype=np.int16)
         obs: list = []
@@ -153,7 +154,6 @@ class GridWorker:
 
     def _objective(self, theta: np.ndarray) -> float:
         """-ln L of one vector; flat penalties for excluded and invalid models."""
-        from scan.likelihood import total_loglike
 
         reason, obs = self.observables(theta[None, :])
         if reason[0] != 0:
@@ -189,7 +189,6 @@ class GridWorker:
     # -------------------------------------------------------------- one block
     def __call__(self, points: np.ndarray) -> BlockResult:
         """Evaluate the points of one block."""
-        from scan.likelihood import total_loglike
 
         plan, terms = self.plan, self.terms
         points = np.asarray(points, dtype=np.int64)

@@ -20,9 +20,9 @@ import typing
 
 import numpy as np
 
+from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError, did_you_mean
-from scan.config.priors import PriorSet
 
 #: Largest distance of an optimiser coordinate from the unit-cube faces (keeps the
 #: inverse CDFs of the priors finite).

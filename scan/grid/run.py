@@ -21,15 +21,18 @@ from pathlib import Path
 
 import numpy as np
 
+from scan.config.diff import config_diff, format_diff, stored_config
+from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
+from scan.curves import load_curve
 from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.grid.evaluate import REASONS, GridWorker, RunBlock
 from scan.grid.plan import GridPlan, plan_grid
-from scan.grid.store import (GridWriter, create_grid_file, file_digest, grid_path,
-                             read_grid)
+from scan.grid.store import GridWriter, create_grid_file, file_digest, grid_path, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
-from scan.config.priors import PriorSet
+from scan.posterior.build import posterior_target
+from scan.posterior.setup import NUISANCE_NAMES, curve_paths_of
 
 #: Config keys that may change between invocations of one grid: they change nothing in it.
 RESUMABLE_PREFIXES: tuple[str, ...] = ("sampler.", "grid.progress_every_s")
@@ -67,7 +70,6 @@ class GridOutcome:
 
 def curve_labels(paths: tuple[str, ...]) -> dict[str, str]:
     """Curve name -> ``label`` metadata of the CSV curves among ``paths``."""
-    from scan.curves import load_curve
 
     return {c.name: c.label for c in (load_curve(p) for p in paths if p.endswith(".csv"))}
 
@@ -83,7 +85,6 @@ def plan_grid_run(config: RunConfig, path: str | Path | None = None) -> GridRun:
     InputFileError
         A curve or surrogate file that cannot be used.
     """
-    from scan.posterior.target import NUISANCE_NAMES, curve_paths_of, posterior_target
 
     priors = PriorSet.from_config(config)
     plan = plan_grid(config, priors)
@@ -120,7 +121,6 @@ def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:
     GridMismatchError
         The file was made from a different config (the message lists the keys).
     """
-    from scan.config.diff import config_diff, format_diff, stored_config
 
     if not resume:
         raise InputFileError(str(path), "a grid file already exists; pass --resume to "

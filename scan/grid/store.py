@@ -36,8 +36,7 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.grid.evaluate import DERIVED, REASONS, BlockResult
 from scan.grid.plan import GridPlan
-from scan.grid.verdict import (NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative,
-                               relative_status)
+from scan.grid.verdict import NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative, relative_status
 from scan.store import SingleWriter, provenance, write_attrs, write_config
 
 KIND = "zetascan grid"

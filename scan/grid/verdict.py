@@ -43,9 +43,8 @@ from typing import Any
 import numpy as np
 from scipy.stats import chi2
 
-from scan.likelihood import (DensityGridExcess, GaussianPrior, NeffBound, OneSidedLimit,
-                             PBHBounds, Sensitivity, SplitNormalExcess, UpperLimit,
-                             integrated_omega_h2)
+from scan.likelihood import (DensityGridExcess, GaussianPrior, NeffBound, OneSidedLimit, PBHBounds,
+                             Sensitivity, SplitNormalExcess, UpperLimit, integrated_omega_h2)
 from scan.likelihood.base import get
 
 KINDS: tuple[str, ...] = ("upper_limit", "pbh", "neff", "sensitivity", "detection", "prior")

@@ -14,8 +14,8 @@ from scan.likelihood.excess import (DensityGridExcess, SplitNormalExcess, power_
 from scan.likelihood.grid import PlannedTerms, plan_terms
 from scan.likelihood.pbh import PBHBounds, carr_integral
 from scan.likelihood.scalar import (NEFF_COEFFICIENT, GaussianPrior, NeffBound, OneSidedLimit,
-                                    bicep_keck_2021_r, integrated_omega_h2,
-                                    neff_integral_limit, planck2018_pivot_priors)
+                                    bicep_keck_2021_r, integrated_omega_h2, neff_integral_limit,
+                                    planck2018_pivot_priors)
 from scan.likelihood.sensitivity import Sensitivity
 from scan.likelihood.total import binding_term, total_loglike
 from scan.likelihood.upper import UpperLimit, half_normal_sigma

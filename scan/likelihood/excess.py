@@ -16,7 +16,7 @@ import numpy as np
 from scan.constants import F_YR_HZ, GW_OMEGA_PREFACTOR_S2
 from scan.curves import Curve
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import (OnGrid, TINY, GridSpectra, as_result, get, interp_last,
+from scan.likelihood.base import (TINY, GridSpectra, OnGrid, as_result, get, interp_last,
                                   log10_model_at, log10_weights, nuisance_value)
 
 #: Nuisance key of the foreground amplitude A (h_c = A (f/f_yr)^(-2/3)).

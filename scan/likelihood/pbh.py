@@ -22,8 +22,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan.curves import Curve
-from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, get_optional,
-                                  interp_last, interp_weights, product_or_direct)
+from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, get_optional, interp_last,
+                                  interp_weights, product_or_direct)
 
 COMBINE: tuple[str, ...] = ("max", "quadrature")
 METHODS: tuple[str, ...] = ("step", "soft_log")

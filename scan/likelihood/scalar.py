@@ -13,10 +13,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scan.observables.cosmo import omega_gamma_h2
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, interp_last,
-                                  interp_weights, product_or_direct)
+from scan.likelihood.base import (GridSpectra, OnGrid, as_result, get, interp_last, interp_weights,
+                                  product_or_direct)
+from scan.observables.cosmo import omega_gamma_h2
 
 #: (7/8)(4/11)^(4/3) Omega_gamma h^2: integrated Omega_GW h^2 per unit Delta N_eff.
 NEFF_COEFFICIENT: float = (7.0 / 8.0) * (4.0 / 11.0) ** (4.0 / 3.0) * omega_gamma_h2()

@@ -13,9 +13,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan.curves import Curve
-from scan.likelihood.base import (OnGrid, TINY, GridSpectra, as_result, get, interp_last,
-                                  interp_weights)
 from scan.curves.noise import SNR_FACTORS
+from scan.likelihood.base import (TINY, GridSpectra, OnGrid, as_result, get, interp_last,
+                                  interp_weights)
 
 MODES: tuple[str, ...] = ("report", "exclude_detectable", "require_detectable")
 _TWO_LN10 = 2.0 * math.log(10.0)

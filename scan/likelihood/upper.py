@@ -11,7 +11,7 @@ import numpy as np
 
 from scan.curves import Curve
 from scan.curves.schema import two_sided_z
-from scan.likelihood.base import (OnGrid, TINY, GridSpectra, as_result, get, interp_last,
+from scan.likelihood.base import (TINY, GridSpectra, OnGrid, as_result, get, interp_last,
                                   log10_model_at, log10_weights)
 
 METHODS: tuple[str, ...] = ("step", "half_normal", "soft_log")

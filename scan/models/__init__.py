@@ -23,10 +23,9 @@ Python loop is the fallback.  Names are resolved lazily, so a :class:`Model` sta
 hashable and picklable.
 """
 from scan.models.canonical import canonical_field
-from scan.models.functions import (central_derivative, estimate_power, kernel,
-                                   kinetic_functions, resolve)
-from scan.models.types import (FD_STEP, KINETICS, POTENTIALS, Kernel, Model, Pole, Singular,
-                               model_from_section)
+from scan.models.functions import (FD_STEP, Kernel, Singular, central_derivative, estimate_power,
+                                   kernel, kinetic_functions, resolve)
+from scan.models.types import KINETICS, POTENTIALS, Model, Pole, model_from_section
 
 __all__ = ["FD_STEP", "KINETICS", "POTENTIALS", "Kernel", "Model", "Pole", "Singular",
            "canonical_field", "central_derivative", "estimate_power", "kernel",

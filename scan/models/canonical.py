@@ -4,10 +4,15 @@ from __future__ import annotations
 import math
 import warnings
 
-import numpy as np
+from typing import TYPE_CHECKING
 
-from scan.models.functions import kernel
-from scan.models.types import Model, Singular
+import numpy as np
+from scipy.integrate import IntegrationWarning, quad
+
+from scan.models.functions import Singular, kernel
+
+if TYPE_CHECKING:  # annotations only: Model.canonical_field calls this module
+    from scan.models.types import Model
 
 _QUAD = dict(epsabs=0.0, epsrel=1e-12, limit=200)
 
@@ -18,7 +23,6 @@ def _from_pole(sing: Singular, x: float) -> float:
     √K = |u|^{−p/2} √G(u): the weight |u|^{−p/2} is integrated exactly and the smooth
     √G is sampled, so no point near the pole is ever evaluated in K itself.
     """
-    from scipy.integrate import IntegrationWarning, quad
     if x == sing.position:
         return 0.0
     if sing.power >= 2.0:
@@ -35,7 +39,6 @@ def _from_pole(sing: Singular, x: float) -> float:
 def _chi_absolute(model: Model, x: np.ndarray) -> np.ndarray:
     """χ(x) up to a model constant: from the nearest pole within its chart (cells split
     at the midpoints between poles), the cells joined continuously at the midpoints."""
-    from scipy.integrate import quad
     sing = [s for s in kernel(model).singular if s.power > 0]
     if not sing:
         Kf = kernel(model).K

@@ -5,12 +5,51 @@ from __future__ import annotations
 import importlib
 import math
 from functools import lru_cache
-from typing import Callable
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Callable
 
 import numpy as np
 
 from scan.errors import ConfigError
-from scan.models.types import _SOURCE, FD_STEP, Kernel, Model, Pole, Singular
+
+if TYPE_CHECKING:  # annotations only: the records call these functions
+    from scan.models.types import Model, Pole
+
+#: The config section that model errors name.
+MODEL_SECTION = "model"
+#: Relative step of the plug-in derivative: h = FD_STEP·max(1, |φ|).  The 6th-order
+#: stencil has truncation error ~ h⁶ V⁽⁷⁾/140 and rounding error ~ 1.5 ε_mach |V|/h;
+#: balancing the two for V⁽⁷⁾ ~ V gives h ≈ ε^{1/7} ≈ 6e-3 and an error ~ 1e-13·|V|.
+FD_STEP = 6e-3
+
+
+@dataclass(frozen=True)
+class Singular:
+    """A singular point of K as the background's pole chart needs it.
+
+    ``G(u, xp)`` returns |u|^p K(φᵢ + u), finite and positive at u = 0, given u itself
+    (never rebuilt from φ); ``xp`` is ``math`` for floats or ``numpy`` for arrays.
+    """
+
+    position: float
+    power: float
+    width: float
+    G: Callable
+
+    @property
+    def q(self) -> float:
+        """q = 1 − p/2."""
+        return 1.0 - 0.5 * self.power
+
+
+@dataclass(frozen=True)
+class Kernel:
+    """Fast functions of a model: each takes (φ, xp) with xp = math (floats) or numpy."""
+
+    V: Callable
+    dV: Callable
+    K: Callable
+    singular: tuple[Singular, ...]
 
 
 def resolve(name: str, key: str) -> Callable:
@@ -25,10 +64,10 @@ def resolve(name: str, key: str) -> Callable:
     try:
         obj = getattr(importlib.import_module(module_name), attr)
     except (ImportError, AttributeError, ValueError) as exc:
-        raise ConfigError(_SOURCE, key, f"cannot load plug-in '{name}': {exc}",
+        raise ConfigError(MODEL_SECTION, key, f"cannot load plug-in '{name}': {exc}",
                           "give an importable 'package.module:function'") from exc
     if not callable(obj):
-        raise ConfigError(_SOURCE, key, f"plug-in '{name}' is not callable")
+        raise ConfigError(MODEL_SECTION, key, f"plug-in '{name}' is not callable")
     return obj
 
 

@@ -1,5 +1,5 @@
-"""Model values: the ``Pole`` and ``Model`` records, their validation, the config
-builder, and the ``Singular``/``Kernel`` records of fast functions (``scan.models``)."""
+"""Model values: the ``Pole`` and ``Model`` records, their validation and the config
+builder (the fast functions they call are :mod:`scan.models.functions`)."""
 from __future__ import annotations
 
 import math
@@ -9,14 +9,11 @@ from typing import Callable
 import numpy as np
 
 from scan.errors import ConfigError
+from scan.models.canonical import canonical_field
+from scan.models.functions import MODEL_SECTION, Kernel, kernel
 
 POTENTIALS = ("t_model", "e_model", "starobinsky", "monomial", "exponential", "plugin")
 KINETICS = ("canonical", "poles", "plugin")
-_SOURCE = "model"
-#: Relative step of the plug-in derivative: h = FD_STEP·max(1, |φ|).  The 6th-order
-#: stencil has truncation error ~ h⁶ V⁽⁷⁾/140 and rounding error ~ 1.5 ε_mach |V|/h;
-#: balancing the two for V⁽⁷⁾ ~ V gives h ≈ ε^{1/7} ≈ 6e-3 and an error ~ 1e-13·|V|.
-FD_STEP = 6e-3
 
 
 @dataclass(frozen=True)
@@ -121,7 +118,6 @@ class Model:
 
         See :func:`canonical_field` for the method.
         """
-        from scan.models.canonical import canonical_field
         return canonical_field(self, phi, phi_ref)
 
     def with_canonical_kinetics(self) -> "Model":
@@ -135,35 +131,6 @@ class Model:
         return bool(_kernel(self).singular)
 
 
-@dataclass(frozen=True)
-class Singular:
-    """A singular point of K as the background's pole chart needs it.
-
-    ``G(u, xp)`` returns |u|^p K(φᵢ + u), finite and positive at u = 0, given u itself
-    (never rebuilt from φ); ``xp`` is ``math`` for floats or ``numpy`` for arrays.
-    """
-
-    position: float
-    power: float
-    width: float
-    G: Callable
-
-    @property
-    def q(self) -> float:
-        """q = 1 − p/2."""
-        return 1.0 - 0.5 * self.power
-
-
-@dataclass(frozen=True)
-class Kernel:
-    """Fast functions of a model: each takes (φ, xp) with xp = math (floats) or numpy."""
-
-    V: Callable
-    dV: Callable
-    K: Callable
-    singular: tuple[Singular, ...]
-
-
 def _call(f: Callable, phi: np.ndarray | float) -> np.ndarray:
     return np.asarray(f(np.asarray(phi, dtype=float), np), dtype=float) * np.ones(np.shape(phi))
 
@@ -171,31 +138,31 @@ def _call(f: Callable, phi: np.ndarray | float) -> np.ndarray:
 
 def _validate(model: Model) -> None:
     if model.potential not in POTENTIALS:
-        raise ConfigError(_SOURCE, "potential", f"unknown potential '{model.potential}'",
+        raise ConfigError(MODEL_SECTION, "potential", f"unknown potential '{model.potential}'",
                           f"choose one of {', '.join(POTENTIALS)}")
     if model.kinetic not in KINETICS:
-        raise ConfigError(_SOURCE, "kinetic", f"unknown kinetic function '{model.kinetic}'",
+        raise ConfigError(MODEL_SECTION, "kinetic", f"unknown kinetic function '{model.kinetic}'",
                           f"choose one of {', '.join(KINETICS)}")
     for key in ("alpha", "exponent", "slope"):
         if not (math.isfinite(getattr(model, key)) and getattr(model, key) > 0):
-            raise ConfigError(_SOURCE, key, f"must be a finite positive number, "
+            raise ConfigError(MODEL_SECTION, key, f"must be a finite positive number, "
                               f"got {getattr(model, key)!r}")
     if model.potential == "plugin" and not model.potential_function:
-        raise ConfigError(_SOURCE, "potential_function", "potential = 'plugin' needs one")
+        raise ConfigError(MODEL_SECTION, "potential_function", "potential = 'plugin' needs one")
     if model.kinetic == "plugin" and not model.kinetic_function:
-        raise ConfigError(_SOURCE, "kinetic_function", "kinetic = 'plugin' needs one")
+        raise ConfigError(MODEL_SECTION, "kinetic_function", "kinetic = 'plugin' needs one")
     if model.kinetic == "poles" and not model.poles:
-        raise ConfigError(_SOURCE, "poles", "kinetic = 'poles' but no pole is given")
+        raise ConfigError(MODEL_SECTION, "poles", "kinetic = 'poles' but no pole is given")
     for i, pole in enumerate(model.poles):
         for key in ("position", "width", "power"):
             value = getattr(pole, key)
             if not math.isfinite(value) or (key != "position" and value <= 0):
-                raise ConfigError(_SOURCE, f"poles[{i}].{key}",
+                raise ConfigError(MODEL_SECTION, f"poles[{i}].{key}",
                                   f"must be finite{'' if key == 'position' else ' and > 0'}, "
                                   f"got {value!r}")
     positions = sorted(p.position for p in model.poles)
     if any(b == a for a, b in zip(positions, positions[1:])):
-        raise ConfigError(_SOURCE, "poles", "two poles share one position",
+        raise ConfigError(MODEL_SECTION, "poles", "two poles share one position",
                           "merge them into one pole")
 
 
@@ -217,7 +184,7 @@ def width_from_sharpness(model: Model, position: float, power: float,
     k = _kernel(model)
     V, dV = float(k.V(position, math)), float(k.dV(position, math))
     if not (V > 0 and math.isfinite(dV) and dV != 0):
-        raise ConfigError(_SOURCE, "poles[].sharpness",
+        raise ConfigError(MODEL_SECTION, "poles[].sharpness",
                           f"V'/V = {dV}/{V} at the pole position {position}: the sharpness "
                           "does not fix a width there", "give the width instead")
     return (1.0 - 0.5 * power) * abs(dV / V) / sharpness
@@ -255,6 +222,5 @@ def model_from_section(section) -> Model:
 
 
 def _kernel(model: Model) -> Kernel:
-    """The cached fast functions (``scan.models.functions.kernel``; imported lazily)."""
-    from scan.models.functions import kernel
+    """The cached fast functions (:func:`scan.models.functions.kernel`)."""
     return kernel(model)

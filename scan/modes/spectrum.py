@@ -2,14 +2,14 @@
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
-from scan.modes.features import Extreme, refine
+from scan.modes.features import find_dip, find_peak, refine
 from scan.modes.grid import efolds_below, k_mpc, log_grid
-from scan.modes.normalise import (K_STAR_MPC, LN10_AS_PLANCK18, STENCIL, PivotValues,
-                                  as_from_ln10, iterate_normalisation, pivot_values)
+from scan.modes.normalise import (K_STAR_MPC, LN10_AS_PLANCK18, STENCIL, PivotValues, as_from_ln10,
+                                  iterate_normalisation, pivot_values)
 from scan.modes.protocol import BackgroundLike
 from scan.modes.settings import ModeSettings
 from scan.modes.solver import ModeResult, solve_modes
@@ -267,7 +267,6 @@ def _assemble_from(ctx, pv, V0, N_star, A_s, k_star, refine_features, norm_ok, N
         lnk, lnP, peak, dip, refined = refine(lnk, lnP, _grid_solver(ctx, N_piv, k_star, extra),
                                               splits=ctx.refine_splits)
     else:
-        from scan.modes.features import find_dip, find_peak
         peak = find_peak(lnk, lnP)
         dip = find_dip(lnk, lnP, peak)
     P_t = _tensor_on(lnk, np.log(k_mpc(ctx.table, N_k, N_piv, k_star)), res.P_tensor, extra)

@@ -10,12 +10,12 @@ import math
 from dataclasses import dataclass
 
 from scan.background import Background, solve_background
+from scan.background.pivot import Pivot, Reheating, solve_pivot
 from scan.config.schema import RunConfig
 from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
-from scan.observables import Observables, compute_observables
+from scan.observables import Observables, compute_observables, gstar
 from scan.observables.pbh import PBHConventions
-from scan.background.pivot import Pivot, Reheating, solve_pivot
 
 #: E-folds the background must provide before the pivot exits (initial data of the
 #: pivot modes start ~ln(x_in) e-folds earlier; common practice: a few e-folds more).
@@ -108,7 +108,6 @@ def conventions_of(config: RunConfig) -> PBHConventions:
 
 def observables_of(config: RunConfig, spectrum: Spectrum) -> Observables:
     """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions."""
-    from scan.observables import gstar
 
     o = config.observables
     dof = gstar.load_table(o.gstar_table) if o.gstar_table else None

@@ -7,7 +7,7 @@ import numpy as np
 
 from scan.constants import M_SUN_G
 from scan.curves import Curve
-from scan.plots.style import PAGE_WIDTH_IN, COLUMN_WIDTH_IN, PALETTE, figure
+from scan.plots.style import COLUMN_WIDTH_IN, PAGE_WIDTH_IN, PALETTE, figure
 
 _AXES = {
     "frequency": ("frequency $f$ [Hz]", r"$\Omega_{\rm GW} h^2$"),

@@ -11,8 +11,8 @@ from pathlib import Path
 
 import numpy as np
 
-from scan.observables import cosmo
 from scan.curves import Curve
+from scan.observables import cosmo
 from scan.plots.bands import draw_band
 from scan.plots.curves import draw_curve
 from scan.plots.ranges import log_span, note_if_below, union_limits

@@ -10,14 +10,19 @@ from typing import Any
 import h5py
 import numpy as np
 
+from scan.config import describe, load_config_text
+from scan.config.priors import PriorSet
+from scan.config.schema import RunConfig
+from scan.curves import load_curve
 from scan.errors import ConfigError, InputFileError
-from scan.plots.sources import Sources
-from scan.sampler.bands import N_SAMPLES, SEED
+from scan.plots.sources import Sources, chain_has_observables
+from scan.posterior.setup import curve_paths_of
+from scan.sampler.bands import N_SAMPLES, SEED, posterior_bands
+from scan.sampler.summary import posterior_samples
 
 
 def stored_config(path: Path):
     """The run config stored in a result or chain file (with its overrides re-applied)."""
-    from scan.config import load_config_text
 
     with h5py.File(path, "r") as handle:
         if "config" not in handle:
@@ -48,8 +53,6 @@ def read_solve(path: Path) -> dict[str, Any]:
 
 
 def _units_of_keys() -> dict[str, str]:
-    from scan.config import describe
-    from scan.config.schema import RunConfig
 
     return {row[0]: row[3] for row in describe(RunConfig)}
 
@@ -96,8 +99,6 @@ class Inputs:
     @functools.cached_property
     def curves(self) -> list:
         """Bound curves (CSV files only; scalar bounds have no curve to draw)."""
-        from scan.curves import load_curve
-        from scan.posterior.target import curve_paths_of
 
         if self.curve_files is not None:
             for name in self.curve_files:
@@ -120,8 +121,6 @@ class Inputs:
     @functools.cached_property
     def bands(self):
         """:class:`scan.sampler.bands.PosteriorBands` of the chain, or None without one."""
-        from scan.sampler.bands import posterior_bands
-        from scan.plots.sources import chain_has_observables
 
         chain = self.sources.chain
         if chain is None or not chain_has_observables(chain):
@@ -134,8 +133,6 @@ class Inputs:
     @functools.cached_property
     def posterior(self) -> dict[str, Any]:
         """Chain samples after burn-in and thinning, with names, labels and prior kinds."""
-        from scan.config.priors import PriorSet
-        from scan.sampler.summary import posterior_samples
 
         chain = self.sources.chain
         post = posterior_samples(chain)

@@ -20,9 +20,18 @@ from pathlib import Path
 import numpy as np
 
 from scan.errors import ZetascanError
+from scan.pipeline import model_of, solve_background_of
+from scan.plots.exclusion import exclusion_figure
+from scan.plots.grid_data import read_grid
+from scan.plots.gw import omega_gw_figure
 from scan.plots.inputs import Inputs, axis_label
+from scan.plots.levels import histogram2d
+from scan.plots.model import model_figure
+from scan.plots.pbh import f_pbh_figure
 from scan.plots.sources import KINDS, supported_kinds
+from scan.plots.spectrum import spectrum_figure
 from scan.plots.style import save
+from scan.plots.triangle import triangle_figure
 
 
 class UnsupportedKindError(ZetascanError):
@@ -63,7 +72,6 @@ def make_figures(inputs: Inputs, kinds: Sequence[str], out_dir: Path) -> list[Pa
 
 # --------------------------------------------------------------------------- builders
 def _spectrum(inputs: Inputs):
-    from scan.plots.spectrum import spectrum_figure
 
     s = inputs.solve["spectrum"]
     return spectrum_figure(s["k"], s["P_zeta"], s["N_exit"], k_star=s["k_star"],
@@ -71,15 +79,12 @@ def _spectrum(inputs: Inputs):
 
 
 def _model(inputs: Inputs):
-    from scan.pipeline import model_of, solve_background_of
-    from scan.plots.model import model_figure
 
     model = model_of(inputs.config)
     return model_figure(model, solve_background_of(inputs.config, model))
 
 
 def _gw(inputs: Inputs):
-    from scan.plots.gw import omega_gw_figure
 
     f, omega = inputs.solve.get("gw", (None, None)) if inputs.sources.solve else (None, None)
     bands = inputs.bands
@@ -89,7 +94,6 @@ def _gw(inputs: Inputs):
 
 
 def _pbh(inputs: Inputs):
-    from scan.plots.pbh import f_pbh_figure
 
     m, f, total = (inputs.solve.get("pbh", (None, None, None)) if inputs.sources.solve
                     else (None, None, None))
@@ -99,7 +103,6 @@ def _pbh(inputs: Inputs):
 
 
 def _corner(inputs: Inputs):
-    from scan.plots.triangle import triangle_figure
 
     post = inputs.posterior
     columns, labels = [], []
@@ -117,9 +120,6 @@ def _labels(inputs: Inputs) -> list[str]:
 
 
 def _exclusion(inputs: Inputs):
-    from scan.plots.exclusion import exclusion_figure
-    from scan.plots.grid_data import read_grid
-    from scan.plots.levels import histogram2d
 
     grid = read_grid(inputs.sources.grid)
     posterior = None

@@ -12,7 +12,9 @@ from pathlib import Path
 
 import h5py
 
+from scan.config import load_config_text
 from scan.errors import InputFileError
+from scan.sampler import runfile
 
 #: Figure kinds, in the order ``all`` makes them.
 KINDS: tuple[str, ...] = ("spectrum", "model", "gw", "pbh", "corner", "bands", "exclusion")
@@ -106,8 +108,6 @@ def resolve(result: str | Path, chain: str | Path | None = None) -> Sources:
 
 def chain_has_observables(path: Path) -> bool:
     """True if the chain sampled the physics posterior (surrogate observables)."""
-    from scan.config import load_config_text
-    from scan.sampler import runfile
 
     stored = runfile.read(path)
     config = load_config_text(stored.config_text, f"{path} (stored config)",

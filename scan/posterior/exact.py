@@ -27,7 +27,11 @@ from typing import Any
 
 import numpy as np
 
+from scan.config.priors import apply_parameters
 from scan.config.schema import RunConfig
+from scan.observables import compute_observables, gstar
+from scan.pipeline import conventions_of, solve_config
+from scan.posterior.setup import COLLAPSE_K, THRESHOLD
 from scan.posterior.target import Observables
 
 #: Reason of a valid spectrum whose maximum lies at the edge of its k grid.
@@ -103,9 +107,6 @@ def observables_from_table(config: RunConfig, k: np.ndarray, P_zeta: np.ndarray,
     -------
     ExactOutcome
     """
-    from scan.observables import gstar
-    from scan.observables import compute_observables
-    from scan.pipeline import conventions_of
 
     o = config.observables
     dof = gstar.load_table(o.gstar_table) if o.gstar_table else None
@@ -136,10 +137,7 @@ def exact_outcome(config: RunConfig, theta: np.ndarray,
     ExactOutcome
         Invalid models are outcomes with a reason, never exceptions.
     """
-    from scan.config.priors import apply_parameters
-
-    if solve is None:
-        from scan.pipeline import solve_config as solve
+    solve = solve_config if solve is None else solve
     sample_config = with_nuisance_conventions(apply_parameters(config, np.asarray(theta, float)),
                                               theta)
     result = solve(sample_config, with_modes=True, with_observables=True)
@@ -163,7 +161,6 @@ def with_nuisance_conventions(config: RunConfig, theta: np.ndarray) -> RunConfig
     These nuisance parameters change an observable (f_PBH), not only a likelihood term,
     so the exact side must use them too.
     """
-    from scan.posterior.setup import COLLAPSE_K, THRESHOLD
 
     names = [n.name for n in config.nuisance]
     theta = np.asarray(theta, float)

@@ -8,9 +8,13 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from scan.config.schema import RunConfig
-from scan.errors import ConfigError
 from scan.config.priors import PriorSet
+from scan.config.schema import RunConfig
+from scan.curves import load_curve
+from scan.curves.scalars import load_scalar_bounds
+from scan.errors import ConfigError
+from scan.likelihood import (PBHBounds, UpperLimit, bicep_keck_2021_r, planck2018_pivot_priors,
+                             term_for_curve, terms_from_scalars)
 
 #: The nuisance name of the PBH collapse threshold.
 THRESHOLD = "pbh.threshold"
@@ -71,10 +75,6 @@ def build_terms(config: RunConfig, paths: tuple[str, ...]) -> list:
     ConfigError
         A ``[[likelihood.methods]]`` entry names no Omega_GW upper-limit curve.
     """
-    from scan.curves import load_curve
-    from scan.curves.scalars import load_scalar_bounds
-    from scan.likelihood import (PBHBounds, UpperLimit, bicep_keck_2021_r,
-                                 planck2018_pivot_priors, term_for_curve, terms_from_scalars)
 
     section = config.likelihood
     curves = [load_curve(p) for p in paths if p.endswith(".csv")]
@@ -106,49 +106,6 @@ def build_terms(config: RunConfig, paths: tuple[str, ...]) -> list:
     if section.cmb_priors:
         terms.extend(cmb)
     return terms
-
-
-def posterior_target(config: RunConfig, priors: PriorSet) -> "PosteriorTarget":
-    """The ``posterior`` target of a config, checked and prepared in this process.
-
-    Raises
-    ------
-    ConfigError
-        No model parameters, an unknown or unsupported nuisance name, missing curve
-        files or surrogate, or a surrogate over other parameters.
-    """
-    from scan.likelihood import Sensitivity
-    from scan.posterior.target import PosteriorTarget
-    from scan.surrogate import surrogate_path
-
-    if priors.n_model == 0:
-        raise ConfigError(config.source, "parameters", "the posterior needs varied model "
-                          "parameters", "add [[parameters]] tables (and train a surrogate)")
-    for i, name in enumerate(priors.names[priors.n_model:]):
-        if name in UNSUPPORTED_NUISANCE:
-            raise ConfigError(config.source, f"nuisance[{i}].name",
-                              f"'{name}': {UNSUPPORTED_NUISANCE[name]}",
-                              "remove this [[nuisance]] table")
-        if name not in NUISANCE_NAMES:
-            raise ConfigError(config.source, f"nuisance[{i}].name",
-                              f"'{name}' is not a nuisance parameter of the likelihood",
-                              "use one of: " + ", ".join(
-                                  f"{k} ({v})" for k, v in NUISANCE_NAMES.items()))
-    check_threshold_prior(config, priors)
-    check_collapse_k_prior(config, priors)
-    paths = curve_paths_of(config)
-    surrogate = config.likelihood.surrogate or str(surrogate_path(config))
-    if not Path(surrogate).is_file():
-        raise ConfigError(config.source, "likelihood.surrogate",
-                          f"surrogate file '{surrogate}' not found",
-                          "run 'zetascan train CONFIG' first, or set likelihood.surrogate")
-    terms = build_terms(config, paths)
-    snr = tuple(t.name for t in terms if isinstance(t, Sensitivity) and t.form == "noise")
-    target = PosteriorTarget(config=config, priors=priors, surrogate_path=surrogate,
-                             curve_paths=paths, snr_curves=snr,
-                             term_names=tuple(t.name for t in terms))
-    target.prepare()
-    return target
 
 
 def nuisance_range(priors: PriorSet, name: str) -> tuple[float, float] | None:

@@ -33,21 +33,22 @@ from typing import Any
 
 import numpy as np
 
-from scan.config.schema import RunConfig
-from scan.likelihood.grid import plan_terms
 from scan.config.priors import PriorSet
-from scan.posterior.blobs import (empty_blobs, finish_log_posterior, mass_at_peak,
-                                         peak_range, store_blobs, total_of_terms)
-from scan.observables.batch import (BatchObservables, batch_observables, parabolic_peak,
-                                       plan_batch, with_collapse_coefficient)
-from scan.posterior.setup import (COLLAPSE_K, NUISANCE_NAMES, THRESHOLD,
-                                          UNSUPPORTED_NUISANCE, build_terms, curve_paths_of,
-                                          posterior_target, threshold_range)
+from scan.config.schema import RunConfig
+from scan.errors import ConfigError
+from scan.likelihood.grid import plan_terms
+from scan.observables import gstar
+from scan.observables.batch import (BatchObservables, batch_observables, parabolic_peak, plan_batch,
+                                    with_collapse_coefficient)
+from scan.observables.pbh import plan_pbh_thresholds
+from scan.pipeline import conventions_of
+from scan.posterior.blobs import (empty_blobs, finish_log_posterior, mass_at_peak, peak_range,
+                                  store_blobs, total_of_terms)
+from scan.posterior.setup import COLLAPSE_K, THRESHOLD, build_terms, threshold_range
 from scan.posterior.targets import TargetBase
+from scan.surrogate import load_surrogate
 
-__all__ = ["PosteriorTarget", "Observables", "posterior_target", "build_terms",
-           "curve_paths_of", "NUISANCE_NAMES", "UNSUPPORTED_NUISANCE", "BLOB_FIELDS",
-           "REASONS"]
+__all__ = ["PosteriorTarget", "Observables", "BLOB_FIELDS", "REASONS"]
 
 REASONS: tuple[str, ...] = ("ok", "outside_prior", "outside_surrogate", "invalid_model",
                             "peak_outside_table", "excluded")
@@ -154,10 +155,6 @@ class PosteriorTarget(TargetBase):
         """Load the surrogate and curves and plan Omega_GW and f_PBH (once per process)."""
         if "_loaded" in self.__dict__:
             return
-        from scan.observables import gstar
-        from scan.errors import ConfigError
-        from scan.pipeline import conventions_of
-        from scan.surrogate import load_surrogate
 
         surrogate = load_surrogate(self.surrogate_path, self.config)
         keys = self.priors.names[:self.priors.n_model]
@@ -173,7 +170,6 @@ class PosteriorTarget(TargetBase):
         span = threshold_range(self.priors)
         pbh_plan = None
         if span is not None:
-            from scan.observables.pbh import plan_pbh_thresholds
 
             def pbh_plan(k_table, masses):
                 return plan_pbh_thresholds(k_table, masses, conventions, span, dof=dof,

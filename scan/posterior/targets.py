@@ -19,9 +19,6 @@ import math
 
 import numpy as np
 
-from scan.config.schema import RunConfig
-from scan.errors import ConfigError
-from scan.config.priors import PriorSet
 
 REASON_OK = 0
 
@@ -120,48 +117,6 @@ class GaussianTarget(TargetBase):
     def batch(self, thetas: np.ndarray) -> list[tuple[float, tuple]]:
         log_p, blobs = self.log_and_blobs(thetas)
         return [(float(lp), tuple(b)) for lp, b in zip(log_p, blobs.tolist())]
-
-
-def gaussian_test_target(config: RunConfig, priors: PriorSet) -> GaussianTarget:
-    """The ``gaussian_test`` target of a config: every varied parameter must be gaussian."""
-    for i, prior in enumerate(priors.priors):
-        if prior.kind != "gaussian":
-            table = "parameters" if i < priors.n_model else "nuisance"
-            index = i if i < priors.n_model else i - priors.n_model
-            raise ConfigError(config.source, f"{table}[{index}].prior",
-                              f"sampler.target = 'gaussian_test' needs gaussian priors, got "
-                              f"'{prior.kind}'", "set prior = \"gaussian\" with mean and sigma")
-    if priors.dim > 1 and not -1.0 / (priors.dim - 1) < config.sampler.test_correlation:
-        raise ConfigError(config.source, "sampler.test_correlation",
-                          f"must be > {-1.0 / (priors.dim - 1):.4g} for {priors.dim} "
-                          "parameters (positive-definite covariance)")
-    return GaussianTarget(names=priors.names, mean=tuple(p.mean for p in priors.priors),
-                          sigma=tuple(p.sigma for p in priors.priors),
-                          correlation=config.sampler.test_correlation,
-                          low=tuple(p.low for p in priors.priors),
-                          high=tuple(p.high for p in priors.priors))
-
-
-def build_target(config: RunConfig, priors: PriorSet) -> TargetBase:
-    """The log-probability target named by ``sampler.target``.
-
-    ``"gaussian_test"`` is :class:`GaussianTarget`; ``"posterior"`` is
-    :class:`scan.posterior.target.PosteriorTarget` (surrogate observables against the
-    ``[likelihood]`` curves), loaded and checked here.
-
-    Raises
-    ------
-    ConfigError
-        Nothing to sample, or a config the target cannot use.
-    """
-    if not priors.dim:
-        raise ConfigError(config.source, "parameters", "nothing to sample",
-                          "add [[parameters]] (or [[nuisance]]) tables with priors")
-    if config.sampler.target == "gaussian_test":
-        return gaussian_test_target(config, priors)
-    from scan.posterior.target import posterior_target
-
-    return posterior_target(config, priors)
 
 
 def prepare_target(target: TargetBase) -> None:

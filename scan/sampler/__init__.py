@@ -1,13 +1,12 @@
-"""Posterior sampling with emcee: targets, run file, convergence policy, driver, summary.
+"""Posterior sampling with emcee: the chain file, convergence policy, driver, summary, bands.
 
-Public entry points: :func:`plan_run`, :func:`run_chain` (``scan.sampler.driver``),
-:func:`summarize` (``scan.sampler.summary``), the targets in ``scan.posterior.targets``.
+Public entry points: :func:`plan_run`, :func:`run_chain` (:mod:`scan.sampler.driver`),
+:func:`summarize` (:mod:`scan.sampler.summary`).  The target it samples is built by
+:mod:`scan.posterior.build`.
 """
-from scan.sampler.driver import ConfigMismatchError, Progress, RunOutcome, RunPlan, plan_run, \
-    run_chain
+from scan.sampler.driver import (ConfigMismatchError, Progress, RunOutcome, RunPlan, plan_run,
+                                 run_chain)
 from scan.sampler.summary import posterior_samples, summarize
-from scan.posterior.targets import GaussianTarget, TargetBase, build_target, prepare_target
 
-__all__ = ["ConfigMismatchError", "GaussianTarget", "Progress", "RunOutcome", "RunPlan",
-           "TargetBase", "build_target", "plan_run", "posterior_samples", "prepare_target",
-           "run_chain", "summarize"]
+__all__ = ["ConfigMismatchError", "Progress", "RunOutcome", "RunPlan", "plan_run",
+           "posterior_samples", "run_chain", "summarize"]

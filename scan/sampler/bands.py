@@ -30,7 +30,12 @@ from pathlib import Path
 
 import numpy as np
 
+from scan.config import load_config_text
+from scan.config.priors import PriorSet
 from scan.errors import InputFileError
+from scan.posterior.build import posterior_target
+from scan.sampler import runfile
+from scan.sampler.summary import posterior_samples
 
 #: Percentiles of a band [%]: the central 95 % and 68 % intervals and the median.
 PERCENTILES: tuple[float, ...] = (2.5, 16.0, 50.0, 84.0, 97.5)
@@ -178,10 +183,6 @@ def chain_target(path: str | Path):
     ConfigError
         The stored config's curves or surrogate cannot be found from here.
     """
-    from scan.config import load_config_text
-    from scan.config.priors import PriorSet
-    from scan.sampler import runfile
-    from scan.posterior.target import posterior_target
 
     stored = runfile.read(path)
     config = load_config_text(stored.config_text, f"{path} (stored config)",
@@ -205,7 +206,6 @@ def posterior_bands(path: str | Path, n: int = N_SAMPLES, seed: int = SEED,
     InputFileError
         No samples after burn-in and thinning, or a chain without observables.
     """
-    from scan.sampler.summary import posterior_samples
 
     post = posterior_samples(path)
     if not len(post["samples"]):

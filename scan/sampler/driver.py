@@ -25,15 +25,16 @@ import numpy as np
 from emcee.state import State
 
 from scan import store
+from scan.config.diff import config_diff, format_diff, resumable, stored_config
+from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError, ZetascanError
 from scan.pool import BasePool
-from scan.config.priors import PriorSet
+from scan.posterior.build import build_target
+from scan.posterior.targets import TargetBase
 from scan.sampler import runfile
 from scan.sampler.convergence import Policy, assess, burn_in, estimate_tau, thinning
-from scan.config.diff import config_diff, format_diff, resumable, stored_config
 from scan.sampler.evaluate import Evaluator
-from scan.posterior.targets import TargetBase, build_target
 
 #: Rounds of redrawing initial walkers whose log-probability is -inf.
 START_ATTEMPTS = 100

@@ -17,8 +17,10 @@ from pathlib import Path
 import numpy as np
 
 from scan.surrogate.emulator import Emulator, Prediction, predict_unit
+from scan.surrogate.identity import identity
 from scan.surrogate.record import TrainingRecord
-from scan.surrogate.space import ParameterSpace
+from scan.surrogate.space import ParameterSpace, from_config
+from scan.surrogate.surrogate_file import read_surrogate
 
 __all__ = ["Surrogate", "load_surrogate", "Prediction", "TrainingRecord", "ParameterSpace",
            "training_path", "surrogate_path"]
@@ -38,9 +40,6 @@ class Surrogate:
 
 def load_surrogate(path: str | Path, config=None) -> Surrogate:
     """Read a surrogate file; with ``config``, refuse one trained on another model."""
-    from scan.surrogate.identity import identity
-    from scan.surrogate.space import from_config
-    from scan.surrogate.surrogate_file import read_surrogate
 
     ident = identity(config, from_config(config)) if config is not None else None
     emulator, space = read_surrogate(path, ident)

@@ -5,6 +5,9 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from scan.config import load_config_text
+from scan.config.priors import apply_parameters
+from scan.pipeline import solve_config
 from scan.surrogate.record import TrainingRecord, invalid_record, record_from_spectrum, shape_grid
 
 
@@ -17,10 +20,8 @@ def configure(config, keys: Sequence[str], values: Sequence[float]):
     """
     declared = [p.key for p in getattr(config, "parameters", ())]
     if set(keys) <= set(declared):
-        from scan.config.priors import apply_parameters
 
         return apply_parameters(config, {k: float(v) for k, v in zip(keys, values)})
-    from scan.config import load_config_text
 
     sets = tuple(f"{key}={float(value)!r}" for key, value in zip(keys, values))
     return load_config_text(config.text, source=config.source,
@@ -66,7 +67,6 @@ def solve_point(config, values: Sequence[float], keys: Sequence[str] | None = No
     TrainingRecord
         Invalid models (any stage) are records with ``valid=False`` and the reason.
     """
-    from scan.pipeline import solve_config
 
     values = np.asarray(values, float)
     if keys is None:

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
+from scan.config.priors import PriorSet
 from scan.errors import ConfigError
 
 PRIOR_KINDS = ("uniform", "log_uniform", "gaussian")
@@ -94,7 +95,6 @@ def from_config(config) -> ParameterSpace:
     ConfigError
         If the config declares no parameters or a truncated gaussian prior.
     """
-    from scan.config.priors import PriorSet
 
     if not tuple(getattr(config, "parameters", ()) or ()):
         raise ConfigError(config.source, "parameters", "no [[parameters]] tables: the "

@@ -30,8 +30,7 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import (SingleWriter, config_hash, provenance, put_rows,  # noqa: F401
-                        recover_store, write_config)
+from scan.store import SingleWriter, config_hash, provenance, put_rows, write_config
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
 

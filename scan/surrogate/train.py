@@ -19,9 +19,8 @@ from scan.surrogate.emulator import (Emulator, EmulatorSettings, TrainingSet, cl
 from scan.surrogate.identity import identity
 from scan.surrogate.record import SCALARS, TrainingRecord, cmb_feature, shape_grid
 from scan.surrogate.space import ParameterSpace
+from scan.surrogate.store import StoreWriter, check_identity, create_store, read_plan, read_points
 from scan.surrogate.threads import single_blas_thread
-from scan.surrogate.store import (StoreWriter, check_identity, create_store, read_plan,
-                                  read_points)
 
 Solve = Callable[[np.ndarray], TrainingRecord]
 MapFunction = Callable[[Callable, Iterable], Iterable]

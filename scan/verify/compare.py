@@ -49,9 +49,9 @@ from typing import Any
 import numpy as np
 
 from scan.observables.pbh.conventions import NEGLIGIBLE_FPBH
-from scan.verify.importance import kish_ess, median_shift, normalised_weights, \
-    weighted_quantiles
+from scan.posterior.target import R_INVALID
 from scan.surrogate.validate import error_stats
+from scan.verify.importance import kish_ess, median_shift, normalised_weights, weighted_quantiles
 
 DEFAULT_SAMPLES = 200
 #: Fewer samples than this say nothing about ESS/M (common practice).
@@ -131,7 +131,6 @@ def score_outcomes(target: Any, thetas: np.ndarray, outcomes: Sequence[Any]) -> 
     -------
     Evaluated
     """
-    from scan.posterior.target import R_INVALID
 
     thetas = np.atleast_2d(np.asarray(thetas, float))
     log_q, blobs_q = target.log_and_blobs(thetas)

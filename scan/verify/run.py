@@ -32,12 +32,16 @@ import h5py
 import numpy as np
 
 from scan import store
+from scan.config.diff import stored_config
+from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.pool import BasePool
+from scan.posterior.exact import ExactSolve
+from scan.posterior.build import build_target
 from scan.sampler import runfile
-from scan.verify.compare import MIN_SAMPLES, Evaluated, Thresholds, compare, draw_indices, \
-    jsonable, score_outcomes
+from scan.verify.compare import (MIN_SAMPLES, Evaluated, Thresholds, compare, draw_indices,
+                                 jsonable, score_outcomes)
 from scan.verify.partial import draw_of, open_partial
 
 GROUP = "verify"
@@ -108,9 +112,6 @@ def open_run(run: str | Path) -> Run:
     ConfigError
         The run is not a surrogate posterior run, or its curves / surrogate are missing.
     """
-    from scan.config.priors import PriorSet
-    from scan.config.diff import stored_config
-    from scan.posterior.targets import build_target
 
     path = chain_path(run)
     stored = runfile.read(path)
@@ -207,7 +208,6 @@ def verify_run(run: Run, samples: int, pool: BasePool,
     InputFileError
         ``resume`` of partial results of another draw (the message says what differs).
     """
-    from scan.posterior.exact import ExactSolve
 
     check_samples(run, samples)
     exact = ExactSolve(run.config) if exact is None else exact

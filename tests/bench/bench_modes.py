@@ -20,7 +20,6 @@ from scan.models import Model, Pole  # noqa: E402
 from scan.modes import ModeSettings, build_table, solve_modes  # noqa: E402
 from scan.modes.grid import log_grid  # noqa: E402
 from scan.modes.initial import bunch_davies  # noqa: E402
-from scan.modes.solver import final_efolds  # noqa: E402
 
 
 def baseline_mode(bg, N_k: float, N_final: float, x_in: float = 100.0) -> tuple[float, int]:

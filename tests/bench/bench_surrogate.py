@@ -22,7 +22,7 @@ from test_surrogate import config  # noqa: E402
 from test_surrogate_standin import SPACE, StandinSolve  # noqa: E402
 
 from scan.surrogate import Surrogate  # noqa: E402
-from scan.observables.batch import PeakObservables  # noqa: E402
+from scan.surrogate.peak_observables import PeakObservables  # noqa: E402
 from scan.surrogate.record import shape_grid  # noqa: E402
 from scan.surrogate.threads import single_blas_thread  # noqa: E402
 from scan.surrogate.train import TrainingPlan, run_training, serial_map  # noqa: E402

@@ -7,7 +7,7 @@ import numpy as np
 
 from scan.observables import cosmo
 from scan.observables.pbh.abundance import (_relation, abundance_coefficient, beta_monochromatic,
-                                beta_weighted, critical_kernel)
+                                            beta_weighted, critical_kernel)
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.kernel import MassKernel, mass_function, mass_kernel
 from scan.observables.pbh.tables import BetaTable, beta_table, beta_tabulated

@@ -1,0 +1,99 @@
+"""Build the log-probability target a config names: checked, and prepared in this process.
+
+``sampler.target = "posterior"`` is :class:`~scan.posterior.target.PosteriorTarget`
+(surrogate observables against the ``[likelihood]`` curves, nuisance parameters checked
+by :mod:`~scan.posterior.setup`); ``"gaussian_test"`` is the physics-free
+:class:`~scan.posterior.targets.GaussianTarget` that proves the sampler's plumbing.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+from scan.config.priors import PriorSet
+from scan.config.schema import RunConfig
+from scan.errors import ConfigError
+from scan.likelihood import Sensitivity
+from scan.posterior.setup import (NUISANCE_NAMES, UNSUPPORTED_NUISANCE, build_terms,
+                                  check_collapse_k_prior, check_threshold_prior, curve_paths_of)
+from scan.posterior.target import PosteriorTarget
+from scan.posterior.targets import GaussianTarget, TargetBase
+from scan.surrogate import surrogate_path
+
+
+def gaussian_test_target(config: RunConfig, priors: PriorSet) -> GaussianTarget:
+    """The ``gaussian_test`` target of a config: every varied parameter must be gaussian."""
+    for i, prior in enumerate(priors.priors):
+        if prior.kind != "gaussian":
+            table = "parameters" if i < priors.n_model else "nuisance"
+            index = i if i < priors.n_model else i - priors.n_model
+            raise ConfigError(config.source, f"{table}[{index}].prior",
+                              f"sampler.target = 'gaussian_test' needs gaussian priors, got "
+                              f"'{prior.kind}'", "set prior = \"gaussian\" with mean and sigma")
+    if priors.dim > 1 and not -1.0 / (priors.dim - 1) < config.sampler.test_correlation:
+        raise ConfigError(config.source, "sampler.test_correlation",
+                          f"must be > {-1.0 / (priors.dim - 1):.4g} for {priors.dim} "
+                          "parameters (positive-definite covariance)")
+    return GaussianTarget(names=priors.names, mean=tuple(p.mean for p in priors.priors),
+                          sigma=tuple(p.sigma for p in priors.priors),
+                          correlation=config.sampler.test_correlation,
+                          low=tuple(p.low for p in priors.priors),
+                          high=tuple(p.high for p in priors.priors))
+
+
+def build_target(config: RunConfig, priors: PriorSet) -> TargetBase:
+    """The log-probability target named by ``sampler.target``.
+
+    ``"gaussian_test"`` is :class:`GaussianTarget`; ``"posterior"`` is
+    :class:`scan.posterior.target.PosteriorTarget` (surrogate observables against the
+    ``[likelihood]`` curves), loaded and checked here.
+
+    Raises
+    ------
+    ConfigError
+        Nothing to sample, or a config the target cannot use.
+    """
+    if not priors.dim:
+        raise ConfigError(config.source, "parameters", "nothing to sample",
+                          "add [[parameters]] (or [[nuisance]]) tables with priors")
+    if config.sampler.target == "gaussian_test":
+        return gaussian_test_target(config, priors)
+    return posterior_target(config, priors)
+
+
+def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
+    """The ``posterior`` target of a config, checked and prepared in this process.
+
+    Raises
+    ------
+    ConfigError
+        No model parameters, an unknown or unsupported nuisance name, missing curve
+        files or surrogate, or a surrogate over other parameters.
+    """
+    if priors.n_model == 0:
+        raise ConfigError(config.source, "parameters", "the posterior needs varied model "
+                          "parameters", "add [[parameters]] tables (and train a surrogate)")
+    for i, name in enumerate(priors.names[priors.n_model:]):
+        if name in UNSUPPORTED_NUISANCE:
+            raise ConfigError(config.source, f"nuisance[{i}].name",
+                              f"'{name}': {UNSUPPORTED_NUISANCE[name]}",
+                              "remove this [[nuisance]] table")
+        if name not in NUISANCE_NAMES:
+            raise ConfigError(config.source, f"nuisance[{i}].name",
+                              f"'{name}' is not a nuisance parameter of the likelihood",
+                              "use one of: " + ", ".join(
+                                  f"{k} ({v})" for k, v in NUISANCE_NAMES.items()))
+    check_threshold_prior(config, priors)
+    check_collapse_k_prior(config, priors)
+    paths = curve_paths_of(config)
+    surrogate = config.likelihood.surrogate or str(surrogate_path(config))
+    if not Path(surrogate).is_file():
+        raise ConfigError(config.source, "likelihood.surrogate",
+                          f"surrogate file '{surrogate}' not found",
+                          "run 'zetascan train CONFIG' first, or set likelihood.surrogate")
+    terms = build_terms(config, paths)
+    snr = tuple(t.name for t in terms if isinstance(t, Sensitivity) and t.form == "noise")
+    target = PosteriorTarget(config=config, priors=priors, surrogate_path=surrogate,
+                             curve_paths=paths, snr_curves=snr,
+                             term_names=tuple(t.name for t in terms))
+    target.prepare()
+    return target
