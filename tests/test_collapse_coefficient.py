@@ -15,6 +15,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from test_sampler_posterior import make_config, nuisance_config, trained  # noqa: F401
 
 from scan.config import load_config_text
 from scan.curves import load_curve
@@ -22,9 +23,8 @@ from scan.errors import ConfigError
 from scan.likelihood import PBHBounds
 from scan.likelihood.pbh import SHIFT_MAX, PBHBoundsOnGrid
 from scan.observables.pbh import PBHConventions, f_pbh
-from scan.sampler import plan_run
 from scan.posterior.exact import with_nuisance_conventions
-from test_sampler_posterior import make_config, nuisance_config, trained  # noqa: F401
+from scan.sampler import plan_run
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_PBH = sorted((ROOT / "constraints" / "demo").glob("fpbh_*.csv"))

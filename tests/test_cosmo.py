@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 from astropy import units as u
 
-from scan.observables import cosmo, gstar
 from scan.errors import InputFileError
+from scan.observables import cosmo, gstar
 
 G106, G10 = (106.75, 106.75), (10.75, 10.75)
 

@@ -14,18 +14,19 @@ from pathlib import Path
 import h5py
 import numpy as np
 import pytest
-from scipy.stats import chi2, norm
-
 from kill_support import sigkill_after_progress
+from scipy.stats import chi2, norm
+from test_sampler_posterior import CURVES, make_config, trained  # noqa: F401  (fixture)
+
 from scan.cli import main
 from scan.config import load_config_text
 from scan.errors import ZetascanError
-from scan.grid import (CHI2_95_1DOF, CHI2_95_2DOF, REASONS, install_worker, plan_grid,
+from scan.posterior.reasons import REASONS
+from scan.grid import (CHI2_95_1DOF, CHI2_95_2DOF, install_worker, plan_grid,
                        plan_grid_run, read_grid, relative_status, run_grid)
 from scan.grid.plan import key_units
 from scan.likelihood import GaussianPrior, OneSidedLimit, integrated_omega_h2, total_loglike
 from scan.pool import choose_pool
-from test_sampler_posterior import CURVES, make_config, trained  # noqa: F401  (fixture)
 
 TESTS = Path(__file__).resolve().parent
 #: Width x position at alpha = 0.5: f_PBH bounds exclude the upper right, the stand-in is

@@ -8,9 +8,10 @@ import numpy as np
 import pytest
 
 from scan import constants as C
-from scan.observables.cosmo import omega_gamma_h2
-from scan.curves import load_curve, parse_text
 from scan import likelihood as L
+from scan.curves import load_curve, parse_text
+from scan.observables import Observables
+from scan.observables.cosmo import omega_gamma_h2
 
 DEMO = Path(__file__).resolve().parents[1] / "constraints" / "demo"
 A_NG, T_16 = 2.4e-15, 16.03 * C.YEAR_S
@@ -176,7 +177,7 @@ def test_split_normal_excess_peak_and_foreground():
     assert term.loglike(f, exact * 2) < best and term.loglike(f, exact / 2) < best
     # foreground added: model + SMBHB with A equals model' = model + fg without A
     fg = L.smbhb_omega_h2(f, 1e-15)
-    obs = L.ModelObservables(f_hz=f, omega_gw_h2=exact)
+    obs = Observables(f_hz=f, omega_gw_h2=exact)
     assert term(obs, {"A_smbhb": 1e-15}) == pytest.approx(term.loglike(f, exact + fg), rel=1e-9)
     amps = np.array([0.0, 1e-15])
     np.testing.assert_allclose(term.loglike(f, exact, amps),
@@ -223,7 +224,7 @@ def test_sensitivity_snr_against_noise_curve():
 def test_cmb_priors_and_total():
     ns, las = L.planck2018_pivot_priors()
     r = L.bicep_keck_2021_r()
-    obs = L.ModelObservables(n_s=0.9649 + 0.0042, ln_1e10_as=3.044, r=0.036)
+    obs = Observables(n_s=0.9649 + 0.0042, ln_1e10_as=3.044, r=0.036)
     total, per = L.total_loglike([ns, las, r], obs)
     assert per["planck2018_n_s"] == pytest.approx(-0.5)
     assert per["planck2018_ln_As"] == 0.0

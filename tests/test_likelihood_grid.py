@@ -19,6 +19,7 @@ from scan import likelihood as L
 from scan.curves import load_curve
 from scan.likelihood.base import TINY, GridSpectra
 from scan.likelihood.grid import DirectTerm, plan_terms
+from scan.observables import Observables
 
 C = Path(__file__).resolve().parents[1] / "constraints"
 DEMO = C / "demo"
@@ -98,7 +99,7 @@ GRIDS = {
 
 def observables(f_hz, rng, n=40):
     masses = np.geomspace(1e-20, 1e6, 64)
-    return L.ModelObservables(f_hz=f_hz, omega_gw_h2=spectra(f_hz, rng)[:n], m_msun=masses,
+    return Observables(f_hz=f_hz, omega_gw_h2=spectra(f_hz, rng)[:n], m_msun=masses,
                               f_pbh_per_lnm=mass_functions(masses, rng)[:n], n_s=0.965,
                               ln_1e10_as=3.044, r=0.01)
 
@@ -169,7 +170,7 @@ def test_non_finite_rows_are_integrated_directly():
     omega, f_pbh = obs.omega_gw_h2.copy(), obs.f_pbh_per_lnm.copy()
     omega[3, -1] = np.inf                        # 1e4 Hz: outside the 1e-8..1e-2 Hz band
     f_pbh[4, -1] = np.inf                        # 1e6 M_sun: beyond every demo bound
-    obs = L.ModelObservables(f_hz=obs.f_hz, omega_gw_h2=omega, m_msun=obs.m_msun,
+    obs = Observables(f_hz=obs.f_hz, omega_gw_h2=omega, m_msun=obs.m_msun,
                              f_pbh_per_lnm=f_pbh)
     neff = L.NeffBound("neff_band", 1e-6, 1e-8, 1e-2, "half_normal")
     terms = [neff, *pbh_terms()[:1]]
@@ -208,7 +209,7 @@ def test_snr_equals_the_trapezoid_of_the_ratio_squared_and_zero_rows_are_zero():
     np.testing.assert_allclose(direct, want, rtol=RTOL, atol=1e-140)
     assert 0.0 < direct[2] < 1e-140
     plan = plan_terms([term], f)
-    planned = plan.snr(term.name, plan.spectra(L.ModelObservables(f_hz=f, omega_gw_h2=omega)))
+    planned = plan.snr(term.name, plan.spectra(Observables(f_hz=f, omega_gw_h2=omega)))
     np.testing.assert_allclose(planned, direct, rtol=RTOL, atol=0.0)
     assert planned[0] == planned[1] == direct[1] == 0.0 and planned[2] == direct[2]
     assert np.sum(planned > 1.0) > 3               # the draw has signals LISA would see
@@ -216,11 +217,11 @@ def test_snr_equals_the_trapezoid_of_the_ratio_squared_and_zero_rows_are_zero():
 
 def test_log10_omega_is_the_floored_logarithm_bit_for_bit():
     omega = np.array([[0.0, 1e-300, 2e-300, 1e-12, np.nan, 1e-320, np.inf]])
-    got = GridSpectra(L.ModelObservables(omega_gw_h2=omega)).log10_omega
+    got = GridSpectra(Observables(omega_gw_h2=omega)).log10_omega
     np.testing.assert_array_equal(got, np.log10(np.maximum(omega, TINY)))
     rng = np.random.default_rng(0)
     omega = spectra(GRIDS["nHz_to_kHz"], rng)
-    got = GridSpectra(L.ModelObservables(omega_gw_h2=omega)).log10_omega
+    got = GridSpectra(Observables(omega_gw_h2=omega)).log10_omega
     np.testing.assert_array_equal(got, np.log10(np.maximum(omega, TINY)))
 
 
@@ -234,13 +235,13 @@ def test_covers_only_the_planned_grids_and_names_stay_unique():
     values = plan.loglikes(plan.spectra(obs))
     for term in scalars:
         assert values[term.name] == term(obs)
-    other = L.ModelObservables(f_hz=obs.f_hz * 1.01, omega_gw_h2=obs.omega_gw_h2,
+    other = Observables(f_hz=obs.f_hz * 1.01, omega_gw_h2=obs.omega_gw_h2,
                                m_msun=obs.m_msun)
-    one = L.ModelObservables(f_hz=obs.f_hz, omega_gw_h2=obs.omega_gw_h2[0],
+    one = Observables(f_hz=obs.f_hz, omega_gw_h2=obs.omega_gw_h2[0],
                              m_msun=obs.m_msun)
-    masses = L.ModelObservables(f_hz=obs.f_hz, omega_gw_h2=obs.omega_gw_h2,
+    masses = Observables(f_hz=obs.f_hz, omega_gw_h2=obs.omega_gw_h2,
                                 m_msun=obs.m_msun[::-1])
-    no_masses = L.ModelObservables(f_hz=obs.f_hz, omega_gw_h2=obs.omega_gw_h2)
+    no_masses = Observables(f_hz=obs.f_hz, omega_gw_h2=obs.omega_gw_h2)
     assert plan.covers(obs) and not any(plan.covers(o) for o in (other, one, masses,
                                                                   no_masses))
     assert plan_terms(terms[:2], obs.f_hz).covers(no_masses)

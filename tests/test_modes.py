@@ -4,10 +4,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from scipy.special import gamma
+from test_modes_backgrounds import ConstantRoll, LinearBreak, PowerLaw
 
 from scan.modes import ModeSettings, build_table, compute_spectrum, solve_modes
-from scan.modes.normalise import as_from_ln10, iterate_normalisation, PivotValues
-from test_modes_backgrounds import ConstantRoll, LinearBreak, PowerLaw
+from scan.modes.normalise import PivotValues, as_from_ln10, iterate_normalisation
 
 
 def _power_law_exact(bg: PowerLaw, N_k: np.ndarray) -> np.ndarray:

@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 from scipy import optimize
 
-from scan.observables import cosmo
 from scan.errors import ConfigError
+from scan.observables import cosmo
 from scan.observables.pbh import (PBHConventions, abundance_coefficient, beta_monochromatic,
                                   compaction_linear_threshold, compaction_nonlinear, delta_c_harada,
                                   fpbh_prefactor, plan_pbh, variance, variance_delta)

@@ -7,11 +7,11 @@ import numpy as np
 import pytest
 
 from scan.background import solve_background
-from scan.constants import M_PLANCK_REDUCED_GEV
-from scan.models import Model
 from scan.background.pivot import (Reheating, exit_efold, hubble_flow, leading_ns_r, ln_k_over_a0H0,
                                    ln_k_over_kstar, matching_constant, n_star_matching,
                                    slow_roll_ns_r, solve_pivot)
+from scan.constants import M_PLANCK_REDUCED_GEV
+from scan.models import Model
 
 
 @pytest.fixture(scope="module")

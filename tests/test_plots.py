@@ -17,6 +17,8 @@ import matplotlib.pyplot as plt
 import numpy as np
 import pytest
 from scipy.stats import norm
+from test_sampler_posterior import trained  # noqa: F401  (fixture: the stand-in surrogate)
+from test_surrogate_standin import LIMIT, standin_log10_peak
 
 from scan import store
 from scan.cli import main
@@ -29,8 +31,6 @@ from scan.sampler import run_chain
 from scan.sampler.bands import (PERCENTILES, chain_target, draw_indices, percentile_bands,
                                 posterior_bands)
 from scan.sampler.summary import posterior_samples
-from test_sampler_posterior import trained  # noqa: F401  (fixture: the stand-in surrogate)
-from test_surrogate_standin import LIMIT, standin_log10_peak
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = sorted(str(p) for p in (ROOT / "constraints" / "demo").glob("*.csv"))

@@ -6,8 +6,8 @@ import pytest
 from scipy import integrate, stats
 
 from scan.config import load_config_text
-from scan.errors import ConfigError
 from scan.config.priors import Prior, PriorSet, apply_parameters, get_key
+from scan.errors import ConfigError
 
 BASE = """
 [model]

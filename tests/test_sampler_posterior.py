@@ -15,25 +15,26 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from test_surrogate_standin import SPACE, StandinSolve, standin_truth
 
 from scan.config import load_config_text
-from scan.observables.cosmo import k_to_f
 from scan.errors import ConfigError
-from scan.likelihood import ModelObservables, total_loglike
+from scan.likelihood import total_loglike
+from scan.observables import Observables
+from scan.observables.cosmo import k_to_f
 from scan.observables.pbh import f_pbh
+from scan.observables.sigw import TruncationWarning, omega_gw_h2
 from scan.pipeline import conventions_of
 from scan.pool import choose_pool
+from scan.posterior.target import BLOB_FIELDS, PosteriorTarget
 from scan.sampler import plan_run, run_chain
 from scan.sampler.evaluate import Evaluator
-from scan.posterior.target import BLOB_FIELDS, PosteriorTarget
 from scan.sampler.runfile import load_chain
-from scan.observables.sigw import TruncationWarning, omega_gw_h2
 from scan.surrogate.identity import identity
 from scan.surrogate.record import shape_grid
 from scan.surrogate.surrogate_file import write_surrogate
 from scan.surrogate.train import TrainingPlan, run_training, serial_map
 from scan.surrogate.validate import validate
-from test_surrogate_standin import SPACE, StandinSolve, standin_truth
 
 ROOT = Path(__file__).resolve().parents[1]
 C = ROOT / "constraints"
@@ -212,7 +213,7 @@ def test_loglike_equals_total_loglike_on_independently_computed_observables(trai
         p_fine = np.interp(lnk, lnkp + x, np.log10(p), left=-np.inf, right=-np.inf)
         masses = target.loaded["plan"].pbh.M
         pbh = f_pbh(np.exp(lnk), 10.0 ** p_fine, masses, conventions_of(cfg))
-        obs = ModelObservables(f_hz=f_out, omega_gw_h2=omega, m_msun=masses,
+        obs = Observables(f_hz=f_out, omega_gw_h2=omega, m_msun=masses,
                                f_pbh_per_lnm=pbh.f_pbh, n_s=pred.n_s[i],
                                ln_1e10_as=cfg.pivot.ln_1e10_As, r=10.0 ** pred.log10_r[i])
         expected, per_term = total_loglike(target.terms, obs, {"A_smbhb": theta[3]})

@@ -12,8 +12,8 @@ import warnings
 import numpy as np
 import pytest
 
-from scan.observables.sigw import TruncationWarning, plan_sigw
 from scan.observables.quadratic import plan_quadratic
+from scan.observables.sigw import TruncationWarning, plan_sigw
 
 X = np.linspace(-3.0, 3.0, 41)                  # the emulator's default shape grid
 X_OUT = np.linspace(-3.0, 3.0 + np.log(2.0), 64)

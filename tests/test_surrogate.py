@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from test_surrogate_standin import SPACE, StandinSolve, standin_truth
 
 from scan.config import load_config_text
 from scan.errors import InputFileError
@@ -18,7 +19,6 @@ from scan.surrogate.store import read_plan, read_points
 from scan.surrogate.surrogate_file import read_surrogate, write_surrogate
 from scan.surrogate.train import TrainingPlan, run_training, serial_map
 from scan.surrogate.validate import validate
-from test_surrogate_standin import SPACE, StandinSolve, standin_truth
 
 BASE = """
 [run]

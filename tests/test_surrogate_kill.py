@@ -5,13 +5,13 @@ import textwrap
 from pathlib import Path
 
 import numpy as np
-
 from kill_support import sigkill_after_progress
+from test_surrogate import config
+from test_surrogate_standin import SPACE, StandinSolve
+
 from scan.surrogate.record import shape_grid
 from scan.surrogate.store import read_plan, read_points
 from scan.surrogate.train import TrainingPlan, run_training, serial_map
-from test_surrogate import config
-from test_surrogate_standin import SPACE, StandinSolve
 
 TESTS = Path(__file__).resolve().parent
 SCRIPT = textwrap.dedent("""

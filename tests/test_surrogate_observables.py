@@ -60,8 +60,8 @@ def test_pbh_on_table_equals_the_direct_path():
     # interpolation and a plan without the beta table.  P differs by <= 6e-14 (above),
     # sigma^2 alike, and f ~ exp(-y^2 / (2 sigma^2)) with y^2/(2 sigma^2) < 760 turns that
     # into <= 760 * 6e-14 = 4.6e-11 relative (IEEE 754 rounding, common practice)
-    from scan.observables.pbh import PBHConventions, plan_pbh
     from scan.observables.batch import pbh_on_table, plan_batch
+    from scan.observables.pbh import PBHConventions, plan_pbh
 
     x = np.linspace(-3.0, 3.0, 41)
     rng = np.random.default_rng(2)

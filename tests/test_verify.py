@@ -19,18 +19,18 @@ import h5py
 import numpy as np
 import pytest
 from scipy import stats
+from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
+from test_surrogate_standin import standin_spectrum, standin_truth
 
 from scan.cli import main
 from scan.cli.verify import format_report
 from scan.config import load_config_text
 from scan.pool import SerialPool, choose_pool
-from scan.sampler import plan_run, run_chain, runfile
 from scan.posterior.exact import ExactOutcome, ExactSolve, observables_from_table
-from scan.verify.importance import kish_ess, normalised_weights, weighted_quantiles
+from scan.sampler import plan_run, run_chain, runfile
 from scan.verify.compare import Evaluated, Thresholds, compare, draw_indices, reason_key
+from scan.verify.importance import kish_ess, normalised_weights, weighted_quantiles
 from scan.verify.run import open_run, read_report, verify_run
-from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
-from test_surrogate_standin import standin_spectrum, standin_truth
 
 ROOT = Path(__file__).resolve().parents[1]
 #: Planck 2018 VI (arXiv:1807.06209): n_s = 0.9649 +- 0.0042, the Gaussian CMB prior term.
@@ -350,8 +350,8 @@ high = 1e-14
 def test_exact_solve_maps_a_real_pole_model_solve():
     """The product's exact side on one real solve (configs/tmodel_pole.toml): the model
     parameter is applied, the nuisance entry is not, and every field is the solve's."""
-    from scan.pipeline import solve_config
     from scan.config.priors import apply_parameters
+    from scan.pipeline import solve_config
     from scan.posterior.exact import exact_outcome
 
     cfg = _pole_config("model.poles[0].width", 0.02, 0.03)

@@ -19,19 +19,19 @@ from typing import Any
 import h5py
 import numpy as np
 import pytest
-
 from kill_support import sigkill_after_progress
+from test_sampler_posterior import trained  # noqa: F401  (fixture)
+from test_verify import NS_SIGMA, StandinExact, SurrogateAsExact, chain  # noqa: F401
+
 from scan import store
 from scan.cli import main
 from scan.errors import InputFileError
+from scan.observables import Observables
 from scan.pool import ProcessPool, SerialPool
 from scan.posterior.exact import ExactOutcome
-from scan.posterior.target import Observables
 from scan.verify.compare import draw_indices
 from scan.verify.partial import ARRAYS, GROUP, SCALARS, PartialWriter, partial_path
 from scan.verify.run import Run, open_run, verify_run
-from test_sampler_posterior import trained  # noqa: F401  (fixture)
-from test_verify import NS_SIGMA, StandinExact, SurrogateAsExact, chain  # noqa: F401
 
 TESTS = Path(__file__).resolve().parent
 SAMPLES = 16

@@ -190,19 +190,17 @@ def run(args: argparse.Namespace) -> int:
     source = str(args.spectrum)
     k, P = load_spectrum(source)
     obs = compute(k, P, args)
-    f, omega, result = obs.f, obs.omega_gw_h2, obs.pbh
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
     write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
                                                      if not k_.startswith("_")})
     for note in obs.notes:
         print(f"zetascan observe: warning: {note}")
-    peak = int(np.argmax(omega))
-    print(f"wrote {out}: max Omega_GW h^2 = {omega[peak]:.3e} at f = {f[peak]:.3e} Hz; "
-          f"f_PBH total = {result.f_pbh_total:.3e}")
+    print(f"wrote {out}: max Omega_GW h^2 = {obs.omega_gw_h2_peak:.3e} at "
+          f"f = {obs.f_gw_peak:.3e} Hz; f_PBH total = {obs.f_pbh_total:.3e}")
     if args.figures:
-        paths = gw_plot.save_omega_gw(f, omega, Path(args.figures) / "omega_gw")
-        paths += pbh_plot.save_f_pbh(result.M, result.f_pbh, Path(args.figures) / "f_pbh",
-                                     total=result.f_pbh_total)
+        paths = gw_plot.save_omega_gw(obs.f_hz, obs.omega_gw_h2, Path(args.figures) / "omega_gw")
+        paths += pbh_plot.save_f_pbh(obs.m_msun, obs.f_pbh_per_lnm,
+                                     Path(args.figures) / "f_pbh", total=obs.f_pbh_total)
         print("figures: " + ", ".join(str(p) for p in paths))
-    return 0 if math.isfinite(result.f_pbh_total) else 1
+    return 0 if math.isfinite(obs.f_pbh_total) else 1

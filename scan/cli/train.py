@@ -8,11 +8,11 @@ from collections.abc import Callable
 
 from scan.config import load_config
 from scan.errors import ConfigError
-from scan.surrogate.peak_observables import observables_for
 from scan.pool import choose_pool
 from scan.surrogate import surrogate_path, training_path
 from scan.surrogate.adapter import SolvePoint
 from scan.surrogate.identity import identity
+from scan.surrogate.peak_observables import observables_for
 from scan.surrogate.space import from_config
 from scan.surrogate.surrogate_file import read_report, write_surrogate
 from scan.surrogate.train import TrainingPlan, run_training

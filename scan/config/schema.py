@@ -9,7 +9,7 @@ from __future__ import annotations
 import dataclasses
 from dataclasses import dataclass
 
-from scan.config.analysis import (GridSection, LikelihoodSection)
+from scan.config.analysis import GridSection, LikelihoodSection
 from scan.config.spec import spec
 from scan.errors import ConfigError
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA

@@ -10,7 +10,7 @@ Modules: ``plan`` (axes, fixed values, work blocks), ``verdict`` (the per-kind r
 ``evaluate`` (observables and verdicts of a block), ``store`` (the file and its one
 writer), ``run`` (start / resume / restart, summary).
 """
-from scan.grid.evaluate import DERIVED, REASONS, BlockResult, GridWorker, install_worker
+from scan.grid.evaluate import DERIVED, BlockResult, GridWorker, install_worker
 from scan.grid.plan import Axis, GridPlan, plan_grid
 from scan.grid.run import (GridMismatchError, GridOutcome, GridRun, describe_plan, open_grid,
                            plan_grid_run, run_grid, summary_lines)
@@ -20,7 +20,7 @@ from scan.grid.verdict import (ALLOWED, CHI2_95_1DOF, CHI2_95_2DOF, DETECTABLE, 
                                relative_status, term_kind)
 
 __all__ = ["ALLOWED", "CHI2_95_1DOF", "CHI2_95_2DOF", "DERIVED", "DETECTABLE", "EXCLUDED",
-           "KINDS", "NOT_DETECTABLE", "NOT_EVALUATED", "REASONS", "Axis", "BlockResult",
+           "KINDS", "NOT_DETECTABLE", "NOT_EVALUATED", "Axis", "BlockResult",
            "GridMismatchError", "GridOutcome", "GridPlan", "GridRun",
            "GridWorker", "TermInfo", "describe_plan", "grid_path", "install_worker",
            "open_grid", "plan_grid", "plan_grid_run", "point_verdict", "read_grid",

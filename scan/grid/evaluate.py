@@ -27,24 +27,16 @@ from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, is_relative, point_verdict, term_kind
 from scan.likelihood import total_loglike
 from scan.posterior.exact import exact_outcome
+from scan.posterior.reasons import REASONS, Reason, of_exact_solve
 from scan.posterior.setup import build_terms
 
-#: Reason codes of the ``reason`` dataset (-1: not evaluated yet).
-REASONS: tuple[str, ...] = ("ok", "outside_prior", "outside_surrogate", "invalid_model",
-                            "peak_outside_table", "invalid_background", "invalid_pivot",
-                            "invalid_spectrum")
+#: Reason codes of the ``reason`` dataset are :data:`scan.posterior.reasons.REASONS`
+#: (-1: not evaluated yet).
 #: Derived quantities per point, with their units.
 DERIVED: dict[str, str] = {"k_peak": "Mpc^-1", "P_peak": "1", "f_pbh_total": "1",
                            "f_gw_peak": "Hz", "omega_gw_h2_peak": "1"}
 #: Objective of the profile search for a model that is excluded (ln L = -inf) / invalid.
 EXCLUDED_PENALTY, INVALID_PENALTY = 1e100, 2e100
-
-
-def exact_reason(reason: str) -> int:
-    """Reason code of an invalid exact solve ("background: ..." -> invalid_background)."""
-    stage = reason.split(":", 1)[0].strip()
-    name = f"invalid_{stage}"
-    return REASONS.index(name) if name in REASONS else REASONS.index("invalid_model")
 
 
 def derived_values(obs: Any) -> np.ndarray:
@@ -140,7 +132,7 @@ class GridWorker:
             codes, obs = self.target.observables(thetas)
             names = self.target.reasons
             reason = np.array([REASONS.index(names[c]) if names[c] in REASONS
-                               else REASONS.index("invalid_model") for c in codes], np.int16)
+                               else Reason.INVALID_MODEL for c in codes], np.int16)
             return reason, list(obs)
 
         reason = np.zeros(len(thetas), dtype=np.int16)
@@ -149,7 +141,7 @@ class GridWorker:
             outcome = exact_outcome(self.config, theta)
             obs.append(outcome.observables)
             if outcome.observables is None:
-                reason[k] = exact_reason(outcome.reason)
+                reason[k] = of_exact_solve(outcome.reason)
         return reason, obs
 
     def _objective(self, theta: np.ndarray) -> float:

@@ -26,7 +26,8 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.curves import load_curve
 from scan.errors import ConfigError, InputFileError, ZetascanError
-from scan.grid.evaluate import REASONS, GridWorker, RunBlock
+from scan.grid.evaluate import GridWorker, RunBlock
+from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan, plan_grid
 from scan.grid.store import GridWriter, create_grid_file, file_digest, grid_path, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms

@@ -34,7 +34,8 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.grid.evaluate import DERIVED, REASONS, BlockResult
+from scan.grid.evaluate import DERIVED, BlockResult
+from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative, relative_status
 from scan.store import SingleWriter, provenance, write_attrs, write_config

@@ -1,7 +1,8 @@
-"""Shared pieces of the likelihood terms: model observables, interpolation, return types.
+"""Shared pieces of the likelihood terms: the :class:`Term` protocol, interpolation, return types.
 
 A term is a small frozen object with a ``name`` and ``__call__(obs, nuisance=None)``
-returning ln L.  ``obs`` is any object (or mapping) with the attributes it needs:
+returning ln L (:class:`Term`).  ``obs`` is the one observables record,
+:class:`scan.observables.Observables`; a term reads the fields it needs:
 
 * ``f_hz`` [Hz] and ``omega_gw_h2`` [1] — today's GW spectrum (shape (n,) or, for many
   models on one frequency grid, (n_models, n));
@@ -16,10 +17,11 @@ from __future__ import annotations
 
 import functools
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass
-from typing import Any
+from typing import Any, Protocol
 
 import numpy as np
+
+from scan.observables.record import Observables
 
 #: Smallest value taken before a logarithm (a zero spectrum is "nothing there").
 TINY: float = 1e-300
@@ -27,30 +29,31 @@ TINY: float = 1e-300
 LOG10_TINY: float = float(np.log10(TINY))
 
 
-@dataclass(frozen=True, eq=False)
-class ModelObservables:
-    """A minimal observables record (any object with these attributes works)."""
+class Term(Protocol):
+    """What every likelihood term is: a name for reports and ln L of observables.
 
-    f_hz: np.ndarray | None = None
-    omega_gw_h2: np.ndarray | None = None
-    m_msun: np.ndarray | None = None
-    f_pbh_per_lnm: np.ndarray | None = None
-    n_s: float | None = None
-    ln_1e10_as: float | None = None
-    r: float | None = None
+    ``nuisance`` maps nuisance-parameter names to values (scalars, or arrays over the
+    models of a stack); a term reads only its own.  The result is a float for one model
+    and an array over models for a stack.
+    """
+
+    name: str
+
+    def __call__(self, obs: Observables,
+                 nuisance: Mapping[str, Any] | None = None) -> float | np.ndarray: ...
 
 
-def get(obs: Any, key: str) -> Any:
-    """``obs.key`` or ``obs[key]``; a clear KeyError naming the term's need otherwise."""
+def get(obs: Observables, key: str) -> Any:
+    """``obs.key``; a clear KeyError naming the term's need where the record lacks it."""
     value = get_optional(obs, key)
     if value is None:
         raise KeyError(f"the observables have no '{key}'")
     return value
 
 
-def get_optional(obs: Any, key: str) -> Any:
-    """``obs.key`` or ``obs[key]``, None where the observables do not have it."""
-    return obs.get(key) if isinstance(obs, Mapping) else getattr(obs, key, None)
+def get_optional(obs: Observables, key: str) -> Any:
+    """``obs.key``, None where the observables do not have it."""
+    return getattr(obs, key, None)
 
 
 def nuisance_value(nuisance: Mapping[str, Any] | None, key: str, default: float) -> Any:
@@ -133,11 +136,11 @@ class GridSpectra:
 
     Parameters
     ----------
-    obs : object or Mapping
+    obs : Observables
         Observables whose ``f_hz`` and ``m_msun`` are the planned grids.
     """
 
-    def __init__(self, obs: Any) -> None:
+    def __init__(self, obs: Observables) -> None:
         self.obs = obs
         self._memo: dict[Any, Any] = {}
 

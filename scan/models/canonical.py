@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import math
 import warnings
-
 from typing import TYPE_CHECKING
 
 import numpy as np

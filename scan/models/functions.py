@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import importlib
 import math
-from functools import lru_cache
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import TYPE_CHECKING, Callable
 
 import numpy as np

@@ -32,6 +32,7 @@ import numpy as np
 from scan.observables import cosmo
 from scan.observables.pbh import plan_pbh
 from scan.observables.quadratic import plan_quadratic
+from scan.observables.record import Observables
 from scan.observables.window import spectra_on_table
 
 #: Spacing of the absolute ln k table of the f_PBH plan [e-folds of k].
@@ -39,58 +40,7 @@ LNK_STEP = 0.05
 _FLOOR = 1e-300
 
 
-@dataclasses.dataclass(frozen=True, eq=False)
-class BatchObservables:
-    """Observables of m walkers on shared grids (what the likelihood terms read).
-
-    Attributes
-    ----------
-    f_hz : ndarray, shape (n_f,) [Hz]
-    omega_gw_h2 : ndarray, shape (m, n_f) [1]
-    m_msun : ndarray, shape (n_M,) [M_sun]
-    f_pbh_per_lnm : ndarray, shape (m, n_M) [1]
-    f_pbh_total : ndarray, shape (m,) [1]
-    n_s, r, N_star : ndarray, shape (m,)
-    ln_1e10_as : float
-    k_peak : ndarray, shape (m,) [Mpc^-1]
-    P_peak : ndarray, shape (m,) [1]
-    f_gw_peak, omega_gw_h2_peak : ndarray, shape (m,) [Hz], [1]
-        Maximum of Omega_GW,0 h^2 on the walker's own (relative) output grid.
-    ln_mass_shift : ndarray, shape (m,) [ln M_sun], or None
-        Walker i's masses are ``m_msun * exp(ln_mass_shift[i])`` (None: all on
-        ``m_msun``); see :func:`with_collapse_coefficient`.
-    """
-
-    f_hz: np.ndarray
-    omega_gw_h2: np.ndarray
-    m_msun: np.ndarray
-    f_pbh_per_lnm: np.ndarray
-    f_pbh_total: np.ndarray
-    n_s: np.ndarray
-    r: np.ndarray
-    N_star: np.ndarray
-    ln_1e10_as: float
-    k_peak: np.ndarray
-    P_peak: np.ndarray
-    f_gw_peak: np.ndarray
-    omega_gw_h2_peak: np.ndarray
-    ln_mass_shift: np.ndarray | None = None
-
-    def row(self, i: int) -> dict[str, Any]:
-        """Walker ``i``'s observables as a mapping the likelihood terms accept (its own
-        masses in ``m_msun``)."""
-        out = {}
-        for fld in dataclasses.fields(self):
-            value = getattr(self, fld.name)
-            shared = fld.name in ("f_hz", "m_msun", "ln_1e10_as")
-            out[fld.name] = value if shared or value is None else value[i]
-        shift = out.pop("ln_mass_shift")
-        if shift is not None:
-            out["m_msun"] = self.m_msun * math.exp(shift)
-        return out
-
-
-def with_collapse_coefficient(batch: BatchObservables, ratio: np.ndarray) -> BatchObservables:
+def with_collapse_coefficient(batch: Observables, ratio: np.ndarray) -> Observables:
     """The PBHs of ``batch`` for critical-collapse coefficients K = ratio * K_0.
 
     With M = K M_H (C - C_th)^gamma_c (Niemeyer & Jedamzik 1998, astro-ph/9709072) K
@@ -100,21 +50,20 @@ def with_collapse_coefficient(batch: BatchObservables, ratio: np.ndarray) -> Bat
 
     Parameters
     ----------
-    batch : BatchObservables
+    batch : Observables
         Computed with K_0 (critical collapse), masses unshifted.
     ratio : ndarray, shape (m,) [1]
         K / K_0 per walker (positive).
 
     Returns
     -------
-    BatchObservables
+    Observables
     """
     ratio = np.asarray(ratio, dtype=float)
     if batch.ln_mass_shift is not None:
         raise ValueError("the batch's masses are shifted already")
-    return dataclasses.replace(batch, f_pbh_per_lnm=batch.f_pbh_per_lnm * ratio[:, None],
-                               f_pbh_total=batch.f_pbh_total * ratio,
-                               ln_mass_shift=np.log(ratio))
+    return batch.replace(f_pbh_per_lnm=batch.f_pbh_per_lnm * ratio[:, None],
+                         f_pbh_total=batch.f_pbh_total * ratio, ln_mass_shift=np.log(ratio))
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -186,7 +135,7 @@ def plan_batch(x: np.ndarray, peak_range: tuple[float, float], conventions, *,
 def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.ndarray,
                       shape: np.ndarray, n_s: np.ndarray, r: np.ndarray, N_star: np.ndarray,
                       ln_1e10_as: float, thresholds: np.ndarray | None = None
-                      ) -> BatchObservables:
+                      ) -> Observables:
     """Omega_GW,0 h^2 and f_PBH of m emulated spectra, on the plan's shared grids.
 
     Parameters
@@ -204,13 +153,13 @@ def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.n
 
     Returns
     -------
-    BatchObservables
+    Observables
     """
     ln_k_peak = np.asarray(ln_k_peak, float)
     log10_p = np.asarray(log10_P_peak, float)[:, None] + np.asarray(shape, float)
     omega, ln_k_top, omega_peak = gw_on_grids(plan, ln_k_peak, log10_p)
     pbh = pbh_on_table(plan, ln_k_peak, log10_p, thresholds)
-    return BatchObservables(
+    return Observables(
         f_hz=plan.f_gw, omega_gw_h2=omega, m_msun=np.asarray(plan.pbh.M),
         f_pbh_per_lnm=np.atleast_2d(pbh.f_pbh), f_pbh_total=np.atleast_1d(pbh.f_pbh_total),
         n_s=np.asarray(n_s, float), r=np.asarray(r, float), N_star=np.asarray(N_star, float),

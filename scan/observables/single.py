@@ -7,40 +7,12 @@ mass function from :mod:`scan.observables.pbh`, on frequency and mass grids deri
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass
 
 import numpy as np
 
 from scan.observables import cosmo, sigw
-from scan.observables.pbh import PBHConventions, PBHResult, plan_pbh
-
-
-@dataclass(frozen=True)
-class Observables:
-    """Ω_GW h²(f) today and f_PBH(M), with the conventions that produced them.
-
-    Attributes
-    ----------
-    f : ndarray
-        GW frequency today [Hz].
-    omega_gw_h2 : ndarray
-        Ω_GW,0 h² per ln f.
-    pbh : PBHResult
-        Masses ``M`` [M_sun], ``f_pbh`` per ln M, ``f_pbh_total``, conventions.
-    notes : tuple of str
-        Warnings raised on the way (truncated or under-resolved spectrum tables).
-    """
-
-    f: np.ndarray
-    omega_gw_h2: np.ndarray
-    pbh: PBHResult
-    notes: tuple[str, ...] = ()
-
-    @property
-    def peak(self) -> tuple[float, float]:
-        """(f [Hz], Ω_GW h²) at the maximum of the GW spectrum."""
-        i = int(np.argmax(self.omega_gw_h2))
-        return float(self.f[i]), float(self.omega_gw_h2[i])
+from scan.observables.pbh import PBHConventions, plan_pbh
+from scan.observables.record import Observables, peak_of
 
 
 def frequency_grid(k: np.ndarray, n_f: int) -> np.ndarray:
@@ -91,4 +63,8 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     omega = sigw.plan_sigw(k, f_out=f, dof=dof, n_eff=n_eff).omega_gw_h2(P_zeta)
     M = mass_grid(k, conventions, n_m, dof, n_eff)
     pbh = plan_pbh(k, M, conventions, dof=dof, n_eff=n_eff).evaluate(P_zeta)
-    return Observables(f, omega, pbh, tuple(str(w.message) for w in caught))
+    f_peak, omega_peak = peak_of(f, omega)
+    return Observables(f_hz=f, omega_gw_h2=omega, m_msun=pbh.M, f_pbh_per_lnm=pbh.f_pbh,
+                       f_pbh_total=pbh.f_pbh_total, f_gw_peak=f_peak,
+                       omega_gw_h2_peak=omega_peak, conventions=pbh.conventions,
+                       notes=tuple(str(w.message) for w in caught))

@@ -28,7 +28,7 @@ import numpy as np
 
 from scan import store
 from scan.config.schema import RunConfig
-from scan.observables import cosmo
+from scan.observables import Observables, cosmo
 from scan.pipeline.solve import SolveResult
 
 _BACKGROUND_UNITS = {"N": "e-folds", "phi": "M_p", "chi": "M_p", "dchi_dN": "M_p",
@@ -96,22 +96,21 @@ def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
         "valid": s.valid, "reason": s.reason, "units_k_peak": "Mpc^-1", "units_V0": "M_p^4"})
 
 
-def write_observables(handle: h5py.Group, obs) -> None:
+def write_observables(handle: h5py.Group, obs: Observables) -> None:
     """Groups ``gw`` (``f`` [Hz], ``k``, ``omega_gw_h2``) and ``pbh`` (``M`` [M_sun], ``M_g``,
     ``f_pbh`` per ln M; attribute ``f_pbh_total`` and every PBH convention)."""
     gw = handle.create_group("gw")
-    store.write_dataset(gw, "f", obs.f, "Hz", "GW frequency today")
-    store.write_dataset(gw, "k", cosmo.f_to_k(obs.f), "Mpc^-1", "comoving wavenumber")
+    store.write_dataset(gw, "f", obs.f_hz, "Hz", "GW frequency today")
+    store.write_dataset(gw, "k", cosmo.f_to_k(obs.f_hz), "Mpc^-1", "comoving wavenumber")
     store.write_dataset(gw, "omega_gw_h2", obs.omega_gw_h2, "1", "Omega_GW,0 h^2 per ln f")
-    f_peak, omega_peak = obs.peak
-    store.write_attrs(gw, {"f_peak": f_peak, "omega_gw_h2_peak": omega_peak,
+    store.write_attrs(gw, {"f_peak": obs.f_gw_peak, "omega_gw_h2_peak": obs.omega_gw_h2_peak,
                            "units_f_peak": "Hz", "notes": list(obs.notes) or ["none"]})
     pbh = handle.create_group("pbh")
-    store.write_dataset(pbh, "M", obs.pbh.M, "M_sun", "PBH mass")
-    store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(obs.pbh.M), "g", "PBH mass")
-    store.write_dataset(pbh, "f_pbh", obs.pbh.f_pbh, "1", "fraction of dark matter per ln M")
-    pbh.attrs["f_pbh_total"] = obs.pbh.f_pbh_total
-    store.write_attrs(pbh, obs.pbh.conventions.as_attrs())
+    store.write_dataset(pbh, "M", obs.m_msun, "M_sun", "PBH mass")
+    store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(obs.m_msun), "g", "PBH mass")
+    store.write_dataset(pbh, "f_pbh", obs.f_pbh_per_lnm, "1", "fraction of dark matter per ln M")
+    pbh.attrs["f_pbh_total"] = obs.f_pbh_total
+    store.write_attrs(pbh, obs.conventions.as_attrs())
 
 
 def read_spectrum(path: str | Path) -> tuple[np.ndarray, np.ndarray]:

@@ -71,11 +71,11 @@ class SolveResult:
                                 if math.isfinite(s.k_dip) else ""))
         o = self.observables
         if o is not None:
-            f_peak, omega_peak = o.peak
-            lines.append(f"induced GWs: max Omega_GW h^2 = {omega_peak:.3e} at f = {f_peak:.3e} Hz")
-            lines.append(f"PBHs: f_PBH total = {o.pbh.f_pbh_total:.3e} "
-                         f"({o.pbh.conventions.criterion}, {o.pbh.conventions.window} window, "
-                         f"threshold {o.pbh.conventions.threshold:g})")
+            lines.append(f"induced GWs: max Omega_GW h^2 = {o.omega_gw_h2_peak:.3e} at "
+                         f"f = {o.f_gw_peak:.3e} Hz")
+            lines.append(f"PBHs: f_PBH total = {o.f_pbh_total:.3e} "
+                         f"({o.conventions.criterion}, {o.conventions.window} window, "
+                         f"threshold {o.conventions.threshold:g})")
             lines += [f"note: {note}" for note in o.notes]
         return lines
 

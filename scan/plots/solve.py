@@ -25,7 +25,8 @@ def draw_solve_figures(stem: str | Path, result: SolveResult) -> list[Path]:
         paths += save(fig, stem.with_name(stem.name + "_spectrum"))
     o = result.observables
     if o is not None:
-        paths += gw_plot.save_omega_gw(o.f, o.omega_gw_h2, stem.with_name(stem.name + "_omega_gw"))
-        paths += pbh_plot.save_f_pbh(o.pbh.M, o.pbh.f_pbh, stem.with_name(stem.name + "_f_pbh"),
-                                     total=o.pbh.f_pbh_total)
+        paths += gw_plot.save_omega_gw(o.f_hz, o.omega_gw_h2,
+                                       stem.with_name(stem.name + "_omega_gw"))
+        paths += pbh_plot.save_f_pbh(o.m_msun, o.f_pbh_per_lnm,
+                                     stem.with_name(stem.name + "_f_pbh"), total=o.f_pbh_total)
     return [p for p in paths if p.suffix == ".png"] + [p for p in paths if p.suffix == ".pdf"]

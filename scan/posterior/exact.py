@@ -29,10 +29,9 @@ import numpy as np
 
 from scan.config.priors import apply_parameters
 from scan.config.schema import RunConfig
-from scan.observables import compute_observables, gstar
+from scan.observables import Observables, compute_observables, gstar
 from scan.pipeline import conventions_of, solve_config
 from scan.posterior.setup import COLLAPSE_K, THRESHOLD
-from scan.posterior.target import Observables
 
 #: Reason of a valid spectrum whose maximum lies at the edge of its k grid.
 NO_PEAK = "spectrum: no interior peak in P_zeta"
@@ -59,12 +58,12 @@ class ExactOutcome:
 
 def posterior_observables(obs, *, k_peak: float, P_peak: float, n_s: float, r: float,
                           N_star: float, ln_1e10_as: float) -> Observables:
-    """The posterior target's :class:`Observables` from a :class:`scan.observables.Observables`.
+    """``obs`` of one exact spectrum with its pivot scalars and P_ζ peak filled in.
 
     Parameters
     ----------
-    obs : scan.observables.Observables
-        Ω_GW h²(f) [Hz, 1] and the PBH result (masses [M_sun], d f_PBH / d ln M, total).
+    obs : Observables
+        Ω_GW h²(f) [Hz, 1] and f_PBH(M) [M_sun, 1] of the spectrum.
     k_peak : float [Mpc^-1]
     P_peak : float [1]
     n_s, r : float [1]
@@ -75,11 +74,7 @@ def posterior_observables(obs, *, k_peak: float, P_peak: float, n_s: float, r: f
     -------
     Observables
     """
-    return Observables(f_hz=np.asarray(obs.f, float),
-                       omega_gw_h2=np.asarray(obs.omega_gw_h2, float),
-                       m_msun=np.asarray(obs.pbh.M, float),
-                       f_pbh_per_lnm=np.asarray(obs.pbh.f_pbh, float),
-                       f_pbh_total=float(obs.pbh.f_pbh_total), n_s=float(n_s), r=float(r),
+    return obs.replace(f_pbh_total=float(obs.f_pbh_total), n_s=float(n_s), r=float(r),
                        N_star=float(N_star), ln_1e10_as=float(ln_1e10_as),
                        k_peak=float(k_peak), P_peak=float(P_peak))
 

@@ -37,56 +37,25 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError
 from scan.likelihood.grid import plan_terms
-from scan.observables import gstar
-from scan.observables.batch import (BatchObservables, batch_observables, parabolic_peak, plan_batch,
+from scan.observables import Observables, gstar
+from scan.observables.batch import (batch_observables, parabolic_peak, plan_batch,
                                     with_collapse_coefficient)
 from scan.observables.pbh import plan_pbh_thresholds
 from scan.pipeline import conventions_of
 from scan.posterior.blobs import (empty_blobs, finish_log_posterior, mass_at_peak, peak_range,
                                   store_blobs, total_of_terms)
+from scan.posterior.reasons import REASONS, Reason
 from scan.posterior.setup import COLLAPSE_K, THRESHOLD, build_terms, threshold_range
 from scan.posterior.targets import TargetBase
 from scan.surrogate import load_surrogate
 
-__all__ = ["PosteriorTarget", "Observables", "BLOB_FIELDS", "REASONS"]
+__all__ = ["PosteriorTarget", "BLOB_FIELDS"]
 
-REASONS: tuple[str, ...] = ("ok", "outside_prior", "outside_surrogate", "invalid_model",
-                            "peak_outside_table", "excluded")
-R_PRIOR, R_BOX, R_INVALID, R_TABLE, R_EXCLUDED = 1, 2, 3, 4, 5
 
 #: Derived quantities stored with every chain sample (before the SNR and lnL columns).
 BLOB_FIELDS: tuple[str, ...] = ("k_peak", "P_peak", "f_gw_peak", "omega_gw_h2_peak",
                                 "f_pbh_total", "M_pbh_peak", "n_s", "r", "N_star",
                                 "log_like")
-
-
-@dataclasses.dataclass(frozen=True)
-class Observables:
-    """The observables of one point, as the likelihood terms read them.
-
-    Attributes
-    ----------
-    f_hz : ndarray [Hz]
-    omega_gw_h2 : ndarray [1]
-    m_msun : ndarray [M_sun]
-    f_pbh_per_lnm : ndarray [1]
-    f_pbh_total : float [1]
-    n_s, r, N_star, ln_1e10_as : float
-    k_peak : float [Mpc^-1]
-    P_peak : float [1]
-    """
-
-    f_hz: np.ndarray
-    omega_gw_h2: np.ndarray
-    m_msun: np.ndarray
-    f_pbh_per_lnm: np.ndarray
-    f_pbh_total: float
-    n_s: float
-    r: float
-    N_star: float
-    ln_1e10_as: float
-    k_peak: float
-    P_peak: float
 
 
 @dataclasses.dataclass(frozen=True)
@@ -210,7 +179,7 @@ class PosteriorTarget(TargetBase):
         return {name: float(v) for name, v in zip(self.priors.names[n:], theta[n:])}
 
     def predict(self, thetas: np.ndarray) -> tuple[np.ndarray, np.ndarray,
-                                                   BatchObservables | None]:
+                                                   Observables | None]:
         """Reason codes and the batched observables of the evaluable points.
 
         Returns
@@ -220,25 +189,25 @@ class PosteriorTarget(TargetBase):
             ``peak_outside_table`` (the likelihood is not evaluated here).
         rows : ndarray of int, shape (m,)
             Indices of the points with reason 0, in the order of ``batch``.
-        batch : BatchObservables or None
+        batch : Observables or None
             Their observables (None when m = 0).
         """
         return self._predict(np.atleast_2d(np.asarray(thetas, float)))[:3]
 
     def _predict(self, thetas: np.ndarray) -> tuple[np.ndarray, np.ndarray,
-                                                    BatchObservables | None, np.ndarray]:
+                                                    Observables | None, np.ndarray]:
         """:meth:`predict` of 2-D ``thetas``, and their log-prior."""
         data = self.loaded
         log_prior = self.priors.log_prior(thetas)
         reason = np.zeros(len(thetas), dtype=np.int16)
-        reason[~np.isfinite(log_prior)] = R_PRIOR
+        reason[~np.isfinite(log_prior)] = Reason.OUTSIDE_PRIOR
         model = thetas[:, :self.priors.n_model][:, data["order"]]
         space = data["surrogate"].space
         with np.errstate(invalid="ignore", divide="ignore"):
             u = space.to_unit(model)
         bounded = np.array([k != "gaussian" for k in space.kinds])
         in_box = np.all(np.isfinite(u) & ((u >= 0.0) & (u <= 1.0) | ~bounded), axis=1)
-        reason[(reason == 0) & ~in_box] = R_BOX
+        reason[(reason == 0) & ~in_box] = Reason.OUTSIDE_SURROGATE
         todo = np.flatnonzero(reason == 0)
         if not todo.size:
             return reason, todo, None, log_prior
@@ -247,10 +216,10 @@ class PosteriorTarget(TargetBase):
                                    pred.N_star])
         ok = pred.valid & np.all(np.isfinite(scalars), axis=1) \
             & np.all(np.isfinite(pred.shape), axis=1)
-        reason[todo[~ok]] = R_INVALID
+        reason[todo[~ok]] = Reason.INVALID_MODEL
         lo, hi = data["plan"].peak_range
         in_table = (pred.ln_k_peak >= lo) & (pred.ln_k_peak <= hi)
-        reason[todo[ok & ~in_table]] = R_TABLE
+        reason[todo[ok & ~in_table]] = Reason.PEAK_OUTSIDE_TABLE
         keep = ok & in_table
         if not keep.any():
             return reason, todo[:0], None, log_prior
@@ -277,8 +246,7 @@ class PosteriorTarget(TargetBase):
         reason, rows, batch = self.predict(thetas)
         obs: list[Observables | None] = [None] * len(thetas)
         for j, i in enumerate(rows):
-            row = batch.row(j)
-            obs[i] = Observables(**{f.name: row[f.name] for f in dataclasses.fields(Observables)})
+            obs[i] = batch.row(j)
         return reason, obs
 
     def log_and_blobs(self, thetas: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -311,7 +279,7 @@ class PosteriorTarget(TargetBase):
                 M_pbh_peak=mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm,
                                         batch.ln_mass_shift),
                 n_s=batch.n_s, r=batch.r, N_star=batch.N_star))
-            finish_log_posterior(log_p, reason, rows, total, log_prior, R_EXCLUDED)
+            finish_log_posterior(log_p, reason, rows, total, log_prior, Reason.EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs
 
@@ -350,7 +318,7 @@ class PosteriorTarget(TargetBase):
                 omega_gw_h2_peak=math.exp(ln_omega), f_pbh_total=ob.f_pbh_total,
                 M_pbh_peak=mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
                 n_s=ob.n_s, r=ob.r, N_star=ob.N_star))
-            finish_log_posterior(log_p, reason, rows, total, log_prior, R_EXCLUDED)
+            finish_log_posterior(log_p, reason, rows, total, log_prior, Reason.EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs
 

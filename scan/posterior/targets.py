@@ -19,7 +19,6 @@ import math
 
 import numpy as np
 
-
 REASON_OK = 0
 
 

@@ -193,7 +193,7 @@ def run_chain(plan: RunPlan, pool: BasePool, *, restart: bool = False,
         extras = runfile.Extras(plan.priors.names, plan.priors.labels, plan.target.reasons,
                                 np.zeros(len(plan.target.reasons), dtype=np.int64))
     else:
-        extras = stored.extras
+        extras = stored.extras.with_reasons(plan.target.reasons)
     evaluator = Evaluator(plan.target, pool, extras.counts)
     if stored is None:
         initial = _initial_walkers(plan, evaluator)

@@ -140,6 +140,13 @@ class Extras:
         tau = np.full(dim, np.nan) if self.tau is None else self.tau
         store.write_dataset(group, "tau", tau, "steps", "latest autocorrelation estimate")
 
+    def with_reasons(self, reasons: tuple[str, ...]) -> Extras:
+        """These extras with the counts keyed by ``reasons`` (a chain written with another
+        reason table resumes: counts follow the names; a new reason starts at 0)."""
+        by_name = dict(zip(self.reasons, self.counts))
+        counts = np.array([by_name.get(name, 0) for name in reasons], dtype=np.int64)
+        return dataclasses.replace(self, reasons=tuple(reasons), counts=counts)
+
     @classmethod
     def read(cls, handle: h5py.File) -> Extras:
         """Load from ``handle[EXTRA]``."""

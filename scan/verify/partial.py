@@ -52,8 +52,8 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
+from scan.observables import Observables
 from scan.posterior.exact import ExactOutcome
-from scan.posterior.target import Observables
 from scan.store import SingleWriter, config_hash, provenance, put_rows, write_attrs
 
 GROUP = "verify_partial"

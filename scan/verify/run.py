@@ -37,8 +37,8 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.pool import BasePool
-from scan.posterior.exact import ExactSolve
 from scan.posterior.build import build_target
+from scan.posterior.exact import ExactSolve
 from scan.sampler import runfile
 from scan.verify.compare import (MIN_SAMPLES, Evaluated, Thresholds, compare, draw_indices,
                                  jsonable, score_outcomes)

@@ -23,10 +23,10 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
+from scan.observables.batch import interp_uniform_shifted, pbh_on_table, plan_batch
 from scan.observables.pbh import PBHConventions, beta_weighted, plan_pbh  # noqa: E402
 from scan.observables.pbh.plan import _live_epochs  # noqa: E402
 from scan.observables.pbh.tables import beta_tabulated  # noqa: E402
-from scan.observables.batch import interp_uniform_shifted, pbh_on_table, plan_batch
 from scan.observables.window import spectra_on_table  # noqa: E402
 
 M_WALKERS, BLOCKS, BLOCK = 64, 20, 10

@@ -16,11 +16,11 @@ import sys
 import time
 from pathlib import Path
 
+from scan.background.pivot import solve_pivot
 from scan.config import load_config
 from scan.modes import build_table, compute_spectrum
 from scan.pipeline import (PIVOT_MARGIN_EFOLDS, _n_star_rule, mode_settings_of, reheating_of,
                            solve_background_of)
-from scan.background.pivot import solve_pivot
 
 ROOT = Path(__file__).resolve().parents[2]
 
