@@ -242,11 +242,11 @@ def test_demo_terms_on_a_pole_like_model():
     f = np.geomspace(1e-10, 1e3, 600)
     peak = 4e-9 * np.exp(-0.5 * (np.log(f / 3e-8) / 1.2) ** 2)
     lnm = np.linspace(-50, 10, 400)
-    obs = dict(f_hz=f, omega_gw_h2=peak, m_msun=np.exp(lnm),
+    obs = Observables(f_hz=f, omega_gw_h2=peak, m_msun=np.exp(lnm),
                f_pbh_per_lnm=1e-3 * np.exp(-0.5 * ((lnm + 30) / 1.0) ** 2),
                n_s=0.965, ln_1e10_as=3.044, r=0.01)
     total, per = L.total_loglike(terms, obs, {"A_smbhb": 1e-16})
     assert np.isfinite(total) and len(per) == len(terms) >= 7
-    flat = dict(obs, omega_gw_h2=np.full_like(f, 1e-10))
+    flat = obs.replace(omega_gw_h2=np.full_like(f, 1e-10))
     assert (per["demo_kestrel_excess"]
             > L.total_loglike(terms, flat)[1]["demo_kestrel_excess"])

@@ -24,7 +24,7 @@ from scan.observables import Observables
 from scan.observables.cosmo import k_to_f
 from scan.observables.pbh import f_pbh
 from scan.observables.sigw import TruncationWarning, omega_gw_h2
-from scan.pipeline import conventions_of
+from scan.observables.settings import conventions_of
 from scan.pool import choose_pool
 from scan.posterior.target import BLOB_FIELDS, PosteriorTarget
 from scan.sampler import plan_run, run_chain
@@ -212,7 +212,7 @@ def test_loglike_equals_total_loglike_on_independently_computed_observables(trai
         lnk = np.arange(lnkp + x[0] - 2.0, lnkp + x[-1] + 2.0, 0.02)
         p_fine = np.interp(lnk, lnkp + x, np.log10(p), left=-np.inf, right=-np.inf)
         masses = target.loaded["plan"].pbh.M
-        pbh = f_pbh(np.exp(lnk), 10.0 ** p_fine, masses, conventions_of(cfg))
+        pbh = f_pbh(np.exp(lnk), 10.0 ** p_fine, masses, conventions_of(cfg.observables))
         obs = Observables(f_hz=f_out, omega_gw_h2=omega, m_msun=masses,
                                f_pbh_per_lnm=pbh.f_pbh, n_s=pred.n_s[i],
                                ln_1e10_as=cfg.pivot.ln_1e10_As, r=10.0 ** pred.log10_r[i])

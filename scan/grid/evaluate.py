@@ -28,7 +28,7 @@ from scan.grid.verdict import NOT_EVALUATED, is_relative, point_verdict, term_ki
 from scan.likelihood import total_loglike
 from scan.posterior.exact import exact_outcome
 from scan.posterior.reasons import REASONS, Reason, of_exact_solve
-from scan.posterior.setup import build_terms
+from scan.likelihood.from_config import build_terms
 
 #: Reason codes of the ``reason`` dataset are :data:`scan.posterior.reasons.REASONS`
 #: (-1: not evaluated yet).

@@ -33,7 +33,8 @@ from scan.grid.store import GridWriter, create_grid_file, file_digest, grid_path
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
 from scan.posterior.build import posterior_target
-from scan.posterior.setup import NUISANCE_NAMES, curve_paths_of
+from scan.likelihood.from_config import curve_paths_of
+from scan.posterior.setup import NUISANCE_NAMES
 
 #: Config keys that may change between invocations of one grid: they change nothing in it.
 RESUMABLE_PREFIXES: tuple[str, ...] = ("sampler.", "grid.progress_every_s")

@@ -14,8 +14,8 @@ from scan.background.pivot import Pivot, Reheating, solve_pivot
 from scan.config.schema import RunConfig
 from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
-from scan.observables import Observables, compute_observables, gstar
-from scan.observables.pbh import PBHConventions
+from scan.observables import Observables
+from scan.observables.settings import settings_of
 
 #: E-folds the background must provide before the pivot exits (initial data of the
 #: pivot modes start ~ln(x_in) e-folds earlier; common practice: a few e-folds more).
@@ -98,21 +98,9 @@ def mode_settings_of(config: RunConfig) -> ModeSettings:
     return ModeSettings(x_in=m.x_in, x_out=m.x_out, rtol=m.rtol, p_zeta_max=m.stochastic_limit)
 
 
-def conventions_of(config: RunConfig) -> PBHConventions:
-    """PBH conventions of the ``[observables]`` section."""
-    o = config.observables
-    return PBHConventions(window=o.window, criterion=o.criterion, threshold=o.threshold,
-                          mass_function=o.mass_function, gamma_c=o.gamma_c, K=o.collapse_K,
-                          gamma=o.gamma, ps_factor=o.ps_factor, omega_dm_h2=o.omega_dm_h2)
-
-
 def observables_of(config: RunConfig, spectrum: Spectrum) -> Observables:
     """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions."""
-
-    o = config.observables
-    dof = gstar.load_table(o.gstar_table) if o.gstar_table else None
-    return compute_observables(spectrum.k, spectrum.P_zeta, conventions=conventions_of(config),
-                               n_f=o.n_f, n_m=o.n_m, dof=dof, n_eff=o.n_eff)
+    return settings_of(config.observables).compute(spectrum.k, spectrum.P_zeta)
 
 
 def solve_background_of(config: RunConfig, model: Model | None = None) -> Background:

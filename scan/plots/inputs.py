@@ -16,7 +16,7 @@ from scan.config.schema import RunConfig
 from scan.curves import load_curve
 from scan.errors import ConfigError, InputFileError
 from scan.plots.sources import Sources, chain_has_observables
-from scan.posterior.setup import curve_paths_of
+from scan.likelihood.from_config import curve_paths_of
 from scan.sampler.bands import N_SAMPLES, SEED, posterior_bands
 from scan.sampler.summary import posterior_samples
 

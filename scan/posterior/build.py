@@ -13,8 +13,9 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError
 from scan.likelihood import Sensitivity
-from scan.posterior.setup import (NUISANCE_NAMES, UNSUPPORTED_NUISANCE, build_terms,
-                                  check_collapse_k_prior, check_threshold_prior, curve_paths_of)
+from scan.likelihood.from_config import build_terms, curve_paths_of
+from scan.posterior.setup import (NUISANCE_NAMES, UNSUPPORTED_NUISANCE, check_collapse_k_prior,
+                                  check_threshold_prior)
 from scan.posterior.target import PosteriorTarget
 from scan.posterior.targets import GaussianTarget, TargetBase
 from scan.surrogate import surrogate_path

@@ -29,8 +29,9 @@ import numpy as np
 
 from scan.config.priors import apply_parameters
 from scan.config.schema import RunConfig
-from scan.observables import Observables, compute_observables, gstar
-from scan.pipeline import conventions_of, solve_config
+from scan.observables import Observables
+from scan.observables.settings import settings_of
+from scan.pipeline import solve_config
 from scan.posterior.setup import COLLAPSE_K, THRESHOLD
 
 #: Reason of a valid spectrum whose maximum lies at the edge of its k grid.
@@ -102,11 +103,7 @@ def observables_from_table(config: RunConfig, k: np.ndarray, P_zeta: np.ndarray,
     -------
     ExactOutcome
     """
-
-    o = config.observables
-    dof = gstar.load_table(o.gstar_table) if o.gstar_table else None
-    obs = compute_observables(k, P_zeta, conventions=conventions_of(config), n_f=o.n_f,
-                              n_m=o.n_m, dof=dof, n_eff=o.n_eff)
+    obs = settings_of(config.observables).compute(k, P_zeta)
     return ExactOutcome(posterior_observables(obs, k_peak=k_peak, P_peak=P_peak, n_s=n_s,
                                               r=r, N_star=N_star,
                                               ln_1e10_as=config.pivot.ln_1e10_As),

@@ -37,15 +37,16 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError
 from scan.likelihood.grid import plan_terms
-from scan.observables import Observables, gstar
+from scan.observables import Observables
 from scan.observables.batch import (batch_observables, parabolic_peak, plan_batch,
                                     with_collapse_coefficient)
 from scan.observables.pbh import plan_pbh_thresholds
-from scan.pipeline import conventions_of
+from scan.observables.settings import settings_of
 from scan.posterior.blobs import (empty_blobs, finish_log_posterior, mass_at_peak, peak_range,
                                   store_blobs, total_of_terms)
 from scan.posterior.reasons import REASONS, Reason
-from scan.posterior.setup import COLLAPSE_K, THRESHOLD, build_terms, threshold_range
+from scan.likelihood.from_config import build_terms
+from scan.posterior.setup import COLLAPSE_K, THRESHOLD, threshold_range
 from scan.posterior.targets import TargetBase
 from scan.surrogate import load_surrogate
 
@@ -133,18 +134,17 @@ class PosteriorTarget(TargetBase):
                               f"{list(surrogate.space.keys)}, the run varies {list(keys)}",
                               "vary the same keys as the training run, or retrain")
         terms = build_terms(self.config, self.curve_paths)
-        o = self.config.observables
-        dof = gstar.load_table(o.gstar_table) if o.gstar_table else None
-        conventions = conventions_of(self.config)
+        settings = settings_of(self.config.observables)
+        conventions, dof, n_eff = settings.conventions, settings.dof, settings.n_eff
         span = threshold_range(self.priors)
         pbh_plan = None
         if span is not None:
 
             def pbh_plan(k_table, masses):
                 return plan_pbh_thresholds(k_table, masses, conventions, span, dof=dof,
-                                           n_eff=o.n_eff)
+                                           n_eff=n_eff)
         plan = plan_batch(surrogate.emulator.basis.x, peak_range(surrogate), conventions,
-                          n_out=self.n_out, n_mass=self.n_mass, dof=dof, n_eff=o.n_eff,
+                          n_out=self.n_out, n_mass=self.n_mass, dof=dof, n_eff=n_eff,
                           pbh_plan=pbh_plan)
         by_name = {t.name: t for t in terms}
         self.__dict__["_loaded"] = dict(

@@ -58,12 +58,15 @@ from scan.store import SingleWriter, config_hash, provenance, put_rows, write_at
 
 GROUP = "verify_partial"
 KIND = "zetascan verify partial results"
-#: Scalar fields of :class:`~scan.posterior.target.Observables` (columns of ``scalars``).
+#: Scalar fields of :class:`~scan.observables.Observables` (columns of ``scalars``).
 SCALARS: tuple[str, ...] = ("f_pbh_total", "n_s", "r", "N_star", "ln_1e10_as", "k_peak",
-                            "P_peak")
+                            "P_peak", "f_gw_peak", "omega_gw_h2_peak")
 #: Array fields (columns of ``array_length``) and their units.
 ARRAYS: dict[str, str] = {"f_hz": "Hz", "omega_gw_h2": "1", "m_msun": "M_sun",
                           "f_pbh_per_lnm": "1"}
+#: Fields not stored: the PBH conventions follow from the run's stored config, the notes
+#: are kept in the text column, and an exact solve's masses are never shifted.
+NOT_STORED: tuple[str, ...] = ("conventions", "notes", "ln_mass_shift")
 BUSY = ("another 'zetascan verify' of this chain is running (it holds these partial "
         "results); wait for it or stop it first")
 Log = Callable[[str], None]
@@ -142,10 +145,10 @@ def partial_path(chain: str | Path) -> Path:
 # ----------------------------------------------------------------------- encoding
 def _check_fields(cls: type) -> None:
     names = {f.name for f in dataclasses.fields(cls)}
-    if names != set(SCALARS) | set(ARRAYS):
+    if names != set(SCALARS) | set(ARRAYS) | set(NOT_STORED):
         raise RuntimeError(f"{cls.__name__} fields {sorted(names)} are not the stored "
-                           f"{sorted(SCALARS + tuple(ARRAYS))}: update "
-                           "scan.verify.partial")
+                           f"{sorted(SCALARS + tuple(ARRAYS))} and the derived "
+                           f"{sorted(NOT_STORED)}: update scan.verify.partial")
 
 
 def _encode(outcome: ExactOutcome) -> tuple[int, np.ndarray, np.ndarray, np.ndarray, bytes]:
@@ -175,7 +178,7 @@ def _decode(rows: dict[str, np.ndarray], arrays: np.ndarray, text: np.ndarray,
     fields: dict[str, Any] = {name: arrays[bounds[k]:bounds[k + 1]].copy()
                               for k, name in enumerate(ARRAYS)}
     fields.update({name: float(v) for name, v in zip(SCALARS, rows["scalars"][row])})
-    return ExactOutcome(Observables(**fields), reason, notes)
+    return ExactOutcome(Observables(**fields, notes=notes), reason, notes)
 
 
 # ----------------------------------------------------------------------- the file

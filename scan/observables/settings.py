@@ -1,0 +1,60 @@
+"""The ``[observables]`` section as the observables stage uses it: conventions, g_*, grids.
+
+:func:`settings_of` is the one place a run config's ``[observables]`` keys turn into the
+values :func:`scan.observables.compute_observables` and the batch plans take (and the one
+place the optional g_*(T) table file is read).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from scan.config.schema import ObservablesSection
+from scan.observables import gstar
+from scan.observables.pbh import PBHConventions
+from scan.observables.record import Observables
+from scan.observables.single import compute_observables
+
+
+@dataclass(frozen=True)
+class ObservableSettings:
+    """What the observables stage needs from ``[observables]``.
+
+    Attributes
+    ----------
+    conventions : PBHConventions
+        Window, criterion, threshold, critical collapse, Ω_DM h².
+    dof : gstar.DofTable or None
+        A user's g_*(T) table (None: the built-in Standard Model).
+    n_eff : float
+        N_eff today.
+    n_f, n_m : int
+        Sizes of the frequency and mass grids of one spectrum's observables.
+    """
+
+    conventions: PBHConventions
+    dof: gstar.DofTable | None
+    n_eff: float
+    n_f: int
+    n_m: int
+
+    def compute(self, k: np.ndarray, P_zeta: np.ndarray) -> Observables:
+        """Ω_GW h²(f) and f_PBH(M) of a tabulated spectrum (k [Mpc⁻¹]) with these settings."""
+        return compute_observables(k, P_zeta, conventions=self.conventions, n_f=self.n_f,
+                                   n_m=self.n_m, dof=self.dof, n_eff=self.n_eff)
+
+
+def conventions_of(section: ObservablesSection) -> PBHConventions:
+    """PBH conventions of an ``[observables]`` section."""
+    o = section
+    return PBHConventions(window=o.window, criterion=o.criterion, threshold=o.threshold,
+                          mass_function=o.mass_function, gamma_c=o.gamma_c, K=o.collapse_K,
+                          gamma=o.gamma, ps_factor=o.ps_factor, omega_dm_h2=o.omega_dm_h2)
+
+
+def settings_of(section: ObservablesSection) -> ObservableSettings:
+    """The settings of an ``[observables]`` section (reads its g_* table file, if any)."""
+    dof = gstar.load_table(section.gstar_table) if section.gstar_table else None
+    return ObservableSettings(conventions_of(section), dof, section.n_eff, section.n_f,
+                              section.n_m)
