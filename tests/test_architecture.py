@@ -9,7 +9,11 @@ in :data:`LAZY_ALLOWED` may be imported lazily.
 from __future__ import annotations
 
 import ast
+import sys
 from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent / "tools"))
+import module_table  # noqa: E402
 
 PACKAGE = Path(__file__).resolve().parents[1] / "scan"
 
@@ -145,6 +149,13 @@ def test_no_module_over_the_size_limit():
     long = {name: n for name, path in modules().items()
             if (n := len(path.read_text(encoding="utf-8").splitlines())) > MAX_MODULE_LINES}
     assert long == {}
+
+
+def test_the_contributor_guide_module_table_matches_the_tree():
+    """DEVELOPERS.md's module table is generated (``python tests/tools/module_table.py
+    --write``); this fails when a module was added, moved or re-described since."""
+    guide = (PACKAGE.parent / "DEVELOPERS.md").read_text(encoding="utf-8")
+    assert module_table.table() in guide
 
 
 def test_the_cycle_finder_finds_a_planted_loop():
