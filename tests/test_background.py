@@ -36,17 +36,27 @@ def lnH_slope(bg: Background, N: np.ndarray, h: float = 1e-3) -> np.ndarray:
 
 
 def test_power_law_attractor_is_exact():
-    """V ∝ e^{−λφ}: ε1 = λ²/2, ε2 = 0, H ∝ e^{−ε1 N} (Lucchin & Matarrese 1985, PRD 32, 1316)."""
-    lam = 0.3
+    """V ∝ e^{−λφ}: ε1 = λ²/2, ε2 = 0, H ∝ e^{−ε1 N} (Lucchin & Matarrese 1985, PRD 32, 1316).
+
+    Tolerances follow the integrator, not the machine: DOP853 keeps each step's local
+    error below rtol, and on a stable attractor the errors add at most linearly, so the
+    nodes are within n_steps·rtol. Between nodes the 7th-order continuous extension is
+    not error-controlled (Hairer, Nørsett & Wanner 1993, §II.6); a bound of 100·rtol per
+    step for it is common practice (measured here: ε1 116·rtol, ε2 343·rtol in total).
+    """
+    lam, rtol = 0.3, 1e-10
     bg = solve_background(Model("exponential", slope=lam), phi_start=0.0, n_max=60.0,
-                          allow_no_end=True)
+                          allow_no_end=True, rtol=rtol)
     assert bg.valid and math.isnan(bg.N_end)
+    nodes, dense = len(bg.N) * rtol, 100 * len(bg.N) * rtol
+    np.testing.assert_allclose(bg.eps1, lam**2 / 2, rtol=nodes)
+    assert np.max(abs(bg.eps2)) < nodes
     N = np.linspace(0.0, 60.0, 301)
     p = bg.evaluate(N)
-    np.testing.assert_allclose(p.eps1, lam**2 / 2, rtol=1e-12)
-    assert np.max(abs(p.eps2)) < 1e-11
-    np.testing.assert_allclose(p.H, p.H[0] * np.exp(-lam**2 / 2 * N), rtol=1e-10)
-    np.testing.assert_allclose(p.phi, lam * N, rtol=1e-12, atol=1e-12)  # φ′ = λ
+    np.testing.assert_allclose(p.eps1, lam**2 / 2, rtol=dense)
+    assert np.max(abs(p.eps2)) < dense
+    np.testing.assert_allclose(p.H, p.H[0] * np.exp(-lam**2 / 2 * N), rtol=dense)
+    np.testing.assert_allclose(p.phi, lam * N, rtol=0, atol=dense)  # φ′ = λ
 
 
 def test_power_law_without_allow_no_end_is_invalid():
