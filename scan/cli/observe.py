@@ -188,10 +188,11 @@ def write_result(out: Path, source: str, obs: Observables, options: dict) -> Non
 def run(args: argparse.Namespace) -> int:
     """Compute both observables, write the HDF5 file (and figures); exit code."""
     source = str(args.spectrum)
-    k, P = load_spectrum(source)
-    obs = compute(k, P, args)
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
+    k, P = load_spectrum(source)
+    store.check_output_file(out, "observables file")
+    obs = compute(k, P, args)
     write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
                                                      if not k_.startswith("_")})
     for note in obs.notes:
