@@ -93,7 +93,10 @@ def next_step_size(h_abs: float, err: float, rejected: bool) -> float:
         if rejected:
             factor = min(1.0, factor)
         return h_abs * factor
-    return h_abs * max(MIN_FACTOR, SAFETY * err ** ERROR_EXPONENT)
+    factor = SAFETY * err ** ERROR_EXPONENT
+    if not factor > MIN_FACTOR:  # also a nan error norm: shrink, as Python's max does
+        factor = MIN_FACTOR
+    return h_abs * factor
 
 
 @njit(cache=True)
