@@ -24,29 +24,47 @@ MESSAGE_SMALL = "Required step size is less than spacing between numbers."
 
 @njit(cache=True)
 def _locate(nodes, x: float, last: int) -> int:
-    """Interval index i with nodes[i] <= x < nodes[i+1], clipped to [0, last]."""
-    i = np.searchsorted(nodes, x, side="right") - 1
-    return min(max(i, 0), last)
+    """Interval index i with nodes[i] <= x < nodes[i+1], clipped to [0, last] (bisection)."""
+    lo, hi = 0, last + 1
+    while hi - lo > 1:
+        mid = (lo + hi) >> 1
+        if nodes[mid] <= x:
+            lo = mid
+        else:
+            hi = mid
+    return lo
 
 
 @njit(cache=True)
-def mode_rhs(t, y, nodes, coef, Lk, gk, N0, n0, rate, has_rate, out):
-    """d/dt of the eight rows of M modes (see the module docstring)."""
+def mode_rhs(t, y, nodes, coef, Lk, gk, N0, n0, rate, has_rate, hint, out):
+    """d/dt of the eight rows of M modes (see the module docstring).
+
+    ``hint[j]`` is mode j's table interval at the previous call (updated here): the
+    clock moves little between calls, so a short walk from it replaces the bisection."""
     M = Lk.size
     last = nodes.size - 2
+    shrink = math.exp(-2.0 * (n0 + t))  # e^{-2n}, the same for every mode without rates
     for j in range(M):
         r = rate[j] if has_rate else 1.0
         dn = t * r
         N = N0[j] + dn
-        i = _locate(nodes, N, last)
+        i = hint[j]
+        while i < last and nodes[i + 1] <= N:
+            i += 1
+        while i > 0 and nodes[i] > N:
+            i -= 1
+        hint[j] = i
         h = N - nodes[i]
         L = ((coef[i, 3] * h + coef[i, 2]) * h + coef[i, 1]) * h + coef[i, 0]
         g = ((coef[i, 7] * h + coef[i, 6]) * h + coef[i, 5]) * h + coef[i, 4]
-        n = n0 + dn
-        e0 = math.exp(Lk[j] - gk[j] + g - L - 2.0 * n)
-        e1 = math.exp(-Lk[j] - gk[j] + g + L)
-        e2 = math.exp(-gk[j] + g - 2.0 * n)
-        e3 = math.exp(-gk[j] + g)
+        if has_rate:
+            shrink = math.exp(-2.0 * (n0 + dn))
+        # e3 = H_k/H, e1 = e3 eps1/eps1_k, e2 = e3 e^{-2n}, e0 = e2 eps1_k/eps1
+        e3 = math.exp(g - gk[j])
+        ratio = math.exp(L - Lk[j])
+        e1 = e3 * ratio
+        e2 = e3 * shrink
+        e0 = e2 / ratio
         for c in range(2):
             q, p = y[c * M + j], y[(2 + c) * M + j]
             qt, pt = y[(4 + c) * M + j], y[(6 + c) * M + j]
@@ -61,9 +79,12 @@ def integrate_modes(t0, t1, y0, rtol, atol, nodes, coef, Lk, gk, N0, n0, rate, h
     """Integrate the modes from t0 to t1 > t0; returns (y(t1), nfev, success)."""
     n = y0.size
     atol_v = np.full(n, atol)
+    hint = np.empty(Lk.size, np.int64)
+    for j in range(Lk.size):
+        hint[j] = _locate(nodes, N0[j] + t0 * (rate[j] if has_rate else 1.0), nodes.size - 2)
     y = y0.copy()
     f = np.empty(n)
-    mode_rhs(t0, y, nodes, coef, Lk, gk, N0, n0, rate, has_rate, f)
+    mode_rhs(t0, y, nodes, coef, Lk, gk, N0, n0, rate, has_rate, hint, f)
     nfev = 1
     interval = t1 - t0
     if interval <= 0.0:
@@ -71,7 +92,7 @@ def integrate_modes(t0, t1, y0, rtol, atol, nodes, coef, Lk, gk, N0, n0, rate, h
     h0 = first_trial(y, f, interval, rtol, atol_v)
     tmp = y + h0 * f
     f1 = np.empty(n)
-    mode_rhs(t0 + h0, tmp, nodes, coef, Lk, gk, N0, n0, rate, has_rate, f1)
+    mode_rhs(t0 + h0, tmp, nodes, coef, Lk, gk, N0, n0, rate, has_rate, hint, f1)
     nfev += 1
     h_abs = first_step(y, f, f1, h0, interval, rtol, atol_v)
     K = np.empty((N_STAGES + 1, n))
@@ -91,9 +112,10 @@ def integrate_modes(t0, t1, y0, rtol, atol, nodes, coef, Lk, gk, N0, n0, rate, h
             for s in range(1, N_STAGES):
                 stage_state(y, K, s, h, tmp)
                 mode_rhs(stage_time(t, h, s), tmp, nodes, coef, Lk, gk, N0, n0, rate,
-                         has_rate, K[s])
+                         has_rate, hint, K[s])
             step_update(y, K, h, y_new)
-            mode_rhs(t + h, y_new, nodes, coef, Lk, gk, N0, n0, rate, has_rate, K[N_STAGES])
+            mode_rhs(t + h, y_new, nodes, coef, Lk, gk, N0, n0, rate, has_rate, hint,
+                     K[N_STAGES])
             nfev += N_STAGES
             err = error_norm(K, h, y, y_new, rtol, atol_v)
             h_abs = next_step_size(h_abs, err, rejected)

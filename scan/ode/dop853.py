@@ -46,21 +46,28 @@ def stage_time(t: float, h: float, s: int) -> float:
 def stage_state(y, K, s, h, out):
     """out = y + h Σ_{j<s} A[s, j] K[j] (the state stage ``s`` is evaluated at)."""
     n = y.size
+    out[:] = 0.0
+    for j in range(s):
+        a = _A[s, j]
+        row = K[j]
+        for i in range(n):
+            out[i] += row[i] * a
     for i in range(n):
-        acc = 0.0
-        for j in range(s):
-            acc += K[j, i] * _A[s, j]
-        out[i] = y[i] + acc * h
+        out[i] = y[i] + out[i] * h
 
 
 @njit(cache=True)
 def step_update(y, K, h, out):
     """out = y + h Σ_j B[j] K[j] (the 8th-order solution at t + h)."""
-    for i in range(y.size):
-        acc = 0.0
-        for j in range(N_STAGES):
-            acc += K[j, i] * _B[j]
-        out[i] = y[i] + h * acc
+    n = y.size
+    out[:] = 0.0
+    for j in range(N_STAGES):
+        b = _B[j]
+        row = K[j]
+        for i in range(n):
+            out[i] += row[i] * b
+    for i in range(n):
+        out[i] = y[i] + h * out[i]
 
 
 @njit(cache=True)

@@ -1,6 +1,6 @@
 """Benchmark (issue 16): full exact solves of the working tree vs the reference commit.
 
-Run:  python tests/bench/bench_exact.py [repeats]          (default 5 repeats)
+Run:  python tests/bench/bench_exact.py [repeats] [powers ...]   (default 5 repeats, all p)
 
 For each pole power p = 0.5, 1.0, 1.5, 1.9 it prints one line
 ``p = X: new … s, reference … s, ratio R`` — the median wall time of one full exact solve
@@ -122,11 +122,11 @@ def export_reference(folder: Path) -> Path:
     return folder / "tree"
 
 
-def main(repeats: int = 5) -> None:
+def main(repeats: int = 5, powers: tuple[float, ...] = tuple(MODELS)) -> None:
     with tempfile.TemporaryDirectory(prefix="bench_exact_") as tmp:
         servers = {"new": Server(ROOT), "reference": Server(export_reference(Path(tmp)))}
         try:
-            for power in MODELS:
+            for power in powers:
                 first = {name: srv.solve(power) for name, srv in servers.items()}  # warm-up
                 times = {name: [] for name in servers}
                 for _ in range(repeats):
@@ -147,4 +147,5 @@ if __name__ == "__main__":
     if sys.argv[1:] == ["--serve"]:
         serve()
     else:
-        main(int(sys.argv[1]) if len(sys.argv) > 1 else 5)
+        main(int(sys.argv[1]) if len(sys.argv) > 1 else 5,
+             tuple(float(p) for p in sys.argv[2:]) or tuple(MODELS))
