@@ -15,7 +15,7 @@ difference of P_peak, k_peak and n_s between the two trees.
 
 The models (one kinetic pole in the α = 1 T-model, K = 1 + (w/|φ − 5|)^p, the width set by
 the pole's sharpness λ, CMB pivot k* = 0.05 Mpc⁻¹, ln(10¹⁰A_s) = 3.044, instant
-reheating, 128 base modes, every other setting at its default; see :data:`MODELS`):
+reheating, 128 base modes, every other setting at its default; ``tests/exact_models.py``):
 
     p = 0.5, λ = 0.3   P_peak ≈ 2.5e-8 at k ≈ 8.6e7 Mpc⁻¹  (cusp modes: early start)
     p = 1.0, λ = 1.0   P_peak ≈ 1.6e-4 at k ≈ 4.7e9 Mpc⁻¹
@@ -50,30 +50,10 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT / "tests"))
+from exact_models import MODELS, config_text  # noqa: E402  (the models of issue 16)
+
 REFERENCE = "1e89497"
-#: Pole power -> sharpness of the benchmark models (see the module docstring).
-MODELS = {0.5: 0.3, 1.0: 1.0, 1.5: 3.0, 1.9: 6.0}
-
-
-def config_text(power: float, sharpness: float) -> str:
-    """The TOML of one benchmark model (valid for the reference and the working tree)."""
-    return f"""[run]
-name = "bench_exact"
-[model]
-potential = "t_model"
-alpha = 1.0
-kinetic = "poles"
-[[model.poles]]
-position = 5.0
-sharpness = {sharpness!r}
-power = {power!r}
-[pivot]
-k_star = 0.05
-reheating = "instant"
-ln_1e10_As = 3.044
-[modes]
-n_k = 128
-"""
 
 
 def serve() -> None:
