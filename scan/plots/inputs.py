@@ -15,8 +15,8 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.curves import load_curve
 from scan.errors import ConfigError, InputFileError
-from scan.plots.sources import Sources, chain_has_observables
 from scan.likelihood.from_config import curve_paths_of
+from scan.plots.sources import Sources, chain_has_observables
 from scan.sampler.bands import N_SAMPLES, SEED, posterior_bands
 from scan.sampler.summary import posterior_samples
 

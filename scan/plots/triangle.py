@@ -6,7 +6,8 @@ from collections.abc import Sequence
 import numpy as np
 
 from scan.plots.levels import CREDIBLE_MASS, LEVELS_TEXT, default_bins
-from scan.plots.style import COLUMN_WIDTH_IN, PAGE_WIDTH_IN, PALETTE, style_context
+from scan.plots.looks import POSTERIOR_COLOUR
+from scan.plots.style import COLUMN_WIDTH_IN, PAGE_WIDTH_IN, style_context
 
 #: Parameters up to which the triangle fits one journal column.
 COLUMN_DIM: int = 3
@@ -46,7 +47,7 @@ def triangle_figure(samples: np.ndarray, labels: Sequence[str], *,
     with style_context():
         fig, _ = plt.subplots(dim, dim, figsize=(width, width))
         corner.corner(samples, fig=fig, labels=list(labels), levels=tuple(levels), bins=bins,
-                      smooth=smooth, color=PALETTE[0], plot_datapoints=False,
+                      smooth=smooth, color=POSTERIOR_COLOUR, plot_datapoints=False,
                       fill_contours=True, quantiles=(0.16, 0.5, 0.84), show_titles=True,
                       title_fmt=".3g", title_kwargs={"fontsize": 6.5},
                       label_kwargs={"fontsize": 7.5}, max_n_ticks=3, labelpad=-0.04)
