@@ -18,6 +18,7 @@ from scan.plots.curves import draw_curve, synthetic_note
 from scan.plots.looks import MODEL_COLOUR, POSTERIOR_COLOUR
 from scan.plots.ranges import log_span, note_if_below, union_limits
 from scan.plots.style import figure, legend_below, save
+from scan.plots.visible import shown_entries
 from scan.sampler.bands import Bands
 
 #: Decades below a signal's peak that the axis ranges keep.
@@ -80,6 +81,7 @@ def omega_gw_figure(f_Hz=None, omega_h2=None, label: str | None = None, *,
     if bands is not None:
         note_if_below(ax, bands.median, f"{band_label} median", POSTERIOR_COLOUR, row=1,
                       floor=bands.floor)
+    entries = shown_entries(entries, list(axes[:, 0]))
     handles, texts = zip(*entries) if entries else ((), ())
     legend_below(fig, list(handles), ncols=1, labels=list(texts),
                  title=synthetic_note(gw_curves), handler_map={tuple: OVERLAID})

@@ -13,6 +13,7 @@ from scan.plots.curves import draw_curve, synthetic_note
 from scan.plots.looks import MODEL_COLOUR, POSTERIOR_COLOUR
 from scan.plots.ranges import latex_number, log_span, note_if_below, union_limits
 from scan.plots.style import figure, legend_below, save
+from scan.plots.visible import shown_entries
 from scan.sampler.bands import Bands
 
 #: Decades below the mass function's peak that the axis ranges keep.
@@ -65,6 +66,7 @@ def f_pbh_figure(M_msun=None, f_pbh=None, total: float | None = None, *,
     if bands is not None:
         note_if_below(ax, bands.median, f"{band_label} median", POSTERIOR_COLOUR, row=1,
                       floor=bands.floor)
+    entries = shown_entries(entries, [ax])
     handles, texts = zip(*entries) if entries else ((), ())
     legend_below(fig, list(handles), labels=list(texts), title=synthetic_note(pbh_curves),
                  handler_map={tuple: OVERLAID})
