@@ -321,7 +321,8 @@ def test_run_folder_all_figures_and_corner_levels(run_folder, capsys, monkeypatc
     out = capsys.readouterr().out
     paths = printed_paths(out)
     assert sorted(p.name for p in paths if p.suffix == ".png") == [
-        "standin_corner.png", "standin_f_pbh.png", "standin_omega_gw.png"]
+        "standin_corner.png", "standin_f_pbh.png", "standin_lnp_trace.png",
+        "standin_omega_gw.png"]
     assert all(p.parent == run_folder for p in paths)
     assert_figure_files(paths, max_width_in=7.2)
     assert png_size_in(run_folder / "standin_omega_gw.png")[0] <= 3.6
@@ -331,7 +332,7 @@ def test_run_folder_all_figures_and_corner_levels(run_folder, capsys, monkeypatc
 
 def test_chain_figures_state_levels_and_band_legends(run_folder):
     inputs = Inputs(resolve(run_folder), tuple(DEMO), samples=40)
-    assert supported_kinds(inputs.sources) == ("gw", "pbh", "corner", "bands")
+    assert supported_kinds(inputs.sources) == ("gw", "pbh", "corner", "trace", "bands")
     fig = BUILDERS["corner"]["corner"](inputs)
     text = " ".join(t.get_text() for t in fig.texts)
     assert "68 % and 95 % of the 2-D posterior mass" in text and "burn-in" in text

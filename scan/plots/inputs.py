@@ -127,7 +127,9 @@ class Inputs:
             return None
         bands = posterior_bands(chain, self.samples, self.seed)
         self.notes.append(f"bands: {bands.used} of {bands.drawn} drawn samples "
-                          f"(of {bands.available} after burn-in and thinning; seed {bands.seed})")
+                          f"(of {bands.available} after burn-in and thinning; seed {bands.seed}); "
+                          f"median {bands.peak_points:g} mass points within 1 dex of a "
+                          "sample's f_PBH maximum")
         return bands
 
     @functools.cached_property
