@@ -6,12 +6,17 @@ autocorrelation time tau = (1 + rho)/(1 - rho) (a textbook result; e.g. Sokal 19
 """
 from __future__ import annotations
 
+import types
+
 import numpy as np
 import pytest
 from scipy import signal
 
+from scan.plots import inputs
+from scan.sampler import bands, runfile, summary
 from scan.sampler.convergence import (Policy, assess, burn_in, estimate_tau, settle, thinning,
                                       typical_floor)
+from scan.verify import run
 
 
 def ar1_chain(rho: np.ndarray, steps: int, walkers: int, seed: int) -> np.ndarray:
@@ -97,3 +102,21 @@ def test_settle_keeps_everything_when_nothing_can_be_judged():
     log_prob = np.full((10, 4), -np.inf)
     settled = settle(log_prob, burn=-1, dim=3)
     assert settled.burn_in == 0 and settled.kept.all() and settled.floor == -np.inf
+
+
+def test_every_chain_reader_drops_the_stray_walker(monkeypatch):
+    """posterior_samples (the one reader of summary, figures, bands and verify) applies
+    settle: the stray walker's samples never reach a summary or a figure."""
+    assert inputs.posterior_samples is bands.posterior_samples is run.posterior_samples \
+        is summary.posterior_samples
+    chain = ar1_chain(np.array([0.5, 0.5]), steps=400, walkers=8, seed=2)
+    chain[:, 5] += 8.0  # the stray
+    extras = types.SimpleNamespace(burn_in=20, thin=2, names=("a", "b"))
+    monkeypatch.setattr(runfile, "read", lambda path: types.SimpleNamespace(extras=extras))
+    monkeypatch.setattr(runfile, "load_chain", lambda path: {
+        "chain": chain, "log_prob": gaussian_log_prob(chain), "blobs": None})
+    post = summary.posterior_samples("chain.h5")
+    assert post["stray_walkers"] == 1 and post["walkers"] == 7
+    assert post["samples"].shape == ((400 - post["burn_in"] + 1) // 2 * 7, 2)
+    assert np.abs(post["samples"]).max() < 6.0  # nothing from the stray (offset 8)
+    assert post["burn_in"] >= post["burn_in_tau"] == 20

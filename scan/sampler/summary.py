@@ -65,7 +65,9 @@ def posterior_samples(path: str | Path) -> dict[str, Any]:
     dict
         ``names``, ``samples`` (n, dim), ``log_prob`` (n,), ``blobs`` (structured, n) or
         None, ``burn_in`` (effective), ``burn_in_tau`` (stored), ``thin``, ``walkers``
-        (kept, of the chain's) and ``stray_walkers`` (dropped).
+        (kept, of the chain's) and ``stray_walkers`` (dropped).  Rows are step-major:
+        ``samples.reshape(-1, walkers, dim)`` gives (draw, walker, dim) for per-walker
+        (ArviZ "chain") views.
     """
     stored = runfile.read(path)
     data = runfile.load_chain(path)
