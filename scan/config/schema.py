@@ -15,6 +15,7 @@ from scan.errors import ConfigError
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
+from scan.observables.pbh.zeta_map import NON_GAUSSIANITIES
 
 POTENTIALS = ("t_model", "e_model", "starobinsky", "monomial", "exponential", "plugin")
 KINETICS = ("canonical", "poles", "plugin")
@@ -322,6 +323,35 @@ class ObservablesSection:
                             minimum=0.0, exclusive_minimum=True)
     omega_dm_h2: float = spec("dark-matter density the PBH fraction refers to", 0.12,
                               minimum=0.0, exclusive_minimum=True)
+    non_gaussianity: str = spec("zeta = F(zeta_G) in the compaction function: gaussian, "
+                                "local (f_nl, g_nl), logarithmic (log_lambda) or model "
+                                "(delta-N on the solved model's background)", "gaussian",
+                                choices=NON_GAUSSIANITIES)
+    f_nl: float = spec("local f_NL (non_gaussianity = 'local')", 0.0)
+    g_nl: float = spec("local g_NL (non_gaussianity = 'local')", 0.0)
+    log_lambda: float = spec("lambda of zeta = -ln(1 - lambda zeta_G)/lambda "
+                             "(non_gaussianity = 'logarithmic'; 3 = ultra-slow roll ending "
+                             "abruptly, f_NL = 5 lambda/6)", 0.0)
+
+    def validate(self, where: str, source: str) -> None:
+        """Cross-field rules of the non-Gaussianity convention."""
+        kind = self.non_gaussianity
+        used = {"local": ("f_nl", "g_nl"), "logarithmic": ("log_lambda",)}.get(kind, ())
+        for key in ("f_nl", "g_nl", "log_lambda"):
+            if getattr(self, key) != 0.0 and key not in used:
+                raise ConfigError(source, f"{where}.{key}", f"is {getattr(self, key):g} but "
+                                  f"non_gaussianity = '{kind}' does not use it",
+                                  f"remove it, or set non_gaussianity = "
+                                  f"'{'logarithmic' if key == 'log_lambda' else 'local'}'")
+        if kind == "logarithmic" and self.log_lambda == 0.0:
+            raise ConfigError(source, f"{where}.log_lambda", "non_gaussianity = 'logarithmic' "
+                              "needs a non-zero log_lambda", "e.g. log_lambda = 3")
+        if kind != "gaussian" and (self.criterion != "compaction"
+                                   or self.mass_function != "critical"):
+            raise ConfigError(source, f"{where}.non_gaussianity", f"'{kind}' needs criterion "
+                              "= 'compaction' and mass_function = 'critical' (non-Gaussian "
+                              "zeta enters through the compaction function)",
+                              "set those, or non_gaussianity = 'gaussian'")
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -24,6 +24,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from scan.background import Background, solve_background
+from scan.background.pivot import exit_efold
 from scan.models import Model
 from scan.observables.pbh.zeta_map import ZetaMap
 
@@ -160,3 +161,27 @@ def _contiguous_finite(finite: np.ndarray, centre: int) -> slice:
     while hi < finite.size - 1 and finite[hi + 1]:
         hi += 1
     return slice(lo, hi + 1)
+
+
+#: E-folds after the last ultra-slow-roll window where the end slice is put (the
+#: non-attractor velocity has decayed by e^{-3 x 5} ~ 3e-7 by then).
+SETTLE_EFOLDS: float = 5.0
+
+
+def peak_map(bg: Background, k_peak: float, P_peak: float, N_star: float,
+             k_star: float) -> DeltaNResult:
+    """The delta-N map at the peak scale of a solved model.
+
+    Initial flat slice: the exit of ``k_peak`` [Mpc^-1] (located from the pivot ``k_star``
+    [Mpc^-1], which exits ``N_star`` e-folds before the end); end slice: the field value
+    the reference trajectory reaches :data:`SETTLE_EFOLDS` after the last ultra-slow-roll
+    window (or half an e-fold before the end of inflation, if earlier).  The grid spans
+    6 sqrt(``P_peak``) either side.
+    """
+    N_pivot = bg.N_end - N_star
+    N_s = exit_efold(bg, math.log(k_peak / k_star), N_pivot)
+    after = max([c.N_usr_end for c in bg.crossings] + [N_s])
+    N_f = min(after + SETTLE_EFOLDS, bg.N_end - 0.5)
+    start, end = bg.evaluate(N_s), bg.evaluate(N_f)
+    return delta_n_map(bg.model, float(start.phi[0]), float(start.dchi_dN[0]),
+                       float(end.phi[0]), N_f - N_s, math.sqrt(P_peak))
