@@ -1,10 +1,12 @@
 """Non-Gaussian compaction abundance (scan.observables.pbh.nongaussian, zeta_map)."""
 import math
 
+import h5py
 import numpy as np
 import pytest
 from scipy import integrate
 
+from scan.cli import main
 from scan.errors import ConfigError
 from scan.observables.pbh import PBHConventions, plan_pbh
 from scan.observables.pbh.nongaussian import (
@@ -104,3 +106,46 @@ def test_logarithmic_map_closed_form_and_fnl():
     x = np.array([-0.2, 0.0, 0.1, 0.3])
     np.testing.assert_allclose(zmap.value(x), -np.log1p(-3 * x) / 3, rtol=1e-15)
     assert np.isnan(zmap.slope(np.array(0.4)))
+
+
+@pytest.fixture
+def lognormal_csv(tmp_path):
+    path = tmp_path / "spectrum.csv"
+    np.savetxt(path, np.column_stack([K, _lognormal(0.006)]), delimiter=",",
+               header="k,P_zeta", comments="")
+    return path
+
+
+def test_observe_takes_the_non_gaussianity_key_and_records_it(lognormal_csv, tmp_path,
+                                                              capsys):
+    # issue 15: `zetascan observe` accepts --set observables.KEY=VALUE like solve; the
+    # result records the choice as pbh attributes and keeps the Gaussian total beside it
+    out = tmp_path / "obs.h5"
+    assert main(["observe", str(lognormal_csv), "--out", str(out), "--n-f", "16",
+                 "--n-m", "40", "--window", "top-hat", "--threshold", "0.55",
+                 "--set", "observables.non_gaussianity=local",
+                 "--set", "observables.f_nl=1.0"]) == 0
+    assert "moves f_PBH from" in capsys.readouterr().out
+    with h5py.File(out) as handle:
+        attrs = handle["pbh"].attrs
+        assert attrs["non_gaussianity"] == "local" and attrs["f_nl"] == 1.0
+        assert attrs["f_pbh_total"] > 1e3 * attrs["f_pbh_total_gaussian"] > 0
+
+
+@pytest.mark.parametrize("sets, key", [
+    (["observables.f_nl=1"], "observables.f_nl"),
+    (["observables.non_gaussianity=logarithmic"], "observables.log_lambda"),
+    (["observables.non_gaussianity=model"], "observables.non_gaussianity"),
+    (["observables.non_gaussianity=local", "observables.criterion=peaks"],
+     "observables.non_gaussianity"),
+    (["model.alpha=2"], "model.alpha"),
+])
+def test_observe_refuses_bad_combinations_with_exit_2(lognormal_csv, tmp_path, capsys, sets,
+                                                      key):
+    args = ["observe", str(lognormal_csv), "--out", str(tmp_path / "x.h5")]
+    for text in sets:
+        args += ["--set", text]
+    assert main(args) == 2
+    err = capsys.readouterr().err
+    assert key in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "x.h5").exists()
