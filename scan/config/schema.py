@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from scan.config.analysis import GridSection, LikelihoodSection
 from scan.config.spec import spec
 from scan.errors import ConfigError
+from scan.observables.gstar import TABLES as GSTAR_TABLES
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
@@ -305,7 +306,11 @@ class ObservablesSection:
     n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8)
     n_eff: float = spec("N_eff today (radiation density, g_* today)", 3.044, minimum=0.0)
     gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s "
-                            "(default: our Standard-Model computation)", "")
+                            "(replaces the built-in table named by gstar)", "")
+    gstar: str = spec("built-in g_*(T) table: the published lattice-based table of Saikawa "
+                      "& Shirai 2018, or ideal-gas (our Standard-Model computation, the "
+                      "default before issue 15)", "saikawa-shirai-2018",
+                      choices=tuple(GSTAR_TABLES))
     window: str = spec("smoothing window of the density variance (thresholds are "
                        "window-specific)", "gaussian", choices=PBH_WINDOWS)
     criterion: str = spec("collapse criterion", "compaction", choices=PBH_CRITERIA)

@@ -27,7 +27,7 @@ class ObservableSettings:
     conventions : PBHConventions
         Window, criterion, threshold, critical collapse, Ω_DM h².
     dof : gstar.DofTable or None
-        A user's g_*(T) table (None: the built-in Standard Model).
+        The g_*(T) table: a user's file, or the built-in table named by ``gstar``.
     n_eff : float
         N_eff today.
     n_f, n_m : int
@@ -67,7 +67,8 @@ def conventions_of(section: ObservablesSection) -> PBHConventions:
 
 def settings_of(section: ObservablesSection) -> ObservableSettings:
     """The settings of an ``[observables]`` section (reads its g_* table file, if any)."""
-    dof = gstar.load_table(section.gstar_table) if section.gstar_table else None
+    dof = gstar.load_table(section.gstar_table) if section.gstar_table \
+        else gstar.TABLES[section.gstar]()
     kind = section.non_gaussianity
     zmap = None if kind == "model" else zeta_map_of(kind, f_nl=section.f_nl,
                                                     g_nl=section.g_nl,
