@@ -30,7 +30,7 @@ def test_default_is_the_saikawa_shirai_table_at_its_rows():
 
 @pytest.mark.parametrize("T", [0.1, 0.2, 0.5, 1.0])
 def test_round_temperatures_lie_within_two_percent_of_the_table(T):
-    (t0, r0, s0), (t1, r1, s1) = NEIGHBOURS[T]
+    (_, r0, s0), (_, r1, s1) = NEIGHBOURS[T]
     table = gstar.default_table()
     for got, lo, hi in ((table.rho(T), r0, r1), (table.s(T), s0, s1)):
         assert min(lo, hi) * 0.98 <= float(got) <= max(lo, hi) * 1.02
