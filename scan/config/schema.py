@@ -15,6 +15,7 @@ from scan.errors import ConfigError
 from scan.observables.gstar import TABLES as GSTAR_TABLES
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
+from scan.observables.pbh.qcd import QCD_THRESHOLDS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
 from scan.observables.pbh.zeta_map import NON_GAUSSIANITIES
 
@@ -338,8 +339,13 @@ class ObservablesSection:
                              "(non_gaussianity = 'logarithmic'; 3 = ultra-slow roll ending "
                              "abruptly, f_NL = 5 lambda/6)", 0.0)
 
+    qcd_threshold: str = spec("collapse threshold across the QCD crossover: off (one "
+                              "threshold) or harada-scaled (C_th times delta_c(w(T))/"
+                              "delta_c(1/3), w from the g_* table; opt-in)", "off",
+                              choices=QCD_THRESHOLDS)
+
     def validate(self, where: str, source: str) -> None:
-        """Cross-field rules of the non-Gaussianity convention."""
+        """Cross-field rules of the non-Gaussianity and QCD-threshold conventions."""
         kind = self.non_gaussianity
         used = {"local": ("f_nl", "g_nl"), "logarithmic": ("log_lambda",)}.get(kind, ())
         for key in ("f_nl", "g_nl", "log_lambda"):
@@ -351,12 +357,13 @@ class ObservablesSection:
         if kind == "logarithmic" and self.log_lambda == 0.0:
             raise ConfigError(source, f"{where}.log_lambda", "non_gaussianity = 'logarithmic' "
                               "needs a non-zero log_lambda", "e.g. log_lambda = 3")
-        if kind != "gaussian" and (self.criterion != "compaction"
-                                   or self.mass_function != "critical"):
-            raise ConfigError(source, f"{where}.non_gaussianity", f"'{kind}' needs criterion "
-                              "= 'compaction' and mass_function = 'critical' (non-Gaussian "
-                              "zeta enters through the compaction function)",
-                              "set those, or non_gaussianity = 'gaussian'")
+        for key, on in (("non_gaussianity", kind != "gaussian"),
+                        ("qcd_threshold", self.qcd_threshold != "off")):
+            if on and (self.criterion, self.mass_function) != ("compaction", "critical"):
+                raise ConfigError(source, f"{where}.{key}", f"'{getattr(self, key)}' needs "
+                                  "criterion = 'compaction' and mass_function = 'critical' "
+                                  "(it enters through the compaction function)",
+                                  f"set those, or the default {key}")
 
 
 @dataclass(frozen=True, kw_only=True)

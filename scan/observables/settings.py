@@ -36,6 +36,8 @@ class ObservableSettings:
         ``[observables] non_gaussianity``.
     zeta_map : ZetaMap or None
         The analytic zeta = F(zeta_G) (None for ``model``: the solve computes it).
+    qcd_threshold : str
+        ``[observables] qcd_threshold``.
     """
 
     conventions: PBHConventions
@@ -45,6 +47,7 @@ class ObservableSettings:
     n_m: int
     non_gaussianity: str = "gaussian"
     zeta_map: ZetaMap | None = None
+    qcd_threshold: str = "off"
 
     def compute(self, k: np.ndarray, P_zeta: np.ndarray,
                 zeta_map: ZetaMap | None = None) -> Observables:
@@ -54,7 +57,8 @@ class ObservableSettings:
         """
         return compute_observables(k, P_zeta, conventions=self.conventions, n_f=self.n_f,
                                    n_m=self.n_m, dof=self.dof, n_eff=self.n_eff,
-                                   zeta_map=zeta_map or self.zeta_map)
+                                   zeta_map=zeta_map or self.zeta_map,
+                                   qcd_threshold=self.qcd_threshold)
 
 
 def conventions_of(section: ObservablesSection) -> PBHConventions:
@@ -74,4 +78,4 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
                                                     g_nl=section.g_nl,
                                                     log_lambda=section.log_lambda)
     return ObservableSettings(conventions_of(section), dof, section.n_eff, section.n_f,
-                              section.n_m, kind, zmap)
+                              section.n_m, kind, zmap, section.qcd_threshold)

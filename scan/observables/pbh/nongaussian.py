@@ -40,10 +40,10 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from scan.errors import ConfigError
-from scan.observables.pbh.abundance import _GL_W, _GL_Z, _relation, critical_kernel
+from scan.observables.pbh.abundance import _GL_W, _GL_Z, critical_kernel
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.plan import PBHPlan, PBHResult
-from scan.observables.pbh.thresholds import C_L_MAX
+from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
 from scan.observables.pbh.variance import lnk_weights, transfer_rd, window
 from scan.observables.pbh.zeta_map import ZetaMap
 
@@ -134,9 +134,10 @@ def _zeta_nodes(mean, s, s_r, domain: tuple[float, float]):
     return np.concatenate(parts, axis=-1), np.concatenate(weights, axis=-1)
 
 
-def _y_nodes(y_th: float, sigma: np.ndarray, gamma_c: float):
-    """Nodes and weights in y = C_l per epoch: beta_weighted's, then the tail panels."""
-    span = np.minimum(C_L_MAX - y_th, 14 * sigma + 1e-300)[:, None]
+def _y_nodes(y_th: np.ndarray, sigma: np.ndarray, gamma_c: float):
+    """Nodes and weights in y = C_l per epoch (``y_th`` shape (n, 1)): beta_weighted's,
+    then the tail panels."""
+    span = np.minimum(C_L_MAX - y_th, 14 * sigma[:, None] + 1e-300)
     z = _GL_Z[None, :]
     y = y_th + span * z**(1 / gamma_c)
     dy = span * z**(1 / gamma_c - 1) / gamma_c * _GL_W
@@ -157,15 +158,20 @@ class NonGaussianPlan:
     v_cr: np.ndarray
     v_r: np.ndarray
 
-    def evaluate(self, P_zeta, zmap: ZetaMap) -> PBHResult:
-        """f_PBH(M) per ln M [1] and the total for one spectrum ``P_zeta`` [1] on ``k_in``."""
+    def evaluate(self, P_zeta, zmap: ZetaMap, thresholds=None) -> PBHResult:
+        """f_PBH(M) per ln M [1] and the total for one spectrum ``P_zeta`` [1] on ``k_in``.
+
+        ``thresholds`` [1]: C_th per formation epoch (default: the conventions' one).
+        """
         plan, conv = self.base, self.base.conventions
         P = np.asarray(P_zeta, dtype=float)
         s_c2, _ = plan.sigma2(P)
         s_c2 = np.maximum(s_c2, 1e-300)
         s_cr, s_r2 = self.v_cr @ P, self.v_r @ P
-        y, weight, _ = critical_kernel(plan.M, plan.M_H, conv)
-        y_th, _ = _relation(conv)
+        c_th = np.full(plan.M_H.size, conv.threshold) if thresholds is None \
+            else np.asarray(thresholds, dtype=float)
+        y, weight, _ = critical_kernel(plan.M, plan.M_H, conv, c_th)
+        y_th = compaction_linear(c_th)
         on = live_epochs(y_th, s_c2, s_r2, zmap)
         epoch = np.where(on, plan._wln * plan._coef, 0.0)
         live = (weight != 0) & on[None, :]
@@ -175,8 +181,8 @@ class NonGaussianPlan:
                                         conv.ps_factor)
         with np.errstate(invalid="ignore"):
             f = np.where(live, weight * dens, 0.0) @ epoch
-        yn, dyn = _y_nodes(y_th, np.sqrt(s_c2[on]), conv.gamma_c)
-        excess = np.clip(yn - 0.375 * yn * yn - conv.threshold, 0.0, None)
+        yn, dyn = _y_nodes(y_th[on, None], np.sqrt(s_c2[on]), conv.gamma_c)
+        excess = np.clip(yn - 0.375 * yn * yn - c_th[on, None], 0.0, None)
         g = compaction_density(yn, s_c2[on, None], s_cr[on, None], s_r2[on, None], zmap,
                                conv.ps_factor)
         beta = np.zeros_like(s_c2)
@@ -184,7 +190,7 @@ class NonGaussianPlan:
         return PBHResult(plan.M, f, float(epoch @ beta), plan.M_H, s_c2, conv)
 
 
-def live_epochs(y_th: float, s_c2: np.ndarray, s_r2: np.ndarray, zmap: ZetaMap) -> np.ndarray:
+def live_epochs(y_th, s_c2: np.ndarray, s_r2: np.ndarray, zmap: ZetaMap) -> np.ndarray:
     """Epochs whose density of C_l can be non-zero in double precision above ``y_th``.
 
     Within |zeta_G| <= 12 sigma_r (the integration range) C_l = C_G F' exceeds y_th only
@@ -198,15 +204,19 @@ def live_epochs(y_th: float, s_c2: np.ndarray, s_r2: np.ndarray, zmap: ZetaMap) 
     return ~(nu >= 39.0)
 
 
-def check_conventions(conv: PBHConventions, zmap: ZetaMap) -> None:
-    """Refuse a non-Gaussian map with a criterion or mass function it does not support."""
-    if zmap.is_gaussian:
+def check_conventions(conv: PBHConventions, zmap: ZetaMap, qcd_threshold: str = "off") -> None:
+    """Refuse a non-Gaussian map or an epoch-dependent threshold with a criterion or mass
+    function this integral does not support."""
+    if zmap.is_gaussian and qcd_threshold == "off":
         return
     if conv.criterion != "compaction" or conv.mass_function != "critical":
-        raise ConfigError("[observables]", "non_gaussianity",
-                          f"'{zmap.kind}' needs criterion = 'compaction' and mass_function = "
+        what = f"non_gaussianity = '{zmap.kind}'" if not zmap.is_gaussian \
+            else f"qcd_threshold = '{qcd_threshold}'"
+        raise ConfigError("[observables]", "non_gaussianity" if not zmap.is_gaussian
+                          else "qcd_threshold",
+                          f"{what} needs criterion = 'compaction' and mass_function = "
                           f"'critical' (got '{conv.criterion}', '{conv.mass_function}')",
-                          "non-Gaussian zeta enters through the compaction function")
+                          "both enter through the compaction function")
 
 
 def plan_nongaussian(plan: PBHPlan, n_formation: int) -> NonGaussianPlan:
