@@ -91,7 +91,7 @@ def _name(term) -> str:
 def _nowhere_text(grid: GridData, excluding, sensitivities) -> str | None:
     """Legend title naming constraints without excluded and sensitivities without
     detectable points (they have nothing drawn, so no legend entry)."""
-    lines = []
+    lines = ["ticks on an outline point into the region it rules out"] if excluding else []
     quiet = [_name(t) for t in grid.terms if t.kind in EXCLUDING_KINDS and t not in excluding]
     if quiet:
         lines.append("excluding no grid point: " + ", ".join(quiet))
