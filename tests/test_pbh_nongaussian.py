@@ -149,3 +149,11 @@ def test_observe_refuses_bad_combinations_with_exit_2(lognormal_csv, tmp_path, c
     err = capsys.readouterr().err
     assert key in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
     assert not (tmp_path / "x.h5").exists()
+
+
+def test_no_live_epoch_gives_exactly_zero():
+    # a spectrum far too small to form anything: every epoch is skipped, f_PBH = 0
+    conv = PBHConventions(window="top-hat", threshold=0.55)
+    plan = plan_nongaussian(plan_pbh(K, M, conv, n_formation=64), 64)
+    res = plan.evaluate(_lognormal(1e-6), zeta_map_of("local", f_nl=1.0))
+    assert res.f_pbh_total == 0.0 and not res.f_pbh.any()

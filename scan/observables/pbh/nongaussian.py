@@ -181,12 +181,13 @@ class NonGaussianPlan:
                                         conv.ps_factor)
         with np.errstate(invalid="ignore"):
             f = np.where(live, weight * dens, 0.0) @ epoch
-        yn, dyn = _y_nodes(y_th[on, None], np.sqrt(s_c2[on]), conv.gamma_c)
-        excess = np.clip(yn - 0.375 * yn * yn - c_th[on, None], 0.0, None)
-        g = compaction_density(yn, s_c2[on, None], s_cr[on, None], s_r2[on, None], zmap,
-                               conv.ps_factor)
         beta = np.zeros_like(s_c2)
-        beta[on] = np.sum(conv.K * excess**conv.gamma_c * g * dyn, axis=1)
+        if on.any():
+            yn, dyn = _y_nodes(y_th[on, None], np.sqrt(s_c2[on]), conv.gamma_c)
+            excess = np.clip(yn - 0.375 * yn * yn - c_th[on, None], 0.0, None)
+            g = compaction_density(yn, s_c2[on, None], s_cr[on, None], s_r2[on, None],
+                                   zmap, conv.ps_factor)
+            beta[on] = np.sum(conv.K * excess**conv.gamma_c * g * dyn, axis=1)
         return PBHResult(plan.M, f, float(epoch @ beta), plan.M_H, s_c2, conv)
 
 
