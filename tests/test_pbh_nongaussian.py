@@ -7,6 +7,7 @@ import pytest
 from scipy import integrate
 
 from scan.cli import main
+from scan.config.schema import ObservablesSection
 from scan.errors import ConfigError
 from scan.observables.pbh import PBHConventions, plan_pbh
 from scan.observables.pbh.nongaussian import (
@@ -15,6 +16,7 @@ from scan.observables.pbh.nongaussian import (
     plan_nongaussian,
 )
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
+from scan.observables.settings import require_gaussian_batch
 
 K = np.geomspace(1e5, 1e8, 300)
 M = np.geomspace(1e-2, 1e3, 60)
@@ -157,3 +159,15 @@ def test_no_live_epoch_gives_exactly_zero():
     plan = plan_nongaussian(plan_pbh(K, M, conv, n_formation=64), 64)
     res = plan.evaluate(_lognormal(1e-6), zeta_map_of("local", f_nl=1.0))
     assert res.f_pbh_total == 0.0 and not res.f_pbh.any()
+
+
+@pytest.mark.parametrize("changes, key", [
+    ({"non_gaussianity": "local", "f_nl": 1.0}, "observables.non_gaussianity"),
+    ({"qcd_threshold": "harada-scaled"}, "observables.qcd_threshold"),
+])
+def test_sampler_paths_refuse_conventions_they_do_not_compute(changes, key):
+    # sample/grid/verify evaluate f_PBH with Gaussian zeta and one threshold: they must
+    # stop instead of silently ignoring the convention
+    with pytest.raises(ConfigError, match=key):
+        require_gaussian_batch(ObservablesSection(**changes), "run.toml")
+    require_gaussian_batch(ObservablesSection(), "run.toml")
