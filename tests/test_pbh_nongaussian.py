@@ -1,4 +1,5 @@
 """Non-Gaussian compaction abundance (scan.observables.pbh.nongaussian, zeta_map)."""
+import itertools
 import math
 
 import h5py
@@ -198,6 +199,6 @@ def test_density_resolves_the_ridge_at_the_logarithmic_edge(log_lambda):
     cuts = np.sort(cuts)
     for c in (0.7, 1.0, 1.3):
         ref = sum(integrate.quad(f, a, b, args=(c,), epsabs=0, epsrel=1e-10, limit=200)[0]
-                  for a, b in zip(cuts[:-1], cuts[1:]))
+                  for a, b in itertools.pairwise(cuts))
         ours = float(compaction_density(np.array(c), s_c2, s_cr, s_r2, zmap))
         assert ours == pytest.approx(ref, rel=1e-4)
