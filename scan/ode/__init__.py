@@ -14,10 +14,10 @@ scipy 1.17 ``DOP853``): the same Butcher tableau (read from scipy), the same err
 (the 5th/3rd-order blend), step-size control and first-step choice, so a compiled solve
 follows the steps scipy would take and its results agree to rounding.
 """
-from scan.ode.dop853 import (INTERPOLATOR_POWER, N_STAGES, N_STAGES_EXTENDED, dense_coefficients,
-                             dense_value, error_norm, first_step, first_trial, min_step,
-                             next_step_size, stage_state, stage_time, step_update)
+from scan.ode.dop853 import (TABLEAU, dense_coefficients, dense_value, error_norm, first_step,
+                             first_trial, min_step, next_step_size, sizes, stage_state,
+                             stage_time, step_update)
 
-__all__ = ["INTERPOLATOR_POWER", "N_STAGES", "N_STAGES_EXTENDED", "dense_coefficients",
-           "dense_value", "error_norm", "first_step", "first_trial", "min_step",
-           "next_step_size", "stage_state", "stage_time", "step_update"]
+__all__ = ["TABLEAU", "dense_coefficients", "dense_value", "error_norm", "first_step",
+           "first_trial", "min_step", "next_step_size", "sizes", "stage_state", "stage_time",
+           "step_update"]
