@@ -27,7 +27,7 @@ def kernel_value(u: float, v: float) -> float:
     arXiv:1804.08577, Eq. 29; Espinosa, Racco & Riotto 2018, arXiv:1804.07732)."""
     a = u * u + v * v - 3.0
     g = (4.0 * v * v - (1.0 + v * v - u * u) ** 2) / (4.0 * u * v)
-    p = 3.0 * a / (4.0 * u ** 3 * v ** 3)
+    p = 3.0 * a / (4.0 * (u * u * u) * (v * v * v))
     log = math.log(abs((3.0 - (u + v) ** 2) / (3.0 - (u - v) ** 2)))
     brace = (-4.0 * u * v + a * log) ** 2
     if u + v > _SQRT3:
@@ -160,3 +160,18 @@ def kernel_array(u, v):
     for i in range(u.size):
         out[i] = kernel_value(u[i], v[i])
     return out
+
+
+@njit(cache=True)
+def interpolation_entries(iu, fu, iv, fv):
+    """Columns and values of the sparse map ln P (table) -> ln P(ku) + ln P(kv), four a
+    node in the order (iu, iu + 1, iv, iv + 1) with linear weights in ln k."""
+    n = iu.size
+    cols = np.empty(4 * n, np.int32)
+    vals = np.empty(4 * n)
+    for j in range(n):
+        cols[4 * j], cols[4 * j + 1] = iu[j], iu[j] + 1
+        cols[4 * j + 2], cols[4 * j + 3] = iv[j], iv[j] + 1
+        vals[4 * j], vals[4 * j + 1] = 1.0 - fu[j], fu[j]
+        vals[4 * j + 2], vals[4 * j + 3] = 1.0 - fv[j], fv[j]
+    return cols, vals
