@@ -98,6 +98,16 @@ def _s_count(a: float, b: float, h: float, v_floor: float) -> int:
     return int(min(48, max(1, math.ceil(spread / (2.0 * h)))))
 
 
+@njit(cache=True)
+def _walk(table, x: float, i: int, last: int) -> int:
+    """Interval of x in the sorted ``table`` (clipped to [0, last]), walking from i."""
+    while i < last and table[i + 1] <= x:
+        i += 1
+    while i > 0 and table[i] > x:
+        i -= 1
+    return i
+
+
 @njit(cache=True, error_model="numpy")
 def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
     """Nodes of one output k inside the table, located in it.
@@ -125,7 +135,7 @@ def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
     iv = np.empty(total, np.int32)
     fu, fv, w = np.empty(total), np.empty(total), np.empty(total)
     last = lnk_in.size - 2
-    n = 0
+    n, i, j = 0, 0, 0  # i, j: the table intervals of the previous node (walks start there)
     for p in range(edges.size - 1):
         a, b = edges[p], edges[p + 1]
         n_s = _s_count(a, b, h, v_floor)
@@ -144,8 +154,8 @@ def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
                     wk = tw * ((s1 - s0) * wg[ks]) * kernel_value(u, v)
                     if not (math.isfinite(wk) and wk != 0.0):
                         continue
-                    i = min(max(np.searchsorted(lnk_in, lu, side="right") - 1, 0), last)
-                    j = min(max(np.searchsorted(lnk_in, lv, side="right") - 1, 0), last)
+                    i = _walk(lnk_in, lu, i, last)
+                    j = _walk(lnk_in, lv, j, last)
                     iu[n], iv[n], w[n] = i, j, wk
                     fu[n] = (lu - lnk_in[i]) / (lnk_in[i + 1] - lnk_in[i])
                     fv[n] = (lv - lnk_in[j]) / (lnk_in[j + 1] - lnk_in[j])
