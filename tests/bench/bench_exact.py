@@ -36,6 +36,16 @@ more than the totals):
     f_PBH (plan_pbh)                          0.08      0.09      0.03      0.03
     total                                    72.57     15.48     19.38     16.63
 
+Measured (3 alternating repeats each, medians; 2 cores shared with ~7 other jobs, load
+average 12-17, so every time is inflated several-fold and the ratios carry the result):
+
+    commit    p = 0.5   p = 1.0   p = 1.5   p = 1.9
+    3e316c7     35.6      15.8      14.0      16.8
+    b6b1925     26.1      11.9      15.9      16.1
+    a880cbe     32.1      16.0      12.7      16.0
+
+P_peak, k_peak and n_s agreed with the reference to ≤ 5.3e-7, 3.6e-7 and 2.2e-11.
+
 Everything in the reference's hot path is scipy's Python step loop (~12 right-hand-side
 calls a step, each a few numpy calls) and Python loops over quadrature panels; the
 working tree runs the same algorithms as compiled loops (``scan.ode``,
