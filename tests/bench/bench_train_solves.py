@@ -10,6 +10,10 @@ worker first solves one point untimed (spawn, imports, numba's on-disk cache); t
 wall time of all points is measured and the time of a 1,000-point training's solves is
 extrapolated linearly (the fit and refinement rounds are not included).  Invalid points
 (the box's stall region) are solved too, as in training, and counted.
+
+Measured once (commit d873270, pole_scan.toml, 8 points, 2 processes, on 2 cores shared
+with ~7 other jobs at load average ~14, while bench_exact ran): 0.92 solves/s, i.e.
+~18 min for 1,000 training solves under that load; an unloaded machine was not available.
 """
 from __future__ import annotations
 
