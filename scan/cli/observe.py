@@ -18,7 +18,8 @@ import h5py
 import numpy as np
 
 from scan import store
-from scan.errors import InputFileError
+from scan.config.schema import N_GRID_MAX
+from scan.errors import ConfigError, InputFileError
 from scan.observables import Observables, compute_observables, cosmo, gstar
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
 from scan.pipeline.result_file import write_observables
@@ -170,6 +171,14 @@ def _conventions(args) -> PBHConventions:
                           ps_factor=args.ps_factor, omega_dm_h2=args.omega_dm_h2)
 
 
+def check_grid_sizes(args) -> None:
+    """--n-f and --n-m within [8, N_GRID_MAX] (memory grows with them)."""
+    for option, value in (("--n-f", args.n_f), ("--n-m", args.n_m)):
+        if not 8 <= value <= N_GRID_MAX:
+            raise ConfigError("command line", option, f"{value} is outside [8, {N_GRID_MAX}]",
+                              f"give {option} between 8 and {N_GRID_MAX}")
+
+
 def compute(k, P, args) -> Observables:
     """Both observables of the table (k, P) with the command line's conventions."""
     dof = gstar.load_table(args.gstar_table) if args.gstar_table else None
@@ -188,6 +197,7 @@ def write_result(out: Path, source: str, obs: Observables, options: dict) -> Non
 def run(args: argparse.Namespace) -> int:
     """Compute both observables, write the HDF5 file (and figures); exit code."""
     source = str(args.spectrum)
+    check_grid_sizes(args)
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
     k, P = load_spectrum(source)

@@ -14,6 +14,65 @@ from scan.observables import cosmo, sigw
 from scan.observables.pbh import PBHConventions, plan_pbh
 from scan.observables.record import Observables, peak_of
 
+#: Budget of n_f x table rows [1]: the induced-GW quadrature's memory grows in proportion
+#: (measured with ``zetascan observe``: ~0.55 MiB per row at n_f = 200, on top of ~150 MiB
+#: of libraries), so 160000 (800 rows at the default 200 frequencies) keeps a run near
+#: 0.6 GiB.  Longer tables are resampled (:func:`resample_table`).
+ROW_BUDGET = 160_000
+#: Fewest and most rows a table is resampled to [1] (the PBH plan's memory grows as
+#: n_m x rows whatever n_f is: 20000 rows at n_m = 1000 took 1.3 GiB).
+MIN_RESAMPLED_ROWS, MAX_TABLE_ROWS = 64, 800
+
+
+def max_table_rows(n_f: int) -> int:
+    """Most table rows the observables use with ``n_f`` frequencies (longer: resampled)."""
+    return int(np.clip(ROW_BUDGET // max(int(n_f), 1), MIN_RESAMPLED_ROWS, MAX_TABLE_ROWS))
+
+
+def _log_interp(k_new: np.ndarray, k: np.ndarray, P: np.ndarray) -> np.ndarray:
+    """P at ``k_new`` interpolated linearly in (ln k, ln P), as the observables read a
+    table (0 between a zero and its neighbour, 0 outside)."""
+    lnk = np.log(k)
+    x = np.log(k_new)
+    i = np.clip(np.searchsorted(lnk, x, side="right") - 1, 0, lnk.size - 2)
+    t = (x - lnk[i]) / (lnk[i + 1] - lnk[i])
+    p0, p1 = P[i], P[i + 1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = np.exp((1.0 - t) * np.log(p0) + t * np.log(p1))
+    out = np.clip(out, np.minimum(p0, p1), np.maximum(p0, p1))  # rounding of exp(log)
+    out = np.where((p0 > 0) & (p1 > 0), out, np.where(t == 0.0, p0, np.where(t == 1.0, p1, 0.0)))
+    return np.where((x < lnk[0]) | (x > lnk[-1]), 0.0, out)
+
+
+def resample_table(k: np.ndarray, P_zeta: np.ndarray, max_rows: int
+                   ) -> tuple[np.ndarray, np.ndarray, str]:
+    """A table of at most ``max_rows`` rows log-spaced over the same range, the peak kept.
+
+    Returns
+    -------
+    k [Mpc^-1], P_zeta [1], note : the resampled table and a note saying so, with the
+        largest relative change of P_zeta at the given rows above 1e-3 of its maximum
+        (both read as log-interpolated tables); the inputs unchanged and "" when the
+        table is short enough.
+    """
+    if k.size <= max_rows:
+        return k, P_zeta, ""
+    peak = int(np.argmax(P_zeta))
+    k_new = np.union1d(np.geomspace(k[0], k[-1], max_rows - 1), k[[0, peak, -1]])
+    P_new = _log_interp(k_new, k, P_zeta)
+    at = np.minimum(np.searchsorted(k, k_new), k.size - 1)
+    given = k[at] == k_new
+    P_new[given] = P_zeta[at[given]]  # nodes that are rows keep their values exactly
+    top = float(P_zeta[peak])
+    live = P_zeta > 1e-3 * top if top > 0 else np.zeros(k.size, bool)
+    change = np.abs(_log_interp(k[live], k_new, P_new) / P_zeta[live] - 1.0)
+    worst = float(change.max()) if change.size else 0.0
+    note = (f"the table's {k.size} rows were resampled onto {k_new.size} log-spaced "
+            f"wavenumbers (memory grows with n_f x rows; at most {max_rows} rows with this "
+            f"n_f): P_zeta changes by up to {worst:.2%} at the given rows above 1e-3 of "
+            "its maximum; pass a coarser table to choose the nodes yourself")
+    return k_new, P_new, note
+
 
 def frequency_grid(k: np.ndarray, n_f: int) -> np.ndarray:
     """Log-spaced frequencies [Hz] from the table's first k to twice its last k."""
@@ -34,6 +93,9 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                         n_m: int = 200, dof=None,
                         n_eff: float = cosmo.N_EFF_DEFAULT) -> Observables:
     """Ω_GW h²(f) and f_PBH(M) of a tabulated spectrum.
+
+    A table longer than :func:`max_table_rows` is resampled first (:func:`resample_table`;
+    the returned notes say so), so memory stays bounded whatever the input's length.
 
     Parameters
     ----------
@@ -59,6 +121,7 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         sigw.check_spectrum(P_zeta)
+    k, P_zeta, resampled = resample_table(k, P_zeta, max_table_rows(n_f))
     f = frequency_grid(k, n_f)
     omega = sigw.plan_sigw(k, f_out=f, dof=dof, n_eff=n_eff).omega_gw_h2(P_zeta)
     M = mass_grid(k, conventions, n_m, dof, n_eff)
@@ -67,4 +130,5 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     return Observables(f_hz=f, omega_gw_h2=omega, m_msun=pbh.M, f_pbh_per_lnm=pbh.f_pbh,
                        f_pbh_total=pbh.f_pbh_total, f_gw_peak=f_peak,
                        omega_gw_h2_peak=omega_peak, conventions=pbh.conventions,
-                       notes=tuple(str(w.message) for w in caught))
+                       notes=tuple(str(w.message) for w in caught)
+                       + ((resampled,) if resampled else ()))
