@@ -38,7 +38,8 @@ class RunSection:
     name: str = spec("run name; results go to <output_dir>/<name>.h5 (default: the config "
                      "file's stem)", "run")
     output_dir: str = spec("folder for results, relative to the working directory", "results")
-    seed: int = spec("seed of every random number generator in the run", 0, minimum=0)
+    seed: int = spec("seed of every random number generator in the run (0 to 2**32 - 1, "
+                     "the range emcee's generator takes)", 0, minimum=0, maximum=2**32 - 1)
 
 
 @dataclass(frozen=True, kw_only=True)
