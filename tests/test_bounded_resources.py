@@ -74,3 +74,18 @@ def test_config_grid_sizes_and_x_in_are_bounded(tmp_path, capsys, override, key)
     assert main(["solve", str(cfg), "--set", override, "--no-figures"]) == 2
     (line,) = capsys.readouterr().err.strip().splitlines()
     assert key in line
+
+
+def test_non_perturbative_spectra_are_flagged():
+    """P_zeta above 0.1 (quantum diffusion, inflation.md sect. 5.5) and f_PBH above 1 are
+    said in the notes (the issue's case: P_zeta up to 7.6e7 gave f_PBH = 1.2e20 silently)."""
+    k, P = synthetic(60)
+    big = compute_observables(k, P * 7.6e7 / P.max(), n_f=16, n_m=16)
+    assert big.f_pbh_total > 1
+    assert any("beyond perturbation theory" in n for n in big.notes)
+    assert any("more black holes than dark matter" in n for n in big.notes)
+    fine = compute_observables(k, P * 1e-4, n_f=16, n_m=16)
+    assert not any("perturbation" in n or "dark matter" in n for n in fine.notes)
+    assert single.physics_notes(0.05, 2.0) == (
+        "f_PBH total = 2 > 1: more black holes than dark matter; this spectrum is excluded, "
+        "the number itself means nothing",)

@@ -203,6 +203,10 @@ def run(args: argparse.Namespace) -> int:
     k, P = load_spectrum(source)
     store.check_output_file(out, "observables file")
     obs = compute(k, P, args)
+    if not math.isfinite(obs.f_pbh_total):
+        raise InputFileError(source, f"f_PBH is not finite (P_zeta reaches {P.max():.3g}): "
+                             "the spectrum is far beyond perturbation theory; check that "
+                             "P_zeta is the dimensionless power spectrum")
     write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
                                                      if not k_.startswith("_")})
     for note in obs.notes:
@@ -214,4 +218,4 @@ def run(args: argparse.Namespace) -> int:
         paths += pbh_plot.save_f_pbh(obs.m_msun, obs.f_pbh_per_lnm,
                                      Path(args.figures) / "f_pbh", total=obs.f_pbh_total)
         print("figures: " + ", ".join(str(p) for p in paths))
-    return 0 if math.isfinite(obs.f_pbh_total) else 1
+    return 0

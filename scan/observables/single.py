@@ -14,6 +14,12 @@ from scan.observables import cosmo, sigw
 from scan.observables.pbh import PBHConventions, plan_pbh
 from scan.observables.record import Observables, peak_of
 
+#: P_zeta above which the classical, perturbative treatment fails [1]: quantum diffusion
+#: dominates once P_zeta ≳ O(0.1–1) (shared/physics/inflation.md sect. 5.5; Pattison,
+#: Vennin, Assadullahi & Wands 2017, arXiv:1707.00537, from memory); the default of
+#: ``modes.stochastic_limit``.
+PERTURBATIVE_LIMIT = 0.1
+
 #: Budget of n_f x table rows [1]: the induced-GW quadrature's memory grows in proportion
 #: (measured with ``zetascan observe``: ~0.55 MiB per row at n_f = 200, on top of ~150 MiB
 #: of libraries), so 160000 (800 rows at the default 200 frequencies) keeps a run near
@@ -127,8 +133,22 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     M = mass_grid(k, conventions, n_m, dof, n_eff)
     pbh = plan_pbh(k, M, conventions, dof=dof, n_eff=n_eff).evaluate(P_zeta)
     f_peak, omega_peak = peak_of(f, omega)
+    warnings_ = physics_notes(float(np.max(P_zeta)), float(pbh.f_pbh_total))
     return Observables(f_hz=f, omega_gw_h2=omega, m_msun=pbh.M, f_pbh_per_lnm=pbh.f_pbh,
                        f_pbh_total=pbh.f_pbh_total, f_gw_peak=f_peak,
                        omega_gw_h2_peak=omega_peak, conventions=pbh.conventions,
                        notes=tuple(str(w.message) for w in caught)
-                       + ((resampled,) if resampled else ()))
+                       + ((resampled,) if resampled else ()) + warnings_)
+
+
+def physics_notes(P_max: float, f_pbh_total: float) -> tuple[str, ...]:
+    """Where the numbers mislead: a spectrum beyond perturbativity, f_PBH above 1."""
+    notes = []
+    if P_max > PERTURBATIVE_LIMIT:
+        notes.append(f"P_zeta reaches {P_max:.3g} > {PERTURBATIVE_LIMIT:g}: beyond perturbation "
+                     "theory (quantum diffusion dominates); Omega_GW and f_PBH computed from "
+                     "it are not physical")
+    if f_pbh_total > 1.0:
+        notes.append(f"f_PBH total = {f_pbh_total:.3g} > 1: more black holes than dark "
+                     "matter; this spectrum is excluded, the number itself means nothing")
+    return tuple(notes)
