@@ -242,6 +242,11 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
         except _Exhausted:
             why = f"more than {max_rhs_calls} right-hand-side calls (stalled near N = {N0:.6g})"
             break
+        except (ZeroDivisionError, OverflowError, FloatingPointError) as err:
+            # e.g. V = 0 exactly, or cosh overflowing in a pole chart: the model, not a bug
+            why = (f"non-finite values in the right-hand side after N = {N0:.6g} "
+                   f"({type(err).__name__}: {err})")
+            break
         if sol.status < 0 or not np.all(np.isfinite(sol.y)):
             why = f"non-finite values or integrator failure after N = {N0:.6g}: {sol.message}"
             break
