@@ -211,8 +211,6 @@ def plugin_K_p05(phi):
     (dict(model=Model("plugin", potential_function="test_background:plugin_V_nan"),
           phi_start=6.0), "non-finite"),
     (dict(model=T_P05, max_rhs_calls=500), "right-hand-side calls"),
-    (dict(model=Model("t_model", kinetic="poles", poles=(Pole(5.0, 1e-4, 1.9),))),
-     "non-finite"),  # cosh overflows in the pole chart (issue 19: OverflowError)
     (dict(model=T_P05, max_restarts=0), "restarts"),
 ])
 def test_invalid_models_are_values(kwargs, match):

@@ -19,8 +19,8 @@ import numpy as np
 
 from scan import store
 from scan.config.load import apply_override
-from scan.config.schema import N_GRID_MAX, ObservablesSection
-from scan.config.spec import build_section
+from scan.config.schema import ObservablesSection
+from scan.config.spec import N_GRID_MAX, build_section
 from scan.errors import ConfigError, InputFileError
 from scan.observables import Observables, cosmo
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
