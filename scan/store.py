@@ -335,13 +335,15 @@ def check_writable(folder: str | Path, what: str = "results") -> Path:
             handle.write(b"\0" * 4096)
             handle.flush()
             os.fsync(handle.fileno())
+    except ValueError as err:  # e.g. a NUL character in the name
+        raise OutputError(repr(str(folder)), f"not a usable folder name ({err})", fix) from None
     except OSError as err:
         problem = write_problem(err)
         if problem is None:
             raise
         raise OutputError(str(folder), f"cannot write here: {problem}", fix) from None
     finally:
-        with contextlib.suppress(OSError):
+        with contextlib.suppress(OSError, ValueError):
             probe.unlink()
     require_space(folder, 0, fix)
     return folder

@@ -20,7 +20,7 @@ import numpy as np
 from scan import store
 from scan.config.load import apply_override
 from scan.config.schema import ObservablesSection
-from scan.config.spec import build_section
+from scan.config.spec import N_GRID_MAX, build_section
 from scan.errors import ConfigError, InputFileError
 from scan.observables import Observables, cosmo
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
@@ -80,7 +80,7 @@ def _parse_row(path: str, number: int, text: str) -> list[float] | None:
 def load_spectrum_csv(path: str) -> tuple[np.ndarray, np.ndarray]:
     """Read and validate a (k [Mpc^-1], P_zeta) CSV table; errors name the line."""
     try:
-        lines = Path(path).read_text().splitlines()
+        lines = Path(path).read_text(encoding="utf-8-sig").splitlines()  # a BOM is no error
     except (OSError, UnicodeDecodeError) as err:
         raise InputFileError(path, f"cannot read ({err})") from None
     cols, rows, lines_of = (0, 1), [], []
@@ -201,6 +201,14 @@ def observables_section(args) -> ObservablesSection:
     return section
 
 
+def check_grid_sizes(args) -> None:
+    """--n-f and --n-m within [8, N_GRID_MAX] (memory grows with them)."""
+    for option, value in (("--n-f", args.n_f), ("--n-m", args.n_m)):
+        if not 8 <= value <= N_GRID_MAX:
+            raise ConfigError("command line", option, f"{value} is outside [8, {N_GRID_MAX}]",
+                              f"give {option} between 8 and {N_GRID_MAX}")
+
+
 def compute(k, P, args) -> Observables:
     """Both observables of the table (k, P) with the command line's conventions."""
     return settings_of(observables_section(args)).compute(k, P)
@@ -217,11 +225,16 @@ def write_result(out: Path, source: str, obs: Observables, options: dict) -> Non
 def run(args: argparse.Namespace) -> int:
     """Compute both observables, write the HDF5 file (and figures); exit code."""
     source = str(args.spectrum)
+    check_grid_sizes(args)
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
     k, P = load_spectrum(source)
     store.check_output_file(out, "observables file")
     obs = compute(k, P, args)
+    if not math.isfinite(obs.f_pbh_total):
+        raise InputFileError(source, f"f_PBH is not finite (P_zeta reaches {P.max():.3g}): "
+                             "the spectrum is far beyond perturbation theory; check that "
+                             "P_zeta is the dimensionless power spectrum")
     write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
                                                      if not k_.startswith("_")})
     for note in obs.notes:
@@ -233,4 +246,4 @@ def run(args: argparse.Namespace) -> int:
         paths += pbh_plot.save_f_pbh(obs.m_msun, obs.f_pbh_per_lnm,
                                      Path(args.figures) / "f_pbh", total=obs.f_pbh_total)
         print("figures: " + ", ".join(str(p) for p in paths))
-    return 0 if math.isfinite(obs.f_pbh_total) else 1
+    return 0
