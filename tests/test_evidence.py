@@ -160,6 +160,24 @@ def test_evidence_command_writes_the_file_with_the_closed_form_ln_z(tmp_path, ca
     assert main(["evidence", "--compare", str(tmp_path / "ev"), str(tmp_path / "ev")]) == 0
     out = capsys.readouterr().out
     assert "ln B (A vs B) = 0.000" in out and "Kass & Raftery 1995" in out
+    # summary of an emcee chain of the same run compares it with the nested posterior
+    # (the same density: N restricted to the box).  The medians agree within 0.2 emcee
+    # half-widths (issue 20; the median's standard error is 1.25 sigma / sqrt(n), so
+    # 0.2 is > 3 standard errors of the difference at the ESS here), and the KS statistic
+    # stays below the two-sample critical value at alpha = 0.001,
+    # 1.95 sqrt(1/n + 1/m) (Smirnov 1948, Ann. Math. Stat. 19, 279, table), with the
+    # nested ESS and the thinned chain (thin >= tau / 2: half its samples independent)
+    assert main(["sample", str(cfg), "--set", "sampler.max_steps=3000",
+                 "--set", "sampler.check_every=500"]) == 0
+    capsys.readouterr()
+    assert main(["summary", str(tmp_path / "ev"), "--json"]) == 0
+    info = json.loads(capsys.readouterr().out)
+    nested = info["nested"]
+    assert nested["agree"], nested
+    with h5py.File(tmp_path / "ev" / "evidence.h5", "r") as handle:
+        ess = float(handle["evidence/model"].attrs["ess"])
+    critical = 1.95 * math.sqrt(1.0 / ess + 2.0 / info["samples_used"])
+    assert all(row["ks"] < critical for row in nested["agreement"].values()), nested
 
 
 def test_bad_evidence_input_exits_2_with_one_line(tmp_path, capsys):

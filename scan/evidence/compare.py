@@ -19,12 +19,15 @@ import numpy as np
 from scipy import stats
 
 from scan.config.diff import stored_config
-from scan.evidence.file import BayesFactor, read_evidence
+from scan.evidence.file import FILE_NAME, BayesFactor, read_evidence
 from scan.evidence.scale import kass_raftery
 from scan.verify.importance import median_shift, weighted_quantiles
 
 #: Quantiles of the per-parameter comparison.
 _Q = np.array([0.16, 0.5, 0.84])
+
+#: Largest |median shift| (in emcee 68 % half-widths) called agreement (issue 20's rule).
+AGREE_SHIFT = 0.2
 
 
 def compare_runs(run_a: str | Path, run_b: str | Path) -> dict[str, Any]:
@@ -90,3 +93,37 @@ def nested_vs_chain(names: Sequence[str], chain: np.ndarray, nested: dict[str, A
         out[name] = {"median_shift": median_shift(emcee_q, nested_q),
                      "ks": float(ks.statistic)}
     return out
+
+
+def nested_summary(folder: str | Path, names: Sequence[str], chain: np.ndarray
+                   ) -> dict[str, Any] | None:
+    """What ``summary`` shows of a run's evidence file, or None when there is none.
+
+    Parameters
+    ----------
+    folder : path
+        The run folder (``evidence.h5`` beside ``chain.h5``).
+    names : sequence of str
+    chain : ndarray, shape (n, dim)
+        The emcee samples after burn-in and thinning.
+
+    Returns
+    -------
+    dict or None
+        ``ln_Z``, ``ln_Z_err``, ``ln_B_vs_foreground`` (+ ``_err``), ``scale_note``,
+        ``agreement`` (:func:`nested_vs_chain`) and ``agree`` (every |median shift| below
+        :data:`AGREE_SHIFT`), or ``error`` when the nested run has other parameters.
+    """
+    path = Path(folder) / FILE_NAME
+    if not path.is_file():
+        return None
+    info = read_evidence(path)
+    out = {key: info[key] for key in ("ln_Z", "ln_Z_err", "ln_B_vs_foreground",
+                                      "ln_B_vs_foreground_err", "scale_note")}
+    try:
+        rows = nested_vs_chain(names, chain, info)
+    except ValueError as err:
+        return {**out, "error": str(err)}
+    shifts = [abs(row["median_shift"]) for row in rows.values()]
+    return {**out, "agreement": rows, "agree_shift": AGREE_SHIFT,
+            "agree": bool(len(chain)) and all(s < AGREE_SHIFT for s in shifts)}
