@@ -10,13 +10,16 @@ import math
 
 import h5py
 import numpy as np
+import pytest
 from test_sampler_posterior import trained  # noqa: F401  (fixture)
+from test_verify import SurrogateAsExact
 
 from scan.evidence.nested import NestedSettings
-from scan.evidence.reweight import evidence_shift
+from scan.evidence.reweight import evidence_shift, open_nested, write_shift
 from scan.evidence.run import plan_evidence, run_evidence
 from scan.pool import SerialPool
 from scan.verify.compare import Evaluated
+from scan.verify.run import verify_run
 
 
 def test_foreground_hypothesis_zeroes_only_the_models_omega_gw(trained):  # noqa: F811
@@ -50,14 +53,21 @@ def test_foreground_hypothesis_zeroes_only_the_models_omega_gw(trained):  # noqa
     assert np.array_equal(blobs_fg["reason"], blobs["reason"])
 
 
-def test_evidence_of_the_posterior_writes_ln_b_against_the_foreground(trained):  # noqa: F811
+@pytest.fixture(scope="module")
+def evidence(trained):  # noqa: F811
+    """An evidence run of the stand-in posterior (plumbing only: a call budget keeps it
+    short, so ln Z is not converged)."""
     tmp, cfg, _ = trained
     plan = plan_evidence(cfg, tmp / "ev" / "evidence.h5")
-    assert list(plan.likelihoods) == ["model", "foreground"]
-    # plumbing only: a call budget keeps it short (ln Z is then not converged)
-    settings = NestedSettings(live_points=40, seed=3, max_ncalls=800)
     with SerialPool() as pool:
-        outcome = run_evidence(plan, pool, settings)
+        outcome = run_evidence(plan, pool, NestedSettings(live_points=40, seed=3,
+                                                          max_ncalls=800))
+    return plan, outcome
+
+
+def test_evidence_of_the_posterior_writes_ln_b_against_the_foreground(evidence):
+    plan, outcome = evidence
+    assert list(plan.likelihoods) == ["model", "foreground"]
     model, fg = outcome.results["model"], outcome.results["foreground"]
     with h5py.File(outcome.path, "r") as handle:
         attrs = dict(handle["evidence"].attrs)
@@ -68,6 +78,22 @@ def test_evidence_of_the_posterior_writes_ln_b_against_the_foreground(trained): 
                                                                     fg.ln_Z_err))
     assert "Kass & Raftery 1995" in attrs["scale_note"]
     assert "PBH and CMB-pivot terms still see the model" in attrs["foreground_note"]
+
+
+def test_verify_nested_with_the_surrogate_as_exact_side_leaves_ln_z(evidence):
+    _, outcome = evidence
+    run = open_nested(outcome.path)
+    assert run.status == "nested" and len(run.samples) >= 10
+    with SerialPool() as pool:
+        result = verify_run(run, 10, pool, exact=SurrogateAsExact(run.target))
+    shift = evidence_shift(result.evaluated)
+    # the direct terms equal the planned ones to rounding (tests/test_likelihood_grid.py)
+    assert abs(shift["delta_ln_Z"]) < 1e-9 and math.isclose(shift["ess"], 10)
+    write_shift(outcome.path, shift)
+    with h5py.File(outcome.path, "r") as handle:
+        attrs = handle["evidence"].attrs
+        assert attrs["ln_Z_exact"] == attrs["ln_Z"] + attrs["delta_ln_Z_exact"]
+        assert int(handle["verify"].attrs["samples"]) == 10
 
 
 def _evaluated(log_s: np.ndarray, log_e: np.ndarray) -> Evaluated:
