@@ -116,6 +116,20 @@ class Stopped(Exception):
     """Raised from the progress hook when a stop was requested (the store is flushed)."""
 
 
+class _OneProcess:
+    """A one-rank communicator for UltraNest: our pool distributes the likelihood, so
+    UltraNest must not spread itself over MPI ranks (under ``python -m mpi4py.futures``
+    the other ranks serve the pool, and a collective call would never return)."""
+
+    @staticmethod
+    def Get_size() -> int:  # mpi4py's name
+        return 1
+
+    @staticmethod
+    def Get_rank() -> int:
+        return 0
+
+
 class CountedLogLike:
     """The sampler's likelihood: non-finite values floored, evaluated rows counted.
 
@@ -212,7 +226,7 @@ def run_nested(log_like: Callable[[np.ndarray], np.ndarray],
     counted = CountedLogLike(log_like)
     sampler = ultranest.ReactiveNestedSampler(
         list(names), counted, from_unit, log_dir=str(log_dir), vectorized=True,
-        resume="resume" if resume else "overwrite")
+        resume="resume" if resume else "overwrite", comm=_OneProcess())
     logging.getLogger("ultranest").setLevel(logging.WARNING)  # our progress lines instead
     try:
         result = sampler.run(min_num_live_points=settings.live_points, dlogz=settings.dlogz,
