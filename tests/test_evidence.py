@@ -189,6 +189,14 @@ def test_bad_evidence_input_exits_2_with_one_line(tmp_path, capsys):
     assert main(["evidence", str(tmp_path / "open.toml")]) == 2
     err = capsys.readouterr().err.strip()
     assert "nuisance[0]" in err and "bounded box" in err and len(err.splitlines()) == 1
+    # checkpoints made with another config are not resumed
+    cfg = gaussian_config(tmp_path)
+    stamp = tmp_path / "ev" / "nested" / "model" / "config_sha256.txt"
+    stamp.parent.mkdir(parents=True)
+    stamp.write_text("0" * 64 + "\n")
+    assert main(["evidence", str(cfg), "--resume"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert "another config" in err and len(err.splitlines()) == 1
 
 
 SCRIPT = textwrap.dedent("""
