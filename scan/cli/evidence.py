@@ -15,6 +15,7 @@ from scan.evidence.run import EvidenceOutcome, plan_evidence, run_evidence
 from scan.evidence.scale import kass_raftery
 from scan.pool import choose_pool
 from scan.sampler.stop import EXIT_CODES, graceful_stop
+from scan.store import check_output_file
 
 EXAMPLE = """examples:
   zetascan evidence configs/demo.toml                    # model and foreground-only ln Z
@@ -74,6 +75,7 @@ def run(args: argparse.Namespace) -> int:
         raise ZetascanError("--live-points must be >= 10 and --dlogz > 0")
     config = load_config(args.config, overrides=args.overrides)
     plan = plan_evidence(config)
+    check_output_file(plan.path, "evidence file")
     settings = NestedSettings(live_points=args.live_points, dlogz=args.dlogz,
                               seed=config.run.seed)
     pool = choose_pool(args.processes, args.mpi, initializer=install,

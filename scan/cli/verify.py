@@ -11,6 +11,7 @@ from scan.errors import ZetascanError
 from scan.evidence.reweight import (evidence_shift, ln_z_of, open_nested, shift_lines,
                                    write_shift)
 from scan.pool import choose_pool
+from scan.store import check_output_file
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
 from scan.verify.run import open_run, verify_run
 
@@ -83,6 +84,7 @@ def run(args: argparse.Namespace) -> int:
     if not args.max_shift > 0.0:
         raise ZetascanError(f"--max-shift {args.max_shift}: give a positive number")
     run_ = open_nested(args.run) if args.nested else open_run(args.run)
+    check_output_file(run_.path, "verification results")
     thresholds = Thresholds(args.min_ess, args.max_shift)
     progress = None if args.json else _Progress()
     with choose_pool(args.processes, args.mpi) as pool:
