@@ -16,6 +16,7 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import errno
+import fcntl
 import hashlib
 import math
 import os
@@ -32,7 +33,8 @@ from scan import __version__
 from scan.errors import InputFileError, OutputError
 
 #: Distributions whose versions go into every result file.
-DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib")
+DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib",
+                                 "ultranest")
 
 #: Bytes kept free beyond what a write allocates [B]: HDF5 metadata written with it
 #: (object headers, chunk-index nodes, attributes, the free-space and EOF updates).
@@ -155,6 +157,24 @@ def read_config_text(path: str | Path) -> str:
     return raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
 
 
+def lock_file(path: str | Path, busy: str, name: str | None = None) -> Any:
+    """Hold an exclusive lock on ``path`` (created if absent); close the result to release.
+
+    Raises
+    ------
+    InputFileError
+        Another process holds it (``busy`` says what is writing and what to do; the
+        error names ``name``, default ``path``).
+    """
+    lock = open(path, "w")
+    try:
+        fcntl.flock(lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except BlockingIOError:
+        lock.close()
+        raise InputFileError(str(name or path), busy) from None
+    return lock
+
+
 def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = None
                        ) -> tuple[Any, h5py.File]:
     """Become the one writer of an append-only HDF5 file: lock file, then SWMR mode.
@@ -179,15 +199,8 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
     InputFileError
         Another writer holds the lock.
     """
-    import fcntl
-
     path = Path(path)
-    lock = open(path.with_name(path.name + ".lock"), "w")
-    try:
-        fcntl.flock(lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
-    except BlockingIOError:
-        lock.close()
-        raise InputFileError(str(path), busy) from None
+    lock = lock_file(path.with_name(path.name + ".lock"), busy, str(path))
     try:
         try:
             handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
