@@ -16,6 +16,7 @@ from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
 from scan.observables import Observables
 from scan.observables.settings import settings_of
+from scan.pipeline.validity import feature_at_pivot
 
 #: E-folds the background must provide before the pivot exits (initial data of the
 #: pivot modes start ~ln(x_in) e-folds earlier; common practice: a few e-folds more).
@@ -148,6 +149,9 @@ def solve_config(config: RunConfig, *, with_modes: bool = True,
                                 settings=mode_settings_of(config), N_star_guess=pivot.N_star)
     if not spectrum.valid:
         return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {spectrum.reason}")
+    on_pivot = feature_at_pivot(spectrum, bg)
+    if on_pivot:
+        return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {on_pivot}")
     observables = observables_of(config, spectrum) if with_observables else None
     return SolveResult(model, bg, pivot, spectrum, True, "", observables)
 
