@@ -72,7 +72,9 @@ def _spectrum(n_s):
 def _background(N_cross_before_end):
     cross = SimpleNamespace(index=0, position=5.2, N_cross=100.0 - N_cross_before_end,
                             N_usr_start=100.0 - N_cross_before_end - 0.5,
-                            N_usr_end=100.0 - N_cross_before_end + 1.5)
+                            N_usr_end=100.0 - N_cross_before_end + 1.5,
+                            N_near_start=100.0 - N_cross_before_end - 1.0,
+                            N_near_end=100.0 - N_cross_before_end + 2.0)
     return SimpleNamespace(N_end=100.0, crossings=(cross,))
 
 
@@ -82,7 +84,7 @@ def _background(N_cross_before_end):
     (-0.46, 38.0, True),
     (0.965, 57.0, True),      # crossed one e-fold before the pivot (N* = 56) exits
     (0.965, 55.0, True),      # while k in [1.4e-4, 0.18] Mpc^-1 exits: N* - 1.3 .. N* + 5.9
-    (0.965, 52.0, False),     # its USR window starts 2.2 e-folds after k = 0.18 exits
+    (0.965, 52.0, False),     # its near window starts 1.7 e-folds after k = 0.18 exits
     (0.965, 70.0, False),     # long before the CMB window: no feature on observed scales
 ])
 def test_the_feature_on_cmb_scales_rule(n_s, before_end, bad):

@@ -16,6 +16,7 @@ from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
 from scan.observables import Observables
 from scan.observables.settings import settings_of
+from scan.pipeline.peaks import Peak, describe, peak_table
 from scan.pipeline.validity import feature_at_pivot
 
 #: E-folds the background must provide before the pivot exits (initial data of the
@@ -38,6 +39,8 @@ class SolveResult:
     valid : bool
     reason : str
         The first stage's reason for an invalid model ("" when valid).
+    peaks : tuple of Peak
+        Every peak of P_ζ (:mod:`scan.pipeline.peaks`), in increasing k.
     """
 
     model: Model
@@ -47,6 +50,7 @@ class SolveResult:
     valid: bool
     reason: str
     observables: Observables | None = None
+    peaks: tuple[Peak, ...] = ()
 
     def summary_lines(self) -> list[str]:
         """A short human summary (the CLI prints it)."""
@@ -78,6 +82,7 @@ class SolveResult:
                          f"({o.conventions.criterion}, {o.conventions.window} window, "
                          f"threshold {o.conventions.threshold:g})")
             lines += [f"note: {note}" for note in o.notes]
+        lines += [describe(peak, i) for i, peak in enumerate(self.peaks)]
         return lines
 
 
@@ -153,7 +158,8 @@ def solve_config(config: RunConfig, *, with_modes: bool = True,
     if on_pivot:
         return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {on_pivot}")
     observables = observables_of(config, spectrum) if with_observables else None
-    return SolveResult(model, bg, pivot, spectrum, True, "", observables)
+    return SolveResult(model, bg, pivot, spectrum, True, "", observables,
+                       peak_table(spectrum, bg, observables))
 
 
 def _n_star_rule(config: RunConfig, bg: Background, reheating: Reheating, A_s: float):

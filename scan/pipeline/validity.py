@@ -9,9 +9,11 @@ scales makes the model invalid with the reason :data:`FEATURE_REASON` (reason co
 A feature is on CMB scales when
 
 * the exact tilt at the pivot is far from slow roll, |n_s − 1| > :data:`TILT_LIMIT`, or
-* a pole's non-slow-roll phase (its crossing and its ultra-slow-roll window, ε2 < −3)
-  overlaps the e-folds in which the CMB window k ∈ [:data:`K_CMB_MIN`, :data:`K_CMB_MAX`]
-  leaves the horizon.
+* a pole's phase overlaps the e-folds in which the CMB window k ∈ [:data:`K_CMB_MIN`,
+  :data:`K_CMB_MAX`] leaves the horizon: its crossing, its ultra-slow-roll window
+  (ε2 < −3) or its near-pole window (|φ − φᵢ| < wᵢ, where the pole's term dominates K;
+  near the stall of a pole with p > 1 the field creeps there for hundreds of e-folds and
+  the spectrum's maximum sits on the pivot).
 """
 from __future__ import annotations
 
@@ -76,8 +78,8 @@ def feature_at_pivot(spectrum, background) -> str:
                 f"{spectrum.n_s:.3g}, |n_s - 1| > {TILT_LIMIT:g})")
     lo, hi = cmb_exit_window(background.N_end, spectrum.N_star, spectrum.k_star)
     for c in background.crossings:
-        start = min(c.N_cross, c.N_usr_start)
-        stop = max(c.N_cross, c.N_usr_end)
+        start = min(c.N_cross, c.N_usr_start, c.N_near_start)
+        stop = max(c.N_cross, c.N_usr_end, c.N_near_end)
         if start <= hi and stop >= lo:
             return (f"{FEATURE_REASON}: pole {c.index} (phi = {c.position:g}) is crossed "
                     f"{background.N_end - c.N_cross:.2f} e-folds before the end, while the "
