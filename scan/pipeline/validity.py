@@ -81,8 +81,9 @@ def feature_at_pivot(spectrum, background) -> str:
         start = min(c.N_cross, c.N_usr_start, c.N_near_start)
         stop = max(c.N_cross, c.N_usr_end, c.N_near_end)
         if start <= hi and stop >= lo:
-            return (f"{FEATURE_REASON}: pole {c.index} (phi = {c.position:g}) is crossed "
-                    f"{background.N_end - c.N_cross:.2f} e-folds before the end, while the "
-                    f"CMB scales {K_CMB_MIN:g}-{K_CMB_MAX:g} Mpc^-1 exit (N* = "
-                    f"{spectrum.N_star:.2f})")
+            end = background.N_end
+            return (f"{FEATURE_REASON}: pole {c.index} (phi = {c.position:g}) shapes the "
+                    f"background from {end - start:.2f} to {end - stop:.2f} e-folds before "
+                    f"the end, while the CMB scales {K_CMB_MIN:g}-{K_CMB_MAX:g} Mpc^-1 exit "
+                    f"({end - lo:.2f} to {end - hi:.2f}; N* = {spectrum.N_star:.2f})")
     return ""
