@@ -79,3 +79,13 @@ def test_a_pole_that_does_not_exist_is_bad_input(tmp_path, capsys):
     code = main(["tune", "configs/tmodel_pole.toml", "--peak-height", "-2.5", "--pole", "3",
                  "--out", str(tmp_path / "t.toml")])
     assert code == 2 and "--pole 3" in capsys.readouterr().err
+
+
+def test_the_position_solver_puts_the_peak_at_a_target_wavenumber():
+    """ln k_peak falls monotonically with the pole position (crossed earlier); at fixed
+    sharpness the height barely moves (README: "the peak height depends on λ and p,
+    hardly on the position").  Target k_peak = 1e8 Mpc^-1 to 1 % from k = 3.6e6."""
+    config = load_config("configs/tmodel_pole.toml", overrides=FAST)
+    result = tune_pole(config, peak_k=1e8)
+    assert abs(math.log(result.best.k_peak / 1e8)) <= 0.01
+    assert result.best.position < 5.2 and result.solves <= 25

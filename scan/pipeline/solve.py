@@ -6,18 +6,23 @@ call :func:`solve_config`.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
+from functools import lru_cache
+from types import SimpleNamespace
 
 from scan.background import Background, solve_background
 from scan.background.pivot import Pivot, Reheating, solve_pivot
 from scan.config.schema import RunConfig
+from scan.errors import ConfigError
 from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
 from scan.observables import Observables
 from scan.observables.settings import settings_of
 from scan.pipeline.peaks import Peak, describe, peak_table
-from scan.pipeline.validity import feature_at_pivot
+from scan.pipeline.validity import feature_at_pivot, poles_on_cmb_scales
+from scan.pipeline.wall import NoWall, locate_wall
 
 #: E-folds the background must provide before the pivot exits (initial data of the
 #: pivot modes start ~ln(x_in) e-folds earlier; common practice: a few e-folds more).
@@ -87,8 +92,69 @@ class SolveResult:
 
 
 def model_of(config: RunConfig) -> Model:
-    """The :class:`Model` a config describes."""
-    return model_from_section(config.model)
+    """The :class:`Model` a config describes (a ``wall_ratio`` pole resolved by
+    :func:`resolve_walls`)."""
+    return model_from_section(resolve_walls(config).model)
+
+
+def resolve_walls(config: RunConfig) -> RunConfig:
+    """``config`` with a pole given by ``wall_ratio`` ρ given by its sharpness ρ λ_w.
+
+    Raises
+    ------
+    ConfigError
+        If more than one pole uses ``wall_ratio``, or the pole has no wall.
+    """
+    poles = config.model.poles
+    walled = [i for i, p in enumerate(poles) if getattr(p, "wall_ratio", None) is not None]
+    if not walled:
+        return config
+    if len(walled) > 1:
+        raise ConfigError(config.source, f"model.poles[{walled[1]}].wall_ratio",
+                          "only one pole may be given by wall_ratio",
+                          "give the others a width or a sharpness")
+    i = walled[0]
+    lam_w = wall_sharpness(config, i)
+    pole = dataclasses.replace(poles[i], wall_ratio=None,
+                               sharpness=poles[i].wall_ratio * lam_w)
+    return dataclasses.replace(config, model=dataclasses.replace(
+        config.model, poles=poles[:i] + (pole,) + poles[i + 1:]))
+
+
+def wall_sharpness(config: RunConfig, pole: int) -> float:
+    """λ_w of pole ``pole`` (:mod:`scan.pipeline.wall`), cached per model and settings."""
+    try:
+        return _wall(config.model, pole, config.background, config.pivot)
+    except NoWall as err:
+        raise ConfigError(config.source, f"model.poles[{pole}].wall_ratio",
+                          f"this pole has no wall ({err})",
+                          "give its width or sharpness instead") from None
+
+
+@lru_cache(maxsize=512)
+def _wall(section, pole: int, background, pivot_section) -> float:
+    shim = SimpleNamespace(background=background, pivot=pivot_section)
+
+    def valid_at(sharpness: float) -> bool:
+        entry = dataclasses.replace(section.poles[pole], wall_ratio=None, width=None,
+                                    sharpness=sharpness)
+        model = model_from_section(dataclasses.replace(
+            section, poles=section.poles[:pole] + (entry,) + section.poles[pole + 1:]))
+        bg = solve_background_of(shim, model)
+        if not bg.valid:
+            return False
+        pivot = _pivot_of(shim, bg)
+        return pivot.valid and not poles_on_cmb_scales(bg, pivot.N_star, pivot.k_star)
+
+    return locate_wall(valid_at)
+
+
+def _pivot_of(config, bg: Background) -> Pivot:
+    """The CMB pivot of a background with the config's ``[pivot]`` settings."""
+    return solve_pivot(bg, N_star=config.pivot.n_star, k_star=config.pivot.k_star,
+                       reheating=reheating_of(config),
+                       A_s=math.exp(config.pivot.ln_1e10_As) * 1e-10,
+                       margin=PIVOT_MARGIN_EFOLDS)
 
 
 def reheating_of(config: RunConfig) -> Reheating:
@@ -142,8 +208,7 @@ def solve_config(config: RunConfig, *, with_modes: bool = True,
         return SolveResult(model, bg, None, None, False, f"background: {bg.reason}")
     reheating = reheating_of(config)
     A_s = math.exp(config.pivot.ln_1e10_As) * 1e-10
-    pivot = solve_pivot(bg, N_star=config.pivot.n_star, k_star=config.pivot.k_star,
-                        reheating=reheating, A_s=A_s, margin=PIVOT_MARGIN_EFOLDS)
+    pivot = _pivot_of(config, bg)
     if not pivot.valid:
         return SolveResult(model, bg, pivot, None, False, f"pivot: {pivot.reason}")
     if not with_modes:

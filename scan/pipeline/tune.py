@@ -134,8 +134,14 @@ class _Solver:
     def __init__(self, config: RunConfig, pole: int, max_solves: int) -> None:
         self.config, self.pole, self.max_solves = config, pole, max_solves
         self.trials: list[Trial] = []
+        self.last: Trial | None = None
 
     def __call__(self, width: float, position: float) -> Trial:
+        known = next((t for t in self.trials if (t.width, t.position) == (width, position)),
+                     None)
+        if known is not None:           # the same model again: no new solve
+            self.last = known
+            return known
         if len(self.trials) >= self.max_solves:
             raise _Budget
         result = solve_config(with_pole(self.config, self.pole, width=width,
@@ -148,6 +154,7 @@ class _Solver:
                       math.log10(s.P_peak) if peak else math.nan,
                       s.k_peak if peak else math.nan, flat)
         self.trials.append(trial)
+        self.last = trial
         return trial
 
 
@@ -323,12 +330,12 @@ def tune_pole(config: RunConfig, *, pole: int = 0, peak_height: float | None = N
         for _ in range(rounds if peak_k is not None and peak_height is not None else 1):
             if peak_k is not None:
                 _tune_position(solve, current, pole, math.log(peak_k), lnk_tol)
-                current = _adopt(config, pole, _closest(solve.trials, peak_height, peak_k))
+                current = _adopt(config, pole, solve.last)
             if peak_height is not None:
                 width, position, _ = pole_state(current, pole)
                 _tune_height(solve, width, position, peak_height, height_tol)
-                current = _adopt(config, pole, _closest(solve.trials, peak_height, peak_k))
-            if _reached(solve.trials[-1], peak_height, peak_k, height_tol, lnk_tol):
+                current = _adopt(config, pole, solve.last)
+            if _reached(solve.last, peak_height, peak_k, height_tol, lnk_tol):
                 break
     except _Budget:
         pass

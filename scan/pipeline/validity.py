@@ -76,7 +76,22 @@ def feature_at_pivot(spectrum, background) -> str:
     if tilt_off(spectrum.n_s):
         return (f"{FEATURE_REASON}: the pivot exits outside slow roll (n_s = "
                 f"{spectrum.n_s:.3g}, |n_s - 1| > {TILT_LIMIT:g})")
-    lo, hi = cmb_exit_window(background.N_end, spectrum.N_star, spectrum.k_star)
+    return poles_on_cmb_scales(background, spectrum.N_star, spectrum.k_star)
+
+
+def poles_on_cmb_scales(background, N_star: float, k_star: float) -> str:
+    """Why a pole's phase overlaps the exit of the CMB window ("" if none does).
+
+    Parameters
+    ----------
+    background : Background
+        ``N_end`` and ``crossings`` (with the config's pole numbers).
+    N_star : float
+        E-folds from pivot exit to the end of inflation.
+    k_star : float
+        Pivot [Mpc^-1].
+    """
+    lo, hi = cmb_exit_window(background.N_end, N_star, k_star)
     for c in background.crossings:
         start = min(c.N_cross, c.N_usr_start, c.N_near_start)
         stop = max(c.N_cross, c.N_usr_end, c.N_near_end)
@@ -85,5 +100,5 @@ def feature_at_pivot(spectrum, background) -> str:
             return (f"{FEATURE_REASON}: pole {c.index} (phi = {c.position:g}) shapes the "
                     f"background from {end - start:.2f} to {end - stop:.2f} e-folds before "
                     f"the end, while the CMB scales {K_CMB_MIN:g}-{K_CMB_MAX:g} Mpc^-1 exit "
-                    f"({end - lo:.2f} to {end - hi:.2f}; N* = {spectrum.N_star:.2f})")
+                    f"({end - lo:.2f} to {end - hi:.2f}; N* = {N_star:.2f})")
     return ""
