@@ -112,3 +112,46 @@ def test_reason_names_are_stable():
                            "peak_outside_table", "excluded", "invalid_background",
                            "invalid_pivot", "invalid_spectrum")
     assert REASONS[9:] == ("feature_at_pivot", "stalled_at_pole")
+
+
+# ----- the wall of a pole (issue 14 item 2): rho = lambda / lambda_w -----
+from scan.errors import ConfigError  # noqa: E402
+from scan.pipeline.solve import model_of, wall_sharpness  # noqa: E402
+from scan.pipeline.wall import NoWall, locate_wall  # noqa: E402
+
+
+def test_locate_wall_returns_the_valid_end_of_a_bracket_within_its_tolerance():
+    calls = []
+
+    def valid_at(lam):
+        calls.append(lam)
+        return lam >= 0.8531
+
+    lam = locate_wall(valid_at, start=1.0, rtol=1e-4)
+    assert 0.8531 <= lam <= 0.8531 * (1 + 1e-4) and len(calls) < 25
+    with pytest.raises(NoWall):
+        locate_wall(lambda lam: True)
+
+
+def test_the_p1_wall_lies_above_the_linear_overdamping_bound():
+    """p = 1: near the pole χ'' + 3χ' + 3λχ = 0 is overdamped for λ < 3/4, so every
+    λ < 3/4 stalls and λ_w >= 3/4; the issue's measurement puts the T-model stall at
+    ≈ 0.85 (issue 14, 'measured this week').  A wall_ratio pole gets ρ λ_w."""
+    config = load_config("configs/tmodel_pole.toml")
+    lam_w = wall_sharpness(config, 0)
+    assert 0.75 < lam_w < 0.9
+    text = config.text.replace("width = 0.026", "wall_ratio = 1.2")
+    from scan.config import load_config_text
+    walled = load_config_text(text)
+    from scan.models.types import width_from_sharpness
+    expected = width_from_sharpness(model_of(config).with_canonical_kinetics(), 5.2, 1.0,
+                                    1.2 * lam_w)
+    assert model_of(walled).poles[0].width == pytest.approx(expected, rel=1e-12)
+
+
+def test_width_sharpness_and_wall_ratio_are_exclusive():
+    from scan.config import load_config_text
+    text = load_config("configs/tmodel_pole.toml").text.replace(
+        "width = 0.026", "width = 0.026\nwall_ratio = 1.2")
+    with pytest.raises(ConfigError, match="exactly one of width, sharpness and wall_ratio"):
+        load_config_text(text)
