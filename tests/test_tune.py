@@ -8,7 +8,8 @@ import pytest
 from scan.cli import main
 from scan.config import load_config, load_config_text
 from scan.config.edit import set_pole_keys
-from scan.pipeline.tune import _Budget, _root, tune_pole
+from scan.pipeline.roots import Unreachable, illinois
+from scan.pipeline.tune import tune_pole
 
 #: Fewer modes than the default 128 (the peak is still refined to modes.refine_tol =
 #: 1e-3, 4e-4 dex): the solves keep the default tolerances and take ~1 s each.
@@ -26,14 +27,14 @@ def test_illinois_finds_a_steep_monotone_root_and_bisects_walls():
             return math.inf
         return -4.0 + 0.5 / math.sqrt(1.0 - x)
 
-    x = _root(f, 0.0, f(0.0), 1.5, math.inf, 1e-3)
+    x = illinois(f, 0.0, f(0.0), 1.5, math.inf, 1e-3)
     assert abs(f(x)) <= 1e-3 and abs(x - (1.0 - 1.0 / 64.0)) < 1e-3
     assert len(calls) < 40
 
 
 def test_an_unbracketed_wall_is_reported_not_looped():
-    with pytest.raises(_Budget):
-        _root(lambda x: -1.0 if x < 0.5 else math.inf, 0.0, -1.0, 1.0, math.inf, 1e-3)
+    with pytest.raises(Unreachable):
+        illinois(lambda x: -1.0 if x < 0.5 else math.inf, 0.0, -1.0, 1.0, math.inf, 1e-3)
 
 
 def test_the_tuned_config_keeps_everything_else():

@@ -23,6 +23,7 @@ import numpy as np
 from scan.config.schema import RunConfig
 from scan.errors import ZetascanError
 from scan.models.types import width_from_sharpness
+from scan.pipeline.roots import Unreachable, illinois
 from scan.pipeline.solve import model_of, solve_config
 
 #: Default tolerance on log10 P_peak [dex]: the acceptance asks 0.01 dex; the peak itself
@@ -37,9 +38,6 @@ MAX_SOLVES = 25
 #: featureless (the pole is too narrow to matter); one that rises above it has its
 #: maximum at an edge of the k grid, i.e. on the pivot side: past the wall (common practice).
 FEATURELESS = 10.0
-#: Narrowest bracket in ln w (or φᵢ) before a target is declared unreachable.
-MIN_GAP = 1e-7
-
 
 class TuneError(ZetascanError):
     """The target cannot be reached; ``result`` holds the closest solve."""
@@ -143,7 +141,7 @@ class _Solver:
             self.last = known
             return known
         if len(self.trials) >= self.max_solves:
-            raise _Budget
+            raise Unreachable
         result = solve_config(with_pole(self.config, self.pole, width=width,
                                         position=position), with_observables=False)
         s = result.spectrum
@@ -156,40 +154,6 @@ class _Solver:
         self.trials.append(trial)
         self.last = trial
         return trial
-
-
-class _Budget(Exception):
-    """The budget of exact solves is used up."""
-
-
-def _root(f: Callable[[float], float], a: float, fa: float, b: float, fb: float,
-          tol: float) -> float:
-    """Illinois iteration for f(x) = 0 on a bracket (fa < 0 < fb, infinite values allowed:
-    those ends are bisected); stops when |f| <= tol; returns the last x evaluated."""
-    side = 0
-    while True:
-        if math.isfinite(fa) and math.isfinite(fb):
-            x = b - fb * (b - a) / (fb - fa)
-            lo, hi = min(a, b), max(a, b)
-            if not lo + 1e-3 * (hi - lo) < x < hi - 1e-3 * (hi - lo):
-                x = 0.5 * (a + b)
-        else:
-            x = 0.5 * (a + b)
-        fx = f(x)
-        if abs(fx) <= tol:
-            return x
-        if abs(b - a) < MIN_GAP:
-            raise _Budget
-        if (fx < 0) == (fa < 0):
-            a, fa = x, fx
-            if side == -1 and math.isfinite(fb):
-                fb *= 0.5
-            side = -1
-        else:
-            b, fb = x, fx
-            if side == 1 and math.isfinite(fa):
-                fa *= 0.5
-            side = 1
 
 
 def _height_value(trial: Trial, target: float) -> float:
@@ -231,14 +195,14 @@ def _bracket_height(solve: _Solver, x0: float, position: float, target: float,
         last, x, fx = (x, fx), nxt, fn
         step *= 2.0
         if step > math.log(1e6):
-            raise _Budget
+            raise Unreachable
 
 
 def _tune_height(solve: _Solver, width: float, position: float, target: float,
                  tol: float) -> None:
     found = _bracket_height(solve, math.log(width), position, target, tol)
     if isinstance(found, tuple):
-        _root(lambda x: _height_value(solve(math.exp(x), position), target), *found, tol)
+        illinois(lambda x: _height_value(solve(math.exp(x), position), target), *found, tol)
 
 
 def _efolds_per_phi(config: RunConfig, position: float) -> float:
@@ -264,7 +228,7 @@ def _tune_position(solve: _Solver, config: RunConfig, pole: int, ln_k: float,
     if abs(gx) <= tol:
         return
     if not math.isfinite(gx):
-        raise _Budget
+        raise Unreachable
     step = -gx / _efolds_per_phi(config, position)  # Δ ln k ≈ −(dN/dφ) Δφᵢ
     while True:
         nxt = x + step
@@ -272,10 +236,10 @@ def _tune_position(solve: _Solver, config: RunConfig, pole: int, ln_k: float,
         if abs(gn) <= tol:
             return
         if not math.isfinite(gn):
-            raise _Budget
+            raise Unreachable
         if (gn < 0) != (gx < 0):
             a, fa, b, fb = (x, gx, nxt, gn) if gx < 0 else (nxt, gn, x, gx)
-            _root(g, a, fa, b, fb, tol)
+            illinois(g, a, fa, b, fb, tol)
             return
         x, gx, step = nxt, gn, 2.0 * step
 
@@ -337,7 +301,7 @@ def tune_pole(config: RunConfig, *, pole: int = 0, peak_height: float | None = N
                 current = _adopt(config, pole, solve.last)
             if _reached(solve.last, peak_height, peak_k, height_tol, lnk_tol):
                 break
-    except _Budget:
+    except Unreachable:
         pass
     best = _closest(solve.trials, peak_height, peak_k)
     result = TuneResult(_adopt(config, pole, best), pole, best, tuple(solve.trials))
@@ -377,8 +341,13 @@ def unreachable_message(result: TuneResult, height: float | None, k: float | Non
         if height is not None else False
     if walls and (height is None or below):
         last = walls[-1]
+        if result.best is not None and height is not None:
+            last_reason = f"; P_peak saturates at 10^{result.best.log10_P_peak:.3f} next to it"
+        else:
+            last_reason = ""
         why = ("the model turns invalid first (" + last.reason + ")" if not last.valid else
-               "the maximum of P_zeta moves to the edge of the k grid (the pivot side) first")
+               "the maximum of P_zeta moves to the edge of the k grid (the pivot side) first"
+               ) + last_reason
     elif height is not None and below:
         why = "P_peak saturates below the target as the width grows"
     else:
