@@ -123,8 +123,11 @@ def resolve_walls(config: RunConfig) -> RunConfig:
 
 def wall_sharpness(config: RunConfig, pole: int) -> float:
     """λ_w of pole ``pole`` (:mod:`scan.pipeline.wall`), cached per model and settings."""
-    try:
-        return _wall(config.model, pole, config.background, config.pivot)
+    poles = config.model.poles
+    blank = dataclasses.replace(poles[pole], wall_ratio=1.0, width=None, sharpness=None)
+    section = dataclasses.replace(config.model, poles=poles[:pole] + (blank,) + poles[pole + 1:])
+    try:  # one wall per model whatever the ratio asked for (the cache key has rho = 1)
+        return _wall(section, pole, config.background, config.pivot)
     except NoWall as err:
         raise ConfigError(config.source, f"model.poles[{pole}].wall_ratio",
                           f"this pole has no wall ({err})",
