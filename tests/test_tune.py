@@ -69,7 +69,7 @@ def test_an_unreachable_target_exits_2_naming_the_wall_and_the_closest_value(tmp
     every model that gets there is invalid, so the search meets the wall."""
     out = tmp_path / "t.toml"
     code = main(["tune", "configs/tmodel_pole.toml", "--peak-height", "-0.5",
-                 "--max-solves", "5", "--out", str(out)])
+                 "--max-solves", "3", "--out", str(out)])
     err = capsys.readouterr().err
     assert code == 2 and not out.exists()
     assert "cannot be reached" in err and "closest: log10 P_peak" in err
