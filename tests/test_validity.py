@@ -10,9 +10,13 @@ import pytest
 
 from scan.background import Background, solve_background
 from scan.background.guards import guarded
-from scan.config import load_config
+from scan.config import load_config, load_config_text
+from scan.errors import ConfigError
 from scan.models import Model, Pole
+from scan.models.types import width_from_sharpness
+from scan.pipeline.solve import model_of, wall_sharpness
 from scan.pipeline.validity import FEATURE_REASON, TILT_LIMIT, feature_at_pivot
+from scan.pipeline.wall import NoWall, locate_wall
 from scan.posterior.reasons import REASONS, Reason, of_exact_solve
 from scan.surrogate.adapter import solve_point
 from scan.surrogate.record import shape_grid
@@ -58,7 +62,6 @@ def test_ill_conditioned_creep_names_its_pole_and_counts_as_a_stall():
     χ'' + 3χ' + 3λχ = 0, is overdamped (roots real for λ < 3/4), so the field creeps up
     to the pole (derivation in scan.models.types.width_from_sharpness)."""
     base = Model("t_model")
-    from scan.models.types import width_from_sharpness
     w = width_from_sharpness(base, 5.2, 1.0, 0.5)
     bg = solve_background(t_model(Pole(3.0, 1e-4, 1.0), Pole(5.2, w, 1.0)), efolds_auto=75.0)
     assert not bg.valid and "near the pole at phi = 5.2 (pole 1 of the config)" in bg.reason
@@ -115,9 +118,6 @@ def test_reason_names_are_stable():
 
 
 # ----- the wall of a pole (issue 14 item 2): rho = lambda / lambda_w -----
-from scan.errors import ConfigError  # noqa: E402
-from scan.pipeline.solve import model_of, wall_sharpness  # noqa: E402
-from scan.pipeline.wall import NoWall, locate_wall  # noqa: E402
 
 
 def test_locate_wall_returns_the_valid_end_of_a_bracket_within_its_tolerance():
@@ -141,16 +141,13 @@ def test_the_p1_wall_lies_above_the_linear_overdamping_bound():
     lam_w = wall_sharpness(config, 0)
     assert 0.75 < lam_w < 0.9
     text = config.text.replace("width = 0.026", "wall_ratio = 1.2")
-    from scan.config import load_config_text
     walled = load_config_text(text)
-    from scan.models.types import width_from_sharpness
     expected = width_from_sharpness(model_of(config).with_canonical_kinetics(), 5.2, 1.0,
                                     1.2 * lam_w)
     assert model_of(walled).poles[0].width == pytest.approx(expected, rel=1e-12)
 
 
 def test_width_sharpness_and_wall_ratio_are_exclusive():
-    from scan.config import load_config_text
     text = load_config("configs/tmodel_pole.toml").text.replace(
         "width = 0.026", "width = 0.026\nwall_ratio = 1.2")
     with pytest.raises(ConfigError, match="exactly one of width, sharpness and wall_ratio"):
