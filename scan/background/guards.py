@@ -1,4 +1,4 @@
-"""Guards of the exact background: overflow in trial steps and the names of stuck poles.
+"""Guards of the exact background: arithmetic failures and the names of stuck poles.
 
 Kept apart from the integration (:mod:`scan.background.solve`) so the numerical kernel
 can change without touching what a user reads when a model is invalid.
@@ -6,29 +6,13 @@ can change without touching what a user reads when a model is invalid.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 
 from scan.background.types import Chart, chart_map
 from scan.models import Model, kernel, pole_number
 
-#: What a right-hand side returns when a trial stage leaves the range of floats: the
-#: integrator's error estimate is then nan, so the step is rejected and shortened.
-_REJECT = [math.nan, math.nan, math.nan]
-
 #: Arithmetic errors a trial stage can raise far from the accepted solution (e.g. a
 #: pole chart of power p near 2 maps s to u = |s|^{1/(1 - p/2)}, cosh(u) overflows).
 ARITHMETIC = (OverflowError, ZeroDivisionError, ValueError)
-
-
-def guarded(rhs: Callable) -> Callable:
-    """``rhs`` that returns nan instead of raising an arithmetic error (a rejected step)."""
-
-    def safe(N, y):
-        try:
-            return rhs(N, y)
-        except ARITHMETIC:
-            return _REJECT
-    return safe
 
 
 def overflow_reason(err: Exception, N: float) -> str:

@@ -8,6 +8,7 @@ from scan.config import load_config
 from scan.pipeline import SolveResult, solve_config
 from scan.pipeline.result_file import write_solve_result
 from scan.plots.solve import draw_solve_figures
+from scan.store import check_output_file
 
 EXAMPLE = """example:
   zetascan solve configs/tmodel_pole.toml
@@ -35,6 +36,7 @@ def run(args: argparse.Namespace) -> int:
     """Solve, write, summarise; exit 0 even for an invalid model (the file says why)."""
     config = load_config(args.config, overrides=args.overrides)
     out = Path(args.out) if args.out else Path(config.run.output_dir) / f"{config.run.name}.h5"
+    check_output_file(out, "result file")
     result = solve_config(config)
     write_solve_result(out, config, result)
     figures = [] if args.no_figures else _draw_figures(out, result)
