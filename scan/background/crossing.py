@@ -5,7 +5,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from scan.background.types import Background, PoleCrossing
-from scan.models import kernel
+from scan.models import kernel, pole_number
 
 
 def _edge(f, nodes: np.ndarray, values: np.ndarray, k: int, step: int) -> float:
@@ -21,7 +21,11 @@ def _edge(f, nodes: np.ndarray, values: np.ndarray, k: int, step: int) -> float:
 
 
 def crossing_report(bg: Background, index: int, N_c: float) -> PoleCrossing:
-    """The USR window (ε2 < −3) and the near-pole window (|φ − φᵢ| < wᵢ) at a crossing."""
+    """The USR window (ε2 < −3) and the near-pole window (|φ − φᵢ| < wᵢ) at a crossing.
+
+    ``index`` is the pole's place in position order (the solver's charts); the report
+    carries its config number (:func:`scan.models.pole_number`).
+    """
     sing = kernel(bg.model).singular[index]
     k = int(np.argmin(abs(bg.N - N_c)))
 
@@ -38,4 +42,4 @@ def crossing_report(bg: Background, index: int, N_c: float) -> PoleCrossing:
         vals[k] = -1.0
         a, b = (_edge(f, bg.N, vals, k, -1), _edge(f, bg.N, vals, k, 1)) if ok else (N_c, N_c)
         windows += [a, b, b - a]
-    return PoleCrossing(index, sing.position, N_c, *windows)
+    return PoleCrossing(pole_number(bg.model, sing.position), sing.position, N_c, *windows)

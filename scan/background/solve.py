@@ -12,6 +12,8 @@ from scipy.optimize import brentq
 
 from scan.background.compiled import activate, encode, field_of
 from scan.background.crossing import crossing_report
+from scan.background.guards import (ARITHMETIC, describe_pole, nearest_pole_at,
+                                    overflow_reason, stuck_pole)
 from scan.background.integrate import (EVENT_NAMES, EXHAUSTED, REACHED, DenseSegment,
                                        integrate_segment)
 from scan.background.types import (Background, Chart, Segment, chart_map, chart_of, charts, point,
@@ -82,10 +84,14 @@ def solve_background(model: Model, *, phi_start: float | None = None,
     ConfigError
         If the start cannot be chosen automatically or lies on a pole.
     """
-    return _run(model, phi_start=phi_start, velocity_start=velocity_start, N_start=N_start,
-               n_max=n_max, rtol=rtol, min_efolds=min_efolds, efolds_auto=efolds_auto,
-               allow_no_end=allow_no_end, max_restarts=max_restarts,
-               max_rhs_calls=max_rhs_calls, eps1_floor=eps1_floor)
+    try:
+        return _run(model, phi_start=phi_start, velocity_start=velocity_start,
+                    N_start=N_start, n_max=n_max, rtol=rtol, min_efolds=min_efolds,
+                    efolds_auto=efolds_auto, allow_no_end=allow_no_end,
+                    max_restarts=max_restarts, max_rhs_calls=max_rhs_calls,
+                    eps1_floor=eps1_floor)
+    except ARITHMETIC as err:
+        return _invalid(model, N_start, overflow_reason(err, N_start))
 
 
 # ----- the automatic start -----
@@ -218,7 +224,9 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
         nodes.append((chart, t[first:], y[:, first:]))
         if status == REACHED:
             if not allow_no_end:
-                why = (f"inflation did not end within n_max = {n_max:g} e-folds "
+                stuck = stuck_pole(model, chart, float(y[0, -1]), math.copysign(1.0, y[1, -1]))
+                why = ((f"{stuck}: " if stuck else "")
+                       + f"inflation did not end within n_max = {n_max:g} e-folds "
                        f"(eps1 = {0.5 * y[1, -1] ** 2:.3g} at N = {N_lim:g})")
             break
         name = EVENT_NAMES[hit]
@@ -239,11 +247,11 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
     if not why and math.isfinite(end) and end - N_start < min_efolds:
         why = (f"too few e-folds: inflation lasts {end - N_start:.4g} < {min_efolds:g} "
                f"required (start higher up the potential)")
-    why = _conditioning(nodes, eps1_floor, why)
+    why = _conditioning(model, nodes, eps1_floor, why)
     return _assemble(model, segs, nodes, N_start, end, why, cross)
 
 
-def _conditioning(nodes, floor: float, why: str) -> str:
+def _conditioning(model: Model, nodes, floor: float, why: str) -> str:
     """Reason for an ill-conditioned solution (min ε1 over the steps below ``floor``).
 
     Only the steps after ε1 first exceeds √floor count: ε1 must *fall* below the floor
@@ -260,13 +268,14 @@ def _conditioning(nodes, floor: float, why: str) -> str:
     above = np.flatnonzero(pi > math.sqrt(2.0 * math.sqrt(floor)))  # ε1 > √floor
     if not above.size:
         return why
-    pi_min = float(np.min(pi[above[0]:]))
-    eps1_min = 0.5 * pi_min * pi_min
+    at = int(above[0] + np.argmin(pi[above[0]:]))
+    eps1_min = 0.5 * float(pi[at]) ** 2
     if eps1_min >= floor:
         return why
-    return (f"ill-conditioned: eps1 falls to {eps1_min:.2g} < {floor:g} (the field creeps "
-            f"through ultra-slow roll; e-folds depend on the tolerance and P_zeta is deep in "
-            f"the stochastic regime)" + (f"; then: {why}" if why else ""))
+    return (f"ill-conditioned: eps1 falls to {eps1_min:.2g} < {floor:g}"
+            f"{nearest_pole_at(model, nodes, at)} (the field creeps through ultra-slow roll; "
+            f"e-folds depend on the tolerance and P_zeta is deep in the stochastic regime)"
+            + (f"; then: {why}" if why else ""))
 
 
 def _stop_reason(model: Model, chart: Chart, N: float, y, moving: float) -> str:
@@ -274,8 +283,8 @@ def _stop_reason(model: Model, chart: Chart, N: float, y, moving: float) -> str:
     kern = kernel(model)
     phi = chart_map(kern, chart, y[0], math)[0]
     ahead = [s.position for s in kern.singular if (s.position - phi) * moving > 0]
-    target = f" before the pole at phi = {min(ahead, key=lambda x: abs(x - phi)):g}" \
-        if ahead else ""
+    target = (f" before {describe_pole(model, min(ahead, key=lambda x: abs(x - phi)))}"
+              if ahead else "")
     return f"the field stops (dphi/dN = 0) at phi = {phi:.6g}, N = {N:.6g} and turns back{target}"
 
 

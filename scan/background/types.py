@@ -30,7 +30,7 @@ class PoleCrossing:
     Attributes
     ----------
     index : int
-        Pole index in position order.
+        Pole number in the config's order (``model.poles[index]``), not position order.
     position : float
         φᵢ [M_p].
     N_cross : float

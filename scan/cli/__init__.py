@@ -22,8 +22,8 @@ from scan.cli import failure
 from scan.errors import ZetascanError
 
 #: Verb modules, in the order ``zetascan --help`` lists them.
-VERBS: tuple[str, ...] = ("solve", "observe", "curves", "train", "sample", "evidence", "verify",
-                          "summary", "grid", "plot", "demo")
+VERBS: tuple[str, ...] = ("solve", "tune", "observe", "curves", "train", "sample", "evidence",
+                          "verify", "summary", "grid", "plot", "demo")
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -45,6 +45,8 @@ class PoleSection:
         "sharpness (for p = 1 the canonical eta_V = V_chichi/V on either side of the pole; the "
         "field stalls for lambda below ~3/4); fixes the width from the potential", None,
         minimum=0.0, exclusive_minimum=True)
+    wall_ratio: float | None = spec("lambda_i / lambda_w instead of width or sharpness", None,
+                                    minimum=0.0, exclusive_minimum=True)
     power: float = spec("pole power p_i; 0 < p < 2 is integrable (p >= 2 gives an invalid "
                         "model: infinite field distance)", minimum=0.0, exclusive_minimum=True)
 
@@ -92,10 +94,9 @@ class ModelSection:
                               "kinetic = 'plugin' needs kinetic_function",
                               "give 'package.module:function', e.g. \"mypackage.models:K\"")
         for i, pole in enumerate(self.poles):
-            if (pole.width is None) == (pole.sharpness is None):
+            if sum(getattr(pole, k) is not None for k in ("width", "sharpness", "wall_ratio")) != 1:
                 raise ConfigError(source, f"{where}.poles[{i}]",
-                                  "give exactly one of width and sharpness",
-                                  "set width (M_p) or sharpness (dimensionless), not both")
+                                  "give exactly one of width, sharpness and wall_ratio")
         for key in ("potential_function", "potential_derivative", "kinetic_function"):
             value = getattr(self, key)
             if value and (":" not in value or value.startswith(":") or value.endswith(":")):

@@ -25,8 +25,9 @@ hashable and picklable.
 from scan.models.canonical import canonical_field
 from scan.models.functions import (FD_STEP, Kernel, Singular, central_derivative, estimate_power,
                                    kernel, kinetic_functions, resolve)
-from scan.models.types import KINETICS, POTENTIALS, Model, Pole, model_from_section
+from scan.models.types import (KINETICS, POTENTIALS, Model, Pole, model_from_section,
+                               pole_number)
 
 __all__ = ["FD_STEP", "KINETICS", "POTENTIALS", "Kernel", "Model", "Pole", "Singular",
            "canonical_field", "central_derivative", "estimate_power", "kernel",
-           "kinetic_functions", "model_from_section", "resolve"]
+           "kinetic_functions", "model_from_section", "pole_number", "resolve"]

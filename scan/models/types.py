@@ -218,6 +218,17 @@ def model_from_section(section) -> Model:
                                                section.kinetic_singular_points))
 
 
+def pole_number(model: Model, position: float) -> int:
+    """The config number of the pole (or plug-in singular point) at ``position``.
+
+    Poles are numbered in the order the config lists them (``model.poles[i]``, or
+    ``model.kinetic_singular_points[i]`` for a plug-in K), never by position; -1 if no
+    pole sits there.
+    """
+    listed = [p.position for p in model.poles] or list(model.kinetic_singular_points)
+    return listed.index(position) if position in listed else -1
+
+
 # ----- kinetic functions and their singular points -----
 
 

@@ -12,7 +12,9 @@ Layout (every dataset has a ``units`` attribute):
   ``n_s_slow_roll``, ``r_slow_roll``, ``eps1``, ``eps2``, ``eps3``, ``source``;
 * ``spectrum/``: ``k`` [Mpc^-1], ``P_zeta``, ``P_tensor``, ``N_exit``; attributes ``k_peak``,
   ``P_peak``, ``k_dip``, ``P_dip``, ``n_s``, ``r``, ``alpha_s``, ``A_s``, ``V0``, ``N_star``,
-  ``usr_efolds``, ``valid``, ``reason``;
+  ``usr_efolds``, ``valid``, ``reason``; ``peaks``: one row per peak of P_ζ (compound:
+  ``pole``, ``k``, ``P_zeta``, ``f_gw``, ``omega_gw_h2``, ``M_pbh``, ``f_pbh``; units per
+  column as attributes ``units_<column>``);
 * ``gw/``: ``f`` [Hz], ``k`` [Mpc^-1], ``omega_gw_h2``; attributes ``f_peak``, ``omega_gw_h2_peak``;
 * ``pbh/``: ``M`` [M_sun], ``M_g`` [g], ``f_pbh`` (per ln M); attribute ``f_pbh_total`` and
   every convention (window, criterion, threshold, gamma_c, K, ...).
@@ -29,6 +31,7 @@ import numpy as np
 from scan import store
 from scan.config.schema import RunConfig
 from scan.observables import Observables, cosmo
+from scan.pipeline.peaks import UNITS, as_records
 from scan.pipeline.solve import SolveResult
 
 _BACKGROUND_UNITS = {"N": "e-folds", "phi": "M_p", "chi": "M_p", "dchi_dN": "M_p",
@@ -94,6 +97,13 @@ def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
         "n_s": s.n_s, "r": s.r, "alpha_s": s.alpha_s, "A_s": s.A_s, "V0": s.V0,
         "N_star": s.N_star, "k_star": s.k_star, "usr_efolds": s.usr_efolds,
         "valid": s.valid, "reason": s.reason, "units_k_peak": "Mpc^-1", "units_V0": "M_p^4"})
+    peaks = store.write_dataset(group, "peaks", as_records(result.peaks),
+                                "; ".join(f"{k}: {u}" for k, u in UNITS.items()),
+                                "every peak of P_zeta (prominence >= 1 dex), one row each: "
+                                "pole (config number), k, P_zeta, Omega_GW h^2 maximum "
+                                "(f_gw, omega_gw_h2) and f_PBH per ln M maximum (M_pbh, "
+                                "f_pbh) in the peak's share of the axis")
+    store.write_attrs(peaks, {f"units_{k}": u for k, u in UNITS.items()})
 
 
 def write_observables(handle: h5py.Group, obs: Observables) -> None:

@@ -6,17 +6,24 @@ call :func:`solve_config`.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
+from functools import lru_cache
+from types import SimpleNamespace
 
 from scan.background import Background, solve_background
 from scan.background.pivot import Pivot, Reheating, solve_pivot
 from scan.config.schema import RunConfig
+from scan.errors import ConfigError
 from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
 from scan.observables import Observables
 from scan.observables.pbh.deltan import peak_map
 from scan.observables.settings import settings_of
+from scan.pipeline.peaks import Peak, describe, peak_table
+from scan.pipeline.validity import feature_at_pivot, poles_on_cmb_scales
+from scan.pipeline.wall import NoWall, locate_wall
 
 #: E-folds the background must provide before the pivot exits (initial data of the
 #: pivot modes start ~ln(x_in) e-folds earlier; common practice: a few e-folds more).
@@ -38,6 +45,8 @@ class SolveResult:
     valid : bool
     reason : str
         The first stage's reason for an invalid model ("" when valid).
+    peaks : tuple of Peak
+        Every peak of P_ζ (:mod:`scan.pipeline.peaks`), in increasing k.
     """
 
     model: Model
@@ -47,6 +56,7 @@ class SolveResult:
     valid: bool
     reason: str
     observables: Observables | None = None
+    peaks: tuple[Peak, ...] = ()
 
     def summary_lines(self) -> list[str]:
         """A short human summary (the CLI prints it)."""
@@ -83,12 +93,77 @@ class SolveResult:
                              f"({o.zeta_map.kind}, f_NL at the peak "
                              f"{o.zeta_map.f_nl_equivalent():.3g})")
             lines += [f"note: {note}" for note in o.notes]
+        lines += [describe(peak, i) for i, peak in enumerate(self.peaks)]
         return lines
 
 
 def model_of(config: RunConfig) -> Model:
-    """The :class:`Model` a config describes."""
-    return model_from_section(config.model)
+    """The :class:`Model` a config describes (a ``wall_ratio`` pole resolved by
+    :func:`resolve_walls`)."""
+    return model_from_section(resolve_walls(config).model)
+
+
+def resolve_walls(config: RunConfig) -> RunConfig:
+    """``config`` with a pole given by ``wall_ratio`` ρ given by its sharpness ρ λ_w.
+
+    Raises
+    ------
+    ConfigError
+        If more than one pole uses ``wall_ratio``, or the pole has no wall.
+    """
+    poles = config.model.poles
+    walled = [i for i, p in enumerate(poles) if getattr(p, "wall_ratio", None) is not None]
+    if not walled:
+        return config
+    if len(walled) > 1:
+        raise ConfigError(config.source, f"model.poles[{walled[1]}].wall_ratio",
+                          "only one pole may be given by wall_ratio",
+                          "give the others a width or a sharpness")
+    i = walled[0]
+    lam_w = wall_sharpness(config, i)
+    pole = dataclasses.replace(poles[i], wall_ratio=None,
+                               sharpness=poles[i].wall_ratio * lam_w)
+    return dataclasses.replace(config, model=dataclasses.replace(
+        config.model, poles=poles[:i] + (pole,) + poles[i + 1:]))
+
+
+def wall_sharpness(config: RunConfig, pole: int) -> float:
+    """λ_w of pole ``pole`` (:mod:`scan.pipeline.wall`), cached per model and settings."""
+    poles = config.model.poles
+    blank = dataclasses.replace(poles[pole], wall_ratio=1.0, width=None, sharpness=None)
+    section = dataclasses.replace(config.model, poles=poles[:pole] + (blank,) + poles[pole + 1:])
+    try:  # one wall per model whatever the ratio asked for (the cache key has rho = 1)
+        return _wall(section, pole, config.background, config.pivot)
+    except NoWall as err:
+        raise ConfigError(config.source, f"model.poles[{pole}].wall_ratio",
+                          f"this pole has no wall ({err})",
+                          "give its width or sharpness instead") from None
+
+
+@lru_cache(maxsize=512)
+def _wall(section, pole: int, background, pivot_section) -> float:
+    shim = SimpleNamespace(background=background, pivot=pivot_section)
+
+    def valid_at(sharpness: float) -> bool:
+        entry = dataclasses.replace(section.poles[pole], wall_ratio=None, width=None,
+                                    sharpness=sharpness)
+        model = model_from_section(dataclasses.replace(
+            section, poles=section.poles[:pole] + (entry,) + section.poles[pole + 1:]))
+        bg = solve_background_of(shim, model)
+        if not bg.valid:
+            return False
+        pivot = _pivot_of(shim, bg)
+        return pivot.valid and not poles_on_cmb_scales(bg, pivot.N_star, pivot.k_star)
+
+    return locate_wall(valid_at)
+
+
+def _pivot_of(config, bg: Background) -> Pivot:
+    """The CMB pivot of a background with the config's ``[pivot]`` settings."""
+    return solve_pivot(bg, N_star=config.pivot.n_star, k_star=config.pivot.k_star,
+                       reheating=reheating_of(config),
+                       A_s=math.exp(config.pivot.ln_1e10_As) * 1e-10,
+                       margin=PIVOT_MARGIN_EFOLDS)
 
 
 def reheating_of(config: RunConfig) -> Reheating:
@@ -154,8 +229,7 @@ def solve_config(config: RunConfig, *, with_modes: bool = True,
         return SolveResult(model, bg, None, None, False, f"background: {bg.reason}")
     reheating = reheating_of(config)
     A_s = math.exp(config.pivot.ln_1e10_As) * 1e-10
-    pivot = solve_pivot(bg, N_star=config.pivot.n_star, k_star=config.pivot.k_star,
-                        reheating=reheating, A_s=A_s, margin=PIVOT_MARGIN_EFOLDS)
+    pivot = _pivot_of(config, bg)
     if not pivot.valid:
         return SolveResult(model, bg, pivot, None, False, f"pivot: {pivot.reason}")
     if not with_modes:
@@ -166,8 +240,12 @@ def solve_config(config: RunConfig, *, with_modes: bool = True,
                                 settings=mode_settings_of(config), N_star_guess=pivot.N_star)
     if not spectrum.valid:
         return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {spectrum.reason}")
+    on_pivot = feature_at_pivot(spectrum, bg)
+    if on_pivot:
+        return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {on_pivot}")
     observables = observables_of(config, spectrum, bg) if with_observables else None
-    return SolveResult(model, bg, pivot, spectrum, True, "", observables)
+    return SolveResult(model, bg, pivot, spectrum, True, "", observables,
+                       peak_table(spectrum, bg, observables))
 
 
 def _n_star_rule(config: RunConfig, bg: Background, reheating: Reheating, A_s: float):

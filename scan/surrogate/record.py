@@ -10,6 +10,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from scan.pipeline.validity import FEATURE_REASON, TILT_LIMIT, tilt_off
+
 #: Scalar targets of a record, in the order of :func:`scalar_targets` columns.
 SCALARS: tuple[str, ...] = ("ln_k_peak", "log10_P_peak", "n_s", "log10_r", "log10_V0",
                             "N_star")
@@ -69,20 +71,18 @@ class TrainingRecord:
                          self.N_star], float)
 
 
-#: A spectrum whose tilt at the CMB pivot is this far from 1 has its feature (the stall)
-#: at CMB scales: the pivot exits outside slow roll.  Such models are outside the
-#: surrogate's domain (treated as invalid; the CMB priors rule them out anyway).  Measured
-#: on the pole scan: every such model has |n_s - 1| > 1 and its peak within 7 e-folds of
-#: the pivot, every other one |n_s - 1| < 0.06.
-CMB_TILT_LIMIT = 0.5
+#: A spectrum whose tilt at the CMB pivot is far from 1 has its feature (the stall) at CMB
+#: scales.  The rule is the pipeline's (:mod:`scan.pipeline.validity`, which an exact solve
+#: already applies); it is applied here again to records of stores written before it.
+CMB_TILT_LIMIT = TILT_LIMIT
 #: The reason given to those models.
-CMB_FEATURE_REASON = "feature at CMB scales: the pivot exits outside slow roll (|n_s - 1| > 0.5)"
+CMB_FEATURE_REASON = (f"{FEATURE_REASON}: the pivot exits outside slow roll "
+                      f"(|n_s - 1| > {TILT_LIMIT:g})")
 
 
 def cmb_feature(n_s: np.ndarray) -> np.ndarray:
     """True where a (valid) spectrum's pivot tilt puts its feature at CMB scales."""
-    with np.errstate(invalid="ignore"):
-        return np.abs(np.asarray(n_s, float) - 1.0) > CMB_TILT_LIMIT
+    return tilt_off(n_s)
 
 
 def invalid_record(params: np.ndarray, reason: str, n_x: int) -> TrainingRecord:

@@ -49,7 +49,7 @@ from typing import Any
 import numpy as np
 
 from scan.observables.pbh.conventions import NEGLIGIBLE_FPBH
-from scan.posterior.reasons import Reason
+from scan.posterior.reasons import of_exact_solve
 from scan.surrogate.validate import error_stats
 from scan.verify.importance import kish_ess, median_shift, normalised_weights, weighted_quantiles
 
@@ -135,7 +135,8 @@ def score_outcomes(target: Any, thetas: np.ndarray, outcomes: Sequence[Any]) -> 
     thetas = np.atleast_2d(np.asarray(thetas, float))
     log_q, blobs_q = target.log_and_blobs(thetas)
     obs = [o.observables for o in outcomes]
-    reason = np.array([0 if ob is not None else Reason.INVALID_MODEL for ob in obs], dtype=np.int16)
+    reason = np.array([0 if o.observables is not None else of_exact_solve(str(o.reason))
+                       for o in outcomes], dtype=np.int16)
     log_p, blobs_p = target.score(thetas, reason, obs)
     return Evaluated(thetas, np.asarray(log_q, float), blobs_q, np.asarray(log_p, float),
                      blobs_p, tuple(str(o.reason) for o in outcomes),
