@@ -1,11 +1,17 @@
 """Result files: atomic writes, provenance, units attributes."""
 from __future__ import annotations
 
+import os
+import subprocess
+import sys
+import time
+
 import h5py
 import numpy as np
 import pytest
 
 from scan import store
+from scan.errors import InputFileError
 
 
 def test_atomic_write_renames_on_success(tmp_path):
@@ -44,3 +50,35 @@ def test_reading_a_non_result_file_is_a_clear_error(tmp_path):
     junk.write_text("not hdf5")
     with pytest.raises(InputFileError, match="cannot open as HDF5"):
         store.read_config_text(junk)
+
+
+def test_run_lock_names_the_holder_and_frees_on_exit(tmp_path):
+    # issue 19 item 4: a second writer is refused with the holder's PID; the OS frees the
+    # lock when its holder ends (even by SIGKILL); one holder within this process too
+    path = tmp_path / "run" / "chain.h5"
+    script = ("import sys, time; from scan.store import RunLock; "
+              f"lock = RunLock({str(path)!r}); print('held', flush=True); time.sleep(60)")
+    holder = subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE,
+                              text=True)
+    try:
+        assert holder.stdout.readline().strip() == "held"
+        assert store.holder_pid(path) == holder.pid
+        with pytest.raises(InputFileError, match=f"process {holder.pid} is writing"):
+            store.RunLock(path, "wait for it")
+    finally:
+        holder.kill()
+        holder.wait()
+    deadline = time.monotonic() + 10
+    while True:  # the kernel drops the dead holder's lock
+        try:
+            outer = store.RunLock(path)
+            break
+        except InputFileError:
+            assert time.monotonic() < deadline
+            time.sleep(0.05)
+    with outer:
+        assert outer.held and store.holder_pid(path) == os.getpid()
+        with pytest.raises(InputFileError, match=f"process {os.getpid()}"):
+            store.RunLock(path)  # one holder, in this process too
+    assert not outer.held
+    store.RunLock(path).release()

@@ -32,12 +32,16 @@ from scan.grid.plan import GridPlan, plan_grid
 from scan.grid.store import GridWriter, create_grid_file, file_digest, grid_path, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
+from scan.store import RunLock
 from scan.posterior.build import posterior_target
 from scan.likelihood.from_config import curve_paths_of
 from scan.posterior.setup import NUISANCE_NAMES
 
 #: Config keys that may change between invocations of one grid: they change nothing in it.
 RESUMABLE_PREFIXES: tuple[str, ...] = ("sampler.", "grid.progress_every_s")
+#: What to do when another process writes the grid file (the lock names its PID).
+BUSY = ("another zetascan grid is writing this file; wait for it to finish or stop it "
+        "first (--restart too waits: it would delete the file under it)")
 #: Nuisance parameters of exact-solve grids: those read by the likelihood terms only.
 EXACT_NUISANCE: tuple[str, ...] = ("A_smbhb",)
 
@@ -195,9 +199,23 @@ def run_grid(run: GridRun, pool: BasePool, *, resume: bool = False, restart: boo
         ``progress(done, total)`` after every group.
     group : int, optional
         Blocks per pool call (default: twice the pool's workers).
+
+    Raises
+    ------
+    InputFileError
+        Another process writes the grid file (named by its PID; ``restart`` deletes
+        nothing then).
     """
+    with RunLock(run.path, BUSY) as lock:
+        return _run_locked(run, pool, lock, resume, restart, should_stop, progress, group)
+
+
+def _run_locked(run: GridRun, pool: BasePool, lock: RunLock, resume: bool, restart: bool,
+                should_stop: Callable[[], bool], progress: Callable[[int, int], None] | None,
+                group: int | None) -> GridOutcome:
+    """:func:`run_grid` while holding the grid file's lock."""
     resumed = open_grid(run, resume=resume, restart=restart)
-    with GridWriter(run.path, run.infos) as writer:
+    with GridWriter(run.path, run.infos, lock) as writer:
         pending = set(writer.pending.tolist())
         blocks = [b for b in run.plan.blocks() if pending.intersection(b.tolist())]
         size = group or max(1, 2 * pool.workers)

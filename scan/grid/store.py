@@ -38,7 +38,7 @@ from scan.grid.evaluate import DERIVED, BlockResult
 from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative, relative_status
-from scan.store import SingleWriter, provenance, write_attrs, write_config
+from scan.store import RunLock, SingleWriter, provenance, write_attrs, write_config
 
 KIND = "zetascan grid"
 
@@ -140,14 +140,17 @@ class GridWriter(SingleWriter):
     path : str or Path
     infos : list of TermInfo
         The constraints, in the order of the workers' term arrays.
+    lock : RunLock, optional
+        The file's lock when the caller holds it (:func:`scan.grid.run.run_grid`).
     """
 
-    def __init__(self, path: str | Path, infos: list[TermInfo]) -> None:
+    def __init__(self, path: str | Path, infos: list[TermInfo],
+                 lock: RunLock | None = None) -> None:
         self.infos = list(infos)
         # HDF5's own file lock is off for the writer: the lock file keeps writers out,
         # and a reader that opened the file a moment earlier must not block it
-        super().__init__(path, "another zetascan grid is writing this file; wait for it or "
-                         "stop it first", hdf5_locking=False)
+        super().__init__(path, "another zetascan grid is writing this file; wait for it to "
+                         "finish or stop it first", hdf5_locking=False, lock=lock)
         g = self.handle["grid"]
         self.nx = g["x"].shape[0]
         self.done, self.valid = g["done"][()], g["valid"][()]

@@ -38,6 +38,9 @@ from scan.sampler.evaluate import Evaluator
 
 #: Rounds of redrawing initial walkers whose log-probability is -inf.
 START_ATTEMPTS = 100
+#: What to do when another process writes the chain (the lock's message names its PID).
+BUSY = ("another zetascan command is running on this chain; wait for it to finish or stop "
+        "it first (--restart too waits: it would delete the file under it)")
 
 
 class ConfigMismatchError(ZetascanError):
@@ -186,7 +189,18 @@ def run_chain(plan: RunPlan, pool: BasePool, *, restart: bool = False,
     ------
     ConfigMismatchError
         The run file was made with a different config (and ``restart`` is False).
+    InputFileError
+        Another process writes this run file (the message names its PID); ``restart``
+        deletes nothing then.
     """
+    with store.RunLock(plan.path, BUSY):
+        return _run_locked(plan, pool, restart, should_stop, on_progress)
+
+
+def _run_locked(plan: RunPlan, pool: BasePool, restart: bool,
+                should_stop: Callable[[], bool],
+                on_progress: Callable[[Progress], None] | None) -> RunOutcome:
+    """:func:`run_chain` while holding the run file's lock."""
     section, policy = plan.config.sampler, Policy.from_section(plan.config.sampler)
     stored = _open(plan, restart)
     if stored is None:

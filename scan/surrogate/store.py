@@ -30,7 +30,8 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import SingleWriter, config_hash, provenance, put_rows, write_config
+from scan.store import (RunLock, SingleWriter, config_hash, provenance, put_rows,
+                        write_config)
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
 
@@ -110,12 +111,15 @@ def stored_config_hash(path: str | Path) -> str:
     return config_hash(raw.decode() if isinstance(raw, bytes) else str(raw))
 
 
+#: What to do when another process writes the store (the lock names its PID).
+BUSY = "another zetascan train is writing this training store; wait for it or stop it first"
+
+
 class StoreWriter(SingleWriter):
     """The one writer of a training store (open in SWMR mode; use as a context manager)."""
 
-    def __init__(self, path: str | Path) -> None:
-        super().__init__(path, "another training run is writing this store; wait for it or "
-                         "stop it first")
+    def __init__(self, path: str | Path, lock: RunLock | None = None) -> None:
+        super().__init__(path, BUSY, lock=lock)
 
     def add_plan(self, u: np.ndarray, stage: int, seq: np.ndarray) -> np.ndarray:
         """Append planned unit-cube points (``seq`` last); return their plan indices.

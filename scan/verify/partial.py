@@ -249,8 +249,7 @@ class PartialWriter(SingleWriter):
         if self.handle.id.valid:
             self.handle.close()
         self.path.unlink(missing_ok=True)
-        Path(self._lock.name).unlink(missing_ok=True)  # still held: nobody else got it
-        self._lock.close()
+        self._lock.release(remove=True)  # still held: nobody else got it
 
     def rows(self) -> dict[int, int]:
         """Sample index -> row of every complete row (the first, should one repeat)."""

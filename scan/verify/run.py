@@ -45,6 +45,9 @@ from scan.verify.compare import (MIN_SAMPLES, Evaluated, Thresholds, compare, dr
 from scan.verify.partial import draw_of, open_partial
 
 GROUP = "verify"
+#: What to do when another process writes the chain (the lock names its PID).
+BUSY = ("another zetascan command is writing this chain (sample or verify); wait for it to "
+        "finish or stop it first")
 #: Units of the blob fields the posterior target writes (others: "unspecified").
 BLOB_UNITS: dict[str, str] = {"k_peak": "Mpc^-1", "P_peak": "1", "f_gw_peak": "Hz",
                               "omega_gw_h2_peak": "1", "f_pbh_total": "1",
@@ -206,7 +209,8 @@ def verify_run(run: Run, samples: int, pool: BasePool,
     Raises
     ------
     InputFileError
-        ``resume`` of partial results of another draw (the message says what differs).
+        ``resume`` of partial results of another draw (the message says what differs);
+        another process writes the chain file (named by its PID).
     """
 
     check_samples(run, samples)
@@ -219,8 +223,9 @@ def verify_run(run: Run, samples: int, pool: BasePool,
                       lambda i, _theta, outcome: kept.__setitem__(i, outcome), on_progress)
         return assemble(run, index, [kept[int(i)] for i in index], solver, thresholds)
     draw = draw_of(run, index, solver)
-    with open_partial(run.path, draw, run.samples.shape[1], run.config, resume,
-                      log) as partial:
+    with store.RunLock(run.path, BUSY), \
+            open_partial(run.path, draw, run.samples.shape[1], run.config, resume,
+                         log) as partial:
         solve_missing(pool, exact, run.samples, index, set(partial.rows()), partial.append,
                       on_progress)
         result = assemble(run, index, partial.outcomes(index), solver, thresholds)

@@ -25,6 +25,7 @@ import numpy as np
 
 from scan import __version__
 from scan.errors import InputFileError
+from scan.store.lock import RunLock
 
 #: Distributions whose versions go into every result file.
 DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib")
@@ -126,8 +127,8 @@ def read_config_text(path: str | Path) -> str:
     return raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
 
 
-def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = None
-                       ) -> tuple[Any, h5py.File]:
+def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = None,
+                       lock: RunLock | None = None) -> tuple[RunLock, h5py.File]:
     """Become the one writer of an append-only HDF5 file: lock file, then SWMR mode.
 
     Parameters
@@ -138,27 +139,24 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
         The message when another process holds the lock (what is writing, what to do).
     hdf5_locking : bool, optional
         HDF5's own file locking (h5py's ``locking``; default: the library's).
+    lock : RunLock, optional
+        The file's lock, already held by the caller (a command that holds it for its
+        whole run); default: take it here.
 
     Returns
     -------
     lock, handle
-        The open lock file (close it to release) and the file open "r+" in SWMR mode;
+        The held :class:`~scan.store.lock.RunLock` (release it when done) and the file
+        open "r+" in SWMR mode;
         a file left flagged by a killed writer is first rewritten (:func:`recover_store`).
 
     Raises
     ------
     InputFileError
-        Another writer holds the lock.
+        Another writer holds the lock (the message names its PID).
     """
-    import fcntl
-
-    path = Path(path)
-    lock = open(path.with_name(path.name + ".lock"), "w")
-    try:
-        fcntl.flock(lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
-    except BlockingIOError:
-        lock.close()
-        raise InputFileError(str(path), busy) from None
+    own = lock is None
+    lock = RunLock(path, busy) if own else lock
     try:
         try:
             handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
@@ -168,7 +166,8 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
             recover_store(path)
             handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
     except BaseException:
-        lock.close()
+        if own:
+            lock.release()
         raise
     handle.swmr_mode = True
     return lock, handle
@@ -185,7 +184,8 @@ def put_rows(dset: h5py.Dataset, start: int, rows: Any) -> None:
 
 class SingleWriter:
     """The one writer of an append-only HDF5 file (:func:`open_single_writer`), as a
-    context manager: :meth:`close` flushes and closes the file and releases the lock.
+    context manager: :meth:`close` flushes and closes the file and releases the lock it
+    took (a lock handed in stays with the caller).
 
     Attributes
     ----------
@@ -194,10 +194,11 @@ class SingleWriter:
         Open "r+" in SWMR mode.
     """
 
-    def __init__(self, path: str | Path, busy: str, hdf5_locking: bool | None = None
-                 ) -> None:
+    def __init__(self, path: str | Path, busy: str, hdf5_locking: bool | None = None,
+                 lock: RunLock | None = None) -> None:
         self.path = Path(path)
-        self._lock, self.handle = open_single_writer(self.path, busy, hdf5_locking)
+        self._own_lock = lock is None
+        self._lock, self.handle = open_single_writer(self.path, busy, hdf5_locking, lock)
 
     def __enter__(self) -> "SingleWriter":
         return self
@@ -206,11 +207,12 @@ class SingleWriter:
         self.close()
 
     def close(self) -> None:
-        """Flush and close (and release the lock file)."""
+        """Flush and close (and release the lock, unless the caller handed it in)."""
         if self.handle.id.valid:
             self.handle.flush()
             self.handle.close()
-        self._lock.close()
+        if self._own_lock:
+            self._lock.release()
 
 
 def recover_store(path: str | Path) -> None:

@@ -1,0 +1,16 @@
+"""Result files: HDF5 helpers and provenance, the one-writer lock, run-folder paths, and
+the one table of file kinds (what a file is, asked in one place).
+
+* :mod:`scan.store.hdf5` — layout helpers, provenance, config hash, atomic writes, the
+  append-only single writer;
+* :mod:`scan.store.lock` — ``<file>.lock``: one writer per run file, named by its PID;
+"""
+from scan.store.hdf5 import (DEPENDENCIES, SingleWriter, atomic_h5, config_hash, git_hash,
+                             open_single_writer, provenance, put_rows, read_config_text,
+                             recover_store, write_attrs, write_config, write_dataset)
+from scan.store.lock import RunLock, holder_pid, lock_path
+
+__all__ = ["DEPENDENCIES", "RunLock", "SingleWriter", "atomic_h5", "config_hash", "git_hash",
+           "holder_pid", "lock_path", "open_single_writer", "provenance", "put_rows",
+           "read_config_text", "recover_store", "write_attrs", "write_config",
+           "write_dataset"]
