@@ -192,3 +192,17 @@ def test_a_second_sample_on_a_running_chain_exits_2_naming_the_first(tmp_path, c
     code = main(["sample", str(config), "--set", f"sampler.max_steps={n + 20}"])
     assert code == 0  # and it resumes once the first has ended
     assert f"{n + 20} steps (20 in this run, resumed)" in capsys.readouterr().out
+
+
+def test_a_moved_run_folder_resumes_from_its_new_place(tmp_path, capsys):
+    # issue 19 item 5: where the folder sits is not part of the run's identity
+    (tmp_path / "old").mkdir()
+    config = write_config(tmp_path / "old", 150)
+    assert main(["sample", str(config)]) == 0
+    (tmp_path / "new").mkdir()
+    (tmp_path / "old" / "g").rename(tmp_path / "new" / "g")
+    capsys.readouterr()
+    assert main(["sample", str(config), "--set", f"run.output_dir='{tmp_path / 'new'}'",
+                 "--set", "sampler.max_steps=180"]) == 0
+    assert "180 steps (30 in this run, resumed)" in capsys.readouterr().out
+    assert not (tmp_path / "old" / "g").exists()

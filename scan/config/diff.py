@@ -6,6 +6,7 @@ from typing import Any
 from scan.config.load import load_config_text
 from scan.config.schema import RunConfig
 from scan.config.spec import as_dict
+from scan.store import LOCATION_KEYS
 
 #: Keys that may change between invocations of the same run: they do not change the
 #: chain's steps, only when it stops, how often it is written and what is printed.
@@ -17,8 +18,9 @@ RESUMABLE_SECTIONS: tuple[str, ...] = ("grid.",)
 
 
 def resumable(key: str) -> bool:
-    """True if a change of ``key`` does not prevent resuming a chain."""
-    return key in RESUMABLE_KEYS or key.startswith(RESUMABLE_SECTIONS)
+    """True if a change of ``key`` does not prevent resuming a chain (where the run
+    folder sits, :data:`scan.store.LOCATION_KEYS`, is not part of a run's identity)."""
+    return key in RESUMABLE_KEYS or key in LOCATION_KEYS or key.startswith(RESUMABLE_SECTIONS)
 
 
 def flatten(value: Any, prefix: str = "") -> dict[str, Any]:

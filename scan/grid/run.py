@@ -32,7 +32,8 @@ from scan.grid.plan import GridPlan, plan_grid
 from scan.grid.store import GridWriter, create_grid_file, file_digest, grid_path, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
-from scan.store import RunLock
+from scan.store import (LOCATION_KEYS, RunLock, check_curves, curve_attrs, curve_digests,
+                        stored_digests)
 from scan.posterior.build import posterior_target
 from scan.likelihood.from_config import curve_paths_of
 from scan.posterior.setup import NUISANCE_NAMES
@@ -60,6 +61,7 @@ class GridRun:
     infos: list[TermInfo]
     path: Path
     digests: dict[str, str]
+    curves: dict[str, str] = dataclasses.field(default_factory=dict)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -112,7 +114,7 @@ def plan_grid_run(config: RunConfig, path: str | Path | None = None) -> GridRun:
     digests["curves_sha256"] = file_digest(list(paths))
     infos = describe_terms(worker.terms, curve_labels(paths))
     return GridRun(config, plan, worker, infos, Path(path) if path else grid_path(config),
-                   digests)
+                   digests, curve_digests(paths))
 
 
 def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:
@@ -135,7 +137,7 @@ def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:
     old = stored_config(stored["config_text"], stored["overrides"],
                         str(stored["attrs"].get("run_name", config.run.name)))
     rows = [row for row in config_diff(old, config)
-            if not row[0].startswith(RESUMABLE_PREFIXES)]
+            if not row[0].startswith(RESUMABLE_PREFIXES) and row[0] not in LOCATION_KEYS]
     if rows:
         raise GridMismatchError(
             f"{path}: this grid was started with a different config: {format_diff(rows)} "
@@ -147,6 +149,7 @@ def _check_resumable(run: GridRun) -> None:
     """Refuse a grid file made from another config, surrogate, curves or constraints."""
     check_config(run.config, run.path, resume=True)
     stored = read_grid(run.path)
+    check_curves(run.path, stored_digests(stored["attrs"]), run.curves)
     for key, value in run.digests.items():
         if str(stored["attrs"].get(key)) != value:
             what = "surrogate file" if key.startswith("surrogate") else "bound-curve files"
@@ -175,7 +178,8 @@ def open_grid(run: GridRun, *, resume: bool, restart: bool) -> bool:
             check_config(run.config, run.path, resume=False)  # raises: neither flag
         _check_resumable(run)
         return True
-    create_grid_file(run.path, run.config, run.plan, run.infos, run.digests)
+    create_grid_file(run.path, run.config, run.plan, run.infos,
+                     {**run.digests, **curve_attrs(run.curves)})
     return False
 
 

@@ -3,7 +3,8 @@
 Layout (every dataset has a ``units`` attribute; arrays are (ny, nx), row j = y[j]):
 
 * root attributes: provenance (:func:`scan.store.provenance`), ``kind``, ``run_name``,
-  ``surrogate_sha256`` and ``curves_sha256`` (what the grid was computed from); dataset
+  ``surrogate_sha256`` and ``curves_sha256`` (what the grid was computed from), and
+  ``curve_files``/``curve_sha256`` per curve file (:mod:`scan.store.identity`); dataset
   ``config`` (the TOML text and its overrides);
 * group ``grid``, attributes ``x_key, y_key, x_label, y_label, x_scale, y_scale`` (linear
   or log), ``source``, ``profile``, ``parameter_keys``, ``nuisance_names``,
@@ -67,7 +68,7 @@ def _full(group: h5py.Group, name: str, shape: tuple[int, ...], fill: Any, dtype
 
 
 def create_grid_file(path: str | Path, config: Any, plan: GridPlan, infos: list[TermInfo],
-                     digests: dict[str, str]) -> None:
+                     digests: dict[str, Any]) -> None:
     """Write an empty grid file under a temporary name and rename it into place."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)

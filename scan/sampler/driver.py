@@ -55,6 +55,7 @@ class RunPlan:
     priors: PriorSet
     target: TargetBase
     path: Path
+    curves: dict[str, str] = dataclasses.field(default_factory=dict)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -102,7 +103,8 @@ def plan_run(config: RunConfig, path: str | Path | None = None) -> RunPlan:
         raise ConfigError(config.source, "sampler.walkers",
                           f"{config.sampler.walkers} walkers for {priors.dim} parameters",
                           f"use at least 2 x {priors.dim} = {2 * priors.dim} walkers")
-    return RunPlan(config, priors, target, Path(path) if path else runfile.run_path(config))
+    return RunPlan(config, priors, target, Path(path) if path else runfile.run_path(config),
+                   store.curve_digests(target.curve_paths))
 
 
 def _check_resumable(plan: RunPlan, stored: runfile.Stored) -> bool:
@@ -163,6 +165,7 @@ def _open(plan: RunPlan, restart: bool) -> runfile.Stored | None:
     if stored.extras.names != plan.priors.names:
         raise ConfigMismatchError(f"{plan.path}: stored parameters {stored.extras.names} "
                                   f"differ from {plan.priors.names}; pass --restart")
+    store.check_curves(plan.path, stored.curves, plan.curves)
     if _check_resumable(plan, stored):
         runfile.update_config(plan.path, plan.config, stored.config_sha256)
     return stored if stored.iteration > 0 else None
@@ -211,7 +214,7 @@ def _run_locked(plan: RunPlan, pool: BasePool, restart: bool,
     evaluator = Evaluator(plan.target, pool, extras.counts)
     if stored is None:
         initial = _initial_walkers(plan, evaluator)
-        runfile.create(plan.path, plan.config, extras, initial.coords)
+        runfile.create(plan.path, plan.config, extras, initial.coords, plan.curves)
     extras.counts = evaluator.counts  # the same array: flushed as it grows
 
     backend = runfile.ChainBackend(plan.path, section.write_every, on_flush=extras.write)

@@ -3,7 +3,8 @@
 Layout (every dataset has a ``units`` attribute):
 
 * root attributes — provenance (:func:`scan.store.provenance`: versions, git hash, config
-  hash, seed) and ``run_name``; dataset ``config`` — the TOML text with its overrides;
+  hash, seed), ``run_name``, and ``curve_files``/``curve_sha256`` (the curve files read,
+  :mod:`scan.store.identity`); dataset ``config`` — the TOML text with its overrides;
 * group ``mcmc`` — emcee's HDF5 backend: ``chain``, ``log_prob``, ``blobs`` (a compound
   dtype with the named derived quantities and ``reason``), ``accepted``, the iteration and
   the sampler's random state (attributes ``random_state_0..4``);
@@ -18,7 +19,7 @@ since the last write.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -168,10 +169,13 @@ def run_path(config: RunConfig) -> Path:
     return Path(config.run.output_dir) / config.run.name / "chain.h5"
 
 
-def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray) -> None:
-    """Write a new run file (atomically): provenance, config, the ``sampler`` group."""
+def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
+           curves: Mapping[str, str] | None = None) -> None:
+    """Write a new run file (atomically): provenance, config, the digests of the curve
+    files read (:mod:`scan.store.identity`), the ``sampler`` group."""
     with store.atomic_h5(path) as handle:
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
+        store.write_attrs(handle, store.curve_attrs(curves or {}))
         handle.attrs["run_name"] = config.run.name
         store.write_config(handle, config.effective_text, config.overrides)
         extras.write(handle)
@@ -189,6 +193,7 @@ class Stored:
     run_name: str
     iteration: int
     extras: Extras
+    curves: dict[str, str] | None = None
 
 
 def read(path: str | Path) -> Stored:
@@ -212,7 +217,7 @@ def read(path: str | Path) -> Stored:
                           str(handle.attrs["config_sha256"]),
                           tuple(v for v in overrides if v != "none"),
                           str(handle.attrs.get("run_name", "run")), iteration,
-                          Extras.read(handle))
+                          Extras.read(handle), store.stored_digests(handle.attrs))
     except (OSError, KeyError) as err:
         raise InputFileError(str(path), f"cannot read the chain file ({err}); it may have "
                              "been damaged during a write: use --restart") from None
