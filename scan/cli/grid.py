@@ -8,10 +8,12 @@ import time
 from collections.abc import Callable
 
 from scan.config import load_config
-from scan.grid import grid_path, install_worker, plan_grid_run, run_grid, summary_lines
+from scan.grid import install_worker, plan_grid_run, run_grid, summary_lines
 from scan.grid.run import check_config, describe_plan
 from scan.pool import choose_pool
+from scan.store import RunFolder
 from scan.sampler.stop import EXIT_CODES, graceful_stop
+from scan.cli import with_plugin_note
 
 EXAMPLE = """examples:
   zetascan grid configs/pole_scan.toml --set 'grid.x="model.poles[0].position"' \\
@@ -39,7 +41,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                     "per point and constraint allowed / excluded / detectable (with the SNR), "
                     "ln L, k_peak, P_peak, f_PBH and the GW peak, written to "
                     "<output_dir>/<name>/grid.h5 as points finish.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", help="run configuration (TOML) with a [grid] table")
     again = parser.add_mutually_exclusive_group()
     again.add_argument("--resume", action="store_true",
@@ -92,8 +95,9 @@ def run(args: argparse.Namespace) -> int:
 
     overrides = list(args.overrides) + (['grid.source="exact"'] if args.exact else [])
     config = load_config(args.config, overrides=overrides)
-    if grid_path(config).exists() and not args.restart:
-        check_config(config, grid_path(config), args.resume)  # before loading anything
+    path = RunFolder.of(config).grid
+    if path.exists() and not args.restart:
+        check_config(config, path, args.resume)  # before loading anything
     grid_run = plan_grid_run(config)
     processes = args.processes
     if processes is None and not args.mpi and grid_run.plan.source == "exact":

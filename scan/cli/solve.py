@@ -8,6 +8,8 @@ from scan.config import load_config
 from scan.pipeline import SolveResult, solve_config
 from scan.pipeline.result_file import write_solve_result
 from scan.plots.solve import draw_solve_figures
+from scan.cli import with_plugin_note
+from scan.store import RunFolder
 
 EXAMPLE = """example:
   zetascan solve configs/tmodel_pole.toml
@@ -21,7 +23,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         "solve", help="solve one model exactly (background, pivot, modes, observables)",
         description="Solve the background and the Mukhanov–Sasaki modes of one model exactly, "
                     "normalise to the CMB, and write an HDF5 result with provenance.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", help="run configuration (TOML)")
     parser.add_argument("--out", metavar="FILE", default=None,
                         help="result file (default: <run.output_dir>/<run.name>.h5)")
@@ -34,7 +37,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 def run(args: argparse.Namespace) -> int:
     """Solve, write, summarise; exit 0 even for an invalid model (the file says why)."""
     config = load_config(args.config, overrides=args.overrides)
-    out = Path(args.out) if args.out else Path(config.run.output_dir) / f"{config.run.name}.h5"
+    out = Path(args.out) if args.out else RunFolder.of(config).solve_result
     result = solve_config(config)
     write_solve_result(out, config, result)
     figures = [] if args.no_figures else _draw_figures(out, result)

@@ -7,6 +7,7 @@ from pathlib import Path
 
 from scan.errors import InputFileError
 from scan.sampler.summary import summarize
+from scan.store import RunFolder
 
 EXAMPLE = """examples:
   zetascan summary results/gaussian_test            # the run folder or its chain.h5
@@ -30,7 +31,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 def _chain_path(run: str) -> Path:
     path = Path(run)
     if path.is_dir():
-        path = path / "chain.h5"
+        path = RunFolder(path).chain
     if not path.exists():
         raise InputFileError(str(path), "no such chain file (give a run folder or its "
                              "chain.h5)")

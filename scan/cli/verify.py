@@ -11,6 +11,7 @@ from scan.errors import ZetascanError
 from scan.pool import choose_pool
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
 from scan.verify.run import open_run, verify_run
+from scan.cli import with_plugin_note
 
 EXAMPLE = f"""examples:
   zetascan verify results/pole_scan                      # {DEFAULT_SAMPLES} samples, serial
@@ -44,7 +45,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         description="Draw M posterior samples, solve each exactly, and report the "
                     "surrogate's errors, the log-likelihood differences, importance "
                     "weights with their effective sample size, and reweighted summaries.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("run", help="run folder (containing chain.h5) or chain file")
     parser.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, metavar="M",
                         help=f"posterior samples to solve exactly (default {DEFAULT_SAMPLES})")

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from scan.config.analysis import GridSection, LikelihoodSection
 from scan.config.spec import spec
 from scan.errors import ConfigError
+from scan.store import name_problem
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
@@ -24,10 +25,19 @@ KINETICS = ("canonical", "poles", "plugin")
 class RunSection:
     """``[run]``: naming, output and randomness."""
 
-    name: str = spec("run name; results go to <output_dir>/<name>.h5 (default: the config "
+    name: str = spec("run name, one file name (no path separator, no '..'); results go to "
+                     "<output_dir>/<name>/ and <output_dir>/<name>.h5 (default: the config "
                      "file's stem)", "run")
     output_dir: str = spec("folder for results, relative to the working directory", "results")
     seed: int = spec("seed of every random number generator in the run", 0, minimum=0)
+
+    def validate(self, where: str, source: str) -> None:
+        """The name is one path component: results never land outside ``output_dir``."""
+        problem = name_problem(self.name)
+        if problem is not None:
+            raise ConfigError(source, f"{where}.name", f"run name {problem}",
+                              "give a plain name such as \"pole_scan\"; choose the folder "
+                              "with run.output_dir")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -98,6 +108,17 @@ class ModelSection:
             if value and (":" not in value or value.startswith(":") or value.endswith(":")):
                 raise ConfigError(source, f"{where}.{key}",
                                   f"'{value}' is not of the form 'package.module:function'")
+
+    @property
+    def plugins(self) -> tuple[str, ...]:
+        """The plug-in functions building this model imports (running them executes user
+        code; reading a result file that names them never does)."""
+        names = []
+        if self.potential == "plugin":
+            names += [self.potential_function, self.potential_derivative]
+        if self.kinetic == "plugin":
+            names.append(self.kinetic_function)
+        return tuple(name for name in names if name)
 
 
 @dataclass(frozen=True, kw_only=True)

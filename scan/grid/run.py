@@ -29,10 +29,10 @@ from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.grid.evaluate import GridWorker, RunBlock
 from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan, plan_grid
-from scan.grid.store import GridWriter, create_grid_file, file_digest, grid_path, read_grid
+from scan.grid.store import GridWriter, create_grid_file, file_digest, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
-from scan.store import (LOCATION_KEYS, RunLock, check_curves, curve_attrs, curve_digests,
+from scan.store import (LOCATION_KEYS, RunFolder, RunLock, check_curves, curve_attrs, curve_digests,
                         stored_digests)
 from scan.posterior.build import posterior_target
 from scan.likelihood.from_config import curve_paths_of
@@ -113,7 +113,7 @@ def plan_grid_run(config: RunConfig, path: str | Path | None = None) -> GridRun:
         digests = {"surrogate_sha256": "none"}
     digests["curves_sha256"] = file_digest(list(paths))
     infos = describe_terms(worker.terms, curve_labels(paths))
-    return GridRun(config, plan, worker, infos, Path(path) if path else grid_path(config),
+    return GridRun(config, plan, worker, infos, Path(path) if path else RunFolder.of(config).grid,
                    digests, curve_digests(paths))
 
 

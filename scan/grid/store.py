@@ -44,11 +44,6 @@ from scan.store import RunLock, SingleWriter, provenance, write_attrs, write_con
 KIND = "zetascan grid"
 
 
-def grid_path(config: Any) -> Path:
-    """``<run.output_dir>/<run.name>/grid.h5``."""
-    return Path(config.run.output_dir) / config.run.name / "grid.h5"
-
-
 def file_digest(paths: list[str] | tuple[str, ...]) -> str:
     """SHA-256 over the contents of ``paths`` (in order); "none" for no paths."""
     if not paths:

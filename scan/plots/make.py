@@ -49,13 +49,21 @@ def select_kinds(inputs: Inputs, requested: Sequence[str]) -> tuple[str, ...]:
     supported = supported_kinds(inputs.sources)
     where = ", ".join(str(p) for p in (inputs.sources.solve, inputs.sources.chain,
                                        inputs.sources.grid) if p is not None)
+    why = ""
+    if "model" in supported and inputs.config.model.plugins:
+        supported = tuple(k for k in supported if k != "model")
+        why = (f"no model figure: the stored config names plug-in code "
+               f"({', '.join(inputs.config.model.plugins)}) and reading a result never "
+               "imports code; 'zetascan solve CONFIG' draws it (running a config executes "
+               "its plug-ins)")
+        inputs.notes.append(why)
     if "all" in requested:
         return supported
     missing = [k for k in requested if k not in supported]
     if missing:
         raise UnsupportedKindError(
             f"{where}: cannot make {', '.join(missing)}; these files support: "
-            f"{', '.join(supported) or 'nothing'} (or all)")
+            f"{', '.join(supported) or 'nothing'} (or all)" + (f"; {why}" if why else ""))
     return tuple(k for k in KINDS if k in requested)
 
 

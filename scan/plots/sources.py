@@ -15,6 +15,7 @@ import h5py
 from scan.config import load_config_text
 from scan.errors import InputFileError
 from scan.sampler import runfile
+from scan.store import RunFolder
 
 #: Figure kinds, in the order ``all`` makes them.
 KINDS: tuple[str, ...] = ("spectrum", "model", "gw", "pbh", "corner", "bands", "exclusion")
@@ -83,8 +84,8 @@ def resolve(result: str | Path, chain: str | Path | None = None) -> Sources:
     found: dict[str, Path] = {}
     if path.is_dir():
         for kind in ("chain", "grid"):
-            if (path / f"{kind}.h5").is_file():
-                found[kind] = path / f"{kind}.h5"
+            if RunFolder(path).file(kind).is_file():
+                found[kind] = RunFolder(path).file(kind)
         if not found:
             raise InputFileError(str(path), "the folder holds neither chain.h5 nor grid.h5 "
                                  "(run zetascan sample or zetascan grid first)")
@@ -95,7 +96,7 @@ def resolve(result: str | Path, chain: str | Path | None = None) -> Sources:
         folder = path.parent
     if chain is not None:
         extra = Path(chain)
-        extra = extra / "chain.h5" if extra.is_dir() else _existing(extra)
+        extra = RunFolder(extra).chain if extra.is_dir() else _existing(extra)
         if classify(_existing(extra)) != "chain":
             raise InputFileError(str(extra), "--chain needs a chain file from zetascan sample "
                                  "(or its run folder)")

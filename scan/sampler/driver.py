@@ -103,7 +103,7 @@ def plan_run(config: RunConfig, path: str | Path | None = None) -> RunPlan:
         raise ConfigError(config.source, "sampler.walkers",
                           f"{config.sampler.walkers} walkers for {priors.dim} parameters",
                           f"use at least 2 x {priors.dim} = {2 * priors.dim} walkers")
-    return RunPlan(config, priors, target, Path(path) if path else runfile.run_path(config),
+    return RunPlan(config, priors, target, Path(path) if path else store.RunFolder.of(config).chain,
                    store.curve_digests(target.curve_paths))
 
 

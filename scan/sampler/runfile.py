@@ -164,11 +164,6 @@ class Extras:
                    thin=int(group.attrs["thin"]))
 
 
-def run_path(config: RunConfig) -> Path:
-    """``<output_dir>/<name>/chain.h5``."""
-    return Path(config.run.output_dir) / config.run.name / "chain.h5"
-
-
 def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
            curves: Mapping[str, str] | None = None) -> None:
     """Write a new run file (atomically): provenance, config, the digests of the curve

@@ -6,7 +6,9 @@ the one table of file kinds (what a file is, asked in one place).
 * :mod:`scan.store.lock` — ``<file>.lock``: one writer per run file, named by its PID;
 * :mod:`scan.store.identity` — the run identity: config and curve-file contents, not
   the folder's location;
+* :mod:`scan.store.folder` — ``<output_dir>/<name>/``: every path of a run's files;
 """
+from scan.store.folder import FILES, RunFolder, name_problem
 from scan.store.hdf5 import (DEPENDENCIES, SingleWriter, atomic_h5, config_hash, git_hash,
                              open_single_writer, provenance, put_rows, read_config_text,
                              recover_store, write_attrs, write_config, write_dataset)
@@ -14,7 +16,7 @@ from scan.store.identity import (LOCATION_KEYS, check_curves, curve_attrs, curve
                                  file_sha256, stored_digests)
 from scan.store.lock import RunLock, holder_pid, lock_path
 
-__all__ = ["DEPENDENCIES", "LOCATION_KEYS", "RunLock", "check_curves", "curve_attrs",
+__all__ = ["DEPENDENCIES", "FILES", "LOCATION_KEYS", "RunFolder", "RunLock", "name_problem", "check_curves", "curve_attrs",
            "curve_digests", "file_sha256", "stored_digests", "SingleWriter", "atomic_h5", "config_hash", "git_hash",
            "holder_pid", "lock_path", "open_single_writer", "provenance", "put_rows",
            "read_config_text", "recover_store", "write_attrs", "write_config",

@@ -98,7 +98,7 @@ def chain_path(run: str | Path) -> Path:
     """The chain file of a run folder (or the file itself); InputFileError if absent."""
     path = Path(run)
     if path.is_dir():
-        path = path / "chain.h5"
+        path = store.RunFolder(path).chain
     if not path.is_file():
         raise InputFileError(str(path), "no such chain file (give a run folder made by "
                              "'zetascan sample CONFIG', or its chain.h5)")
