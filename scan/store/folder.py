@@ -44,6 +44,9 @@ class RunFolder:
 
     root: Path
 
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "root", Path(self.root))
+
     @classmethod
     def of(cls, config: Any) -> RunFolder:
         """The run folder of a :class:`~scan.config.schema.RunConfig`."""
@@ -59,25 +62,14 @@ class RunFolder:
         """The path of a file kind of :data:`FILES` (``chain``, ``grid``, ...)."""
         return self.root / FILES[kind]
 
-    @property
-    def chain(self) -> Path:
-        """``chain.h5``: the posterior run (``zetascan sample``)."""
-        return self.file("chain")
-
-    @property
-    def grid(self) -> Path:
-        """``grid.h5``: the exclusion grid (``zetascan grid``)."""
-        return self.file("grid")
-
-    @property
-    def training(self) -> Path:
-        """``training.h5``: the training store (``zetascan train``)."""
-        return self.file("training")
-
-    @property
-    def surrogate(self) -> Path:
-        """``surrogate.h5``: the trained surrogate (``zetascan train``)."""
-        return self.file("surrogate")
+    chain = property(lambda self: self.file("chain"),
+                     doc="``chain.h5``: the posterior run (``zetascan sample``).")
+    grid = property(lambda self: self.file("grid"),
+                    doc="``grid.h5``: the exclusion grid (``zetascan grid``).")
+    training = property(lambda self: self.file("training"),
+                        doc="``training.h5``: the training store (``zetascan train``).")
+    surrogate = property(lambda self: self.file("surrogate"),
+                         doc="``surrogate.h5``: the trained surrogate (``zetascan train``).")
 
     @property
     def solve_result(self) -> Path:
