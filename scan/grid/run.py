@@ -32,8 +32,8 @@ from scan.grid.plan import GridPlan, plan_grid
 from scan.grid.store import GridWriter, create_grid_file, file_digest, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
-from scan.store import (LOCATION_KEYS, RunFolder, RunLock, check_curves, curve_attrs, curve_digests,
-                        stored_digests)
+from scan.store import (LOCATION_KEYS, RunFolder, RunLock, check_curves, curve_attrs,
+                        curve_digests, stored_digests)
 from scan.posterior.build import posterior_target
 from scan.likelihood.from_config import curve_paths_of
 from scan.posterior.setup import NUISANCE_NAMES
@@ -113,8 +113,8 @@ def plan_grid_run(config: RunConfig, path: str | Path | None = None) -> GridRun:
         digests = {"surrogate_sha256": "none"}
     digests["curves_sha256"] = file_digest(list(paths))
     infos = describe_terms(worker.terms, curve_labels(paths))
-    return GridRun(config, plan, worker, infos, Path(path) if path else RunFolder.of(config).grid,
-                   digests, curve_digests(paths))
+    path = Path(path) if path else RunFolder.of(config).grid
+    return GridRun(config, plan, worker, infos, path, digests, curve_digests(paths))
 
 
 def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:

@@ -39,9 +39,10 @@ from scan.grid.evaluate import DERIVED, BlockResult
 from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative, relative_status
-from scan.store import RunLock, SingleWriter, provenance, write_attrs, write_config
+from scan.store import (KIND_ATTRS, RunLock, SingleWriter, provenance, require,
+                        stored_config_of, write_attrs, write_config)
 
-KIND = "zetascan grid"
+KIND = KIND_ATTRS["grid"]
 
 
 def file_digest(paths: list[str] | tuple[str, ...]) -> str:
@@ -204,7 +205,8 @@ def read_grid(path: str | Path) -> dict[str, Any]:
     Returns
     -------
     dict
-        ``attrs`` (root), ``grid_attrs``, every ``grid`` dataset by name, and ``terms``:
+        ``attrs`` (root), ``grid_attrs``, every ``grid`` dataset by name (``units``: their
+        units attributes), and ``terms``:
         name -> {``attrs``, ``status``, ``log_like``, optional ``snr``,
         ``reference_log_like``}.
 
@@ -213,23 +215,25 @@ def read_grid(path: str | Path) -> dict[str, Any]:
     InputFileError
         Not a zetascan grid file.
     """
+    require(path, "grid")
     try:
         with h5py.File(path, "r", libver="latest", swmr=True) as handle:
-            if handle.attrs.get("kind") != KIND or "grid" not in handle:
-                raise InputFileError(str(path), "not a zetascan grid file")
             g = handle["grid"]
             out: dict[str, Any] = {"attrs": dict(handle.attrs), "grid_attrs": dict(g.attrs)}
+            out["units"] = {}
             for name, item in g.items():
                 if isinstance(item, h5py.Dataset):
                     out[name] = item[()]
+                    out["units"][name] = str(item.attrs.get("units", ""))
             out["reason_names"] = [str(v) for v in g["reason"].attrs["reason_names"]]
             out["terms"] = {name: {"attrs": dict(t.attrs),
                                    **{k: v[()] for k, v in t.items()}}
                             for name, t in g["terms"].items()}
-            raw = handle["config"][()]
-            out["config_text"] = raw.decode() if isinstance(raw, bytes) else str(raw)
-            out["overrides"] = tuple(str(v) for v in handle["config"].attrs.get("overrides", [])
-                                     if str(v) != "none")
+            stored = stored_config_of(handle, str(handle.attrs.get("run_name", "run")))
+            out["config_text"], out["overrides"] = stored.text, stored.overrides
+    except KeyError as err:
+        raise InputFileError(str(path), f"incomplete grid file: missing {err}; was it "
+                             "written by an older or unfinished zetascan grid?") from None
     except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
     return out

@@ -22,6 +22,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from pathlib import Path
+from typing import Any
 
 import h5py
 import numpy as np
@@ -117,3 +118,28 @@ def read_spectrum(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     """``(k [Mpc^-1], P_zeta)`` from a result file's ``spectrum`` group."""
     with h5py.File(path, "r") as handle:
         return handle["spectrum/k"][()], handle["spectrum/P_zeta"][()]
+
+
+def read_solve(path: str | Path) -> dict[str, Any]:
+    """Arrays and attributes of a solve result's ``spectrum``, ``gw`` and ``pbh`` groups
+    (only the groups the file has) and the background's ``N_end``.
+
+    Raises
+    ------
+    InputFileError
+        Not a solve result (:func:`scan.store.require`).
+    """
+    store.require(path, "solve")
+    out: dict[str, Any] = {}
+    with h5py.File(path, "r") as h:
+        out["N_end"] = float(h["background"].attrs["N_end"])
+        if "spectrum" in h:
+            s = h["spectrum"]
+            out["spectrum"] = {name: s[name][()] for name in ("k", "P_zeta", "P_tensor",
+                                                              "N_exit")}
+            out["spectrum"]["k_star"] = float(s.attrs["k_star"])
+        if "gw" in h:
+            out["gw"] = (h["gw/f"][()], h["gw/omega_gw_h2"][()])
+        if "pbh" in h:
+            out["pbh"] = (h["pbh/M"][()], h["pbh/f_pbh"][()], float(h["pbh"].attrs["f_pbh_total"]))
+    return out

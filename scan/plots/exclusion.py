@@ -17,7 +17,8 @@ from matplotlib.colors import to_rgb
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from scan.plots.grid_data import DETECTABLE, EXCLUDED, EXCLUDING_KINDS, GridData
+from scan.grid.verdict import DETECTABLE, EXCLUDED
+from scan.plots.grid_data import EXCLUDING_KINDS, GridData
 from scan.plots.levels import Histogram2D
 from scan.plots.style import COLUMN_WIDTH_IN, PALETTE, figure, legend_below
 

@@ -103,8 +103,8 @@ def plan_run(config: RunConfig, path: str | Path | None = None) -> RunPlan:
         raise ConfigError(config.source, "sampler.walkers",
                           f"{config.sampler.walkers} walkers for {priors.dim} parameters",
                           f"use at least 2 x {priors.dim} = {2 * priors.dim} walkers")
-    return RunPlan(config, priors, target, Path(path) if path else store.RunFolder.of(config).chain,
-                   store.curve_digests(target.curve_paths))
+    path = Path(path) if path else store.RunFolder.of(config).chain
+    return RunPlan(config, priors, target, path, store.curve_digests(target.curve_paths))
 
 
 def _check_resumable(plan: RunPlan, stored: runfile.Stored) -> bool:

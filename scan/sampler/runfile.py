@@ -202,17 +202,17 @@ def read(path: str | Path) -> Stored:
     """
     try:
         with h5py.File(path, "r") as handle:
-            if "config" not in handle or EXTRA not in handle:
-                raise InputFileError(str(path), "not a zetascan chain file (no 'config' or "
-                                     "'sampler' group); use --restart to overwrite it")
-            raw = handle["config"][()]
-            overrides = [str(v) for v in handle["config"].attrs.get("overrides", [])]
+            kind = store.kind_of(handle)
+            if kind != "chain" or "config" not in handle or EXTRA not in handle:
+                what = f"a {kind} file" if kind not in (None, "chain") else \
+                    "no 'config' or 'sampler' group"
+                raise InputFileError(str(path), f"not a zetascan chain file ({what}); use "
+                                     "--restart to overwrite it")
+            config = store.stored_config_of(handle)
             iteration = int(handle[GROUP].attrs["iteration"]) if GROUP in handle else 0
-            return Stored(raw.decode() if isinstance(raw, bytes) else str(raw),
-                          str(handle.attrs["config_sha256"]),
-                          tuple(v for v in overrides if v != "none"),
-                          str(handle.attrs.get("run_name", "run")), iteration,
-                          Extras.read(handle), store.stored_digests(handle.attrs))
+            return Stored(config.text, str(handle.attrs["config_sha256"]), config.overrides,
+                          config.run_name, iteration, Extras.read(handle),
+                          store.stored_digests(handle.attrs))
     except (OSError, KeyError) as err:
         raise InputFileError(str(path), f"cannot read the chain file ({err}); it may have "
                              "been damaged during a write: use --restart") from None

@@ -7,17 +7,22 @@ the one table of file kinds (what a file is, asked in one place).
 * :mod:`scan.store.identity` — the run identity: config and curve-file contents, not
   the folder's location;
 * :mod:`scan.store.folder` — ``<output_dir>/<name>/``: every path of a run's files;
+* :mod:`scan.store.kinds` — the table of file kinds: :func:`identify` says what a file is.
 """
 from scan.store.folder import FILES, RunFolder, name_problem
-from scan.store.hdf5 import (DEPENDENCIES, SingleWriter, atomic_h5, config_hash, git_hash,
-                             open_single_writer, provenance, put_rows, read_config_text,
-                             recover_store, write_attrs, write_config, write_dataset)
+from scan.store.hdf5 import (DEPENDENCIES, SingleWriter, StoredConfig, atomic_h5, config_hash,
+                             git_hash, open_single_writer, provenance, put_rows,
+                             read_config_text, read_stored_config, recover_store,
+                             stored_config_of, write_attrs, write_config, write_dataset)
 from scan.store.identity import (LOCATION_KEYS, check_curves, curve_attrs, curve_digests,
                                  file_sha256, stored_digests)
+from scan.store.kinds import KIND_ATTRS, KINDS, FileKind, identify, kind_of, require
 from scan.store.lock import RunLock, holder_pid, lock_path
 
-__all__ = ["DEPENDENCIES", "FILES", "LOCATION_KEYS", "RunFolder", "RunLock", "name_problem", "check_curves", "curve_attrs",
-           "curve_digests", "file_sha256", "stored_digests", "SingleWriter", "atomic_h5", "config_hash", "git_hash",
-           "holder_pid", "lock_path", "open_single_writer", "provenance", "put_rows",
-           "read_config_text", "recover_store", "write_attrs", "write_config",
-           "write_dataset"]
+__all__ = ["DEPENDENCIES", "FILES", "KIND_ATTRS", "KINDS", "LOCATION_KEYS", "FileKind",
+           "RunFolder", "RunLock", "SingleWriter", "StoredConfig", "atomic_h5", "check_curves",
+           "config_hash", "curve_attrs", "curve_digests", "file_sha256", "git_hash",
+           "holder_pid", "identify", "kind_of", "lock_path", "name_problem", "open_single_writer",
+           "provenance", "put_rows", "read_config_text", "read_stored_config",
+           "recover_store", "require", "stored_config_of", "stored_digests", "write_attrs",
+           "write_config", "write_dataset"]

@@ -30,13 +30,13 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import (RunLock, SingleWriter, config_hash, provenance, put_rows,
-                        write_config)
+from scan.store import (KIND_ATTRS, RunLock, SingleWriter, config_hash, provenance, put_rows,
+                        require, write_config)
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
 
 REASON_BYTES = 160
-KIND = "zetascan training store"
+KIND = KIND_ATTRS["training"]
 
 
 @dataclass(frozen=True)
@@ -90,10 +90,9 @@ def create_store(path: str | Path, config, space, x: np.ndarray, ident: dict) ->
 
 def check_identity(path: str | Path, ident: dict) -> None:
     """Raise InputFileError naming every difference if the store is of another model."""
+    require(path, "training")
     try:
         with h5py.File(path, "r", libver="latest", swmr=True) as handle:
-            if handle.attrs.get("kind") != KIND:
-                raise InputFileError(str(path), "not a zetascan training store")
             stored = json.loads(handle.attrs["identity_json"])
     except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None

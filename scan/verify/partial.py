@@ -54,10 +54,10 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.observables import Observables
 from scan.posterior.exact import ExactOutcome
-from scan.store import SingleWriter, config_hash, provenance, put_rows, write_attrs
+from scan.store import KIND_ATTRS, SingleWriter, config_hash, provenance, put_rows, write_attrs
 
 GROUP = "verify_partial"
-KIND = "zetascan verify partial results"
+KIND = KIND_ATTRS["verify_partial"]
 #: Scalar fields of :class:`~scan.observables.Observables` (columns of ``scalars``).
 SCALARS: tuple[str, ...] = ("f_pbh_total", "n_s", "r", "N_star", "ln_1e10_as", "k_peak",
                             "P_peak", "f_gw_peak", "omega_gw_h2_peak")
