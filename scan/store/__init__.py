@@ -7,17 +7,19 @@ the one table of file kinds (what a file is, asked in one place).
 * :mod:`scan.store.identity` — the run identity: config and curve-file contents, not
   the folder's location;
 * :mod:`scan.store.folder` — ``<output_dir>/<name>/``: every path of a run's files;
-* :mod:`scan.store.kinds` — the table of file kinds: :func:`identify` says what a file is.
+* :mod:`scan.store.kinds` — the table of file kinds: :func:`identify` says what a file is;
+* :mod:`scan.store.stored_config` — the config a result file was made with.
 """
 from scan.store.folder import FILES, RunFolder, name_problem
-from scan.store.hdf5 import (DEPENDENCIES, SingleWriter, StoredConfig, atomic_h5, config_hash,
-                             git_hash, open_single_writer, provenance, put_rows,
-                             read_config_text, read_stored_config, recover_store,
-                             stored_config_of, write_attrs, write_config, write_dataset)
+from scan.store.hdf5 import (DEPENDENCIES, SingleWriter, atomic_h5, config_hash, git_hash,
+                             open_single_writer, provenance, put_rows, recover_store,
+                             write_attrs, write_config, write_dataset)
 from scan.store.identity import (LOCATION_KEYS, check_curves, curve_attrs, curve_digests,
                                  file_sha256, stored_digests)
 from scan.store.kinds import KIND_ATTRS, KINDS, FileKind, identify, kind_of, require
 from scan.store.lock import RunLock, holder_pid, lock_path
+from scan.store.stored_config import (StoredConfig, read_config_text, read_stored_config,
+                                      stored_config_of)
 
 __all__ = ["DEPENDENCIES", "FILES", "KIND_ATTRS", "KINDS", "LOCATION_KEYS", "FileKind",
            "RunFolder", "RunLock", "SingleWriter", "StoredConfig", "atomic_h5", "check_curves",
