@@ -3,9 +3,9 @@ from __future__ import annotations
 
 import argparse
 
+from scan.cli import with_plugin_note
 from scan.cli import main
 from scan.cli.demo_plan import plan_demo, run_demo
-from scan.cli import with_plugin_note
 
 EXAMPLE = """examples:
   zetascan demo                    # about 10 minutes on 2 cores: results/demo/

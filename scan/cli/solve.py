@@ -4,12 +4,11 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from scan.config import load_config
-from scan.pipeline import SolveResult, solve_config
-from scan.pipeline.result_file import write_solve_result
-from scan.plots.solve import draw_solve_figures
 from scan.cli import with_plugin_note
-from scan.store import RunFolder
+from scan.config import load_config
+from scan.pipeline import SolveResult
+from scan.pipeline.result_file import solve_to_file
+from scan.plots.solve import draw_solve_figures
 
 EXAMPLE = """example:
   zetascan solve configs/tmodel_pole.toml
@@ -37,11 +36,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 def run(args: argparse.Namespace) -> int:
     """Solve, write, summarise; exit 0 even for an invalid model (the file says why)."""
     config = load_config(args.config, overrides=args.overrides)
-    out = Path(args.out) if args.out else RunFolder.of(config).solve_result
-    result = solve_config(config)
-    write_solve_result(out, config, result)
-    figures = [] if args.no_figures else _draw_figures(out, result)
-    print(format_summary(result, out, figures))
+    solved = solve_to_file(config, args.out, None if args.no_figures else _draw_figures)
+    print(format_summary(solved.result, solved.out, list(solved.figures)))
     return 0
 
 

@@ -3,11 +3,8 @@ from __future__ import annotations
 
 import argparse
 import json
-from pathlib import Path
 
-from scan.errors import InputFileError
 from scan.sampler.summary import summarize
-from scan.store import RunFolder
 
 EXAMPLE = """examples:
   zetascan summary results/gaussian_test            # the run folder or its chain.h5
@@ -28,19 +25,9 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     return parser
 
 
-def _chain_path(run: str) -> Path:
-    path = Path(run)
-    if path.is_dir():
-        path = RunFolder(path).chain
-    if not path.exists():
-        raise InputFileError(str(path), "no such chain file (give a run folder or its "
-                             "chain.h5)")
-    return path
-
-
 def run(args: argparse.Namespace) -> int:
     """Print the summary."""
-    info = summarize(_chain_path(args.run))
+    info = summarize(args.run)
     print(json.dumps(info, indent=2) if args.json else format_summary(info))
     return 0
 

@@ -6,13 +6,13 @@ import sys
 import time
 from collections.abc import Callable
 
+from scan.cli import with_plugin_note
 from scan.config import load_config
 from scan.errors import ConfigError
 from scan.pool import choose_pool
 from scan.surrogate.command import train_surrogate
 from scan.surrogate.surrogate_file import read_report
 from scan.surrogate.validate import format_report
-from scan.cli import with_plugin_note
 
 EXAMPLE = """example:
   zetascan train configs/tmodel_pole.toml --processes 2

@@ -7,11 +7,11 @@ import sys
 import time
 from collections.abc import Callable
 
-from scan.errors import ZetascanError
-from scan.pool import choose_pool
-from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
-from scan.verify.run import open_run, verify_run
 from scan.cli import with_plugin_note
+from scan.errors import ZetascanError
+from scan.pool import BasePool
+from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
+from scan.verify.run import Run, verify_command
 
 EXAMPLE = f"""examples:
   zetascan verify results/pole_scan                      # {DEFAULT_SAMPLES} samples, serial
@@ -74,15 +74,17 @@ def run(args: argparse.Namespace) -> int:
         raise ZetascanError(f"--min-ess {args.min_ess}: give a fraction in (0, 1]")
     if not args.max_shift > 0.0:
         raise ZetascanError(f"--max-shift {args.max_shift}: give a positive number")
-    run_ = open_run(args.run)
-    thresholds = Thresholds(args.min_ess, args.max_shift)
     progress = None if args.json else _Progress()
-    with choose_pool(args.processes, args.mpi) as pool:
+
+    def started(run_: Run, pool: BasePool) -> None:
         if progress is not None:
             print(f"verifying {run_.path}: {args.samples} exact solves ({pool.describe()})",
                   flush=True)
-        result = verify_run(run_, args.samples, pool, thresholds=thresholds,
-                            on_progress=progress, resume=args.resume, log=_log(args.json))
+
+    result = verify_command(args.run, args.samples, processes=args.processes, mpi=args.mpi,
+                            thresholds=Thresholds(args.min_ess, args.max_shift),
+                            resume=args.resume, on_start=started, on_progress=progress,
+                            log=_log(args.json))
     print(json.dumps(result.report, indent=2) if args.json else format_report(result.report))
     return 0
 

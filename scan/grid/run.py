@@ -74,6 +74,7 @@ class GridOutcome:
     total: int
     evaluated_now: int
     resumed: bool
+    stopped_by: str | None = None  # "SIGTERM", "SIGINT" (set by scan.grid.command)
 
 
 def curve_labels(paths: tuple[str, ...]) -> dict[str, str]:

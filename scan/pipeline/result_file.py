@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -30,7 +31,43 @@ import numpy as np
 from scan import store
 from scan.config.schema import RunConfig
 from scan.observables import Observables, cosmo
-from scan.pipeline.solve import SolveResult
+from scan.pipeline.solve import SolveResult, solve_config
+from scan.store import RunFolder
+
+@dataclasses.dataclass(frozen=True)
+class Solved:
+    """What :func:`solve_to_file` computed and wrote."""
+
+    result: SolveResult
+    out: Path
+    figures: tuple[Path, ...] = ()
+
+
+def solve_to_file(config: RunConfig, out: str | Path | None = None,
+                  draw: Callable[[Path, SolveResult], list[Path]] | None = None) -> Solved:
+    """``zetascan solve`` as one call: solve the configured model exactly and write it.
+
+    Parameters
+    ----------
+    config : RunConfig
+    out : str or Path, optional
+        The result file (default: ``<run.output_dir>/<run.name>.h5``).
+    draw : callable, optional
+        ``draw(out, result) -> figure paths`` after the file is written.
+
+    Raises
+    ------
+    InputFileError
+        Another process writes ``out`` (named by its PID).
+    """
+    out = Path(out) if out else RunFolder.of(config).solve_result
+    with store.RunLock(out, "another zetascan solve writes this result file; wait for it "
+                       "or choose another --out"):
+        result = solve_config(config)
+        write_solve_result(out, config, result)
+    figures = tuple(draw(out, result)) if draw is not None else ()
+    return Solved(result, out, figures)
+
 
 _BACKGROUND_UNITS = {"N": "e-folds", "phi": "M_p", "chi": "M_p", "dchi_dN": "M_p",
                      "H": "M_p (for V0 = 1; scales as sqrt(V0))", "eps1": "1", "eps2": "1"}

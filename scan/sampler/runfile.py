@@ -164,6 +164,15 @@ class Extras:
                    thin=int(group.attrs["thin"]))
 
 
+def chain_path(run: str | Path) -> Path:
+    """The chain file of a run folder (or the file itself); InputFileError if absent."""
+    path = store.RunFolder(run).chain if Path(run).is_dir() else Path(run)
+    if not path.is_file():
+        raise InputFileError(str(path), "no such chain file (give a run folder made by "
+                             "'zetascan sample CONFIG', or its chain.h5)")
+    return path
+
+
 def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
            curves: Mapping[str, str] | None = None) -> None:
     """Write a new run file (atomically): provenance, config, the digests of the curve

@@ -36,7 +36,7 @@ from scan.config.diff import stored_config
 from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError, InputFileError, ZetascanError
-from scan.pool import BasePool
+from scan.pool import BasePool, choose_pool
 from scan.posterior.build import build_target
 from scan.posterior.exact import ExactSolve
 from scan.sampler import runfile
@@ -94,17 +94,6 @@ class Run:
     status: str
 
 
-def chain_path(run: str | Path) -> Path:
-    """The chain file of a run folder (or the file itself); InputFileError if absent."""
-    path = Path(run)
-    if path.is_dir():
-        path = store.RunFolder(path).chain
-    if not path.is_file():
-        raise InputFileError(str(path), "no such chain file (give a run folder made by "
-                             "'zetascan sample CONFIG', or its chain.h5)")
-    return path
-
-
 def open_run(run: str | Path) -> Run:
     """Read a posterior run and rebuild its target.
 
@@ -116,7 +105,7 @@ def open_run(run: str | Path) -> Run:
         The run is not a surrogate posterior run, or its curves / surrogate are missing.
     """
 
-    path = chain_path(run)
+    path = runfile.chain_path(run)
     stored = runfile.read(path)
     extras = stored.extras
     if extras.burn_in < 0 or extras.thin < 1:
@@ -234,6 +223,24 @@ def verify_run(run: Run, samples: int, pool: BasePool,
     return result
 
 
+def verify_command(run: str | Path, samples: int, *, processes: int | None = None,
+                   mpi: bool = False, thresholds: Thresholds = Thresholds(),
+                   resume: bool = False, on_start: Callable[[Run, BasePool], None] | None = None,
+                   on_progress: Callable[[int, int], None] | None = None,
+                   log: Callable[[str], None] | None = None) -> Verification:
+    """``zetascan verify`` as one call: open the run, build the pool, :func:`verify_run`.
+
+    ``on_start(run, pool)`` is called once the pool is up; the other arguments are
+    :func:`verify_run`'s (``processes`` / ``mpi``: :func:`scan.pool.choose_pool`).
+    """
+    opened = open_run(run)
+    with choose_pool(processes, mpi) as pool:
+        if on_start is not None:
+            on_start(opened, pool)
+        return verify_run(opened, samples, pool, thresholds=thresholds,
+                          on_progress=on_progress, resume=resume, log=log)
+
+
 def solver_name(exact: Callable[[np.ndarray], Any]) -> str:
     """The exact side's ``describe()`` (else its repr): reports and resume checks."""
     describe = getattr(exact, "describe", None)
@@ -332,7 +339,7 @@ def _write_arrays(group: h5py.Group, result: Verification) -> None:
 
 def read_report(path: str | Path) -> dict[str, Any] | None:
     """The stored ``verify`` report of a chain file, or None when there is none."""
-    with h5py.File(chain_path(path), "r") as handle:
+    with h5py.File(runfile.chain_path(path), "r") as handle:
         if GROUP not in handle:
             return None
         raw = handle[GROUP]["report"][()]
