@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import math
 import os
+import subprocess
+import sys
 import textwrap
 from pathlib import Path
 
@@ -407,3 +409,26 @@ def test_exact_two_by_two_grid(tmp_path, capsys):
         assert stored["log_like"][0, 0] == terms[name](direct, {})
     # measured beforehand: P_peak 1.2e-3 at w = 0.025 and 3.6e-2 at w = 0.027 (phi0 = 5.19)
     assert data["P_peak"][0, 1] > data["P_peak"][0, 0]
+
+
+def test_restart_is_refused_while_another_process_writes_the_grid(surrogate, tmp_path,
+                                                                   capsys):
+    # issue 19 item 4: --restart never deletes a grid file under a running writer
+    small = GRID.replace("x_points = 6", "x_points = 3").replace("y_points = 5", "y_points = 2")
+    cfg = str(write_config(tmp_path, surrogate, small))
+    assert main(["grid", cfg, "--set", SETS[0]]) == 0
+    path = tmp_path / "results" / "standin" / "grid.h5"
+    before = path.read_bytes()
+    script = (f"import time; from scan.store import RunLock; lock = RunLock({str(path)!r}); "
+              "print('held', flush=True); time.sleep(60)")
+    holder = subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE, text=True)
+    try:
+        assert holder.stdout.readline().strip() == "held"
+        capsys.readouterr()
+        assert main(["grid", cfg, "--set", SETS[0], "--restart"]) == 2
+        line = one_error_line(capsys)
+        assert f"process {holder.pid} is writing this run file" in line
+    finally:
+        holder.kill()
+        holder.wait()
+    assert path.read_bytes() == before  # neither deleted nor touched
