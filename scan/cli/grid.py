@@ -8,7 +8,6 @@ from collections.abc import Callable
 
 from scan.cli import with_plugin_note
 from scan.config import load_config
-from scan.grid import summary_lines
 from scan.grid.command import grid_run
 from scan.grid.run import describe_plan
 from scan.sampler.stop import EXIT_CODES
@@ -97,7 +96,7 @@ def run(args: argparse.Namespace) -> int:
                        processes=args.processes, mpi=args.mpi,
                        on_start=lambda run_: print(describe_plan(run_), flush=True),
                        progress=_progress(config.grid.progress_every_s))
-    print("\n".join(summary_lines(outcome.path)), flush=True)
+    print("\n".join(outcome.summary), flush=True)
     if outcome.status == "stopped":
         print(f"stopped after {outcome.done}/{outcome.total} points; everything finished is "
               "written; run the same command with --resume to continue", flush=True)

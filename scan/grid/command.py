@@ -13,7 +13,8 @@ from collections.abc import Callable
 
 from scan.config.schema import RunConfig
 from scan.grid.evaluate import install_worker
-from scan.grid.run import GridOutcome, GridRun, check_config, plan_grid_run, run_grid
+from scan.grid.run import (GridOutcome, GridRun, check_config, plan_grid_run, run_grid,
+                           summary_lines)
 from scan.pool import choose_pool
 from scan.sampler.stop import graceful_stop
 from scan.store import RunFolder
@@ -43,7 +44,8 @@ def grid_run(config: RunConfig, *, resume: bool = False, restart: bool = False,
     Returns
     -------
     GridOutcome
-        With ``stopped_by`` the signal's name when a signal stopped it.
+        With ``stopped_by`` the signal's name when a signal stopped it, and ``summary``
+        the lines of :func:`~scan.grid.run.summary_lines`.
     """
     path = RunFolder.of(config).grid
     if path.exists() and not restart:
@@ -57,4 +59,5 @@ def grid_run(config: RunConfig, *, resume: bool = False, restart: bool = False,
     with graceful_stop() as flag, pool:
         outcome = run_grid(run, pool, resume=resume, restart=restart, should_stop=flag,
                            progress=progress)
-    return dataclasses.replace(outcome, stopped_by=getattr(flag, "signal_name", None))
+    return dataclasses.replace(outcome, stopped_by=getattr(flag, "signal_name", None),
+                               summary=tuple(summary_lines(outcome.path)))

@@ -75,6 +75,7 @@ class GridOutcome:
     evaluated_now: int
     resumed: bool
     stopped_by: str | None = None  # "SIGTERM", "SIGINT" (set by scan.grid.command)
+    summary: tuple[str, ...] = ()  # summary_lines of the file (set by scan.grid.command)
 
 
 def curve_labels(paths: tuple[str, ...]) -> dict[str, str]:

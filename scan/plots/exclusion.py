@@ -37,7 +37,7 @@ def exclusion_figure(grid: GridData, posterior: Histogram2D | None = None, *,
     Parameters
     ----------
     grid : GridData
-        The scan (:func:`scan.plots.grid_data.read_grid`).
+        The scan (:func:`scan.plots.grid_data.exclusion_data`).
     posterior : Histogram2D, optional
         A chain's 2-D histogram in the grid's axes (log10 of log-scaled axes), with its
         68 % / 95 % thresholds.

@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.grid.store import read_grid as stored_grid
+from scan.grid.store import read_grid
 
 #: Term kinds whose status 1 is a region ruled out or disfavoured.
 EXCLUDING_KINDS: tuple[str, ...] = ("upper_limit", "pbh", "neff", "prior", "detection")
@@ -60,7 +60,7 @@ class GridData:
     y_units: str = ""
 
 
-def read_grid(path: str | Path) -> GridData:
+def exclusion_data(path: str | Path) -> GridData:
     """Read a grid file (:func:`scan.grid.store.read_grid`) for the exclusion map.
 
     Raises
@@ -68,7 +68,7 @@ def read_grid(path: str | Path) -> GridData:
     InputFileError
         The file is not a grid file or lacks a field of the layout above.
     """
-    data = stored_grid(path)
+    data = read_grid(path)
     try:
         return _record(str(path), data)
     except KeyError as err:

@@ -23,7 +23,7 @@ import numpy as np
 from scan.errors import InputFileError, ZetascanError
 from scan.pipeline import model_of, solve_background_of
 from scan.plots.exclusion import exclusion_figure
-from scan.plots.grid_data import read_grid
+from scan.plots.grid_data import exclusion_data
 from scan.plots.gw import omega_gw_figure
 from scan.plots.inputs import Inputs, axis_label
 from scan.plots.levels import histogram2d
@@ -160,7 +160,7 @@ def _labels(inputs: Inputs) -> list[str]:
 
 def _exclusion(inputs: Inputs):
 
-    grid = read_grid(inputs.sources.grid)
+    grid = exclusion_data(inputs.sources.grid)
     posterior = None
     if inputs.sources.chain is not None:
         x = inputs.column(grid.x_key, grid.x_scale == "log")
