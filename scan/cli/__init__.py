@@ -6,8 +6,9 @@ Each verb lives in its own module ``scan/cli/<verb>.py`` exposing
   example in its epilog), and
 * ``run(args: argparse.Namespace) -> int`` — do the work and return an exit code.
 
-Exit codes: 0 success, 2 bad input (one line naming the file, line or key), 1 internal
-error (traceback shown: that is a bug).
+Exit codes: 0 success, 2 bad input or an output that cannot be written (one line naming
+the file, line or key and the fix), 1 internal error (a bug: one line says which log file
+holds the traceback, see :mod:`scan.cli.failure`).
 """
 from __future__ import annotations
 
@@ -18,6 +19,7 @@ import textwrap
 from collections.abc import Sequence
 
 from scan import __version__
+from scan.cli import failure
 from scan.errors import ZetascanError
 
 #: Said by ``zetascan --help`` and the help of every verb that runs a config.
@@ -55,6 +57,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit code (0 ok, 2 bad input, 1 internal error)."""
+    argv = list(sys.argv[1:] if argv is None else argv)
     parser = build_parser()
     args = parser.parse_args(argv)
     if getattr(args, "_run", None) is None:
@@ -68,3 +71,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"zetascan {args.verb}: interrupted", file=sys.stderr)
         return 130
+    except Exception as err:  # noqa: BLE001 -- the one place that ends every failure
+        message = failure.user_message(err)
+        if message is not None:
+            print(f"zetascan {args.verb}: error: {message}", file=sys.stderr)
+            return 2
+        failure.report_internal(args.verb, err, argv)
+        return 1

@@ -11,6 +11,10 @@ import argparse
 import math
 from pathlib import Path
 
+from scan.config.load import apply_override
+from scan.config.schema import ObservablesSection
+from scan.config.spec import build_section
+from scan.errors import ConfigError
 from scan.observables import Observables, cosmo
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
 from scan.pipeline.observe import observe_spectrum
@@ -20,6 +24,8 @@ from scan.plots import pbh as pbh_plot
 EPILOG = """example:
   zetascan observe spectrum.csv --out obs.h5 --figures figs/ --criterion compaction \\
       --threshold 0.5 --window gaussian
+  zetascan observe spectrum.csv --set observables.non_gaussianity=local \\
+      --set observables.f_nl=2.5
 """
 
 
@@ -45,15 +51,40 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--gamma", type=float, default=d.gamma, help="M/M_H (monochromatic)")
     p.add_argument("--ps-factor", type=float, default=d.ps_factor)
     p.add_argument("--omega-dm-h2", type=float, default=d.omega_dm_h2)
+    p.add_argument("--set", action="append", metavar="observables.KEY=VALUE",
+                   help="override an [observables] key as in zetascan solve, e.g. "
+                        "observables.non_gaussianity=local (repeatable)")
     return p
 
 
-def _conventions(args) -> PBHConventions:
-    """PBH conventions from the command-line options."""
-    return PBHConventions(window=args.window, criterion=args.criterion,
-                          threshold=args.threshold, mass_function=args.mass_function,
-                          gamma_c=args.gamma_c, K=args.K, gamma=args.gamma,
-                          ps_factor=args.ps_factor, omega_dm_h2=args.omega_dm_h2)
+def observables_section(args) -> ObservablesSection:
+    """The ``[observables]`` section of the command line: the options, then every
+    ``--set observables.KEY=VALUE`` (as ``zetascan solve``'s overrides).
+
+    Raises
+    ------
+    ConfigError
+        For a key outside ``observables``, a bad value or combination, or
+        ``non_gaussianity = 'model'`` (which needs a solved model).
+    """
+    table = {"n_f": args.n_f, "n_m": args.n_m, "n_eff": args.n_eff,
+             "gstar_table": args.gstar_table or "", "window": args.window,
+             "criterion": args.criterion, "threshold": args.threshold,
+             "mass_function": args.mass_function, "gamma_c": args.gamma_c,
+             "collapse_K": args.K, "gamma": args.gamma, "ps_factor": args.ps_factor,
+             "omega_dm_h2": args.omega_dm_h2}
+    raw = {"observables": table}
+    for text in args.set or ():
+        if not text.startswith("observables."):
+            raise ConfigError("--set", text, "observe takes only observables.KEY=VALUE",
+                              "e.g. --set observables.non_gaussianity=local")
+        apply_override(raw, text)
+    section = build_section(ObservablesSection, raw["observables"], "observables", "--set")
+    if section.non_gaussianity == "model":
+        raise ConfigError("--set", "observables.non_gaussianity", "'model' needs the solved "
+                          "model's background (delta-N), which a spectrum table does not "
+                          "carry", "use zetascan solve, or 'local'/'logarithmic' here")
+    return section
 
 
 def _draw(folder: str):
@@ -67,8 +98,7 @@ def _draw(folder: str):
 
 def run(args: argparse.Namespace) -> int:
     """Compute both observables, write the HDF5 file (and figures); exit code."""
-    done = observe_spectrum(args.spectrum, _conventions(args), n_f=args.n_f, n_m=args.n_m,
-                            gstar_table=args.gstar_table, n_eff=args.n_eff, out=args.out,
+    done = observe_spectrum(args.spectrum, observables_section(args), out=args.out,
                             options={k: v for k, v in vars(args).items()
                                      if not k.startswith("_")},
                             draw=_draw(args.figures) if args.figures else None)

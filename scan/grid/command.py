@@ -17,7 +17,7 @@ from scan.grid.run import (GridOutcome, GridRun, check_config, plan_grid_run, ru
                            summary_lines)
 from scan.pool import choose_pool
 from scan.sampler.stop import graceful_stop
-from scan.store import RunFolder
+from scan.store import RunFolder, check_output_file
 
 
 def grid_run(config: RunConfig, *, resume: bool = False, restart: bool = False,
@@ -50,6 +50,7 @@ def grid_run(config: RunConfig, *, resume: bool = False, restart: bool = False,
     path = RunFolder.of(config).grid
     if path.exists() and not restart:
         check_config(config, path, resume)  # before loading anything
+    check_output_file(path, "grid file")
     run = plan_grid_run(config)
     if processes is None and not mpi and run.plan.source == "exact":
         processes = os.cpu_count() or 1

@@ -1,8 +1,9 @@
 """``zetascan observe`` as one library call: a user's P_zeta table -> Omega_GW h^2, f_PBH.
 
 :func:`observe_spectrum` reads the table (:mod:`scan.pipeline.spectrum_file`), computes
-both observables (:func:`scan.observables.compute_observables`) and writes them with
-provenance (:func:`write_observed`); the command line parses the options and prints.
+both observables with the ``[observables]`` settings (:mod:`scan.observables.settings`)
+and writes them with provenance (:func:`write_observed`); the command line builds the
+settings from its options and prints.
 """
 from __future__ import annotations
 
@@ -13,8 +14,9 @@ from pathlib import Path
 from typing import Any
 
 from scan import store
-from scan.observables import Observables, compute_observables, gstar
-from scan.observables.pbh import PBHConventions
+from scan.config.schema import ObservablesSection
+from scan.observables import Observables
+from scan.observables.settings import settings_of
 from scan.pipeline.result_file import write_observables
 from scan.pipeline.spectrum_file import load_spectrum
 
@@ -44,10 +46,8 @@ def write_observed(out: Path, source: str, obs: Observables,
         write_observables(handle, obs)
 
 
-def observe_spectrum(spectrum: str | Path, conventions: PBHConventions, *, n_f: int = 200,
-                     n_m: int = 200, gstar_table: str | None = None,
-                     n_eff: float | None = None, out: str | Path | None = None,
-                     options: Mapping[str, Any] | None = None,
+def observe_spectrum(spectrum: str | Path, section: ObservablesSection, *,
+                     out: str | Path | None = None, options: Mapping[str, Any] | None = None,
                      draw: Callable[[Observables], list[Path]] | None = None) -> Observed:
     """Compute Omega_GW h^2(f) [f in Hz] and f_PBH(M) [M in M_sun] of a spectrum table.
 
@@ -55,13 +55,8 @@ def observe_spectrum(spectrum: str | Path, conventions: PBHConventions, *, n_f: 
     ----------
     spectrum : str or Path
         CSV (k [Mpc^-1], P_zeta) or a zetascan HDF5 result.
-    conventions : PBHConventions
-    n_f, n_m : int
-        Output frequencies and masses.
-    gstar_table : str, optional
-        A g_*(T) CSV (T [GeV], g_rho, g_s); default: the built-in table.
-    n_eff : float, optional
-        N_eff today (default: :data:`scan.observables.cosmo.N_EFF_DEFAULT`).
+    section : ObservablesSection
+        The ``[observables]`` settings (conventions, grids, g_* table, non-Gaussianity).
     out : str or Path, optional
         Output HDF5 (default :func:`default_out`).
     options : mapping, optional
@@ -73,14 +68,14 @@ def observe_spectrum(spectrum: str | Path, conventions: PBHConventions, *, n_f: 
     ------
     InputFileError
         An unreadable or invalid table (the message names the line).
+    OutputError
+        The output cannot be written (checked before computing).
     """
     source = str(spectrum)
-    k, P = load_spectrum(source)
-    dof = gstar.load_table(gstar_table) if gstar_table else None
-    extra = {} if n_eff is None else {"n_eff": n_eff}
-    obs = compute_observables(k, P, conventions=conventions, n_f=n_f, n_m=n_m, dof=dof,
-                              **extra)
     out = Path(out) if out else default_out(source)
+    k, P = load_spectrum(source)
+    store.check_output_file(out, "observables file")
+    obs = settings_of(section).compute(k, P)
     write_observed(out, source, obs, options or {})
     figures = tuple(draw(obs)) if draw is not None else ()
     return Observed(obs, out, figures)

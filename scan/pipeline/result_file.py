@@ -61,6 +61,7 @@ def solve_to_file(config: RunConfig, out: str | Path | None = None,
         Another process writes ``out`` (named by its PID).
     """
     out = Path(out) if out else RunFolder.of(config).solve_result
+    store.check_output_file(out, "result file")
     with store.RunLock(out, "another zetascan solve writes this result file; wait for it "
                        "or choose another --out"):
         result = solve_config(config)
@@ -149,6 +150,23 @@ def write_observables(handle: h5py.Group, obs: Observables) -> None:
     store.write_dataset(pbh, "f_pbh", obs.f_pbh_per_lnm, "1", "fraction of dark matter per ln M")
     pbh.attrs["f_pbh_total"] = obs.f_pbh_total
     store.write_attrs(pbh, obs.conventions.as_attrs())
+    write_zeta_map(pbh, obs)
+
+
+def write_zeta_map(pbh: h5py.Group, obs: Observables) -> None:
+    """The non-Gaussianity convention as ``pbh`` attributes (``non_gaussianity`` and its
+    parameters; ``f_pbh_total_gaussian`` beside a non-Gaussian total) and, for ``model``,
+    the delta-N map as dataset ``zeta_map`` (columns zeta_G, zeta) and ``f_nl_peak``."""
+    zmap = obs.zeta_map
+    if zmap is None:
+        pbh.attrs["non_gaussianity"] = "gaussian"
+        return
+    store.write_attrs(pbh, zmap.as_attrs())
+    if obs.f_pbh_total_gaussian is not None:
+        pbh.attrs["f_pbh_total_gaussian"] = obs.f_pbh_total_gaussian
+    if zmap.kind == "model":
+        store.write_dataset(pbh, "zeta_map", np.column_stack([zmap.zeta_g, zmap.zeta]), "1",
+                            "delta-N map at the peak scale: columns zeta_G, zeta")
 
 
 def read_spectrum(path: str | Path) -> tuple[np.ndarray, np.ndarray]:

@@ -16,7 +16,8 @@ from scan.pipeline.result_file import read_solve
 from scan.store import RunFolder, require
 
 #: Figure kinds, in the order ``all`` makes them.
-KINDS: tuple[str, ...] = ("spectrum", "model", "gw", "pbh", "corner", "bands", "exclusion")
+KINDS: tuple[str, ...] = ("spectrum", "model", "gw", "pbh", "corner", "trace", "bands",
+                          "exclusion")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -109,7 +110,7 @@ def supported_kinds(sources: Sources) -> tuple[str, ...]:
             kinds.add("spectrum")
         kinds.update(k for k in ("gw", "pbh") if k in solve)
     if sources.chain is not None:
-        kinds.add("corner")
+        kinds.update(("corner", "trace"))
         if chain_has_observables(sources.chain):
             kinds.update(("gw", "pbh", "bands"))
     if sources.grid is not None:

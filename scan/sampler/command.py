@@ -15,6 +15,7 @@ from scan.pool import BasePool, choose_pool
 from scan.posterior.targets import prepare_target
 from scan.sampler.driver import Progress, RunOutcome, RunPlan, plan_run, run_chain
 from scan.sampler.stop import graceful_stop
+from scan.store import check_output_file
 
 
 def sample_run(config: RunConfig, *, out: str | Path | None = None, restart: bool = False,
@@ -45,6 +46,7 @@ def sample_run(config: RunConfig, *, out: str | Path | None = None, restart: boo
         A bad config, a changed config or curve file, another process on the chain.
     """
     plan = plan_run(config, out)
+    check_output_file(plan.path, "chain file")
     pool = choose_pool(processes, mpi, vectorized=config.sampler.vectorize,
                        initializer=prepare_target, initargs=(plan.target,))
     with graceful_stop() as flag, pool:

@@ -11,7 +11,7 @@ import dataclasses
 from pathlib import Path
 from typing import Any
 
-from scan.store import RunFolder, RunLock
+from scan.store import RunFolder, RunLock, check_output_file
 from scan.surrogate.adapter import SolvePoint
 from scan.surrogate.identity import identity
 from scan.surrogate.peak_observables import observables_for
@@ -69,6 +69,7 @@ def train_surrogate(config, map_fn: MapFunction, *, workers: int = 1,
         without ``resume``, another process writing the run folder's files.
     """
     folder = RunFolder.of(config)
+    check_output_file(folder.training, "training store")
     space = from_config(config)
     plan = TrainingPlan.from_config(config, points)
     with RunLock(folder.surrogate, BUSY):
