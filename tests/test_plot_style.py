@@ -6,12 +6,19 @@ Sources of the check values are written beside them.
 from __future__ import annotations
 
 import itertools
+from pathlib import Path
 
 import matplotlib.pyplot as plt
 import numpy as np
 import pytest
 
+from matplotlib.colors import to_hex
+
+from scan.curves import load_curve
 from scan.plots import colour
+from scan.plots.exclusion import exclusion_figure
+from scan.plots.grid_data import GridData, GridTerm
+from scan.plots.gw import omega_gw_figure
 from scan.plots.looks import (CURVE_LOOKS, MODEL_COLOUR, OKABE_ITO, PALETTE, POSTERIOR_COLOUR,
                               look_of, readable)
 from scan.plots.visible import in_view, shown_entries
@@ -142,3 +149,22 @@ def test_colour_pairs_are_symmetric_and_zero_on_identity():
         assert colour.ciede2000(colour.lab(a), colour.lab(b)) == pytest.approx(
             colour.ciede2000(colour.lab(b), colour.lab(a)), abs=1e-12)
         assert colour.ciede2000(colour.lab(a), colour.lab(a)) == 0.0
+
+
+def test_one_curve_has_one_colour_in_the_gw_figure_and_the_exclusion_map():
+    heron = load_curve(str(Path(__file__).resolve().parents[1] / "constraints" / "demo"
+                           / "ground_upper_limit_heron.csv"))
+    fig = omega_gw_figure(curves=[heron], pta_panel=False)
+    gw_colours = {to_hex(line.get_color()) for line in fig.axes[0].lines}
+    plt.close(fig)
+    x, y = np.linspace(0.0, 1.0, 6), np.linspace(0.0, 1.0, 5)  # SYNTHETIC 6 x 5 grid
+    status = np.where(np.meshgrid(x, y)[0] > 0.5, 1, 0).astype(np.int8)
+    ones = np.ones((5, 6), bool)
+    grid = GridData("synthetic.h5", x, y, "a", "b", "a", "b", "linear", "linear", ones, ones,
+                    np.full((5, 6), np.nan), (GridTerm(heron.name, "upper_limit",
+                                                       heron.label, status),))
+    fig = exclusion_figure(grid, p_peak_contours=False)
+    map_colours = {to_hex(c) for coll in fig.axes[0].collections for c in coll.get_edgecolor()}
+    plt.close(fig)
+    expected = look_of(heron.name).colour.lower()
+    assert gw_colours == {expected} and expected in map_colours

@@ -370,8 +370,9 @@ def test_exclusion_map_from_a_grid_with_the_posterior(grid_file, run_folder, tmp
             "LISA-like (synthetic): detectable (SNR ≥ 10)", "posterior 68 %",
             "posterior 95 %"} == set(texts[2:])
     # a constraint with nothing to draw has no legend entry; the legend's title names it
-    assert fig.legends[0].get_title().get_text() == \
-        r"excluding no grid point: $N_{\rm eff}$ bound (synthetic)"
+    assert fig.legends[0].get_title().get_text().splitlines() == [
+        "ticks on an outline point into the region it rules out",
+        r"excluding no grid point: $N_{\rm eff}$ bound (synthetic)"]
     ax = fig.axes[0]
     assert ax.get_xscale() == "log" and "[$M_p$]" in ax.get_xlabel()
     plt.close(fig)

@@ -45,19 +45,21 @@ def _sensitivity_text(curve: Curve) -> str:
     return f"SNR {curve.snr_threshold:g}" + (f", {years:g} yr" if years else "")
 
 
-def draw_curve(ax, curve: Curve, look: Look | None = None, *, mass_unit: str = "g") -> None:
+def draw_curve(ax, curve: Curve, look: Look | str | None = None, *,
+               mass_unit: str = "g") -> None:
     """Draw one curve on ``ax`` by its kind (upper limits shaded above), labelled.
 
     Parameters
     ----------
     ax : matplotlib.axes.Axes
     curve : Curve
-    look : Look, optional
-        Colour and marker (default: the curve's fixed look, :func:`look_of`).
+    look : Look or str, optional
+        Colour and marker, or a colour (default: the curve's fixed look, :func:`look_of`).
     mass_unit : {"g", "M_sun"}
         Unit of the x axis for mass curves.
     """
-    look = look_of(curve.name) if look is None else look
+    look = look_of(curve.name) if look is None else \
+        Look(look, look_of(curve.name).marker) if isinstance(look, str) else look
     color = look.colour
     to_axis = M_SUN_G if mass_unit == "g" else 1.0
     x = curve.x * (to_axis if curve.x_quantity == "mass" else 1.0)

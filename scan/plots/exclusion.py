@@ -22,7 +22,7 @@ from matplotlib.patches import Patch
 from scan.grid.verdict import DETECTABLE, EXCLUDED
 from scan.plots.grid_data import EXCLUDING_KINDS, GridData
 from scan.plots.levels import Histogram2D
-from scan.plots.looks import GUIDE_GREY, look_of, readable
+from scan.plots.looks import GUIDE_GREY, POSTERIOR_COLOUR, look_of, readable
 from scan.plots.style import COLUMN_WIDTH_IN, figure, legend_below, wrap_text
 
 INVALID_GREY = "#bdbdbd"
@@ -92,7 +92,7 @@ def _name(term) -> str:
 def _nowhere_text(grid: GridData, excluding, sensitivities) -> str | None:
     """Legend title naming constraints without excluded and sensitivities without
     detectable points (they have nothing drawn, so no legend entry)."""
-    lines = []
+    lines = ["ticks on an outline point into the region it rules out"] if excluding else []
     quiet = [_name(t) for t in grid.terms if t.kind in EXCLUDING_KINDS and t not in excluding]
     if quiet:
         lines.append("excluding no grid point: " + ", ".join(quiet))
@@ -184,7 +184,8 @@ def _p_peak(ax, grid: GridData, X, Y) -> None:
 
 
 def _posterior(ax, post: Histogram2D, grid: GridData) -> list:
-    """68 % (solid) and 95 % (dashed) posterior contours; their legend handles."""
+    """68 % (solid) and 95 % (dashed) posterior contours in the posterior colour (as the
+    bands of the other figures); their legend handles."""
     x = 10.0 ** post.x if grid.x_scale == "log" else post.x
     y = 10.0 ** post.y if grid.y_scale == "log" else post.y
     order = np.argsort(post.thresholds)  # contour levels must increase
@@ -193,7 +194,7 @@ def _posterior(ax, post: Histogram2D, grid: GridData) -> list:
     fractions = [post.fractions[i] for i in order]
     if np.unique(levels).size < levels.size:
         return []
-    ax.contour(x, y, post.density, levels=levels, colors=["k"],
+    ax.contour(x, y, post.density, levels=levels, colors=[POSTERIOR_COLOUR],
                linestyles=[styles.get(f, "-.") for f in fractions], linewidths=1.0)
-    return [Line2D([], [], color="k", lw=1.0, ls=styles.get(f, "-."),
+    return [Line2D([], [], color=POSTERIOR_COLOUR, lw=1.0, ls=styles.get(f, "-."),
                    label=f"posterior {f:.0%}".replace("%", " %")) for f in post.fractions]

@@ -27,6 +27,9 @@ SIGNAL_DECADES: float = 7.0
 PTA_BAND_HZ: tuple[float, float] = (10**-9.5, 10**-6.5)
 #: The panel is added (``pta_panel=None``) when the main axis spans more decades than this.
 PTA_PANEL_MIN_DECADES: float = 6.0
+#: Fraction of a free-spectrum bin's peak density below which its violin is too thin to
+#: see (width 0.08 dex x fraction); the PTA panel's range ignores those tails.
+VISIBLE_DENSITY: float = 0.05
 _TINY = 1e-300
 
 
@@ -136,10 +139,12 @@ def _finish_pta(ax, gw_curves, bands, model) -> None:
         keep = _in_pta_band(x, y)
         spans.append(log_span(np.asarray(x)[keep], np.asarray(y)[keep], SIGNAL_DECADES))
     for c in gw_curves:
-        if c.kind == "posterior_grid":  # the density's extent, not only its mode
-            keep = _in_pta_band(c.x, c.y)
-            lo = [10.0 ** g.min() for g, k in zip(c.grid_log10_y, keep) if k]
-            hi = [10.0 ** g.max() for g, k in zip(c.grid_log10_y, keep) if k]
+        if c.kind == "posterior_grid":  # where the drawn density is visible (≥ 5 % of
+            keep = _in_pta_band(c.x, c.y)  # its bin's maximum), not only its mode
+            seen = [g[d >= VISIBLE_DENSITY * d.max()]
+                    for g, d, k in zip(c.grid_log10_y, c.grid_density, keep) if k]
+            lo = [10.0 ** g.min() for g in seen if g.size]
+            hi = [10.0 ** g.max() for g in seen if g.size]
             if lo:
                 spans.append((float(c.x[keep].min()), float(c.x[keep].max()), min(lo),
                               max(hi)))

@@ -155,6 +155,8 @@ def _corner(inputs: Inputs):
         labels.append(axis_label(name, label, log))
     note = (f"{len(post['samples'])} samples after burn-in {post['burn_in']}, "
             f"thinning {post['thin']}")
+    if post["stray_walkers"]:
+        note += f"; {post['stray_walkers']} stray walkers dropped (see the trace figure)"
     return triangle_figure(np.column_stack(columns), labels, note=note)
 
 

@@ -27,11 +27,12 @@ def _line_in_view(line: Line2D, ax) -> bool:
     inside = ok & (x >= x0) & (x <= x1) & (y >= y0) & (y <= y1)
     if inside.any():
         return True
-    # a segment between two finite points on opposite sides of the view
+    # a segment between two finite points outside the view may still cross it: test the
+    # segments' bounding boxes (enough for the near-straight pieces of sampled curves)
     both = ok[:-1] & ok[1:]
-    return bool(np.any(both & (np.minimum(x[:-1], x[1:]) <= x1) & (np.maximum(x[:-1], x[1:])
-                >= x0) & (np.minimum(y[:-1], y[1:]) <= y1) & (np.maximum(y[:-1], y[1:])
-                >= y0) & ((x[:-1] < x0) | (x[:-1] > x1) | (y[:-1] < y0) | (y[:-1] > y1))))
+    x_lo, x_hi = np.minimum(x[:-1], x[1:]), np.maximum(x[:-1], x[1:])
+    y_lo, y_hi = np.minimum(y[:-1], y[1:]), np.maximum(y[:-1], y[1:])
+    return bool(np.any(both & (x_lo <= x1) & (x_hi >= x0) & (y_lo <= y1) & (y_hi >= y0)))
 
 
 def _collection_in_view(collection: Collection, ax) -> bool:

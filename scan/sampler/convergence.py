@@ -12,7 +12,9 @@ whose median ln p lies below the typical set — ln p_max − χ²_d(1 − α)/2
 d-dimensional Gaussian posterior's samples fall below with probability α (Wilks; common
 practice) — is a stray (stuck in a poor local optimum or not yet arrived) and is dropped,
 as Hou et al. 2012 (arXiv:1104.2612) drop walkers clustered at low likelihood; and the
-burn-in grows until every kept walker has reached the typical set.
+burn-in grows until every kept walker has reached the typical set.  The growth is bounded:
+a walker arriving after half of the steps that follow the τ-based burn-in has its median
+below the floor and is dropped instead.
 """
 from __future__ import annotations
 
