@@ -26,7 +26,7 @@ from test_surrogate_standin import LIMIT, standin_log10_peak
 from scan import store
 from scan.cli import main
 from scan.plots.exclusion import exclusion_figure
-from scan.plots.grid_data import read_grid
+from scan.plots.grid_data import exclusion_data
 from scan.plots.inputs import Inputs
 from scan.plots.levels import CREDIBLE_MASS, histogram2d, mass_thresholds
 from scan.plots.make import BUILDERS
@@ -510,7 +510,7 @@ def test_band_entries_only_when_the_band_shows(run_folder):
 
 
 def test_exclusion_legend_matches_the_grid(grid_file):
-    grid = read_grid(grid_file)
+    grid = exclusion_data(grid_file)
     blind = tuple(dataclasses.replace(t, status=np.where(t.status == 2, 3, t.status))
                   if t.kind == "sensitivity" else t for t in grid.terms)
     for data, detectable in ((grid, True), (dataclasses.replace(grid, terms=blind), False)):
