@@ -15,6 +15,8 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent / "tools"))
 import module_table  # noqa: E402
 
+from scan.store import KINDS  # noqa: E402
+
 PACKAGE = Path(__file__).resolve().parents[1] / "scan"
 
 #: scan modules that may be imported inside a function because they import an optional
@@ -161,3 +163,26 @@ def test_the_contributor_guide_module_table_matches_the_tree():
 def test_the_cycle_finder_finds_a_planted_loop():
     """The checker itself: a → b → c → a is one cycle, d → a is not part of it."""
     assert cycles({"a": {"b"}, "b": {"c"}, "c": {"a"}, "d": {"a"}}) == [["a", "b", "c"]]
+
+
+#: The one reader/writer module of each file kind (scan.store.kinds.KINDS names them),
+#: the shared HDF5 helpers, and the spectrum table ``observe`` reads (issue 18 item 4).
+FILE_MODULES: set[str] = {"scan.store.hdf5", "scan.store.kinds", "scan.store.stored_config",
+                          "scan.grid.store", "scan.sampler.runfile", "scan.surrogate.store",
+                          "scan.surrogate.surrogate_file", "scan.verify.partial",
+                          "scan.verify.report_file", "scan.pipeline.result_file",
+                          "scan.pipeline.spectrum_file"}
+
+
+def test_hdf5_files_are_opened_only_by_their_file_kind_modules():
+    users = set()
+    for name, path in modules().items():
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Import) and any(a.name == "h5py" for a in node.names):
+                users.add(name)
+            elif isinstance(node, ast.ImportFrom) and node.module == "h5py":
+                users.add(name)
+    assert users <= FILE_MODULES, sorted(users - FILE_MODULES)
+    # every kind's named module is one of them
+    assert {kind.module for kind in KINDS} <= FILE_MODULES

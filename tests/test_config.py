@@ -127,3 +127,25 @@ def test_every_key_is_documented_in_configs_readme():
     documented = set(re.findall(r"`([a-z_]+(?:\[\])?(?:\.[a-z_A-Z0-9]+(?:\[\])?)+)`", readme))
     for path, *_ in describe(RunConfig):
         assert path in documented, f"configs/README.md does not document `{path}`"
+
+
+@pytest.mark.parametrize("name", ["/abs/x", "../../x", "a/b", "a\\b", "..", "."])
+def test_run_names_with_separators_or_dots_are_refused(name, tmp_path, capsys, monkeypatch):
+    # issue 19 item 7: run.name is one file name, so no write escapes run.output_dir
+    monkeypatch.chdir(tmp_path)
+    config = tmp_path / "c.toml"
+    config.write_text(f"[run]\noutput_dir = \"{tmp_path / 'out'}\"\n" + GOOD)
+    code = main(["solve", str(config), "--set", f"run.name='{name}'", "--no-figures"])
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and len(err.splitlines()) == 1
+    assert "run.name" in err and "give a plain name" in err and "Traceback" not in err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["c.toml"]  # nothing written
+
+
+def test_help_says_that_running_a_plugin_config_executes_code(capsys):
+    # issue 19 item 7: --help of the package and of each verb that runs a config
+    for argv in ([], ["solve"], ["train"], ["grid"], ["verify"], ["demo"]):
+        with pytest.raises(SystemExit):
+            main([*argv, "--help"])
+        text = " ".join(capsys.readouterr().out.split())
+        assert "names a plug-in" in text and "imports and executes that Python code" in text

@@ -164,6 +164,11 @@ BAD = {
     "sensitivity_keys": (lambda t: _swap(_swap(t, "kind = upper_limit", "kind = sensitivity"),
                                          "#: confidence = 0.95\n", ""), 3,
                          "needs curve_form and snr_threshold and t_obs_yr"),
+    # issue 19 item 7: the name becomes an HDF5 group of grid files and blob names
+    "name_separator": (lambda t: _swap(t, "name = test_ul", "name = ../x"), 2,
+                       "curve name '../x' contains a path separator"),
+    "name_dotdot": (lambda t: _swap(t, "name = test_ul", "name = .."), 2,
+                    "curve name '..' names a folder"),
     "soft_needs_width": (lambda t: _swap(t, "#: confidence = 0.95", "#: confidence = 0.95\n"
                                          "#: likelihood = soft_log"), 10, "soft_width_dex"),
 }

@@ -3,7 +3,7 @@ everything written readable, and a rerun after space is freed continues from the
 completed write — bit for bit as an uninterrupted run.
 
 Where the test can mount a small tmpfs (root, Linux) the disk really fills; everywhere the
-same path is also driven by injecting a full disk (``scan.store.free_bytes`` patched).
+same path is also driven by injecting a full disk (``scan.store.hdf5.free_bytes`` patched).
 """
 from __future__ import annotations
 
@@ -18,7 +18,7 @@ import pytest
 from test_surrogate import BASE, X, config
 from test_surrogate_standin import SPACE, StandinSolve
 
-import scan.cli.train as train_cli
+import scan.surrogate.command as train_command
 from scan import store
 from scan.cli import main
 from scan.errors import OutputError
@@ -129,7 +129,7 @@ class FillingDisk:
 def test_sample_disk_full_injected_stops_cleanly_and_resumes(tmp_path, capsys, monkeypatch,
                                                              reference_chain):
     disk = FillingDisk(calls=20)  # the writability check, then 19 writes of 10 steps
-    monkeypatch.setattr(store, "free_bytes", disk)
+    monkeypatch.setattr(store.hdf5, "free_bytes", disk)  # where it is looked up
     out = tmp_path / "out"
     check_stopped_then_resumed(capsys, gaussian_config(tmp_path, out),
                                out / "gaussian_test" / "chain.h5", disk.free, reference_chain)
@@ -164,9 +164,10 @@ def _train_config(out: Path, points: int) -> Path:
 @pytest.fixture
 def standin_train(monkeypatch):
     """``zetascan train`` on the analytic stand-in (no exact solves; tests only)."""
-    monkeypatch.setattr(train_cli, "from_config", lambda cfg: SPACE)
-    monkeypatch.setattr(train_cli, "SolvePoint", lambda cfg, keys: StandinSolve(X))
-    monkeypatch.setattr(train_cli, "observables_for", lambda cfg, space: None)
+    # the names are patched where train's library entry point looks them up
+    monkeypatch.setattr(train_command, "from_config", lambda cfg: SPACE)
+    monkeypatch.setattr(train_command, "SolvePoint", lambda cfg, keys: StandinSolve(X))
+    monkeypatch.setattr(train_command, "observables_for", lambda cfg, space: None)
 
 
 def test_train_on_a_full_tmpfs_stops_cleanly_and_resumes(tmp_path, capsys, standin_train):
@@ -197,7 +198,7 @@ def test_train_disk_full_injected_keeps_points_and_resumes(tmp_path, monkeypatch
     ref = tmp_path / "ref.h5"
     run_training(ref, cfg, SPACE, StandinSolve(X), serial_map, plan, chunk=4)
     disk = FillingDisk(calls=5)  # two plan appends, then three batches of 4 points
-    monkeypatch.setattr(store, "free_bytes", disk)
+    monkeypatch.setattr(store.hdf5, "free_bytes", disk)  # where it is looked up
     path = tmp_path / "training.h5"
     with pytest.raises(OutputError, match="keeps the 12 points solved before"):
         run_training(path, cfg, SPACE, StandinSolve(X), serial_map, plan, chunk=4)

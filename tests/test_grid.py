@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import math
 import os
+import subprocess
+import sys
 import textwrap
 from pathlib import Path
 
@@ -20,7 +22,7 @@ from test_sampler_posterior import CURVES, make_config, trained  # noqa: F401  (
 
 from scan.cli import main
 from scan.config import load_config_text
-from scan.errors import ZetascanError
+from scan.errors import InputFileError, ZetascanError
 from scan.posterior.reasons import REASONS
 from scan.grid import (CHI2_95_1DOF, CHI2_95_2DOF, install_worker, plan_grid,
                        plan_grid_run, read_grid, relative_status, run_grid)
@@ -407,3 +409,54 @@ def test_exact_two_by_two_grid(tmp_path, capsys):
         assert stored["log_like"][0, 0] == terms[name](direct, {})
     # measured beforehand: P_peak 1.2e-3 at w = 0.025 and 3.6e-2 at w = 0.027 (phi0 = 5.19)
     assert data["P_peak"][0, 1] > data["P_peak"][0, 0]
+
+
+def test_restart_is_refused_while_another_process_writes_the_grid(surrogate, tmp_path,
+                                                                   capsys):
+    # issue 19 item 4: --restart never deletes a grid file under a running writer
+    small = GRID.replace("x_points = 6", "x_points = 3").replace("y_points = 5", "y_points = 2")
+    cfg = str(write_config(tmp_path, surrogate, small))
+    assert main(["grid", cfg, "--set", SETS[0]]) == 0
+    path = tmp_path / "results" / "standin" / "grid.h5"
+    before = path.read_bytes()
+    script = (f"import time; from scan.store import RunLock; lock = RunLock({str(path)!r}); "
+              "print('held', flush=True); time.sleep(60)")
+    holder = subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE, text=True)
+    try:
+        assert holder.stdout.readline().strip() == "held"
+        capsys.readouterr()
+        assert main(["grid", cfg, "--set", SETS[0], "--restart"]) == 2
+        line = one_error_line(capsys)
+        assert f"process {holder.pid} is writing this run file" in line
+    finally:
+        holder.kill()
+        holder.wait()
+    assert path.read_bytes() == before  # neither deleted nor touched
+
+
+def test_resume_refuses_a_changed_curve_and_follows_a_moved_folder(surrogate, tmp_path):
+    # issue 19 item 5: the grid's identity holds each curve file's contents (a changed
+    # one is named), not where its folder sits
+    small = GRID.replace("x_points = 6", "x_points = 3").replace("y_points = 5", "y_points = 2")
+    text = grid_text(tmp_path / "old", surrogate, small)
+    (tmp_path / "curves").mkdir()
+    for path in CURVES:
+        copy = tmp_path / "curves" / path.name
+        copy.write_bytes(path.read_bytes())
+        text = text.replace(f'"{path}"', f'"{copy}"')
+    config = load_config_text(text, "grid_test.toml", overrides=SETS)
+    run, first = compute(config)
+    assert first.status == "complete" and not first.resumed
+    edited = tmp_path / "curves" / "ground_upper_limit_heron.csv"
+    original = edited.read_bytes()
+    edited.write_text(edited.read_text().replace("1.0000e+01,8.1137e-07",
+                                                 "1.0000e+01,8.1138e-07"))
+    with pytest.raises(InputFileError, match=f"bound-curve file {edited} changed"):
+        compute(config, resume=True)
+    edited.write_bytes(original)
+    (tmp_path / "new").mkdir()
+    (tmp_path / "old" / "standin").rename(tmp_path / "new" / "standin")
+    moved = load_config_text(text, "grid_test.toml",
+                             overrides=SETS + (f"run.output_dir='{tmp_path / 'new'}'",))
+    _, again = compute(moved, resume=True)
+    assert again.resumed and again.status == "complete" and again.evaluated_now == 0

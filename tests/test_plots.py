@@ -11,6 +11,7 @@ import dataclasses
 import itertools
 import math
 import struct
+import sys
 from pathlib import Path
 
 import h5py
@@ -25,7 +26,7 @@ from test_surrogate_standin import LIMIT, standin_log10_peak
 from scan import store
 from scan.cli import main
 from scan.plots.exclusion import exclusion_figure
-from scan.plots.grid_data import read_grid
+from scan.plots.grid_data import exclusion_data
 from scan.plots.inputs import Inputs
 from scan.plots.levels import CREDIBLE_MASS, histogram2d, mass_thresholds
 from scan.plots.make import BUILDERS
@@ -388,6 +389,51 @@ def test_a_chain_over_other_axes_is_refused(run_folder, tmp_path, capsys):
     assert "support: exclusion" in capsys.readouterr().err
 
 
+PROBE = '''
+import pathlib
+pathlib.Path(__file__).with_name("imported.txt").write_text("the plug-in ran")
+def V(phi):
+    return phi ** 2
+'''
+
+
+def name_a_plugin(path: Path) -> None:
+    """Rewrite the stored config of a result file to name the plug-in module zs_probe."""
+    with h5py.File(path, "r+") as handle:
+        raw = handle["config"][()]
+        text = raw.decode() if isinstance(raw, bytes) else str(raw)
+        overrides = tuple(str(v) for v in handle["config"].attrs["overrides"] if v != "none")
+        text = text.replace('potential = "t_model"',
+                            'potential = "plugin"\npotential_function = "zs_probe:V"')
+        assert "zs_probe:V" in text
+        store.write_config(handle, text, overrides)
+
+
+def test_reading_results_never_imports_a_stored_plugin(solve_file, run_folder, tmp_path,
+                                                       capsys, monkeypatch):
+    # issue 19 item 7: a result file whose stored config names a plug-in is read without
+    # importing it (plot and summary); only running a config executes plug-in code
+    (tmp_path / "zs_probe.py").write_text(PROBE)
+    monkeypatch.syspath_prepend(str(tmp_path))
+    solve = tmp_path / "plugin.h5"
+    solve.write_bytes(solve_file.read_bytes())
+    name_a_plugin(solve)
+    chain = tmp_path / "run" / "chain.h5"
+    chain.parent.mkdir()
+    chain.write_bytes((run_folder / "chain.h5").read_bytes())
+    name_a_plugin(chain)
+    assert main(["plot", str(solve), "--out", str(tmp_path / "figs")]) == 0
+    out = capsys.readouterr().out
+    assert "no model figure: the stored config names plug-in code (zs_probe:V)" in out
+    assert not list((tmp_path / "figs").glob("*_model.*"))
+    assert main(["plot", str(solve), "--kind", "model", "--out", str(tmp_path)]) == 2
+    assert "reading a result never imports code" in capsys.readouterr().err
+    assert main(["summary", str(chain.parent)]) == 0
+    assert main(["plot", str(chain), "--kind", "corner", "--out", str(tmp_path)]) == 0
+    assert not (tmp_path / "imported.txt").exists()
+    assert "zs_probe" not in sys.modules
+
+
 # --------------------------------------------------------------------------- referee checks
 def drawn_texts(fig) -> list:
     """Every text the figure draws: titles, axis labels, drawn tick labels, offset texts,
@@ -464,7 +510,7 @@ def test_band_entries_only_when_the_band_shows(run_folder):
 
 
 def test_exclusion_legend_matches_the_grid(grid_file):
-    grid = read_grid(grid_file)
+    grid = exclusion_data(grid_file)
     blind = tuple(dataclasses.replace(t, status=np.where(t.status == 2, 3, t.status))
                   if t.kind == "sensitivity" else t for t in grid.terms)
     for data, detectable in ((grid, True), (dataclasses.replace(grid, terms=blind), False)):

@@ -165,3 +165,44 @@ def test_mpi_smoke_run_matches_serial(tmp_path):
     a = chain_contents(tmp_path / "mpi" / "g" / "chain.h5")
     b = chain_contents(tmp_path / "serial" / "g" / "chain.h5")
     assert a["iteration"] == 100 and np.array_equal(a["chain"], b["chain"])
+
+
+def test_a_second_sample_on_a_running_chain_exits_2_naming_the_first(tmp_path, capsys):
+    # issue 19 item 4: one writer per run file; the second process (and a --restart) is
+    # refused with the holder's PID and the first finishes unharmed
+    config = write_config(tmp_path, 200000)
+    config.write_text(config.read_text().replace("check_every = 100", "check_every = 100000"))
+    first = start_and_signal(config, 0, min_step=50)  # signal 0: only wait for progress
+    others = [subprocess.Popen([sys.executable, "-m", "scan", "sample", str(config), *extra],
+                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+              for extra in ((), ("--restart",))]
+    results = [p.communicate(timeout=120) for p in others]
+    assert first.poll() is None  # still sampling while both were refused
+    for proc, (_, err) in zip(others, results):
+        assert proc.returncode == 2, err
+        assert f"process {first.pid} is writing this run file" in err
+        assert "Traceback" not in err and len(err.strip().splitlines()) == 1
+    first.send_signal(signal.SIGTERM)
+    out, err = first.communicate(timeout=60)
+    assert first.returncode == 143 and "Traceback" not in err, err
+    got = chain_contents(tmp_path / "g" / "chain.h5")  # the file was not deleted
+    n = got["iteration"]
+    assert n >= 50 and np.all(np.isfinite(got["log_prob"]))
+    assert got["counts"].sum() == 8 * (n + 1)  # every evaluation counted: nothing lost
+    code = main(["sample", str(config), "--set", f"sampler.max_steps={n + 20}"])
+    assert code == 0  # and it resumes once the first has ended
+    assert f"{n + 20} steps (20 in this run, resumed)" in capsys.readouterr().out
+
+
+def test_a_moved_run_folder_resumes_from_its_new_place(tmp_path, capsys):
+    # issue 19 item 5: where the folder sits is not part of the run's identity
+    (tmp_path / "old").mkdir()
+    config = write_config(tmp_path / "old", 150)
+    assert main(["sample", str(config)]) == 0
+    (tmp_path / "new").mkdir()
+    (tmp_path / "old" / "g").rename(tmp_path / "new" / "g")
+    capsys.readouterr()
+    assert main(["sample", str(config), "--set", f"run.output_dir='{tmp_path / 'new'}'",
+                 "--set", "sampler.max_steps=180"]) == 0
+    assert "180 steps (30 in this run, resumed)" in capsys.readouterr().out
+    assert not (tmp_path / "old" / "g").exists()

@@ -18,7 +18,7 @@ import pytest
 from test_surrogate_standin import SPACE, StandinSolve, standin_truth
 
 from scan.config import load_config_text
-from scan.errors import ConfigError
+from scan.errors import ConfigError, InputFileError
 from scan.likelihood import total_loglike
 from scan.observables import Observables
 from scan.observables.cosmo import k_to_f
@@ -348,3 +348,36 @@ def test_planned_terms_on_the_shared_grids_equal_the_terms_themselves(trained):
     # and the vectorised call stores them
     _, blobs = target.log_and_blobs(thetas)
     np.testing.assert_array_equal(blobs["lnL_demo_heron_ul"][rows], per_term["demo_heron_ul"])
+
+
+def test_resume_refuses_a_changed_curve_file_naming_it(trained, tmp_path):
+    # issue 19 item 5: the run identity holds the contents of every curve file read;
+    # an edited curve between two invocations would mix two likelihoods in one chain
+    tmp, cfg, _ = trained
+    curves = []
+    for path in CURVES:
+        copy = tmp_path / path.name
+        copy.write_bytes(path.read_bytes())
+        curves.append(copy)
+    text = BASE.format(out=tmp_path, nuisance="A_smbhb",
+                       curves=", ".join(f'"{p}"' for p in curves),
+                       surrogate=tmp / "standin" / "surrogate.h5")
+    plan = plan_run(load_config_text(text, "curves_test.toml"))
+    with choose_pool(None, False, vectorized=True) as pool:
+        assert run_chain(plan, pool).steps == 30
+        edited = tmp_path / "ground_upper_limit_heron.csv"
+        original = edited.read_bytes()
+        edited.write_text(edited.read_text().replace("1.0000e+01,8.1137e-07",
+                                                     "1.0000e+01,8.1138e-07"))
+        longer = plan_run(load_config_text(text.replace("max_steps = 30", "max_steps = 35"),
+                                           "curves_test.toml"))
+        with pytest.raises(InputFileError, match=f"bound-curve file {edited} changed") as err:
+            run_chain(longer, pool)
+        assert "--restart" in str(err.value)
+        assert load_chain(plan.path)["iteration"] == 30  # the chain is untouched
+        edited.write_bytes(original)
+        again = plan_run(load_config_text(text.replace("max_steps = 30", "max_steps = 35"),
+                                          "curves_test.toml"))
+        assert again.curves == plan.curves
+        outcome = run_chain(again, pool)
+    assert outcome.resumed and outcome.steps == 35  # the same contents again: it resumes

@@ -18,7 +18,7 @@ from numba import njit
 
 from scan.background.compiled import chart_rhs, field_of
 from scan.ode import (dense_coefficients, dense_value, error_norm, first_step, first_trial,
-                      min_step, next_step_size, sizes, stage_state, stage_time, step_update)
+                      min_step, next_step_size, sizes, stage_state, step_update)
 
 #: The events, in the order a segment reports them.
 EVENT_NAMES = ("end", "cross", "lo", "hi", "stop")

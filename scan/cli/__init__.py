@@ -15,11 +15,24 @@ from __future__ import annotations
 import argparse
 import importlib
 import sys
+import textwrap
 from collections.abc import Sequence
 
 from scan import __version__
 from scan.cli import failure
 from scan.errors import ZetascanError
+
+#: Said by ``zetascan --help`` and the help of every verb that runs a config.
+PLUGIN_NOTE = ("Running a config that names a plug-in (model.potential_function, "
+               "model.potential_derivative, model.kinetic_function) imports and executes "
+               "that Python code: run only configs you trust. Reading result files (plot, "
+               "summary) never imports code.")
+
+
+def with_plugin_note(epilog: str) -> str:
+    """A verb's epilog followed by :data:`PLUGIN_NOTE` (for verbs that run a config)."""
+    return epilog.rstrip("\n") + "\n\n" + textwrap.fill(PLUGIN_NOTE, 88) + "\n"
+
 
 #: Verb modules, in the order ``zetascan --help`` lists them.
 VERBS: tuple[str, ...] = ("solve", "tune", "observe", "curves", "train", "sample", "evidence",
@@ -32,7 +45,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="zetascan",
         description="Exact inflationary spectra, induced GWs and PBH abundances, "
                     "confronted with bound curves.",
-    )
+        epilog=PLUGIN_NOTE)
     parser.add_argument("--version", action="version", version=f"zetascan {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")
     for name in VERBS:

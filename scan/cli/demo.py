@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import argparse
 
+from scan.cli import with_plugin_note
 from scan.cli import main
 from scan.cli.demo_plan import plan_demo, run_demo
 
@@ -21,7 +22,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                     "posterior against the synthetic curves of constraints/demo (plus "
                     "LISA), verify samples exactly, compute an exclusion grid, draw every "
                     "figure and print the summary. All data are invented.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--out", metavar="DIR", default="results/demo",
                         help="output folder (default: results/demo)")
     parser.add_argument("--quick", action="store_true",

@@ -2,17 +2,15 @@
 from __future__ import annotations
 
 import argparse
-import os
 import sys
 import time
 from collections.abc import Callable
 
+from scan.cli import with_plugin_note
 from scan.config import load_config
-from scan.grid import grid_path, install_worker, plan_grid_run, run_grid, summary_lines
-from scan.grid.run import check_config, describe_plan
-from scan.pool import choose_pool
-from scan.sampler.stop import EXIT_CODES, graceful_stop
-from scan.store import check_output_file
+from scan.grid.command import grid_run
+from scan.grid.run import describe_plan
+from scan.sampler.stop import EXIT_CODES
 
 EXAMPLE = """examples:
   zetascan grid configs/pole_scan.toml --set 'grid.x="model.poles[0].position"' \\
@@ -40,7 +38,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                     "per point and constraint allowed / excluded / detectable (with the SNR), "
                     "ln L, k_peak, P_peak, f_PBH and the GW peak, written to "
                     "<output_dir>/<name>/grid.h5 as points finish.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", help="run configuration (TOML) with a [grid] table")
     again = parser.add_mutually_exclusive_group()
     again.add_argument("--resume", action="store_true",
@@ -93,23 +92,13 @@ def run(args: argparse.Namespace) -> int:
 
     overrides = list(args.overrides) + (['grid.source="exact"'] if args.exact else [])
     config = load_config(args.config, overrides=overrides)
-    if grid_path(config).exists() and not args.restart:
-        check_config(config, grid_path(config), args.resume)  # before loading anything
-    check_output_file(grid_path(config), "grid file")
-    grid_run = plan_grid_run(config)
-    processes = args.processes
-    if processes is None and not args.mpi and grid_run.plan.source == "exact":
-        processes = os.cpu_count() or 1
-    pool = choose_pool(processes, args.mpi, initializer=install_worker,
-                       initargs=(grid_run.worker,))
-    print(describe_plan(grid_run), flush=True)
-    with graceful_stop() as flag, pool:
-        outcome = run_grid(grid_run, pool, resume=args.resume, restart=args.restart,
-                           should_stop=flag,
-                           progress=_progress(config.grid.progress_every_s))
-    print("\n".join(summary_lines(outcome.path)), flush=True)
+    outcome = grid_run(config, resume=args.resume, restart=args.restart,
+                       processes=args.processes, mpi=args.mpi,
+                       on_start=lambda run_: print(describe_plan(run_), flush=True),
+                       progress=_progress(config.grid.progress_every_s))
+    print("\n".join(outcome.summary), flush=True)
     if outcome.status == "stopped":
         print(f"stopped after {outcome.done}/{outcome.total} points; everything finished is "
               "written; run the same command with --resume to continue", flush=True)
-        return EXIT_CODES.get(getattr(flag, "signal_name", None) or "", 1)
+        return EXIT_CODES.get(outcome.stopped_by or "", 1)
     return 0

@@ -2,12 +2,9 @@
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
 
-from scan.errors import InputFileError
-from scan.plots.inputs import Inputs
-from scan.plots.make import make_figures, select_kinds
-from scan.plots.sources import KINDS, resolve
+from scan.plots.make import plot_result
+from scan.plots.sources import KINDS
 from scan.sampler.bands import N_SAMPLES, SEED
 
 EXAMPLE = """examples:
@@ -64,15 +61,9 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 def run(args: argparse.Namespace) -> int:
     """Make the figures; print the files written (and notes); 2 for an unsupported kind."""
 
-    if args.samples < 1:
-        raise InputFileError("--samples", f"needs at least 1 sample, got {args.samples}")
-    sources = resolve(args.result, args.chain)
-    inputs = Inputs(sources, tuple(args.curves) if args.curves else None, args.samples,
-                    args.seed)
-    kinds = select_kinds(inputs, args.kind)
-    out = Path(args.out) if args.out else sources.folder
-    paths = make_figures(inputs, kinds, out)
-    for note in inputs.notes:
+    plotted = plot_result(args.result, args.kind, out=args.out, chain=args.chain,
+                          curves=args.curves, samples=args.samples, seed=args.seed)
+    for note in plotted.notes:
         print(f"note: {note}")
-    print("\n".join(f"figure: {p}" for p in paths))
+    print("\n".join(f"figure: {p}" for p in plotted.paths))
     return 0

@@ -6,11 +6,10 @@ import sys
 import time
 
 from scan.config import load_config
-from scan.pool import choose_pool
-from scan.posterior.targets import prepare_target
-from scan.sampler.driver import Progress, RunOutcome, plan_run, run_chain
-from scan.sampler.stop import EXIT_CODES, graceful_stop
-from scan.store import check_output_file
+from scan.pool import BasePool
+from scan.sampler.command import sample_run
+from scan.sampler.driver import Progress, RunOutcome, RunPlan
+from scan.sampler.stop import EXIT_CODES
 
 EXAMPLE = """examples:
   zetascan sample configs/gaussian_test.toml                 # start, or resume the same chain
@@ -85,21 +84,20 @@ class _Reporter:
 def run(args: argparse.Namespace) -> int:
     """Start or resume the run; the exit code tells how it ended (see the epilog)."""
     config = load_config(args.config, overrides=args.overrides)
-    plan = plan_run(config, args.out)
-    check_output_file(plan.path, "chain file")
-    pool = choose_pool(args.processes, args.mpi, vectorized=config.sampler.vectorize,
-                       initializer=prepare_target, initargs=(plan.target,))
     reporter = _Reporter(config.sampler.progress_every_s, config.sampler.max_steps, 0)
     try:
-        with graceful_stop() as flag, pool:
-            print(f"sampling {plan.priors.dim} parameters with {config.sampler.walkers} "
-                  f"walkers ({pool.describe()}) -> {plan.path}", flush=True)
-            outcome = run_chain(plan, pool, restart=args.restart, should_stop=flag,
-                                on_progress=reporter)
+        outcome = sample_run(config, out=args.out, restart=args.restart,
+                             processes=args.processes, mpi=args.mpi, on_start=_started,
+                             on_progress=reporter)
     finally:
         reporter.close()
     print(format_outcome(outcome), flush=True)
     return EXIT_CODES.get(outcome.stopped_by or "", 1) if outcome.status == "stopped" else 0
+
+
+def _started(plan: RunPlan, pool: BasePool) -> None:
+    print(f"sampling {plan.priors.dim} parameters with {plan.config.sampler.walkers} "
+          f"walkers ({pool.describe()}) -> {plan.path}", flush=True)
 
 
 def format_outcome(outcome: RunOutcome) -> str:

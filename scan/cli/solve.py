@@ -4,11 +4,11 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from scan.cli import with_plugin_note
 from scan.config import load_config
-from scan.pipeline import SolveResult, solve_config
-from scan.pipeline.result_file import write_solve_result
+from scan.pipeline import SolveResult
+from scan.pipeline.result_file import solve_to_file
 from scan.plots.solve import draw_solve_figures
-from scan.store import check_output_file
 
 EXAMPLE = """example:
   zetascan solve configs/tmodel_pole.toml
@@ -22,7 +22,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         "solve", help="solve one model exactly (background, pivot, modes, observables)",
         description="Solve the background and the Mukhanov–Sasaki modes of one model exactly, "
                     "normalise to the CMB, and write an HDF5 result with provenance.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", help="run configuration (TOML)")
     parser.add_argument("--out", metavar="FILE", default=None,
                         help="result file (default: <run.output_dir>/<run.name>.h5)")
@@ -35,12 +36,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
 def run(args: argparse.Namespace) -> int:
     """Solve, write, summarise; exit 0 even for an invalid model (the file says why)."""
     config = load_config(args.config, overrides=args.overrides)
-    out = Path(args.out) if args.out else Path(config.run.output_dir) / f"{config.run.name}.h5"
-    check_output_file(out, "result file")
-    result = solve_config(config)
-    write_solve_result(out, config, result)
-    figures = [] if args.no_figures else _draw_figures(out, result)
-    print(format_summary(result, out, figures))
+    solved = solve_to_file(config, args.out, None if args.no_figures else _draw_figures)
+    print(format_summary(solved.result, solved.out, list(solved.figures)))
     return 0
 
 

@@ -3,9 +3,9 @@ from __future__ import annotations
 
 import argparse
 import json
+
 from pathlib import Path
 
-from scan.errors import InputFileError
 from scan.evidence.compare import nested_summary
 from scan.sampler.summary import posterior_samples, summarize
 
@@ -28,22 +28,12 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     return parser
 
 
-def _chain_path(run: str) -> Path:
-    path = Path(run)
-    if path.is_dir():
-        path = path / "chain.h5"
-    if not path.exists():
-        raise InputFileError(str(path), "no such chain file (give a run folder or its "
-                             "chain.h5)")
-    return path
-
-
 def run(args: argparse.Namespace) -> int:
     """Print the summary."""
-    path = _chain_path(args.run)
-    info = summarize(path)
-    post = posterior_samples(path)
-    info["nested"] = nested_summary(path.parent, post["names"], post["samples"])
+    info = summarize(args.run)
+    chain = Path(info["file"])
+    post = posterior_samples(chain)
+    info["nested"] = nested_summary(chain.parent, post["names"], post["samples"])
     print(json.dumps(info, indent=2) if args.json else format_summary(info))
     return 0
 

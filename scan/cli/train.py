@@ -6,18 +6,13 @@ import sys
 import time
 from collections.abc import Callable
 
+from scan.cli import with_plugin_note
 from scan.config import load_config
 from scan.errors import ConfigError
 from scan.pool import choose_pool
-from scan.store import check_output_file
-from scan.surrogate import surrogate_path, training_path
-from scan.surrogate.adapter import SolvePoint
-from scan.surrogate.identity import identity
-from scan.surrogate.peak_observables import observables_for
-from scan.surrogate.space import from_config
-from scan.surrogate.surrogate_file import read_report, write_surrogate
-from scan.surrogate.train import TrainingPlan, run_training
-from scan.surrogate.validate import format_report, validate
+from scan.surrogate.command import train_surrogate
+from scan.surrogate.surrogate_file import read_report
+from scan.surrogate.validate import format_report
 
 EXAMPLE = """example:
   zetascan train configs/tmodel_pole.toml --processes 2
@@ -35,7 +30,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                     "parallel, appended to <output_dir>/<name>/training.h5 as points "
                     "finish), refine it adaptively, fit the emulator, validate it on "
                     "held-out points and write <output_dir>/<name>/surrogate.h5.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", nargs="?", help="run configuration (TOML)")
     parser.add_argument("--points", type=int, default=None, metavar="N",
                         help="design points (default: surrogate.points)")
@@ -106,17 +102,10 @@ def run(args: argparse.Namespace) -> int:
 def _train(args: argparse.Namespace) -> int:
 
     config = load_config(args.config, overrides=args.overrides)
-    check_output_file(training_path(config), "training store")
-    space = from_config(config)
-    plan = TrainingPlan.from_config(config, args.points)
     pool, workers = _pool(args)
     with pool:
-        emulator, train, holdout = run_training(
-            training_path(config), config, space, SolvePoint(config, space.keys), pool.map,
-            plan, resume=args.resume, chunk=max(4, 2 * workers), progress=_progress())
-    report = validate(emulator, train, holdout, observables_for(config, space))
-    out = surrogate_path(config)
-    write_surrogate(out, config, space, emulator, report, identity(config, space))
-    print("\n".join(format_report(report) + [f"training store: {training_path(config)}",
-                                             f"surrogate: {out}"]))
+        outcome = train_surrogate(config, pool.map, workers=workers, points=args.points,
+                                  resume=args.resume, progress=_progress())
+    print("\n".join(format_report(outcome.report)
+                    + [f"training store: {outcome.training}", f"surrogate: {outcome.surrogate}"]))
     return 0

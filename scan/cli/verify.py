@@ -7,13 +7,12 @@ import sys
 import time
 from collections.abc import Callable
 
+from scan.cli import with_plugin_note
 from scan.errors import ZetascanError
-from scan.evidence.reweight import (evidence_shift, ln_z_of, open_nested, shift_lines,
-                                   write_shift)
-from scan.pool import choose_pool
-from scan.store import check_output_file
+from scan.evidence.reweight import evidence_shift, ln_z_of, open_nested, shift_lines, write_shift
+from scan.pool import BasePool
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
-from scan.verify.run import open_run, verify_run
+from scan.verify.run import Run, verify_command
 
 EXAMPLE = f"""examples:
   zetascan verify results/pole_scan                      # {DEFAULT_SAMPLES} samples, serial
@@ -52,7 +51,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         description="Draw M posterior samples, solve each exactly, and report the "
                     "surrogate's errors, the log-likelihood differences, importance "
                     "weights with their effective sample size, and reweighted summaries.",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("run", help="run folder (containing chain.h5) or chain file")
     parser.add_argument("--samples", type=int, default=DEFAULT_SAMPLES, metavar="M",
                         help=f"posterior samples to solve exactly (default {DEFAULT_SAMPLES})")
@@ -83,22 +83,26 @@ def run(args: argparse.Namespace) -> int:
         raise ZetascanError(f"--min-ess {args.min_ess}: give a fraction in (0, 1]")
     if not args.max_shift > 0.0:
         raise ZetascanError(f"--max-shift {args.max_shift}: give a positive number")
-    run_ = open_nested(args.run) if args.nested else open_run(args.run)
-    check_output_file(run_.path, "verification results")
-    thresholds = Thresholds(args.min_ess, args.max_shift)
     progress = None if args.json else _Progress()
-    with choose_pool(args.processes, args.mpi) as pool:
+
+    opened: dict[str, Run] = {}
+
+    def started(run_: Run, pool: BasePool) -> None:
+        opened["run"] = run_
         if progress is not None:
             print(f"verifying {run_.path}: {args.samples} exact solves ({pool.describe()})",
                   flush=True)
-        result = verify_run(run_, args.samples, pool, thresholds=thresholds,
-                            on_progress=progress, resume=args.resume, log=_log(args.json))
+
+    result = verify_command(args.run, args.samples, processes=args.processes, mpi=args.mpi,
+                            thresholds=Thresholds(args.min_ess, args.max_shift),
+                            resume=args.resume, on_start=started, on_progress=progress,
+                            log=_log(args.json), opener=open_nested if args.nested else None)
     report, lines = result.report, []
     if args.nested:
         shift = evidence_shift(result.evaluated)
-        write_shift(run_.path, shift)
+        write_shift(opened["run"].path, shift)
         report = {**report, "evidence_shift": shift}
-        lines = shift_lines(shift, ln_z_of(run_.path))
+        lines = shift_lines(shift, ln_z_of(opened["run"].path))
     print(json.dumps(report, indent=2) if args.json
           else "\n".join([format_report(report), *lines]))
     return 0

@@ -1,11 +1,13 @@
 """Key-level differences between two run configs (why a run cannot be resumed)."""
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 from scan.config.load import load_config_text
 from scan.config.schema import RunConfig
 from scan.config.spec import as_dict
+from scan.store import LOCATION_KEYS, read_stored_config
 
 #: Keys that may change between invocations of the same run: they do not change the
 #: chain's steps, only when it stops, how often it is written and what is printed.
@@ -17,8 +19,9 @@ RESUMABLE_SECTIONS: tuple[str, ...] = ("grid.",)
 
 
 def resumable(key: str) -> bool:
-    """True if a change of ``key`` does not prevent resuming a chain."""
-    return key in RESUMABLE_KEYS or key.startswith(RESUMABLE_SECTIONS)
+    """True if a change of ``key`` does not prevent resuming a chain (where the run
+    folder sits, :data:`scan.store.LOCATION_KEYS`, is not part of a run's identity)."""
+    return key in RESUMABLE_KEYS or key in LOCATION_KEYS or key.startswith(RESUMABLE_SECTIONS)
 
 
 def flatten(value: Any, prefix: str = "") -> dict[str, Any]:
@@ -52,6 +55,14 @@ def stored_config(text: str, overrides: tuple[str, ...], run_name: str) -> RunCo
     """Rebuild the config a run file was made with."""
     return load_config_text(text, source="<stored config>", overrides=overrides,
                             default_name=run_name)
+
+
+def result_config(path: str | Path) -> RunConfig:
+    """The config stored in a result file, rebuilt (:func:`scan.store.read_stored_config`;
+    nothing is imported: plug-ins are only named)."""
+    stored = read_stored_config(path)
+    return load_config_text(stored.text, f"{path} (stored config)", stored.overrides,
+                            stored.run_name)
 
 
 def format_diff(rows: list[tuple[str, Any, Any]]) -> str:

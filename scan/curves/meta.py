@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from scan.curves import schema as S
 from scan.curves.reader import RawFile
 from scan.errors import InputFileError, closest, did_you_mean
+from scan.store import name_problem
 
 
 class CurveWarning(UserWarning):
@@ -63,6 +64,10 @@ def check_meta(raw: RawFile) -> Meta:
     for key, options in S.CHOICES.items():
         if key in text:
             _check_choice(chk, key, text[key], options)
+    problem = name_problem(text["name"]) if "name" in text else None
+    if problem is not None:  # the name becomes a group of the grid file and blob names
+        chk.fail("name", f"curve name {problem}; give a short identifier such as "
+                         "demo_pta_excess")
     numbers = {key: _number(chk, key, text[key]) for key in S.NUMERIC if key in text}
     _check_units(chk, text)
     _check_conditional(chk, text)

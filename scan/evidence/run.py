@@ -104,9 +104,8 @@ def run_evidence(plan: EvidencePlan, pool: BasePool, settings: NestedSettings, *
         A stop was requested (everything drawn so far is kept; resume later).
     """
     plan.nested_dir.mkdir(parents=True, exist_ok=True)
-    lock = store.lock_file(plan.nested_dir / ".lock",
-                           f"another 'zetascan evidence' is writing {plan.nested_dir}; "
-                           "wait for it or stop it")
+    lock = store.RunLock(plan.path, "wait for the other 'zetascan evidence' to finish or "
+                         "stop it")
     try:
         results = {}
         for name, likelihood in plan.likelihoods.items():
@@ -119,7 +118,7 @@ def run_evidence(plan: EvidencePlan, pool: BasePool, settings: NestedSettings, *
                                        on_progress=report)
         factor = write_evidence(plan.path, plan.config, plan.priors.names, settings, results)
     finally:
-        lock.close()
+        lock.release()
     return EvidenceOutcome(plan.path, results, factor)
 
 

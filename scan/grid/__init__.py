@@ -14,7 +14,7 @@ from scan.grid.evaluate import DERIVED, BlockResult, GridWorker, install_worker
 from scan.grid.plan import Axis, GridPlan, plan_grid
 from scan.grid.run import (GridMismatchError, GridOutcome, GridRun, describe_plan, open_grid,
                            plan_grid_run, run_grid, summary_lines)
-from scan.grid.store import grid_path, read_grid
+from scan.grid.store import read_grid
 from scan.grid.verdict import (ALLOWED, CHI2_95_1DOF, CHI2_95_2DOF, DETECTABLE, EXCLUDED, KINDS,
                                NOT_DETECTABLE, NOT_EVALUATED, TermInfo, point_verdict,
                                relative_status, term_kind)
@@ -22,6 +22,6 @@ from scan.grid.verdict import (ALLOWED, CHI2_95_1DOF, CHI2_95_2DOF, DETECTABLE, 
 __all__ = ["ALLOWED", "CHI2_95_1DOF", "CHI2_95_2DOF", "DERIVED", "DETECTABLE", "EXCLUDED",
            "KINDS", "NOT_DETECTABLE", "NOT_EVALUATED", "Axis", "BlockResult",
            "GridMismatchError", "GridOutcome", "GridPlan", "GridRun",
-           "GridWorker", "TermInfo", "describe_plan", "grid_path", "install_worker",
+           "GridWorker", "TermInfo", "describe_plan", "install_worker",
            "open_grid", "plan_grid", "plan_grid_run", "point_verdict", "read_grid",
            "relative_status", "run_grid", "summary_lines", "term_kind"]

@@ -29,15 +29,20 @@ from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.grid.evaluate import GridWorker, RunBlock
 from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan, plan_grid
-from scan.grid.store import GridWriter, create_grid_file, file_digest, grid_path, read_grid
+from scan.grid.store import GridWriter, create_grid_file, file_digest, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.pool import BasePool
+from scan.store import (LOCATION_KEYS, RunFolder, RunLock, check_curves, curve_attrs,
+                        curve_digests, stored_digests)
 from scan.posterior.build import posterior_target
 from scan.likelihood.from_config import curve_paths_of
 from scan.posterior.setup import NUISANCE_NAMES
 
 #: Config keys that may change between invocations of one grid: they change nothing in it.
 RESUMABLE_PREFIXES: tuple[str, ...] = ("sampler.", "grid.progress_every_s")
+#: What to do when another process writes the grid file (the lock names its PID).
+BUSY = ("another zetascan grid is writing this file; wait for it to finish or stop it "
+        "first (--restart too waits: it would delete the file under it)")
 #: Nuisance parameters of exact-solve grids: those read by the likelihood terms only.
 EXACT_NUISANCE: tuple[str, ...] = ("A_smbhb",)
 
@@ -56,6 +61,7 @@ class GridRun:
     infos: list[TermInfo]
     path: Path
     digests: dict[str, str]
+    curves: dict[str, str] = dataclasses.field(default_factory=dict)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -68,6 +74,8 @@ class GridOutcome:
     total: int
     evaluated_now: int
     resumed: bool
+    stopped_by: str | None = None  # "SIGTERM", "SIGINT" (set by scan.grid.command)
+    summary: tuple[str, ...] = ()  # summary_lines of the file (set by scan.grid.command)
 
 
 def curve_labels(paths: tuple[str, ...]) -> dict[str, str]:
@@ -107,8 +115,8 @@ def plan_grid_run(config: RunConfig, path: str | Path | None = None) -> GridRun:
         digests = {"surrogate_sha256": "none"}
     digests["curves_sha256"] = file_digest(list(paths))
     infos = describe_terms(worker.terms, curve_labels(paths))
-    return GridRun(config, plan, worker, infos, Path(path) if path else grid_path(config),
-                   digests)
+    path = Path(path) if path else RunFolder.of(config).grid
+    return GridRun(config, plan, worker, infos, path, digests, curve_digests(paths))
 
 
 def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:
@@ -131,7 +139,7 @@ def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:
     old = stored_config(stored["config_text"], stored["overrides"],
                         str(stored["attrs"].get("run_name", config.run.name)))
     rows = [row for row in config_diff(old, config)
-            if not row[0].startswith(RESUMABLE_PREFIXES)]
+            if not row[0].startswith(RESUMABLE_PREFIXES) and row[0] not in LOCATION_KEYS]
     if rows:
         raise GridMismatchError(
             f"{path}: this grid was started with a different config: {format_diff(rows)} "
@@ -143,6 +151,7 @@ def _check_resumable(run: GridRun) -> None:
     """Refuse a grid file made from another config, surrogate, curves or constraints."""
     check_config(run.config, run.path, resume=True)
     stored = read_grid(run.path)
+    check_curves(run.path, stored_digests(stored["attrs"]), run.curves)
     for key, value in run.digests.items():
         if str(stored["attrs"].get(key)) != value:
             what = "surrogate file" if key.startswith("surrogate") else "bound-curve files"
@@ -171,7 +180,8 @@ def open_grid(run: GridRun, *, resume: bool, restart: bool) -> bool:
             check_config(run.config, run.path, resume=False)  # raises: neither flag
         _check_resumable(run)
         return True
-    create_grid_file(run.path, run.config, run.plan, run.infos, run.digests)
+    create_grid_file(run.path, run.config, run.plan, run.infos,
+                     {**run.digests, **curve_attrs(run.curves)})
     return False
 
 
@@ -195,9 +205,23 @@ def run_grid(run: GridRun, pool: BasePool, *, resume: bool = False, restart: boo
         ``progress(done, total)`` after every group.
     group : int, optional
         Blocks per pool call (default: twice the pool's workers).
+
+    Raises
+    ------
+    InputFileError
+        Another process writes the grid file (named by its PID; ``restart`` deletes
+        nothing then).
     """
+    with RunLock(run.path, BUSY) as lock:
+        return _run_locked(run, pool, lock, resume, restart, should_stop, progress, group)
+
+
+def _run_locked(run: GridRun, pool: BasePool, lock: RunLock, resume: bool, restart: bool,
+                should_stop: Callable[[], bool], progress: Callable[[int, int], None] | None,
+                group: int | None) -> GridOutcome:
+    """:func:`run_grid` while holding the grid file's lock."""
     resumed = open_grid(run, resume=resume, restart=restart)
-    with GridWriter(run.path, run.infos) as writer:
+    with GridWriter(run.path, run.infos, lock) as writer:
         pending = set(writer.pending.tolist())
         blocks = [b for b in run.plan.blocks() if pending.intersection(b.tolist())]
         size = group or max(1, 2 * pool.workers)

@@ -3,7 +3,8 @@
 Layout (every dataset has a ``units`` attribute; arrays are (ny, nx), row j = y[j]):
 
 * root attributes: provenance (:func:`scan.store.provenance`), ``kind``, ``run_name``,
-  ``surrogate_sha256`` and ``curves_sha256`` (what the grid was computed from); dataset
+  ``surrogate_sha256`` and ``curves_sha256`` (what the grid was computed from), and
+  ``curve_files``/``curve_sha256`` per curve file (:mod:`scan.store.identity`); dataset
   ``config`` (the TOML text and its overrides);
 * group ``grid``, attributes ``x_key, y_key, x_label, y_label, x_scale, y_scale`` (linear
   or log), ``source``, ``profile``, ``parameter_keys``, ``nuisance_names``,
@@ -38,14 +39,10 @@ from scan.grid.evaluate import DERIVED, BlockResult
 from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative, relative_status
-from scan.store import SingleWriter, provenance, write_attrs, write_config
+from scan.store import (KIND_ATTRS, RunLock, SingleWriter, provenance, require,
+                        stored_config_of, write_attrs, write_config)
 
-KIND = "zetascan grid"
-
-
-def grid_path(config: Any) -> Path:
-    """``<run.output_dir>/<run.name>/grid.h5``."""
-    return Path(config.run.output_dir) / config.run.name / "grid.h5"
+KIND = KIND_ATTRS["grid"]
 
 
 def file_digest(paths: list[str] | tuple[str, ...]) -> str:
@@ -67,7 +64,7 @@ def _full(group: h5py.Group, name: str, shape: tuple[int, ...], fill: Any, dtype
 
 
 def create_grid_file(path: str | Path, config: Any, plan: GridPlan, infos: list[TermInfo],
-                     digests: dict[str, str]) -> None:
+                     digests: dict[str, Any]) -> None:
     """Write an empty grid file under a temporary name and rename it into place."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
@@ -140,14 +137,17 @@ class GridWriter(SingleWriter):
     path : str or Path
     infos : list of TermInfo
         The constraints, in the order of the workers' term arrays.
+    lock : RunLock, optional
+        The file's lock when the caller holds it (:func:`scan.grid.run.run_grid`).
     """
 
-    def __init__(self, path: str | Path, infos: list[TermInfo]) -> None:
+    def __init__(self, path: str | Path, infos: list[TermInfo],
+                 lock: RunLock | None = None) -> None:
         self.infos = list(infos)
         # HDF5's own file lock is off for the writer: the lock file keeps writers out,
         # and a reader that opened the file a moment earlier must not block it
-        super().__init__(path, "another zetascan grid is writing this file; wait for it or "
-                         "stop it first", hdf5_locking=False)
+        super().__init__(path, "another zetascan grid is writing this file; wait for it to "
+                         "finish or stop it first", hdf5_locking=False, lock=lock)
         g = self.handle["grid"]
         self.nx = g["x"].shape[0]
         self.done, self.valid = g["done"][()], g["valid"][()]
@@ -205,7 +205,8 @@ def read_grid(path: str | Path) -> dict[str, Any]:
     Returns
     -------
     dict
-        ``attrs`` (root), ``grid_attrs``, every ``grid`` dataset by name, and ``terms``:
+        ``attrs`` (root), ``grid_attrs``, every ``grid`` dataset by name (``units``: their
+        units attributes), and ``terms``:
         name -> {``attrs``, ``status``, ``log_like``, optional ``snr``,
         ``reference_log_like``}.
 
@@ -214,23 +215,25 @@ def read_grid(path: str | Path) -> dict[str, Any]:
     InputFileError
         Not a zetascan grid file.
     """
+    require(path, "grid")
     try:
         with h5py.File(path, "r", libver="latest", swmr=True) as handle:
-            if handle.attrs.get("kind") != KIND or "grid" not in handle:
-                raise InputFileError(str(path), "not a zetascan grid file")
             g = handle["grid"]
             out: dict[str, Any] = {"attrs": dict(handle.attrs), "grid_attrs": dict(g.attrs)}
+            out["units"] = {}
             for name, item in g.items():
                 if isinstance(item, h5py.Dataset):
                     out[name] = item[()]
+                    out["units"][name] = str(item.attrs.get("units", ""))
             out["reason_names"] = [str(v) for v in g["reason"].attrs["reason_names"]]
             out["terms"] = {name: {"attrs": dict(t.attrs),
                                    **{k: v[()] for k, v in t.items()}}
                             for name, t in g["terms"].items()}
-            raw = handle["config"][()]
-            out["config_text"] = raw.decode() if isinstance(raw, bytes) else str(raw)
-            out["overrides"] = tuple(str(v) for v in handle["config"].attrs.get("overrides", [])
-                                     if str(v) != "none")
+            stored = stored_config_of(handle, str(handle.attrs.get("run_name", "run")))
+            out["config_text"], out["overrides"] = stored.text, stored.overrides
+    except KeyError as err:
+        raise InputFileError(str(path), f"incomplete grid file: missing {err}; was it "
+                             "written by an older or unfinished zetascan grid?") from None
     except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
     return out

@@ -23,7 +23,9 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 import h5py
 import numpy as np
@@ -32,7 +34,44 @@ from scan import store
 from scan.config.schema import RunConfig
 from scan.observables import Observables, cosmo
 from scan.pipeline.peaks import UNITS, as_records
-from scan.pipeline.solve import SolveResult
+from scan.pipeline.solve import SolveResult, solve_config
+from scan.store import RunFolder
+
+@dataclasses.dataclass(frozen=True)
+class Solved:
+    """What :func:`solve_to_file` computed and wrote."""
+
+    result: SolveResult
+    out: Path
+    figures: tuple[Path, ...] = ()
+
+
+def solve_to_file(config: RunConfig, out: str | Path | None = None,
+                  draw: Callable[[Path, SolveResult], list[Path]] | None = None) -> Solved:
+    """``zetascan solve`` as one call: solve the configured model exactly and write it.
+
+    Parameters
+    ----------
+    config : RunConfig
+    out : str or Path, optional
+        The result file (default: ``<run.output_dir>/<run.name>.h5``).
+    draw : callable, optional
+        ``draw(out, result) -> figure paths`` after the file is written.
+
+    Raises
+    ------
+    InputFileError
+        Another process writes ``out`` (named by its PID).
+    """
+    out = Path(out) if out else RunFolder.of(config).solve_result
+    store.check_output_file(out, "result file")
+    with store.RunLock(out, "another zetascan solve writes this result file; wait for it "
+                       "or choose another --out"):
+        result = solve_config(config)
+        write_solve_result(out, config, result)
+    figures = tuple(draw(out, result)) if draw is not None else ()
+    return Solved(result, out, figures)
+
 
 _BACKGROUND_UNITS = {"N": "e-folds", "phi": "M_p", "chi": "M_p", "dchi_dN": "M_p",
                      "H": "M_p (for V0 = 1; scales as sqrt(V0))", "eps1": "1", "eps2": "1"}
@@ -144,3 +183,28 @@ def read_spectrum(path: str | Path) -> tuple[np.ndarray, np.ndarray]:
     """``(k [Mpc^-1], P_zeta)`` from a result file's ``spectrum`` group."""
     with h5py.File(path, "r") as handle:
         return handle["spectrum/k"][()], handle["spectrum/P_zeta"][()]
+
+
+def read_solve(path: str | Path) -> dict[str, Any]:
+    """Arrays and attributes of a solve result's ``spectrum``, ``gw`` and ``pbh`` groups
+    (only the groups the file has) and the background's ``N_end``.
+
+    Raises
+    ------
+    InputFileError
+        Not a solve result (:func:`scan.store.require`).
+    """
+    store.require(path, "solve")
+    out: dict[str, Any] = {}
+    with h5py.File(path, "r") as h:
+        out["N_end"] = float(h["background"].attrs["N_end"])
+        if "spectrum" in h:
+            s = h["spectrum"]
+            out["spectrum"] = {name: s[name][()] for name in ("k", "P_zeta", "P_tensor",
+                                                              "N_exit")}
+            out["spectrum"]["k_star"] = float(s.attrs["k_star"])
+        if "gw" in h:
+            out["gw"] = (h["gw/f"][()], h["gw/omega_gw_h2"][()])
+        if "pbh" in h:
+            out["pbh"] = (h["pbh/M"][()], h["pbh/f_pbh"][()], float(h["pbh"].attrs["f_pbh_total"]))
+    return out

@@ -19,7 +19,8 @@ from matplotlib.colors import to_rgb
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from scan.plots.grid_data import DETECTABLE, EXCLUDED, EXCLUDING_KINDS, GridData
+from scan.grid.verdict import DETECTABLE, EXCLUDED
+from scan.plots.grid_data import EXCLUDING_KINDS, GridData
 from scan.plots.levels import Histogram2D
 from scan.plots.looks import GUIDE_GREY, POSTERIOR_COLOUR, look_of, readable
 from scan.plots.style import COLUMN_WIDTH_IN, figure, legend_below, wrap_text
@@ -44,7 +45,7 @@ def exclusion_figure(grid: GridData, posterior: Histogram2D | None = None, *,
     Parameters
     ----------
     grid : GridData
-        The scan (:func:`scan.plots.grid_data.read_grid`).
+        The scan (:func:`scan.plots.grid_data.exclusion_data`).
     posterior : Histogram2D, optional
         A chain's 2-D histogram in the grid's axes (log10 of log-scaled axes), with its
         68 % / 95 % thresholds.

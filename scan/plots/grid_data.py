@@ -13,14 +13,13 @@ from __future__ import annotations
 
 import dataclasses
 from pathlib import Path
+from typing import Any
 
-import h5py
 import numpy as np
 
 from scan.errors import InputFileError
+from scan.grid.store import read_grid
 
-#: Status codes of ``grid/terms/<name>/status``.
-NOT_EVALUATED, ALLOWED, EXCLUDED, DETECTABLE, NOT_DETECTABLE = -1, 0, 1, 2, 3
 #: Term kinds whose status 1 is a region ruled out or disfavoured.
 EXCLUDING_KINDS: tuple[str, ...] = ("upper_limit", "pbh", "neff", "prior", "detection")
 TERM_KINDS: tuple[str, ...] = EXCLUDING_KINDS + ("sensitivity",)
@@ -61,39 +60,29 @@ class GridData:
     y_units: str = ""
 
 
-def is_grid_file(handle: h5py.File) -> bool:
-    """True if the open file has a ``grid`` group."""
-    return "grid" in handle and isinstance(handle["grid"], h5py.Group)
-
-
-def read_grid(path: str | Path) -> GridData:
-    """Read a grid file.
+def exclusion_data(path: str | Path) -> GridData:
+    """Read a grid file (:func:`scan.grid.store.read_grid`) for the exclusion map.
 
     Raises
     ------
     InputFileError
         The file is not a grid file or lacks a field of the layout above.
     """
+    data = read_grid(path)
     try:
-        with h5py.File(path, "r") as handle:
-            if not is_grid_file(handle):
-                raise InputFileError(str(path), "no 'grid' group: not a zetascan grid file "
-                                     "(make one with zetascan grid CONFIG)")
-            return _read(str(path), handle["grid"])
+        return _record(str(path), data)
     except KeyError as err:
         raise InputFileError(str(path), f"incomplete grid file: missing {err}; was it "
                              "written by an older or unfinished zetascan grid?") from None
-    except OSError as err:
-        raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
 
 
-def _read(path: str, group: h5py.Group) -> GridData:
-    attrs = {name: str(group.attrs[name]) for name in _AXIS_ATTRS}
-    x, y = group["x"][()].astype(float), group["y"][()].astype(float)
+def _record(path: str, data: dict[str, Any]) -> GridData:
+    attrs = {name: str(data["grid_attrs"][name]) for name in _AXIS_ATTRS}
+    x, y = np.asarray(data["x"], float), np.asarray(data["y"], float)
     shape = (len(y), len(x))
     for name in ("done", "valid", "P_peak"):
-        if group[name].shape != shape:
-            raise InputFileError(path, f"grid/{name} has shape {group[name].shape}, "
+        if data[name].shape != shape:
+            raise InputFileError(path, f"grid/{name} has shape {data[name].shape}, "
                                  f"expected (ny, nx) = {shape}")
     if min(shape) < 2:
         raise InputFileError(path, f"the grid has {shape[1]} x {shape[0]} points; the "
@@ -102,25 +91,23 @@ def _read(path: str, group: h5py.Group) -> GridData:
         if attrs[axis] not in ("linear", "log"):
             raise InputFileError(path, f"grid attribute {axis} = '{attrs[axis]}' is not "
                                  "'linear' or 'log'")
-    terms = tuple(_term(path, name, sub, shape) for name, sub in group["terms"].items()) \
-        if "terms" in group else ()
-    return GridData(path, x, y, **attrs, done=group["done"][()].astype(bool),
-                    valid=group["valid"][()].astype(bool),
-                    P_peak=group["P_peak"][()].astype(float), terms=terms,
-                    source=str(group.attrs.get("source", "")),
-                    x_units=str(group["x"].attrs.get("units", "")),
-                    y_units=str(group["y"].attrs.get("units", "")))
+    terms = tuple(_term(path, name, term, shape) for name, term in data["terms"].items())
+    return GridData(path, x, y, **attrs, done=data["done"].astype(bool),
+                    valid=data["valid"].astype(bool), P_peak=data["P_peak"].astype(float),
+                    terms=terms, source=str(data["grid_attrs"].get("source", "")),
+                    x_units=data["units"]["x"], y_units=data["units"]["y"])
 
 
-def _term(path: str, name: str, group: h5py.Group, shape: tuple[int, int]) -> GridTerm:
-    kind = str(group.attrs["kind"])
+def _term(path: str, name: str, term: dict[str, Any], shape: tuple[int, int]) -> GridTerm:
+    kind = str(term["attrs"]["kind"])
     if kind not in TERM_KINDS:
         raise InputFileError(path, f"grid/terms/{name}: kind '{kind}' is not one of "
                              f"{', '.join(TERM_KINDS)}")
-    status = group["status"][()].astype(np.int8)
+    status = np.asarray(term["status"]).astype(np.int8)
     if status.shape != shape:
         raise InputFileError(path, f"grid/terms/{name}/status has shape {status.shape}, "
                              f"expected {shape}")
-    snr = group["snr"][()].astype(float) if "snr" in group else None
-    threshold = float(group.attrs["snr_threshold"]) if "snr_threshold" in group.attrs else None
-    return GridTerm(name, kind, str(group.attrs.get("label", name)), status, snr, threshold)
+    snr = np.asarray(term["snr"], float) if "snr" in term else None
+    threshold = (float(term["attrs"]["snr_threshold"]) if "snr_threshold" in term["attrs"]
+                 else None)
+    return GridTerm(name, kind, str(term["attrs"].get("label", name)), status, snr, threshold)

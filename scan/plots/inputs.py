@@ -7,15 +7,16 @@ import warnings
 from pathlib import Path
 from typing import Any
 
-import h5py
 import numpy as np
 
-from scan.config import describe, load_config_text
+from scan.config import describe
+from scan.config.diff import result_config
 from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.curves import load_curve
 from scan.errors import ConfigError, InputFileError
 from scan.likelihood.from_config import curve_paths_of
+from scan.pipeline.result_file import read_solve
 from scan.plots.sources import Sources, chain_has_observables
 from scan.sampler.bands import N_SAMPLES, SEED, posterior_bands
 from scan.sampler.summary import posterior_samples
@@ -23,33 +24,7 @@ from scan.sampler.summary import posterior_samples
 
 def stored_config(path: Path):
     """The run config stored in a result or chain file (with its overrides re-applied)."""
-
-    with h5py.File(path, "r") as handle:
-        if "config" not in handle:
-            raise InputFileError(str(path), "no 'config' dataset: not a zetascan result file")
-        raw = handle["config"][()]
-        overrides = [str(v) for v in handle["config"].attrs.get("overrides", [])]
-        name = str(handle.attrs.get("run_name", path.stem))
-    text = raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
-    return load_config_text(text, f"{path} (stored config)",
-                            tuple(v for v in overrides if v != "none"), name)
-
-
-def read_solve(path: Path) -> dict[str, Any]:
-    """Arrays and attributes of a solve result's ``spectrum``, ``gw`` and ``pbh`` groups."""
-    out: dict[str, Any] = {}
-    with h5py.File(path, "r") as h:
-        out["N_end"] = float(h["background"].attrs["N_end"])
-        if "spectrum" in h:
-            s = h["spectrum"]
-            out["spectrum"] = {name: s[name][()] for name in ("k", "P_zeta", "P_tensor",
-                                                              "N_exit")}
-            out["spectrum"]["k_star"] = float(s.attrs["k_star"])
-        if "gw" in h:
-            out["gw"] = (h["gw/f"][()], h["gw/omega_gw_h2"][()])
-        if "pbh" in h:
-            out["pbh"] = (h["pbh/M"][()], h["pbh/f_pbh"][()], float(h["pbh"].attrs["f_pbh_total"]))
-    return out
+    return result_config(path)
 
 
 def _units_of_keys() -> dict[str, str]:

@@ -15,25 +15,27 @@ exclusion  grid (posterior regions with a chain)       ``exclusion``
 """
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
 import numpy as np
 
-from scan.errors import ZetascanError
+from scan.errors import InputFileError, ZetascanError
 from scan.pipeline import model_of, solve_background_of
 from scan.plots.exclusion import exclusion_figure
-from scan.plots.grid_data import read_grid
+from scan.plots.grid_data import exclusion_data
 from scan.plots.gw import omega_gw_figure
 from scan.plots.inputs import Inputs, axis_label
 from scan.plots.levels import histogram2d
 from scan.plots.model import model_figure
 from scan.plots.pbh import f_pbh_figure
-from scan.plots.sources import KINDS, supported_kinds
+from scan.plots.sources import KINDS, resolve, supported_kinds
 from scan.plots.spectrum import spectrum_figure
 from scan.plots.style import save
 from scan.plots.trace import trace_figure
 from scan.plots.triangle import triangle_figure
+from scan.sampler.bands import N_SAMPLES, SEED
 from scan.sampler import runfile
 from scan.sampler.convergence import settle
 
@@ -53,14 +55,51 @@ def select_kinds(inputs: Inputs, requested: Sequence[str]) -> tuple[str, ...]:
     supported = supported_kinds(inputs.sources)
     where = ", ".join(str(p) for p in (inputs.sources.solve, inputs.sources.chain,
                                        inputs.sources.grid) if p is not None)
+    why = ""
+    if "model" in supported and inputs.config.model.plugins:
+        supported = tuple(k for k in supported if k != "model")
+        why = (f"no model figure: the stored config names plug-in code "
+               f"({', '.join(inputs.config.model.plugins)}) and reading a result never "
+               "imports code; 'zetascan solve CONFIG' draws it (running a config executes "
+               "its plug-ins)")
+        inputs.notes.append(why)
     if "all" in requested:
         return supported
     missing = [k for k in requested if k not in supported]
     if missing:
         raise UnsupportedKindError(
             f"{where}: cannot make {', '.join(missing)}; these files support: "
-            f"{', '.join(supported) or 'nothing'} (or all)")
+            f"{', '.join(supported) or 'nothing'} (or all)" + (f"; {why}" if why else ""))
     return tuple(k for k in KINDS if k in requested)
+
+
+@dataclasses.dataclass(frozen=True)
+class Plotted:
+    """What :func:`plot_result` wrote: figure paths (PNG then PDF) and notes to show."""
+
+    paths: tuple[Path, ...]
+    notes: tuple[str, ...]
+
+
+def plot_result(result: str | Path, kinds: Sequence[str] = ("all",), *,
+                out: str | Path | None = None, chain: str | Path | None = None,
+                curves: Sequence[str] | None = None, samples: int = N_SAMPLES,
+                seed: int = SEED) -> Plotted:
+    """``zetascan plot`` as one call: the figures of a solve result, chain, grid or run
+    folder (:func:`scan.plots.sources.resolve`) in ``out`` (default: beside the result).
+
+    Raises
+    ------
+    ZetascanError
+        Missing or unknown files, a kind the files cannot make, fewer than 1 sample.
+    """
+    if samples < 1:
+        raise InputFileError("--samples", f"needs at least 1 sample, got {samples}")
+    sources = resolve(result, chain)
+    inputs = Inputs(sources, tuple(curves) if curves else None, samples, seed)
+    chosen = select_kinds(inputs, kinds)
+    paths = make_figures(inputs, chosen, Path(out) if out else sources.folder)
+    return Plotted(tuple(paths), tuple(inputs.notes))
 
 
 def make_figures(inputs: Inputs, kinds: Sequence[str], out_dir: Path) -> list[Path]:
@@ -136,7 +175,7 @@ def _labels(inputs: Inputs) -> list[str]:
 
 def _exclusion(inputs: Inputs):
 
-    grid = read_grid(inputs.sources.grid)
+    grid = exclusion_data(inputs.sources.grid)
     posterior = None
     if inputs.sources.chain is not None:
         x = inputs.column(grid.x_key, grid.x_scale == "log")

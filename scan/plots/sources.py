@@ -10,11 +10,10 @@ from __future__ import annotations
 import dataclasses
 from pathlib import Path
 
-import h5py
-
-from scan.config import load_config_text
+from scan.config.diff import result_config
 from scan.errors import InputFileError
-from scan.sampler import runfile
+from scan.pipeline.result_file import read_solve
+from scan.store import RunFolder, require
 
 #: Figure kinds, in the order ``all`` makes them.
 KINDS: tuple[str, ...] = ("spectrum", "model", "gw", "pbh", "corner", "trace", "bands",
@@ -42,27 +41,14 @@ class Sources:
 
 
 def classify(path: Path) -> str:
-    """``"solve"``, ``"chain"`` or ``"grid"`` from the file's groups.
+    """``"solve"``, ``"chain"`` or ``"grid"`` (:func:`scan.store.require`).
 
     Raises
     ------
     InputFileError
-        Not an HDF5 file, or none of the three layouts.
+        Not an HDF5 file, or none of the three kinds.
     """
-    try:
-        with h5py.File(path, "r") as handle:
-            groups = sorted(handle.keys())
-    except OSError as err:
-        raise InputFileError(str(path), f"cannot open as HDF5 ({err}); give a result file "
-                             "from zetascan solve, sample or grid, or a run folder") from None
-    if "grid" in groups:
-        return "grid"
-    if "sampler" in groups or "mcmc" in groups:
-        return "chain"
-    if "background" in groups:
-        return "solve"
-    raise InputFileError(str(path), f"not a zetascan solve, chain or grid file (groups: "
-                         f"{', '.join(groups) or 'none'})")
+    return require(path, "solve", "chain", "grid")
 
 
 def _existing(path: Path) -> Path:
@@ -84,8 +70,8 @@ def resolve(result: str | Path, chain: str | Path | None = None) -> Sources:
     found: dict[str, Path] = {}
     if path.is_dir():
         for kind in ("chain", "grid"):
-            if (path / f"{kind}.h5").is_file():
-                found[kind] = path / f"{kind}.h5"
+            if RunFolder(path).file(kind).is_file():
+                found[kind] = RunFolder(path).file(kind)
         if not found:
             raise InputFileError(str(path), "the folder holds neither chain.h5 nor grid.h5 "
                                  "(run zetascan sample or zetascan grid first)")
@@ -96,7 +82,7 @@ def resolve(result: str | Path, chain: str | Path | None = None) -> Sources:
         folder = path.parent
     if chain is not None:
         extra = Path(chain)
-        extra = extra / "chain.h5" if extra.is_dir() else _existing(extra)
+        extra = RunFolder(extra).chain if extra.is_dir() else _existing(extra)
         if classify(_existing(extra)) != "chain":
             raise InputFileError(str(extra), "--chain needs a chain file from zetascan sample "
                                  "(or its run folder)")
@@ -110,21 +96,19 @@ def resolve(result: str | Path, chain: str | Path | None = None) -> Sources:
 def chain_has_observables(path: Path) -> bool:
     """True if the chain sampled the physics posterior (surrogate observables)."""
 
-    stored = runfile.read(path)
-    config = load_config_text(stored.config_text, f"{path} (stored config)",
-                              stored.overrides, stored.run_name)
-    return config.sampler.target == "posterior"
+    require(path, "chain")
+    return result_config(path).sampler.target == "posterior"
 
 
 def supported_kinds(sources: Sources) -> tuple[str, ...]:
     """The figure kinds these files can make, in :data:`KINDS` order."""
     kinds: set[str] = set()
     if sources.solve is not None:
-        with h5py.File(sources.solve, "r") as handle:
-            kinds.add("model")
-            if "spectrum" in handle and handle["spectrum/k"].size:
-                kinds.add("spectrum")
-            kinds.update(k for k, g in (("gw", "gw"), ("pbh", "pbh")) if g in handle)
+        solve = read_solve(sources.solve)
+        kinds.add("model")
+        if "spectrum" in solve and solve["spectrum"]["k"].size:
+            kinds.add("spectrum")
+        kinds.update(k for k in ("gw", "pbh") if k in solve)
     if sources.chain is not None:
         kinds.update(("corner", "trace"))
         if chain_has_observables(sources.chain):

@@ -19,7 +19,7 @@ from scan.posterior.setup import (NUISANCE_NAMES, UNSUPPORTED_NUISANCE, check_co
                                   check_threshold_prior)
 from scan.posterior.target import PosteriorTarget
 from scan.posterior.targets import GaussianTarget, TargetBase
-from scan.surrogate import surrogate_path
+from scan.store import RunFolder
 
 
 def gaussian_test_target(config: RunConfig, priors: PriorSet) -> GaussianTarget:
@@ -89,7 +89,7 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
     check_collapse_k_prior(config, priors)
     require_gaussian_batch(config.observables, config.source)
     paths = curve_paths_of(config)
-    surrogate = config.likelihood.surrogate or str(surrogate_path(config))
+    surrogate = config.likelihood.surrogate or str(RunFolder.of(config).surrogate)
     if not Path(surrogate).is_file():
         raise ConfigError(config.source, "likelihood.surrogate",
                           f"surrogate file '{surrogate}' not found",

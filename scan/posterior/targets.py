@@ -31,6 +31,8 @@ class TargetBase:
     names: tuple[str, ...]
     blob_dtype: np.dtype
     reasons: tuple[str, ...]
+    #: Curve and scalar-bound files the target reads (part of a run's identity).
+    curve_paths: tuple[str, ...] = ()
 
     def prepare(self) -> None:
         """Load whatever the target needs, once per process (nothing by default)."""

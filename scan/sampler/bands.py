@@ -30,11 +30,11 @@ from pathlib import Path
 
 import numpy as np
 
-from scan.config import load_config_text
+from scan import store
+from scan.config.diff import result_config
 from scan.config.priors import PriorSet
 from scan.errors import InputFileError
 from scan.posterior.build import posterior_target
-from scan.sampler import runfile
 from scan.sampler.summary import posterior_samples
 
 #: Percentiles of a band [%]: the central 95 % and 68 % intervals and the median.
@@ -220,9 +220,8 @@ def chain_target(path: str | Path):
         The stored config's curves or surrogate cannot be found from here.
     """
 
-    stored = runfile.read(path)
-    config = load_config_text(stored.config_text, f"{path} (stored config)",
-                              stored.overrides, stored.run_name)
+    store.require(path, "chain")
+    config = result_config(path)
     if config.sampler.target != "posterior":
         raise InputFileError(str(path), f"the chain samples the '{config.sampler.target}' "
                              "target, which has no observables; posterior bands need a run "

@@ -38,6 +38,9 @@ from scan.sampler.evaluate import Evaluator
 
 #: Rounds of redrawing initial walkers whose log-probability is -inf.
 START_ATTEMPTS = 100
+#: What to do when another process writes the chain (the lock's message names its PID).
+BUSY = ("another zetascan command is running on this chain; wait for it to finish or stop "
+        "it first (--restart too waits: it would delete the file under it)")
 
 
 class ConfigMismatchError(ZetascanError):
@@ -52,6 +55,7 @@ class RunPlan:
     priors: PriorSet
     target: TargetBase
     path: Path
+    curves: dict[str, str] = dataclasses.field(default_factory=dict)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -99,7 +103,8 @@ def plan_run(config: RunConfig, path: str | Path | None = None) -> RunPlan:
         raise ConfigError(config.source, "sampler.walkers",
                           f"{config.sampler.walkers} walkers for {priors.dim} parameters",
                           f"use at least 2 x {priors.dim} = {2 * priors.dim} walkers")
-    return RunPlan(config, priors, target, Path(path) if path else runfile.run_path(config))
+    path = Path(path) if path else store.RunFolder.of(config).chain
+    return RunPlan(config, priors, target, path, store.curve_digests(target.curve_paths))
 
 
 def _check_resumable(plan: RunPlan, stored: runfile.Stored) -> bool:
@@ -160,6 +165,7 @@ def _open(plan: RunPlan, restart: bool) -> runfile.Stored | None:
     if stored.extras.names != plan.priors.names:
         raise ConfigMismatchError(f"{plan.path}: stored parameters {stored.extras.names} "
                                   f"differ from {plan.priors.names}; pass --restart")
+    store.check_curves(plan.path, stored.curves, plan.curves)
     if _check_resumable(plan, stored):
         runfile.update_config(plan.path, plan.config, stored.config_sha256)
     return stored if stored.iteration > 0 else None
@@ -186,7 +192,18 @@ def run_chain(plan: RunPlan, pool: BasePool, *, restart: bool = False,
     ------
     ConfigMismatchError
         The run file was made with a different config (and ``restart`` is False).
+    InputFileError
+        Another process writes this run file (the message names its PID); ``restart``
+        deletes nothing then.
     """
+    with store.RunLock(plan.path, BUSY):
+        return _run_locked(plan, pool, restart, should_stop, on_progress)
+
+
+def _run_locked(plan: RunPlan, pool: BasePool, restart: bool,
+                should_stop: Callable[[], bool],
+                on_progress: Callable[[Progress], None] | None) -> RunOutcome:
+    """:func:`run_chain` while holding the run file's lock."""
     section, policy = plan.config.sampler, Policy.from_section(plan.config.sampler)
     stored = _open(plan, restart)
     if stored is None:
@@ -197,7 +214,7 @@ def run_chain(plan: RunPlan, pool: BasePool, *, restart: bool = False,
     evaluator = Evaluator(plan.target, pool, extras.counts)
     if stored is None:
         initial = _initial_walkers(plan, evaluator)
-        runfile.create(plan.path, plan.config, extras, initial.coords)
+        runfile.create(plan.path, plan.config, extras, initial.coords, plan.curves)
     extras.counts = evaluator.counts  # the same array: flushed as it grows
 
     backend = runfile.ChainBackend(plan.path, section.write_every, on_flush=extras.write)

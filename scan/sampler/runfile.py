@@ -3,7 +3,8 @@
 Layout (every dataset has a ``units`` attribute):
 
 * root attributes — provenance (:func:`scan.store.provenance`: versions, git hash, config
-  hash, seed) and ``run_name``; dataset ``config`` — the TOML text with its overrides;
+  hash, seed), ``run_name``, and ``curve_files``/``curve_sha256`` (the curve files read,
+  :mod:`scan.store.identity`); dataset ``config`` — the TOML text with its overrides;
 * group ``mcmc`` — emcee's HDF5 backend: ``chain``, ``log_prob``, ``blobs`` (a compound
   dtype with the named derived quantities and ``reason``), ``accepted``, the iteration and
   the sampler's random state (attributes ``random_state_0..4``);
@@ -18,7 +19,7 @@ since the last write.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -173,15 +174,22 @@ class Extras:
                    thin=int(group.attrs["thin"]))
 
 
-def run_path(config: RunConfig) -> Path:
-    """``<output_dir>/<name>/chain.h5``."""
-    return Path(config.run.output_dir) / config.run.name / "chain.h5"
+def chain_path(run: str | Path) -> Path:
+    """The chain file of a run folder (or the file itself); InputFileError if absent."""
+    path = store.RunFolder(run).chain if Path(run).is_dir() else Path(run)
+    if not path.is_file():
+        raise InputFileError(str(path), "no such chain file (give a run folder made by "
+                             "'zetascan sample CONFIG', or its chain.h5)")
+    return path
 
 
-def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray) -> None:
-    """Write a new run file (atomically): provenance, config, the ``sampler`` group."""
+def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
+           curves: Mapping[str, str] | None = None) -> None:
+    """Write a new run file (atomically): provenance, config, the digests of the curve
+    files read (:mod:`scan.store.identity`), the ``sampler`` group."""
     with store.atomic_h5(path) as handle:
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
+        store.write_attrs(handle, store.curve_attrs(curves or {}))
         handle.attrs["run_name"] = config.run.name
         store.write_config(handle, config.effective_text, config.overrides)
         extras.write(handle)
@@ -199,6 +207,7 @@ class Stored:
     run_name: str
     iteration: int
     extras: Extras
+    curves: dict[str, str] | None = None
 
 
 def read(path: str | Path) -> Stored:
@@ -212,17 +221,17 @@ def read(path: str | Path) -> Stored:
     """
     try:
         with h5py.File(path, "r") as handle:
-            if "config" not in handle or EXTRA not in handle:
-                raise InputFileError(str(path), "not a zetascan chain file (no 'config' or "
-                                     "'sampler' group); use --restart to overwrite it")
-            raw = handle["config"][()]
-            overrides = [str(v) for v in handle["config"].attrs.get("overrides", [])]
+            kind = store.kind_of(handle)
+            if kind != "chain" or "config" not in handle or EXTRA not in handle:
+                what = f"a {kind} file" if kind not in (None, "chain") else \
+                    "no 'config' or 'sampler' group"
+                raise InputFileError(str(path), f"not a zetascan chain file ({what}); use "
+                                     "--restart to overwrite it")
+            config = store.stored_config_of(handle)
             iteration = int(handle[GROUP].attrs["iteration"]) if GROUP in handle else 0
-            return Stored(raw.decode() if isinstance(raw, bytes) else str(raw),
-                          str(handle.attrs["config_sha256"]),
-                          tuple(v for v in overrides if v != "none"),
-                          str(handle.attrs.get("run_name", "run")), iteration,
-                          Extras.read(handle))
+            return Stored(config.text, str(handle.attrs["config_sha256"]), config.overrides,
+                          config.run_name, iteration, Extras.read(handle),
+                          store.stored_digests(handle.attrs))
     except (OSError, KeyError) as err:
         raise InputFileError(str(path), f"cannot read the chain file ({err}); it may have "
                              "been damaged during a write: use --restart") from None

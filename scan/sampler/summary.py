@@ -87,8 +87,10 @@ def posterior_samples(path: str | Path) -> dict[str, Any]:
             "stray_walkers": 0 if settled is None else settled.dropped}
 
 
-def summarize(path: str | Path) -> dict[str, Any]:
-    """Everything ``zetascan summary`` shows, as plain JSON-ready values."""
+def summarize(run: str | Path) -> dict[str, Any]:
+    """Everything ``zetascan summary`` shows, as plain JSON-ready values (``run``: a run
+    folder or its chain file)."""
+    path = runfile.chain_path(run)
     stored = runfile.read(path)
     data = runfile.load_chain(path)
     extras = stored.extras

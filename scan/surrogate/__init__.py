@@ -23,7 +23,7 @@ from scan.surrogate.space import ParameterSpace, from_config
 from scan.surrogate.surrogate_file import read_surrogate
 
 __all__ = ["Surrogate", "load_surrogate", "Prediction", "TrainingRecord", "ParameterSpace",
-           "training_path", "surrogate_path"]
+]
 
 
 @dataclass(frozen=True)
@@ -45,12 +45,3 @@ def load_surrogate(path: str | Path, config=None) -> Surrogate:
     emulator, space = read_surrogate(path, ident)
     return Surrogate(emulator, space)
 
-
-def training_path(config) -> Path:
-    """``<output_dir>/<name>/training.h5``."""
-    return Path(config.run.output_dir) / config.run.name / "training.h5"
-
-
-def surrogate_path(config) -> Path:
-    """``<output_dir>/<name>/surrogate.h5``."""
-    return Path(config.run.output_dir) / config.run.name / "surrogate.h5"

@@ -30,21 +30,14 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import (
-    SingleWriter,
-    append_bytes,
-    atomic_h5,
-    config_hash,
-    provenance,
-    put_rows,
-    require_space,
-    write_config,
-)
+from scan.store import (KIND_ATTRS, RunLock, SingleWriter, append_bytes, atomic_h5,
+                        config_hash, provenance, put_rows, require, require_space,
+                        write_config)
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
 
 REASON_BYTES = 160
-KIND = "zetascan training store"
+KIND = KIND_ATTRS["training"]
 
 
 @dataclass(frozen=True)
@@ -104,10 +97,9 @@ def create_store(path: str | Path, config, space, x: np.ndarray, ident: dict) ->
 
 def check_identity(path: str | Path, ident: dict) -> None:
     """Raise InputFileError naming every difference if the store is of another model."""
+    require(path, "training")
     try:
         with h5py.File(path, "r", libver="latest", swmr=True) as handle:
-            if handle.attrs.get("kind") != KIND:
-                raise InputFileError(str(path), "not a zetascan training store")
             stored = json.loads(handle.attrs["identity_json"])
     except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
@@ -125,12 +117,15 @@ def stored_config_hash(path: str | Path) -> str:
     return config_hash(raw.decode() if isinstance(raw, bytes) else str(raw))
 
 
+#: What to do when another process writes the store (the lock names its PID).
+BUSY = "another zetascan train is writing this training store; wait for it or stop it first"
+
+
 class StoreWriter(SingleWriter):
     """The one writer of a training store (open in SWMR mode; use as a context manager)."""
 
-    def __init__(self, path: str | Path) -> None:
-        super().__init__(path, "another training run is writing this store; wait for it or "
-                         "stop it first")
+    def __init__(self, path: str | Path, lock: RunLock | None = None) -> None:
+        super().__init__(path, BUSY, lock=lock)
 
     def _require_space(self, datasets, start: int, rows: int) -> None:
         """Stop before an append the disk cannot take: the store keeps every finished

@@ -15,7 +15,7 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import atomic_h5, provenance, write_config, write_dataset
+from scan.store import KIND_ATTRS, atomic_h5, provenance, require, write_config, write_dataset
 from scan.surrogate.bottleneck import Bottleneck
 from scan.surrogate.emulator import Emulator
 from scan.surrogate.gp import GPFit
@@ -24,7 +24,7 @@ from scan.surrogate.shape import ShapeBasis
 from scan.surrogate.space import ParameterSpace
 from scan.surrogate.validate import format_report
 
-KIND = "zetascan surrogate"
+KIND = KIND_ATTRS["surrogate"]
 _GP_ARRAYS = ("centres", "weights", "mean_coef", "scale", "length", "loo", "centre_norms")
 
 
@@ -99,15 +99,14 @@ def write_surrogate(path: str | Path, config, space: ParameterSpace, emulator: E
 
 
 def _open(path: str | Path) -> h5py.File:
+    if not Path(path).is_file():
+        raise InputFileError(str(path), "no such surrogate file (make one with 'zetascan "
+                             "train CONFIG')")
+    require(path, "surrogate")
     try:
-        handle = h5py.File(path, "r")
-    except (OSError, FileNotFoundError) as err:
+        return h5py.File(path, "r")
+    except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
-    if handle.attrs.get("kind") != KIND:
-        handle.close()
-        raise InputFileError(str(path), "not a zetascan surrogate file (make one with "
-                             "'zetascan train CONFIG')")
-    return handle
 
 
 def read_report(path: str | Path) -> dict:

@@ -19,7 +19,9 @@ from scan.surrogate.emulator import (Emulator, EmulatorSettings, TrainingSet, cl
 from scan.surrogate.identity import identity
 from scan.surrogate.record import SCALARS, TrainingRecord, cmb_feature, shape_grid
 from scan.surrogate.space import ParameterSpace
-from scan.surrogate.store import StoreWriter, check_identity, create_store, read_plan, read_points
+from scan.store import RunLock
+from scan.surrogate.store import (BUSY, StoreWriter, check_identity, create_store, read_plan,
+                                  read_points)
 from scan.surrogate.threads import single_blas_thread
 
 Solve = Callable[[np.ndarray], TrainingRecord]
@@ -173,10 +175,16 @@ def run_training(path: Path, config, space: ParameterSpace, solve: Solve, map_fn
 
 def _run_training(path, config, space, solve, map_fn, plan, resume, chunk, progress):
     path = Path(path)
+    with RunLock(path, BUSY) as lock:
+        return _train_locked(path, lock, config, space, solve, map_fn, plan, resume, chunk,
+                             progress)
+
+
+def _train_locked(path, lock, config, space, solve, map_fn, plan, resume, chunk, progress):
     open_store(path, config, space, resume)
     x = shape_grid(config.surrogate.shape_span, config.surrogate.shape_points)
     settings = settings_of(config)
-    with StoreWriter(path) as writer:
+    with StoreWriter(path, lock) as writer:
         _, stages, seqs = read_plan(path)
         plan_stage_counts(writer, space, plan, stages, seqs)
         solve_pending(path, writer, space, solve, map_fn, chunk, progress, "design")

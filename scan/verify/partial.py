@@ -54,18 +54,11 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.observables import Observables
 from scan.posterior.exact import ExactOutcome
-from scan.store import (
-    SingleWriter,
-    append_bytes,
-    config_hash,
-    provenance,
-    put_rows,
-    require_space,
-    write_attrs,
-)
+from scan.store import (KIND_ATTRS, SingleWriter, append_bytes, config_hash, provenance,
+                        put_rows, require_space, write_attrs)
 
 GROUP = "verify_partial"
-KIND = "zetascan verify partial results"
+KIND = KIND_ATTRS["verify_partial"]
 #: Scalar fields of :class:`~scan.observables.Observables` (columns of ``scalars``).
 SCALARS: tuple[str, ...] = ("f_pbh_total", "n_s", "r", "N_star", "ln_1e10_as", "k_peak",
                             "P_peak", "f_gw_peak", "omega_gw_h2_peak")
@@ -260,8 +253,7 @@ class PartialWriter(SingleWriter):
         if self.handle.id.valid:
             self.handle.close()
         self.path.unlink(missing_ok=True)
-        Path(self._lock.name).unlink(missing_ok=True)  # still held: nobody else got it
-        self._lock.close()
+        self._lock.release(remove=True)  # still held: nobody else got it
 
     def rows(self) -> dict[int, int]:
         """Sample index -> row of every complete row (the first, should one repeat)."""

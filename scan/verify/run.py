@@ -22,13 +22,10 @@ from ``created_utc``).  The partial file is removed after the final group is wri
 from __future__ import annotations
 
 import dataclasses
-import datetime as _dt
-import json
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-import h5py
 import numpy as np
 
 from scan import store
@@ -36,7 +33,7 @@ from scan.config.diff import stored_config
 from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError, InputFileError, ZetascanError
-from scan.pool import BasePool
+from scan.pool import BasePool, choose_pool
 from scan.posterior.build import build_target
 from scan.posterior.exact import ExactSolve
 from scan.sampler import runfile
@@ -44,22 +41,11 @@ from scan.sampler.summary import posterior_samples
 from scan.verify.compare import (MIN_SAMPLES, Evaluated, Thresholds, compare, draw_indices,
                                  jsonable, score_outcomes)
 from scan.verify.partial import draw_of, open_partial
+from scan.verify.report_file import read_report, write_group
 
-GROUP = "verify"
-#: Units of the blob fields the posterior target writes (others: "unspecified").
-BLOB_UNITS: dict[str, str] = {"k_peak": "Mpc^-1", "P_peak": "1", "f_gw_peak": "Hz",
-                              "omega_gw_h2_peak": "1", "f_pbh_total": "1",
-                              "M_pbh_peak": "M_sun", "n_s": "1", "r": "1",
-                              "N_star": "e-folds", "log_like": "1", "reason": "1"}
-
-
-def blob_units(name: str) -> str:
-    """The ``units`` attribute of a blob field."""
-    if name in BLOB_UNITS:
-        return BLOB_UNITS[name]
-    if name.startswith(("snr_", "lnL_")):
-        return "1"
-    return "unspecified"
+#: What to do when another process writes the chain (the lock names its PID).
+BUSY = ("another zetascan command is writing this chain (sample or verify); wait for it to "
+        "finish or stop it first")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -92,17 +78,6 @@ class Run:
     status: str
 
 
-def chain_path(run: str | Path) -> Path:
-    """The chain file of a run folder (or the file itself); InputFileError if absent."""
-    path = Path(run)
-    if path.is_dir():
-        path = path / "chain.h5"
-    if not path.is_file():
-        raise InputFileError(str(path), "no such chain file (give a run folder made by "
-                             "'zetascan sample CONFIG', or its chain.h5)")
-    return path
-
-
 def open_run(run: str | Path) -> Run:
     """Read a posterior run and rebuild its target.
 
@@ -114,7 +89,7 @@ def open_run(run: str | Path) -> Run:
         The run is not a surrogate posterior run, or its curves / surrogate are missing.
     """
 
-    path = chain_path(run)
+    path = runfile.chain_path(run)
     stored = runfile.read(path)
     extras = stored.extras
     if extras.burn_in < 0 or extras.thin < 1:
@@ -205,7 +180,8 @@ def verify_run(run: Run, samples: int, pool: BasePool,
     Raises
     ------
     InputFileError
-        ``resume`` of partial results of another draw (the message says what differs).
+        ``resume`` of partial results of another draw (the message says what differs);
+        another process writes the chain file (named by its PID).
     """
 
     check_samples(run, samples)
@@ -218,14 +194,37 @@ def verify_run(run: Run, samples: int, pool: BasePool,
                       lambda i, _theta, outcome: kept.__setitem__(i, outcome), on_progress)
         return assemble(run, index, [kept[int(i)] for i in index], solver, thresholds)
     draw = draw_of(run, index, solver)
-    with open_partial(run.path, draw, run.samples.shape[1], run.config, resume,
-                      log) as partial:
+    with store.RunLock(run.path, BUSY), \
+            open_partial(run.path, draw, run.samples.shape[1], run.config, resume,
+                         log) as partial:
         solve_missing(pool, exact, run.samples, index, set(partial.rows()), partial.append,
                       on_progress)
         result = assemble(run, index, partial.outcomes(index), solver, thresholds)
         write_group(run.path, result)
         partial.remove()
     return result
+
+
+def verify_command(run: str | Path, samples: int, *, processes: int | None = None,
+                   mpi: bool = False, thresholds: Thresholds = Thresholds(),
+                   resume: bool = False, on_start: Callable[[Run, BasePool], None] | None = None,
+                   on_progress: Callable[[int, int], None] | None = None,
+                   log: Callable[[str], None] | None = None,
+                   opener: Callable[[str | Path], Run] | None = None) -> Verification:
+    """``zetascan verify`` as one call: open the run, build the pool, :func:`verify_run`.
+
+    ``on_start(run, pool)`` is called once the pool is up; ``opener`` opens the run
+    (default :func:`open_run`, the chain; :func:`scan.evidence.reweight.open_nested` for
+    the nested samples); the other arguments are :func:`verify_run`'s (``processes`` /
+    ``mpi``: :func:`scan.pool.choose_pool`).
+    """
+    opened = (opener or open_run)(run)
+    store.check_output_file(opened.path, "verification results")
+    with choose_pool(processes, mpi) as pool:
+        if on_start is not None:
+            on_start(opened, pool)
+        return verify_run(opened, samples, pool, thresholds=thresholds,
+                          on_progress=on_progress, resume=resume, log=log)
 
 
 def solver_name(exact: Callable[[np.ndarray], Any]) -> str:
@@ -272,70 +271,3 @@ def assemble(run: Run, index: np.ndarray, outcomes: list[Any], solver: str,
               "seed": int(run.config.run.seed), "burn_in": run.burn_in, "thin": run.thin,
               "chain_status": run.status, "exact_solver": solver, **report}
     return Verification(jsonable(report), ev, weights, index)
-
-
-def write_group(path: str | Path, result: Verification) -> None:
-    """Replace the ``verify`` group of the chain file (append mode; nothing else changes).
-
-    The free space is checked first (twice the group's data, for HDF5's own records): a
-    chain file cut short by a full disk would no longer read back.
-    """
-    report, ev = result.report, result.evaluated
-    data = (ev.blobs_surrogate.nbytes + ev.blobs_exact.nbytes + len(json.dumps(report))
-            + np.asarray(result.weights).nbytes + np.asarray(result.index).nbytes)
-    store.require_space(path, 2 * data, "the chain file is unchanged and every solved sample "
-                        "stays in the partial file; free some space and rerun with --resume")
-    try:
-        with h5py.File(path, "a") as handle:
-            if GROUP in handle:
-                del handle[GROUP]
-            group = handle.create_group(GROUP)
-            store.write_attrs(group, {
-                "samples": report["samples"], "available": report["available"],
-                "seed": report["seed"], "burn_in": report["burn_in"], "thin": report["thin"],
-                "ess": report["ess"], "ess_fraction": report["ess_fraction"],
-                "biased": report["biased"], "flags": list(report["flags"]) or ["none"],
-                "ess_threshold": report["thresholds"]["ess_fraction"],
-                "shift_threshold": report["thresholds"]["shift"],
-                "exact_solver": report["exact_solver"],
-                "created_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(
-                    timespec="seconds")})
-            _write_arrays(group, result)
-            for side, blobs in (("surrogate", ev.blobs_surrogate), ("exact", ev.blobs_exact)):
-                sub = group.create_group(side)
-                for name in blobs.dtype.names:
-                    store.write_dataset(sub, name, blobs[name], blob_units(name),
-                                        f"{side} blob field '{name}' at the drawn samples")
-            dset = group.create_dataset("report", data=json.dumps(report),
-                                        dtype=h5py.string_dtype())
-            dset.attrs["units"] = "1"
-            dset.attrs["format"] = "JSON"
-    except OSError as err:
-        raise InputFileError(str(path), f"cannot write the verify group ({err}); is the "
-                             "run still being sampled?") from None
-
-
-def _write_arrays(group: h5py.Group, result: Verification) -> None:
-    ev = result.evaluated
-    store.write_dataset(group, "index", result.index.astype(np.int64), "1",
-                        "indices into the flattened samples after burn-in and thinning")
-    store.write_dataset(group, "theta", ev.thetas, "1",
-                        "drawn samples (parameter units)")
-    store.write_dataset(group, "log_post_surrogate", ev.log_p_surrogate, "1",
-                        "surrogate log posterior (unnormalised, natural log)")
-    store.write_dataset(group, "log_post_exact", ev.log_p_exact, "1",
-                        "exact log posterior (unnormalised, natural log)")
-    store.write_dataset(group, "weight", result.weights, "1",
-                        "normalised importance weights exact/surrogate")
-    store.write_dataset(group, "exact_reason",
-                        np.array(list(ev.exact_reason), dtype=h5py.string_dtype()), "1",
-                        "why the exact model is invalid ('' when valid)")
-
-
-def read_report(path: str | Path) -> dict[str, Any] | None:
-    """The stored ``verify`` report of a chain file, or None when there is none."""
-    with h5py.File(chain_path(path), "r") as handle:
-        if GROUP not in handle:
-            return None
-        raw = handle[GROUP]["report"][()]
-    return json.loads(raw.decode() if isinstance(raw, bytes) else raw)

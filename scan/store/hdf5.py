@@ -16,7 +16,6 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import errno
-import fcntl
 import hashlib
 import math
 import os
@@ -30,7 +29,8 @@ import h5py
 import numpy as np
 
 from scan import __version__
-from scan.errors import InputFileError, OutputError
+from scan.errors import OutputError
+from scan.store.lock import RunLock
 
 #: Distributions whose versions go into every result file.
 DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib",
@@ -145,38 +145,8 @@ def atomic_h5(path: str | Path, **file_options: Any) -> Iterator[h5py.File]:
             tmp.unlink()
 
 
-def read_config_text(path: str | Path) -> str:
-    """The config text stored in a result file (raises InputFileError if absent)."""
-    try:
-        with h5py.File(path, "r") as handle:
-            if "config" not in handle:
-                raise InputFileError(str(path), "no 'config' dataset: not a zetascan result file")
-            raw = handle["config"][()]
-    except OSError as err:
-        raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
-    return raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
-
-
-def lock_file(path: str | Path, busy: str, name: str | None = None) -> Any:
-    """Hold an exclusive lock on ``path`` (created if absent); close the result to release.
-
-    Raises
-    ------
-    InputFileError
-        Another process holds it (``busy`` says what is writing and what to do; the
-        error names ``name``, default ``path``).
-    """
-    lock = open(path, "w")
-    try:
-        fcntl.flock(lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
-    except BlockingIOError:
-        lock.close()
-        raise InputFileError(str(name or path), busy) from None
-    return lock
-
-
-def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = None
-                       ) -> tuple[Any, h5py.File]:
+def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = None,
+                       lock: RunLock | None = None) -> tuple[RunLock, h5py.File]:
     """Become the one writer of an append-only HDF5 file: lock file, then SWMR mode.
 
     Parameters
@@ -187,20 +157,24 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
         The message when another process holds the lock (what is writing, what to do).
     hdf5_locking : bool, optional
         HDF5's own file locking (h5py's ``locking``; default: the library's).
+    lock : RunLock, optional
+        The file's lock, already held by the caller (a command that holds it for its
+        whole run); default: take it here.
 
     Returns
     -------
     lock, handle
-        The open lock file (close it to release) and the file open "r+" in SWMR mode;
+        The held :class:`~scan.store.lock.RunLock` (release it when done) and the file
+        open "r+" in SWMR mode;
         a file left flagged by a killed writer is first rewritten (:func:`recover_store`).
 
     Raises
     ------
     InputFileError
-        Another writer holds the lock.
+        Another writer holds the lock (the message names its PID).
     """
-    path = Path(path)
-    lock = lock_file(path.with_name(path.name + ".lock"), busy, str(path))
+    own = lock is None
+    lock = RunLock(path, busy) if own else lock
     try:
         try:
             handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
@@ -210,7 +184,8 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
             recover_store(path)
             handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
     except BaseException:
-        lock.close()
+        if own:
+            lock.release()
         raise
     handle.swmr_mode = True
     return lock, handle
@@ -227,7 +202,8 @@ def put_rows(dset: h5py.Dataset, start: int, rows: Any) -> None:
 
 class SingleWriter:
     """The one writer of an append-only HDF5 file (:func:`open_single_writer`), as a
-    context manager: :meth:`close` flushes and closes the file and releases the lock.
+    context manager: :meth:`close` flushes and closes the file and releases the lock it
+    took (a lock handed in stays with the caller).
 
     Attributes
     ----------
@@ -236,10 +212,11 @@ class SingleWriter:
         Open "r+" in SWMR mode.
     """
 
-    def __init__(self, path: str | Path, busy: str, hdf5_locking: bool | None = None
-                 ) -> None:
+    def __init__(self, path: str | Path, busy: str, hdf5_locking: bool | None = None,
+                 lock: RunLock | None = None) -> None:
         self.path = Path(path)
-        self._lock, self.handle = open_single_writer(self.path, busy, hdf5_locking)
+        self._own_lock = lock is None
+        self._lock, self.handle = open_single_writer(self.path, busy, hdf5_locking, lock)
 
     def __enter__(self) -> "SingleWriter":
         return self
@@ -248,11 +225,12 @@ class SingleWriter:
         self.close()
 
     def close(self) -> None:
-        """Flush and close (and release the lock file)."""
+        """Flush and close (and release the lock, unless the caller handed it in)."""
         if self.handle.id.valid:
             self.handle.flush()
             self.handle.close()
-        self._lock.close()
+        if self._own_lock:
+            self._lock.release()
 
 
 def recover_store(path: str | Path) -> None:
