@@ -15,7 +15,8 @@ from test_sampler_posterior import trained  # noqa: F401  (fixture)
 from test_verify import SurrogateAsExact
 
 from scan.evidence.nested import NestedSettings
-from scan.evidence.reweight import evidence_shift, open_nested, write_shift
+from scan.evidence.file import write_shift
+from scan.evidence.reweight import evidence_shift, open_nested
 from scan.evidence.run import plan_evidence, run_evidence
 from scan.pool import SerialPool
 from scan.verify.compare import Evaluated

@@ -381,13 +381,13 @@ def test_a_full_disk_midway_keeps_the_solved_samples_and_resumes(copy, monkeypat
         return 0 if checks["n"] > 7 else 1 << 40
 
     real = store.free_bytes
-    monkeypatch.setattr(store, "free_bytes", filling)
+    monkeypatch.setattr(store.hdf5, "free_bytes", filling)
     with SerialPool() as pool, pytest.raises(OutputError, match="keeps the 7 samples solved"):
         verify_run(run, 12, pool, exact=marked(run))
     assert len(partial_rows(partial_path(copy))) == 7
     with h5py.File(copy, "r") as f:
         assert "verify" not in f
-    monkeypatch.setattr(store, "free_bytes", real)
+    monkeypatch.setattr(store.hdf5, "free_bytes", real)
     resumed = Counting(marked(run))
     with SerialPool() as pool:
         result = verify_run(run, 12, pool, exact=resumed, resume=True)

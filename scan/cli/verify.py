@@ -9,7 +9,8 @@ from collections.abc import Callable
 
 from scan.cli import with_plugin_note
 from scan.errors import ZetascanError
-from scan.evidence.reweight import evidence_shift, ln_z_of, open_nested, shift_lines, write_shift
+from scan.evidence.file import write_shift
+from scan.evidence.reweight import evidence_shift, ln_z_of, open_nested, shift_lines
 from scan.pool import BasePool
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
 from scan.verify.run import Run, verify_command

@@ -138,3 +138,15 @@ def _plain(value: Any) -> Any:
     if isinstance(value, bytes):
         return value.decode()
     return value.item() if isinstance(value, np.generic) else value
+
+
+def write_shift(path: str | Path, shift: dict[str, Any]) -> None:
+    """Add the correction to the ``evidence`` group (attributes; nothing else changes)."""
+    with h5py.File(path, "a") as handle:
+        group = handle[GROUP]
+        ln_z = float(group.attrs["ln_Z"])
+        store.write_attrs(group, {"delta_ln_Z_exact": shift["delta_ln_Z"],
+                                  "delta_ln_Z_exact_err": shift["delta_ln_Z_err"],
+                                  "ln_Z_exact": ln_z + shift["delta_ln_Z"],
+                                  "delta_ln_Z_ess": shift["ess"],
+                                  "delta_ln_Z_samples": shift["samples"]})

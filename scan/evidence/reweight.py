@@ -24,14 +24,13 @@ import math
 from pathlib import Path
 from typing import Any
 
-import h5py
 import numpy as np
 
 from scan import store
 from scan.config.diff import stored_config
 from scan.config.priors import PriorSet
 from scan.errors import ConfigError, InputFileError
-from scan.evidence.file import FILE_NAME, GROUP, read_evidence
+from scan.evidence.file import FILE_NAME, read_evidence
 from scan.posterior.build import build_target
 from scan.verify.compare import Evaluated
 from scan.verify.importance import kish_ess
@@ -103,18 +102,6 @@ def evidence_shift(ev: Evaluated) -> dict[str, float]:
             "delta_ln_Z_err": float(np.std(r, ddof=1)) / (math.sqrt(m) * mean) if m > 1
             else math.nan,
             "ess": kish_ess(r), "samples": m}
-
-
-def write_shift(path: str | Path, shift: dict[str, Any]) -> None:
-    """Add the correction to the ``evidence`` group (attributes; nothing else changes)."""
-    with h5py.File(path, "a") as handle:
-        group = handle[GROUP]
-        ln_z = float(group.attrs["ln_Z"])
-        store.write_attrs(group, {"delta_ln_Z_exact": shift["delta_ln_Z"],
-                                  "delta_ln_Z_exact_err": shift["delta_ln_Z_err"],
-                                  "ln_Z_exact": ln_z + shift["delta_ln_Z"],
-                                  "delta_ln_Z_ess": shift["ess"],
-                                  "delta_ln_Z_samples": shift["samples"]})
 
 
 def shift_lines(shift: dict[str, Any], ln_z: float) -> list[str]:
