@@ -30,7 +30,8 @@ from scan.posterior.exact import ExactOutcome, ExactSolve, observables_from_tabl
 from scan.sampler import plan_run, run_chain, runfile
 from scan.verify.compare import Evaluated, Thresholds, compare, draw_indices, reason_key
 from scan.verify.importance import kish_ess, normalised_weights, weighted_quantiles
-from scan.verify.run import open_run, read_report, verify_run
+from scan.verify.report_file import read_report
+from scan.verify.run import open_run, verify_run
 
 ROOT = Path(__file__).resolve().parents[1]
 #: Planck 2018 VI (arXiv:1807.06209): n_s = 0.9649 +- 0.0042, the Gaussian CMB prior term.

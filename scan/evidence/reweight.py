@@ -26,7 +26,6 @@ from typing import Any
 
 import numpy as np
 
-from scan import store
 from scan.config.diff import stored_config
 from scan.config.priors import PriorSet
 from scan.errors import ConfigError, InputFileError
