@@ -85,14 +85,22 @@ def write_attrs(obj: h5py.Group | h5py.Dataset, attrs: Mapping[str, Any]) -> Non
         obj.attrs[key] = value
 
 
-def write_config(handle: h5py.File, config_text: str, overrides: tuple[str, ...] = ()) -> None:
-    """Store the config text (dataset ``config``) and its command-line overrides."""
+def write_config(handle: h5py.File, config_text: str, overrides: tuple[str, ...] = (),
+                 base_dir: str = "") -> None:
+    """Store the config text (dataset ``config``), its command-line overrides and the
+    folder its relative input paths resolve against (attribute ``base_dir``)."""
     if "config" in handle:
         del handle["config"]
     dset = handle.create_dataset("config", data=config_text, dtype=h5py.string_dtype())
     dset.attrs["units"] = "1"
     dset.attrs["format"] = "TOML"
     dset.attrs["overrides"] = list(overrides) if overrides else ["none"]
+    dset.attrs["base_dir"] = str(base_dir)
+
+
+def stored_base_dir(handle: h5py.File) -> str:
+    """The ``base_dir`` of a stored config ("" in files written before it was recorded)."""
+    return str(handle["config"].attrs.get("base_dir", ""))
 
 
 @contextlib.contextmanager

@@ -48,10 +48,12 @@ def config_diff(old: RunConfig, new: RunConfig) -> list[tuple[str, Any, Any]]:
     return rows
 
 
-def stored_config(text: str, overrides: tuple[str, ...], run_name: str) -> RunConfig:
-    """Rebuild the config a run file was made with."""
+def stored_config(text: str, overrides: tuple[str, ...], run_name: str,
+                  base_dir: str = "") -> RunConfig:
+    """Rebuild the config a run file was made with (relative input paths against
+    ``base_dir``, the stored config file's folder)."""
     return load_config_text(text, source="<stored config>", overrides=overrides,
-                            default_name=run_name)
+                            default_name=run_name, base_dir=base_dir)
 
 
 def format_diff(rows: list[tuple[str, Any, Any]]) -> str:

@@ -26,7 +26,8 @@ class RunSection:
 
     name: str = spec("run name; results go to <output_dir>/<name>.h5 (default: the config "
                      "file's stem)", "run")
-    output_dir: str = spec("folder for results, relative to the working directory", "results")
+    output_dir: str = spec("folder for results, relative to the working directory (the "
+                           "one output path that is not relative to the config file)", "results")
     seed: int = spec("seed of every random number generator in the run", 0, minimum=0)
 
 
@@ -303,8 +304,8 @@ class ObservablesSection:
                     minimum=8)
     n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8)
     n_eff: float = spec("N_eff today (radiation density, g_* today)", 3.044, minimum=0.0)
-    gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s "
-                            "(default: our Standard-Model computation)", "")
+    gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s, relative "
+                            "to the config file (default: our Standard-Model computation)", "")
     window: str = spec("smoothing window of the density variance (thresholds are "
                        "window-specific)", "gaussian", choices=PBH_WINDOWS)
     criterion: str = spec("collapse criterion", "compaction", choices=PBH_CRITERIA)
@@ -348,6 +349,9 @@ class RunConfig:
     source: str = dataclasses.field(default="<config>", compare=False)
     text: str = dataclasses.field(default="", compare=False, repr=False)
     overrides: tuple[str, ...] = dataclasses.field(default=(), compare=False)
+    #: Folder that relative input paths (curves, surrogate, g_* table) were resolved
+    #: against: the config file's folder, or "" for the working directory.
+    base_dir: str = dataclasses.field(default="", compare=False)
 
     @property
     def effective_text(self) -> str:

@@ -38,7 +38,7 @@ from scan.grid.evaluate import DERIVED, BlockResult
 from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan
 from scan.grid.verdict import NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative, relative_status
-from scan.store import SingleWriter, provenance, write_attrs, write_config
+from scan.store import SingleWriter, provenance, stored_base_dir, write_attrs, write_config
 
 KIND = "zetascan grid"
 
@@ -77,7 +77,7 @@ def create_grid_file(path: str | Path, config: Any, plan: GridPlan, infos: list[
         with h5py.File(tmp, "w", libver="latest") as handle:
             write_attrs(handle, provenance(config.effective_text, config.run.seed))
             write_attrs(handle, {"kind": KIND, "run_name": config.run.name, **digests})
-            write_config(handle, config.effective_text, config.overrides)
+            write_config(handle, config.effective_text, config.overrides, config.base_dir)
             g = handle.create_group("grid")
             names = plan.priors.names
             write_attrs(g, {"x_key": plan.x.key, "y_key": plan.y.key, "x_label": plan.x.label,
@@ -231,6 +231,7 @@ def read_grid(path: str | Path) -> dict[str, Any]:
             out["config_text"] = raw.decode() if isinstance(raw, bytes) else str(raw)
             out["overrides"] = tuple(str(v) for v in handle["config"].attrs.get("overrides", [])
                                      if str(v) != "none")
+            out["base_dir"] = stored_base_dir(handle)
     except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
     return out

@@ -41,7 +41,7 @@ def write_solve_result(path: str | Path, config: RunConfig, result: SolveResult)
     with store.atomic_h5(path) as handle:
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
         store.write_attrs(handle, {"valid": result.valid, "reason": result.reason})
-        store.write_config(handle, config.text, config.overrides)
+        store.write_config(handle, config.text, config.overrides, config.base_dir)
         _write_background(handle.create_group("background"), result)
         _write_cmb(handle.create_group("cmb"), result)
         if result.spectrum is not None:

@@ -19,6 +19,7 @@ from scan.plots.sources import Sources, chain_has_observables
 from scan.likelihood.from_config import curve_paths_of
 from scan.sampler.bands import N_SAMPLES, SEED, posterior_bands
 from scan.sampler.summary import posterior_samples
+from scan.store import stored_base_dir
 
 
 def stored_config(path: Path):
@@ -30,9 +31,10 @@ def stored_config(path: Path):
         raw = handle["config"][()]
         overrides = [str(v) for v in handle["config"].attrs.get("overrides", [])]
         name = str(handle.attrs.get("run_name", path.stem))
+        base_dir = stored_base_dir(handle)
     text = raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
     return load_config_text(text, f"{path} (stored config)",
-                            tuple(v for v in overrides if v != "none"), name)
+                            tuple(v for v in overrides if v != "none"), name, base_dir)
 
 
 def read_solve(path: Path) -> dict[str, Any]:

@@ -111,7 +111,7 @@ def chain_has_observables(path: Path) -> bool:
 
     stored = runfile.read(path)
     config = load_config_text(stored.config_text, f"{path} (stored config)",
-                              stored.overrides, stored.run_name)
+                              stored.overrides, stored.run_name, stored.base_dir)
     return config.sampler.target == "posterior"
 
 

@@ -186,7 +186,7 @@ def chain_target(path: str | Path):
 
     stored = runfile.read(path)
     config = load_config_text(stored.config_text, f"{path} (stored config)",
-                              stored.overrides, stored.run_name)
+                              stored.overrides, stored.run_name, stored.base_dir)
     if config.sampler.target != "posterior":
         raise InputFileError(str(path), f"the chain samples the '{config.sampler.target}' "
                              "target, which has no observables; posterior bands need a run "

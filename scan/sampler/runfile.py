@@ -173,7 +173,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray) -
     with store.atomic_h5(path) as handle:
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
         handle.attrs["run_name"] = config.run.name
-        store.write_config(handle, config.effective_text, config.overrides)
+        store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",
                             "initial walker positions (parameter units)")
@@ -189,6 +189,7 @@ class Stored:
     run_name: str
     iteration: int
     extras: Extras
+    base_dir: str = ""
 
 
 def read(path: str | Path) -> Stored:
@@ -212,7 +213,7 @@ def read(path: str | Path) -> Stored:
                           str(handle.attrs["config_sha256"]),
                           tuple(v for v in overrides if v != "none"),
                           str(handle.attrs.get("run_name", "run")), iteration,
-                          Extras.read(handle))
+                          Extras.read(handle), store.stored_base_dir(handle))
     except (OSError, KeyError) as err:
         raise InputFileError(str(path), f"cannot read the chain file ({err}); it may have "
                              "been damaged during a write: use --restart") from None
@@ -221,7 +222,7 @@ def read(path: str | Path) -> Stored:
 def update_config(path: Path, config: RunConfig, previous_sha256: str) -> None:
     """Store a changed-but-compatible config (resume with new max_steps etc.)."""
     with h5py.File(path, "a") as handle:
-        store.write_config(handle, config.effective_text, config.overrides)
+        store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         history = [str(v) for v in handle.attrs.get("previous_config_sha256", [])]
         handle.attrs["previous_config_sha256"] = history + [previous_sha256]
         handle.attrs["config_sha256"] = store.config_hash(config.effective_text)

@@ -121,7 +121,8 @@ def open_run(run: str | Path) -> Run:
                              f"'{extras.status}', {stored.iteration} steps): the run did not "
                              "finish; run 'zetascan sample CONFIG' again to complete it")
     config = dataclasses.replace(
-        stored_config(stored.config_text, stored.overrides, stored.run_name),
+        stored_config(stored.config_text, stored.overrides, stored.run_name,
+                      stored.base_dir),
         source=f"{path} (stored config)")
     if config.sampler.target != "posterior":
         raise ConfigError(config.source, "sampler.target",
