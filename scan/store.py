@@ -23,7 +23,7 @@ from typing import Any
 import h5py
 import numpy as np
 
-from scan import __version__
+from scan.constants import ZETASCAN_VERSION as __version__
 from scan.errors import InputFileError
 
 #: Distributions whose versions go into every result file.

@@ -16,7 +16,7 @@ import importlib
 import sys
 from collections.abc import Sequence
 
-from scan import __version__
+from scan.constants import ZETASCAN_VERSION as __version__
 from scan.errors import ZetascanError
 
 #: Verb modules, in the order ``zetascan --help`` lists them.
