@@ -23,8 +23,17 @@ from typing import Any
 import h5py
 import numpy as np
 
+from scan.constants import M_PLANCK_REDUCED_GEV
 from scan.constants import ZETASCAN_VERSION as __version__
 from scan.errors import InputFileError
+
+#: ``units`` of quantities in reduced Planck units (M_p = (8 pi G)^-1/2 = 1): the reduced
+#: Planck mass written as a scaled GeV unit, which astropy (and any unit parser that
+#: accepts a scale factor) reads as the intended unit; "M_p" alone would read as the
+#: proton mass.  E-folds are dimensionless ("1").
+UNITS_M_P: str = f"{M_PLANCK_REDUCED_GEV:.6e} GeV"
+UNITS_M_P4: str = f"{M_PLANCK_REDUCED_GEV ** 4:.6e} GeV4"
+UNITS_EFOLDS: str = "1"
 
 #: Distributions whose versions go into every result file.
 DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib")
@@ -73,6 +82,17 @@ def write_dataset(group: h5py.Group, name: str, data: Any, units: str,
     if description:
         dset.attrs["description"] = description
     return dset
+
+
+def attach_scale(group: h5py.Group, scale: str, *names: str) -> None:
+    """Make ``group[scale]`` an HDF5 dimension scale (named ``scale``) and attach it to
+    axis 0 of the datasets ``names`` present, so netCDF readers (xarray) see it as their
+    coordinate."""
+    axis = group[scale]
+    axis.make_scale(scale)
+    for name in names:
+        if name in group and group[name].shape[:1] == axis.shape:
+            group[name].dims[0].attach_scale(axis)
 
 
 def write_attrs(obj: h5py.Group | h5py.Dataset, attrs: Mapping[str, Any]) -> None:
