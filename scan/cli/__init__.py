@@ -7,7 +7,8 @@ Each verb lives in its own module ``scan/cli/<verb>.py`` exposing
 * ``run(args: argparse.Namespace) -> int`` — do the work and return an exit code.
 
 Exit codes: 0 success, 2 bad input (one line naming the file, line or key), 1 internal
-error (traceback shown: that is a bug).
+error (traceback shown: that is a bug).  What verbs print goes through
+:mod:`scan.cli.output` (``--json``, ``--quiet``, ``-v``, progress on stderr).
 """
 from __future__ import annotations
 
@@ -16,6 +17,7 @@ import importlib
 import sys
 from collections.abc import Sequence
 
+from scan.cli.output import strict_json
 from scan.constants import ZETASCAN_VERSION as __version__
 from scan.errors import ZetascanError
 
@@ -51,6 +53,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(args._run(args) or 0)
     except ZetascanError as err:
         print(f"zetascan {args.verb}: error: {err}", file=sys.stderr)
+        if getattr(args, "json", False):  # a script reading stdout still gets JSON
+            print(strict_json({"error": str(err), "exit_code": 2}), flush=True)
         return 2
     except KeyboardInterrupt:
         print(f"zetascan {args.verb}: interrupted", file=sys.stderr)

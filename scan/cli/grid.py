@@ -3,10 +3,8 @@ from __future__ import annotations
 
 import argparse
 import os
-import sys
-import time
-from collections.abc import Callable
 
+from scan.cli.output import Output, add_output_options
 from scan.config import load_config
 from scan.grid import grid_path, install_worker, plan_grid_run, run_grid, summary_lines
 from scan.grid.run import check_config, describe_plan
@@ -57,34 +55,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         help="exact solves of every point (same as --set grid.source=exact)")
     parser.add_argument("--set", dest="overrides", metavar="KEY=VALUE", action="append",
                         default=[], help="override a config key (repeatable)")
+    add_output_options(parser)
     return parser
-
-
-def _progress(every_s: float) -> Callable[[int, int], None]:
-    """A tqdm bar on a terminal, plain periodic lines on stderr otherwise."""
-    state: dict = {"bar": None, "last": -float("inf"), "t0": time.monotonic(), "n0": None}
-
-    def update(done: int, total: int) -> None:
-        if sys.stderr.isatty():
-            from tqdm import tqdm
-
-            if state["bar"] is None:
-                state["bar"] = tqdm(total=total, initial=done, unit="point")
-            state["bar"].update(done - state["bar"].n)
-            if done >= total:
-                state["bar"].close()
-            return
-        now = time.monotonic()
-        if state["n0"] is None:
-            state.update(n0=done, t0=now)
-        if now - state["last"] >= every_s or done >= total:
-            rate = (done - state["n0"]) / max(now - state["t0"], 1e-9)
-            eta = f"{(total - done) / rate:.0f} s" if rate > 0 else "-"
-            print(f"grid: {done}/{total} points, {rate:.2f} points/s, ETA {eta}",
-                  file=sys.stderr, flush=True)
-            state["last"] = now
-
-    return update
 
 
 def run(args: argparse.Namespace) -> int:
@@ -100,14 +72,19 @@ def run(args: argparse.Namespace) -> int:
         processes = os.cpu_count() or 1
     pool = choose_pool(processes, args.mpi, initializer=install_worker,
                        initargs=(grid_run.worker,))
-    print(describe_plan(grid_run), flush=True)
+    output = Output.of(args)
+    output.info(describe_plan(grid_run))
+    line = output.progress("grid", "point", config.grid.progress_every_s)
     with graceful_stop() as flag, pool:
         outcome = run_grid(grid_run, pool, resume=args.resume, restart=args.restart,
-                           should_stop=flag,
-                           progress=_progress(config.grid.progress_every_s))
-    print("\n".join(summary_lines(outcome.path)), flush=True)
+                           should_stop=flag, progress=line.update)
+    line.close()
+    lines = summary_lines(outcome.path)
     if outcome.status == "stopped":
-        print(f"stopped after {outcome.done}/{outcome.total} points; everything finished is "
-              "written; run the same command with --resume to continue", flush=True)
+        lines.append(f"stopped after {outcome.done}/{outcome.total} points; everything "
+                     "finished is written; run the same command with --resume to continue")
+    output.result({"grid": outcome.path, "status": outcome.status, "done": outcome.done,
+                   "total": outcome.total, "summary": lines[:-1]}, "\n".join(lines))
+    if outcome.status == "stopped":
         return EXIT_CODES.get(getattr(flag, "signal_name", None) or "", 1)
     return 0

@@ -12,12 +12,14 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import sys
 from pathlib import Path
 
 import h5py
 import numpy as np
 
 from scan import store
+from scan.cli.output import Output, add_output_options
 from scan.errors import InputFileError
 from scan.observables import Observables, compute_observables, cosmo, gstar
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
@@ -34,28 +36,49 @@ EPILOG = """example:
 """
 
 
+#: The PBH-convention options: flag, PBHConventions field, type, help text.
+CONVENTION_OPTIONS: tuple[tuple[str, str, type, str], ...] = (
+    ("--window", "window", str, "smoothing window of the density variance; thresholds are "
+                                "window-specific"),
+    ("--criterion", "criterion", str, "collapse criterion"),
+    ("--threshold", "threshold", float, "C_th (compaction) or delta_c; must match the window"),
+    ("--mass-function", "mass_function", str, "critical collapse (extended) or monochromatic "
+                                              "M = gamma M_H"),
+    ("--gamma-c", "gamma_c", float, "critical-collapse exponent"),
+    ("--K", "K", float, "critical-collapse coefficient K in M = K M_H (delta - delta_c)"
+                        "^gamma_c"),
+    ("--gamma", "gamma", float, "M/M_H of the monochromatic mass function"),
+    ("--ps-factor", "ps_factor", float, "prefactor of the Press-Schechter-like integral, "
+                                        "1 or 2"),
+    ("--omega-dm-h2", "omega_dm_h2", float, "dark-matter density the PBH fraction refers to"),
+)
+
+
 def add_parser(subparsers) -> argparse.ArgumentParser:
     """Register ``observe``."""
-    p = subparsers.add_parser("observe", help="Omega_GW h^2(f) and f_PBH(M) from a P_zeta table",
-                              epilog=EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p = subparsers.add_parser(
+        "observe", help="Omega_GW h^2(f) and f_PBH(M) from a P_zeta table",
+        description="Induced GWs today and the PBH mass function of your own curvature "
+                    "spectrum, written to an HDF5 file (groups gw and pbh). A non-finite "
+                    "f_PBH total (the spectrum or the conventions out of range) exits 2 "
+                    "after the file is written.",
+        epilog=EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("spectrum", metavar="SPECTRUM", help="CSV (k [Mpc^-1], P_zeta) or zetascan .h5")
     p.add_argument("--out", help="output HDF5 (default: SPECTRUM stem + _observables.h5)")
     p.add_argument("--figures", metavar="DIR", help="write gw and pbh figures (PDF, PNG) here")
     p.add_argument("--n-f", type=int, default=200, help="number of frequencies (default 200)")
     p.add_argument("--n-m", type=int, default=200, help="number of PBH masses (default 200)")
-    p.add_argument("--gstar-table", metavar="CSV", help="g_* table: T [GeV], g_rho, g_s")
-    p.add_argument("--n-eff", type=float, default=cosmo.N_EFF_DEFAULT, help="N_eff today")
+    p.add_argument("--gstar-table", metavar="CSV", help="g_* table: T [GeV], g_rho, g_s "
+                   "(default: our Standard-Model computation)")
+    p.add_argument("--n-eff", type=float, default=cosmo.N_EFF_DEFAULT,
+                   help="N_eff today (default %(default)s)")
     d = PBHConventions()
-    p.add_argument("--window", choices=WINDOWS, default=d.window)
-    p.add_argument("--criterion", choices=CRITERIA, default=d.criterion)
-    p.add_argument("--threshold", type=float, default=d.threshold,
-                   help="C_th (compaction) or delta_c; must match the window")
-    p.add_argument("--mass-function", choices=MASS_FUNCTIONS, default=d.mass_function)
-    p.add_argument("--gamma-c", type=float, default=d.gamma_c, help="critical exponent")
-    p.add_argument("--K", type=float, default=d.K, help="critical-collapse coefficient")
-    p.add_argument("--gamma", type=float, default=d.gamma, help="M/M_H (monochromatic)")
-    p.add_argument("--ps-factor", type=float, default=d.ps_factor)
-    p.add_argument("--omega-dm-h2", type=float, default=d.omega_dm_h2)
+    for flag, field, kind, text in CONVENTION_OPTIONS:
+        choices = {"window": WINDOWS, "criterion": CRITERIA,
+                   "mass_function": MASS_FUNCTIONS}.get(field)
+        p.add_argument(flag, dest=field, type=kind, choices=choices,
+                       default=getattr(d, field), help=f"{text} (default %(default)s)")
+    add_output_options(p)
     return p
 
 
@@ -164,10 +187,8 @@ def load_spectrum(path: str) -> tuple[np.ndarray, np.ndarray]:
 
 def _conventions(args) -> PBHConventions:
     """PBH conventions from the command-line options."""
-    return PBHConventions(window=args.window, criterion=args.criterion,
-                          threshold=args.threshold, mass_function=args.mass_function,
-                          gamma_c=args.gamma_c, K=args.K, gamma=args.gamma,
-                          ps_factor=args.ps_factor, omega_dm_h2=args.omega_dm_h2)
+    return PBHConventions(**{field: getattr(args, field)
+                             for _, field, _, _ in CONVENTION_OPTIONS})
 
 
 def compute(k, P, args) -> Observables:
@@ -185,22 +206,44 @@ def write_result(out: Path, source: str, obs: Observables, options: dict) -> Non
         write_observables(handle, obs)
 
 
+#: Options that say how the output is printed, not how it is computed (not recorded).
+_PRINT_OPTIONS = ("json", "quiet", "verbose")
+
+
 def run(args: argparse.Namespace) -> int:
-    """Compute both observables, write the HDF5 file (and figures); exit code."""
+    """Compute both observables, write the HDF5 file (and figures); exit code.
+
+    A non-finite f_PBH total is bad input: exit 2 with one line on stderr, after the file
+    and figures are written.
+    """
+    output = Output.of(args)
     source = str(args.spectrum)
     k, P = load_spectrum(source)
     obs = compute(k, P, args)
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
     write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
-                                                     if not k_.startswith("_")})
+                                    if not k_.startswith("_") and k_ not in _PRINT_OPTIONS})
     for note in obs.notes:
-        print(f"zetascan observe: warning: {note}")
-    print(f"wrote {out}: max Omega_GW h^2 = {obs.omega_gw_h2_peak:.3e} at "
-          f"f = {obs.f_gw_peak:.3e} Hz; f_PBH total = {obs.f_pbh_total:.3e}")
+        output.note(f"zetascan observe: warning: {note}")
+    paths: list[Path] = []
     if args.figures:
         paths = gw_plot.save_omega_gw(obs.f_hz, obs.omega_gw_h2, Path(args.figures) / "omega_gw")
         paths += pbh_plot.save_f_pbh(obs.m_msun, obs.f_pbh_per_lnm,
                                      Path(args.figures) / "f_pbh", total=obs.f_pbh_total)
-        print("figures: " + ", ".join(str(p) for p in paths))
-    return 0 if math.isfinite(obs.f_pbh_total) else 1
+    text = (f"wrote {out}: max Omega_GW h^2 = {obs.omega_gw_h2_peak:.3e} at "
+            f"f = {obs.f_gw_peak:.3e} Hz; f_PBH total = {obs.f_pbh_total:.3e}")
+    if paths:
+        text += "\nfigures: " + ", ".join(str(p) for p in paths)
+    error = None if math.isfinite(obs.f_pbh_total) else str(InputFileError(
+        source, f"f_PBH total is {obs.f_pbh_total} (the result {out} is written): check "
+        "that P_zeta stays perturbative (well below 1) and that --threshold matches "
+        "--window and --criterion"))
+    output.result({"result": out, "input": source, "f_peak_Hz": obs.f_gw_peak,
+                   "omega_gw_h2_peak": obs.omega_gw_h2_peak, "f_pbh_total": obs.f_pbh_total,
+                   "conventions": obs.conventions.as_attrs(), "notes": list(obs.notes),
+                   "figures": paths, "error": error}, text)
+    if error is not None:  # bad input, not a bug: exit 2 with one line
+        print(f"zetascan observe: error: {error}", file=sys.stderr, flush=True)
+        return 2
+    return 0

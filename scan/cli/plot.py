@@ -4,6 +4,7 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from scan.cli.output import Output, add_output_options
 from scan.errors import InputFileError
 from scan.plots.inputs import Inputs
 from scan.plots.make import make_figures, select_kinds
@@ -58,6 +59,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         help=f"posterior samples drawn for the bands (default {N_SAMPLES})")
     parser.add_argument("--seed", type=int, default=SEED,
                         help=f"seed of that draw (default {SEED})")
+    add_output_options(parser)
     return parser
 
 
@@ -72,7 +74,9 @@ def run(args: argparse.Namespace) -> int:
     kinds = select_kinds(inputs, args.kind)
     out = Path(args.out) if args.out else sources.folder
     paths = make_figures(inputs, kinds, out)
+    output = Output.of(args)
     for note in inputs.notes:
-        print(f"note: {note}")
-    print("\n".join(f"figure: {p}" for p in paths))
+        output.note(f"note: {note}")
+    output.result({"figures": paths, "kinds": list(kinds), "notes": inputs.notes},
+                  "\n".join(f"figure: {p}" for p in paths))
     return 0

@@ -2,8 +2,11 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 from pathlib import Path
+from typing import Any
 
+from scan.cli.output import Output, add_output_options
 from scan.config import load_config
 from scan.pipeline import SolveResult, solve_config
 from scan.pipeline.result_file import write_solve_result
@@ -28,6 +31,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     parser.add_argument("--set", dest="overrides", metavar="KEY=VALUE", action="append",
                         default=[], help="override a config key, e.g. model.alpha=2 (repeatable)")
     parser.add_argument("--no-figures", action="store_true", help="do not draw figures")
+    add_output_options(parser)
     return parser
 
 
@@ -35,11 +39,37 @@ def run(args: argparse.Namespace) -> int:
     """Solve, write, summarise; exit 0 even for an invalid model (the file says why)."""
     config = load_config(args.config, overrides=args.overrides)
     out = Path(args.out) if args.out else Path(config.run.output_dir) / f"{config.run.name}.h5"
+    output = Output.of(args)
+    output.detail(f"config {config.source} (paths relative to {config.base_dir or '.'})")
     result = solve_config(config)
     write_solve_result(out, config, result)
     figures = [] if args.no_figures else _draw_figures(out, result)
-    print(format_summary(result, out, figures))
+    output.result(solve_report(result, out, figures), format_summary(result, out, figures))
     return 0
+
+
+def solve_report(result: SolveResult, out: Path, figures: list[Path]) -> dict[str, Any]:
+    """The ``--json`` document of one solve (numbers in the result file's units)."""
+    bg, p, s, o = result.background, result.pivot, result.spectrum, result.observables
+    report: dict[str, Any] = {
+        "result": out, "figures": figures, "valid": result.valid, "reason": result.reason,
+        "N_total": bg.N_end - bg.N_start,
+        "pole_crossings": [dataclasses.asdict(c) for c in bg.crossings],
+        "pivot": None, "spectrum": None, "gw": None, "pbh": None, "notes": []}
+    if p is not None and p.valid:
+        report["pivot"] = {"k_star_Mpc^-1": p.k_star, "N_star": p.N_star,
+                           "n_s_slow_roll": p.n_s, "r_slow_roll": p.r}
+    if s is not None and s.valid:
+        report["spectrum"] = {"n_s": s.n_s, "alpha_s": s.alpha_s, "r": s.r, "A_s": s.A_s,
+                              "V0_M_p^4": s.V0, "N_star": s.N_star,
+                              "k_peak_Mpc^-1": s.k_peak, "P_peak": s.P_peak,
+                              "k_dip_Mpc^-1": s.k_dip, "P_dip": s.P_dip}
+    if o is not None:
+        report["gw"] = {"f_peak_Hz": o.f_gw_peak, "omega_gw_h2_peak": o.omega_gw_h2_peak}
+        report["pbh"] = {"f_pbh_total": o.f_pbh_total,
+                         "conventions": o.conventions.as_attrs()}
+        report["notes"] = list(o.notes)
+    return report
 
 
 def _draw_figures(out: Path, result: SolveResult) -> list[Path]:

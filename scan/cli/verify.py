@@ -2,11 +2,8 @@
 from __future__ import annotations
 
 import argparse
-import json
-import sys
-import time
-from collections.abc import Callable
 
+from scan.cli.output import Output, add_output_options
 from scan.errors import ZetascanError
 from scan.pool import choose_pool
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
@@ -61,7 +58,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     parser.add_argument("--resume", action="store_true",
                         help="continue an interrupted verification of the same draw, "
                              "solving only the samples it lacks")
-    parser.add_argument("--json", action="store_true", help="print the report as JSON")
+    add_output_options(parser)
     return parser
 
 
@@ -74,38 +71,15 @@ def run(args: argparse.Namespace) -> int:
         raise ZetascanError(f"--max-shift {args.max_shift}: give a positive number")
     run_ = open_run(args.run)
     thresholds = Thresholds(args.min_ess, args.max_shift)
-    progress = None if args.json else _Progress()
+    output = Output.of(args)
+    line = output.progress("verify", "exact solve", every_s=10.0)
     with choose_pool(args.processes, args.mpi) as pool:
-        if progress is not None:
-            print(f"verifying {run_.path}: {args.samples} exact solves ({pool.describe()})",
-                  flush=True)
+        output.info(f"verifying {run_.path}: {args.samples} exact solves ({pool.describe()})")
         result = verify_run(run_, args.samples, pool, thresholds=thresholds,
-                            on_progress=progress, resume=args.resume, log=_log(args.json))
-    print(json.dumps(result.report, indent=2) if args.json else format_report(result.report))
+                            on_progress=line.update, resume=args.resume, log=output.note)
+    line.close()
+    output.result(result.report, lambda: format_report(result.report))
     return 0
-
-
-def _log(as_json: bool) -> Callable[[str], None]:
-    """Notes on earlier partial results: stdout, or stderr when stdout carries JSON."""
-    stream = sys.stderr if as_json else sys.stdout
-    return lambda line: print(line, file=stream, flush=True)
-
-
-class _Progress:
-    """A line on the exact solves done (resumed ones included), at most every few seconds."""
-
-    def __init__(self, every_s: float = 10.0) -> None:
-        self.t0 = self.last = time.monotonic()
-        self.every_s = every_s
-
-    def __call__(self, done: int, total: int) -> None:
-        now = time.monotonic()
-        if done < total and now - self.last < self.every_s:
-            return
-        self.last = now
-        rate = done / (now - self.t0) if now > self.t0 else 0.0
-        eta = (total - done) / rate if rate > 0 else float("nan")
-        print(f"  {done}/{total} exact solves, {rate:.2f}/s, eta {eta:.0f} s", flush=True)
 
 
 #: Width of the name column of the report.
