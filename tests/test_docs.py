@@ -69,3 +69,29 @@ def test_citation_file_is_valid_and_matches_the_package():
     assert cff["version"] == project["version"] and cff["license"] == project["license"]
     assert cff["authors"] and cff["title"].startswith("zetascan") and cff["message"]
     assert "bibliography" in cff["message"]
+
+
+def test_the_tutorial_config_and_plugin_are_the_ones_it_shows(monkeypatch):
+    """docs/tutorial/pole_plugin.toml loads from any folder, names its curves relative to
+    itself, and its plug-in potential is the alpha = 1 T-model it says it is (the built-in
+    family V/V0 = tanh^2(phi/sqrt(6 alpha)), Kallosh & Linde 2013, arXiv:1306.5220, from
+    memory); both are closed forms in double precision, so they agree to rounding."""
+    import numpy as np
+
+    from scan.config import load_config
+    from scan.likelihood.from_config import curve_paths_of
+    from scan.models import model_from_section
+
+    monkeypatch.syspath_prepend(str(DOCS / "tutorial"))
+    monkeypatch.chdir(ROOT.parent)
+    config = load_config(DOCS / "tutorial" / "pole_plugin.toml")
+    assert all(Path(p).is_file() for p in curve_paths_of(config))
+    text = (DOCS / "tutorial.md").read_text(encoding="utf-8")
+    for verb in ("solve", "train", "grid", "plot"):
+        assert f"$ zetascan {verb} docs/tutorial/pole_plugin.toml" in text or \
+            f"$ zetascan {verb} results/pole_plugin" in text, verb
+    plugin = model_from_section(config.model)
+    builtin = model_from_section(load_config(ROOT / "configs" / "tmodel_pole.toml").model)
+    phi = np.linspace(0.5, 7.0, 50)
+    assert np.allclose(plugin.V(phi), builtin.V(phi), rtol=1e-13, atol=0)
+    assert np.allclose(plugin.dV(phi), builtin.dV(phi), rtol=1e-13, atol=0)
