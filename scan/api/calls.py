@@ -18,7 +18,6 @@ import h5py
 import numpy as np
 
 from scan.api.records import PER_MPC, Observed, Solution, solution_from_file
-from scan.cli.observe import load_spectrum, validate_spectrum
 from scan.config import load_config, load_config_text
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
@@ -26,6 +25,7 @@ from scan.observables import compute_observables, cosmo, gstar
 from scan.observables.pbh import PBHConventions
 from scan.pipeline import solve_config
 from scan.pipeline.result_file import write_solve_result
+from scan.pipeline.spectrum_file import load_spectrum, validate_spectrum
 
 ConfigLike = str | Path | Mapping[str, Any] | RunConfig
 
