@@ -1,8 +1,10 @@
 """The package's exception classes.
 
 Every error a user can cause by what they give us (a config, a table, a bound curve)
-is a :class:`ZetascanError`: the command line prints its one-line message and exits 2.
-Anything else is a bug (exit 1, traceback shown).
+or by where they ask us to write (a full or read-only disk: :class:`OutputError`) is a
+:class:`ZetascanError`: the command line prints its one-line message and exits 2.
+Anything else is a bug: exit 1, the traceback goes to a log file and one line says where
+(see :mod:`scan.cli.failure`).
 
 An invalid *model* is not an exception: physics stages return values with
 ``valid=False`` and a ``reason`` (see ``scan.background.Background``).
@@ -101,3 +103,21 @@ class InputFileError(ZetascanError):
         if column is not None:
             where += f", column '{column}'"
         super().__init__(f"{where}: {problem}")
+
+
+class OutputError(ZetascanError):
+    """Results cannot be written where the run asks (full, read-only or missing folder).
+
+    Parameters
+    ----------
+    path : str
+        The file or folder that cannot be written.
+    problem : str
+        What is wrong (e.g. "no space left on device").
+    fix : str
+        How to go on; for a run that stopped, say what was kept and how to resume.
+    """
+
+    def __init__(self, path: str, problem: str, fix: str) -> None:
+        self.path, self.problem, self.fix = str(path), problem, fix
+        super().__init__(f"{path}: {problem} ({fix})")

@@ -6,16 +6,21 @@ each pipeline stage writes its own group.  Every dataset carries a ``units`` att
 ("1" for dimensionless numbers).
 
 New files are written under a temporary name in the same folder and renamed into place,
-so a crash never leaves a half-written result under the final name.
+so a crash never leaves a half-written result under the final name.  Files that grow
+during a run (chain, training store, grid) check the free space before each write
+(:func:`require_space`): HDF5 cut short by a full disk leaves a file it cannot read back,
+so the run stops cleanly before that, keeping everything written so far readable.
 """
 from __future__ import annotations
 
 import contextlib
 import datetime as _dt
+import errno
 import hashlib
+import math
 import os
 import subprocess
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from importlib import metadata
 from pathlib import Path
 from typing import Any
@@ -25,7 +30,7 @@ import numpy as np
 
 from scan.constants import M_PLANCK_REDUCED_GEV
 from scan.constants import ZETASCAN_VERSION as __version__
-from scan.errors import InputFileError
+from scan.errors import InputFileError, OutputError
 
 #: ``units`` of quantities in reduced Planck units (M_p = (8 pi G)^-1/2 = 1): the reduced
 #: Planck mass written as a scaled GeV unit, which astropy (and any unit parser that
@@ -37,6 +42,16 @@ UNITS_EFOLDS: str = "1"
 
 #: Distributions whose versions go into every result file.
 DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib")
+
+#: Bytes kept free beyond what a write allocates [B]: HDF5 metadata written with it
+#: (object headers, chunk-index nodes, attributes, the free-space and EOF updates).
+SPACE_MARGIN = 256 * 1024
+
+#: What a failed write means to the user, by errno.
+_WRITE_PROBLEMS = {errno.ENOSPC: "no space left on device", errno.EDQUOT: "disk quota exceeded",
+                   errno.EROFS: "read-only file system", errno.EACCES: "permission denied",
+                   errno.EPERM: "permission denied", errno.EISDIR: "is a directory",
+                   errno.ENOTDIR: "a parent is not a directory"}
 
 
 def config_hash(text: str) -> str:
@@ -74,10 +89,23 @@ def provenance(config_text: str = "", seed: int | None = None) -> dict[str, Any]
 
 def write_dataset(group: h5py.Group, name: str, data: Any, units: str,
                   description: str = "") -> h5py.Dataset:
-    """Create ``group[name]`` with a ``units`` attribute (and an optional description)."""
+    """Create ``group[name]`` with a ``units`` attribute (and an optional description).
+
+    A dataset of the same shape and type is overwritten in place: deleting and creating
+    it again would leave its old bytes unused in the file at every rewrite.
+    """
+    data = np.asarray(data)
+    old = group.get(name)
+    if isinstance(old, h5py.Dataset) and old.shape == data.shape and old.dtype == data.dtype \
+            and old.dtype.kind not in "OSU":
+        old[...] = data
+        old.attrs["units"] = units
+        if description:
+            old.attrs["description"] = description
+        return old
     if name in group:
         del group[name]
-    dset = group.create_dataset(name, data=np.asarray(data))
+    dset = group.create_dataset(name, data=data)
     dset.attrs["units"] = units
     if description:
         dset.attrs["description"] = description
@@ -124,17 +152,18 @@ def stored_base_dir(handle: h5py.File) -> str:
 
 
 @contextlib.contextmanager
-def atomic_h5(path: str | Path) -> Iterator[h5py.File]:
+def atomic_h5(path: str | Path, **file_options: Any) -> Iterator[h5py.File]:
     """Open a new HDF5 file for writing under a temporary name; rename on success.
 
-    On an exception the temporary file is removed and any existing file at ``path``
-    is left untouched.
+    On an exception (a full disk included) the temporary file is removed and any
+    existing file at ``path`` is left untouched.  ``file_options`` go to ``h5py.File``
+    (e.g. ``libver="latest"`` for a file later opened in SWMR mode).
     """
     final = Path(path)
     final.parent.mkdir(parents=True, exist_ok=True)
     tmp = final.with_name(f".{final.name}.tmp-{os.getpid()}")
     try:
-        with h5py.File(tmp, "w") as handle:
+        with h5py.File(tmp, "w", **file_options) as handle:
             yield handle
         os.replace(tmp, final)
     finally:
@@ -261,3 +290,103 @@ def recover_store(path: str | Path) -> None:
     finally:
         if tmp.exists():
             tmp.unlink()
+
+
+def write_problem(err: OSError) -> str | None:
+    """The user-side cause of a failed write (full, read-only, not permitted), else None."""
+    return _WRITE_PROBLEMS.get(getattr(err, "errno", None))
+
+
+def _existing(path: Path) -> Path:
+    """``path`` or its nearest existing ancestor (for statvfs of a not-yet-made file)."""
+    path = path.absolute()
+    while not path.exists() and path != path.parent:
+        path = path.parent
+    return path
+
+
+def free_bytes(path: str | Path) -> int:
+    """Bytes an unprivileged process may still write on the file system holding ``path``."""
+    st = os.statvfs(_existing(Path(path)))
+    return int(st.f_bavail) * int(st.f_frsize)
+
+
+def require_space(path: str | Path, nbytes: int, kept: str) -> None:
+    """Refuse a write of about ``nbytes`` [B] to ``path`` that the disk cannot take.
+
+    Raises
+    ------
+    OutputError
+        Fewer than ``nbytes`` + :data:`SPACE_MARGIN` bytes are free; ``kept`` (what is
+        on disk and how to go on) ends the message.
+    """
+    free = free_bytes(path)
+    if free < nbytes + SPACE_MARGIN:
+        raise OutputError(str(path), f"no space left on device for the next write ({free} "
+                          f"bytes free, {nbytes + SPACE_MARGIN} needed)", kept)
+
+
+def append_bytes(datasets: Iterable[h5py.Dataset], start: int, rows: int) -> int:
+    """Bytes [B] that writing rows ``start`` to ``start + rows`` of each chunked dataset
+    allocates (rows before ``start`` are written; later rows are not).
+
+    HDF5 allocates a whole chunk when a write first touches it: the new chunk rows are
+    those from ceil(start / c) to floor((start + rows - 1) / c), each as wide as the row
+    padded to whole chunks.
+    """
+    total = 0
+    for dset in datasets:
+        if dset.chunks is None or rows <= 0:
+            continue
+        c = dset.chunks[0]
+        new = (start + rows - 1) // c - math.ceil(start / c) + 1
+        padded = math.prod(math.ceil(n / k) * k for n, k in zip(dset.shape[1:], dset.chunks[1:]))
+        total += max(new, 0) * c * padded * dset.dtype.itemsize
+    return total
+
+
+def check_writable(folder: str | Path, what: str = "results") -> Path:
+    """Make ``folder`` and prove it writable (a probe file written and removed), so that
+    a long computation does not end on a full or read-only disk.
+
+    Raises
+    ------
+    OutputError
+        The folder cannot be made or written, or has less than :data:`SPACE_MARGIN` free.
+    """
+    folder = Path(folder)
+    fix = f"choose a writable folder with free space for the {what} (run.output_dir or --out)"
+    probe = folder / f".zetascan-probe-{os.getpid()}"
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        with open(probe, "wb") as handle:
+            handle.write(b"\0" * 4096)
+            handle.flush()
+            os.fsync(handle.fileno())
+    except OSError as err:
+        problem = write_problem(err)
+        if problem is None:
+            raise
+        raise OutputError(str(folder), f"cannot write here: {problem}", fix) from None
+    finally:
+        with contextlib.suppress(OSError):
+            probe.unlink()
+    require_space(folder, 0, fix)
+    return folder
+
+
+def check_output_file(path: str | Path, what: str = "results") -> Path:
+    """Check, before a long computation, that ``path`` can be written as a file: not a
+    folder, in a writable folder with free space (:func:`check_writable`).
+
+    Raises
+    ------
+    OutputError
+        ``path`` is a folder, or its folder cannot be written.
+    """
+    path = Path(path)
+    if path.is_dir():
+        raise OutputError(str(path), "is a folder, not a file",
+                          "give a file name, e.g. --out " + str(path / "result.h5"))
+    check_writable(path.parent, what)
+    return path

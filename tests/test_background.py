@@ -66,18 +66,27 @@ def test_power_law_without_allow_no_end_is_invalid():
 
 @pytest.mark.parametrize("model", [Model("starobinsky"), T_P15])
 def test_friedmann_residuals(model):
-    """H²(3 − ε1) = V at nodes and dense points (≤ 1e-12), and the independent
-    d ln H/dN = −ε1 from differentiating the dense output (integration error ∝ rtol:
-    measured 1.0e-9 at rtol 1e-12 for the pole model, 2e-8 at 1e-10)."""
-    bg = solve_background(model, rtol=1e-12)
+    """H²(3 − ε1) = V at nodes and dense points, and the independent d ln H/dN = −ε1
+    from differentiating the dense output.
+
+    The first is exact by construction (H = √(V/(3 − ε1)) in background/types.py), so
+    only rounding is left: 1e-12 is ~4500 ulp.  The second carries the integration
+    error: dense output of DOP853 is not error-controlled, 100·rtol per step is common
+    practice (see test_power_law_attractor_is_exact), so the worst point is bounded by
+    100·n_steps·rtol and the median by one step's 100·rtol; the 5-point difference adds
+    h⁴ truncation and eps/h rounding, ~1e-12 (measured 7e-10 and 6e-14 for the pole model).
+    """
+    rtol = 1e-12
+    bg = solve_background(model, rtol=rtol)
     assert bg.valid
     V = model.V(bg.phi)
-    assert np.max(abs(bg.H**2 * (3 - bg.eps1) / V - 1)) < 1e-12
+    assert np.max(abs(bg.H**2 * (3 - bg.eps1) / V - 1)) < 1e-12  # identity: rounding only
     N = np.linspace(bg.N_start + 0.01, bg.N_end - 0.01, 4001)
     p = bg.evaluate(N)
-    assert np.max(abs(p.H**2 * (3 - p.eps1) / model.V(p.phi) - 1)) < 1e-12
-    assert np.max(abs(lnH_slope(bg, N) + p.eps1)) < 2e-9
-    assert np.median(abs(lnH_slope(bg, N) + p.eps1)) < 1e-10
+    assert np.max(abs(p.H**2 * (3 - p.eps1) / model.V(p.phi) - 1)) < 1e-12  # identity
+    slope_error = abs(lnH_slope(bg, N) + p.eps1)
+    assert np.max(slope_error) < 100 * len(bg.N) * rtol
+    assert np.median(slope_error) < 100 * rtol
 
 
 @pytest.mark.parametrize("name", ["bg_p05", "bg_p15"])
@@ -90,6 +99,8 @@ def test_pole_crossing(name, request):
     assert bg.valid, bg.reason
     (c,) = bg.crossings
     at = bg.evaluate(c.N_cross)
+    # exact by construction: the crossing is the root of the chart coordinate u = φ − φ0
+    # (scipy's event root to 4 eps in N), where 1/√K = 0 makes ε2 = −2(3 − ε1) identically
     assert abs(at.phi[0] - 5.0) < 1e-12
     assert abs(at.eps2[0] + 2 * (3 - at.eps1[0])) < 1e-9
     assert c.N_usr_start < c.N_cross < c.N_usr_end and c.usr_efolds > 0.05
@@ -166,9 +177,11 @@ def test_two_poles_switch_charts_at_the_midpoint():
     assert [c.position for c in bg.crossings] == [5.0, 3.5]
     assert [s.chart.pole for s in bg.segments] == [1, 1, 0, 0]  # sorted: 3.5 is pole 0
     mid = bg.evaluate(bg.segments[1].N1)
-    assert abs(mid.phi[0] - 4.25) < 1e-12
+    assert abs(mid.phi[0] - 4.25) < 1e-12  # the switch is an event root: exact to 4 eps in N
     N = np.linspace(bg.N_start + 0.01, bg.N_end - 0.01, 2001)
-    assert np.max(abs(lnH_slope(bg, N) + bg.evaluate(N).eps1)) < 1e-7  # rtol 1e-10
+    # default rtol 1e-10; dense output 100·rtol per step, accumulated over the steps
+    # (common practice, see test_friedmann_residuals); measured 2.3e-8
+    assert np.max(abs(lnH_slope(bg, N) + bg.evaluate(N).eps1)) < 100 * len(bg.N) * 1e-10
 
 
 def test_plugin_kinetic_matches_analytic_pole():
@@ -211,8 +224,10 @@ def test_contract_and_dense_output(bg_p05):
     for name in ("N", "phi", "chi", "dchi_dN", "H", "eps1", "eps2"):
         assert getattr(bg, name).shape == bg.N.shape
     assert bg.N[0] == bg.N_start and bg.N[-1] == bg.N_end and np.all(np.diff(bg.N) > 0)
+    # the end is the event root of ε1 − 1 on the dense output, found to 4 eps in N by
+    # scipy: |dε1/dN|·4 eps·N_end ~ 1e-13 (measured 1.2e-14), not the integration error
     assert abs(bg.eps1[-1] - 1) < 1e-12
-    p = bg.evaluate(bg.N)
+    p = bg.evaluate(bg.N)  # at its own nodes the dense output returns the node values
     assert isinstance(p, BackgroundPoint)
     for name in ("phi", "chi", "dchi_dN", "H", "eps1"):
         np.testing.assert_allclose(getattr(p, name), getattr(bg, name), rtol=1e-13)

@@ -31,7 +31,7 @@ def test_quick_demo_runs_every_step(demo):
     for name in ("demo_quick.toml", "training.h5", "surrogate.h5", "chain.h5", "grid.h5"):
         assert (out / name).is_file(), name
     pngs = {p.name for p in out.glob("*.png")}
-    for kind in ("corner", "exclusion", "omega_gw", "f_pbh"):
+    for kind in ("corner", "exclusion", "omega_gw", "f_pbh", "lnp_trace"):
         assert any(kind in name for name in pngs), (kind, sorted(pngs))
 
 

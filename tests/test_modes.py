@@ -33,7 +33,9 @@ def test_power_law_spectrum_matches_lyth_stewart(p):
     ln_k = tab.ln_aH(N_k)
     assert (ln_k[-1] - ln_k[0]) / np.log(10) > 3.0
     assert np.max(np.abs(res.P_zeta / _power_law_exact(bg, N_k) - 1)) < 1e-5
-    # z_t/z = 1/(4 sqrt(eps1)) is constant: P_t/P_zeta = 16 eps1 (exact for power law)
+    # z_t/z = 1/(4 sqrt(eps1)) is constant: P_t/P_zeta = 16 eps1 (exact for power law);
+    # both modes obey one equation on one shared clock, so the ODE error cancels and the
+    # mode rtol 1e-9 bounds what is left (table error, rounding; measured 4e-14)
     assert np.max(np.abs(res.P_tensor / res.P_zeta / (16 * bg.eps) - 1)) < 1e-9
 
 
@@ -64,7 +66,12 @@ def test_constant_roll_tilt(eps2, tilt):
     ln_k = tab.ln_aH(N_k)
     measured = np.polyfit(ln_k - ln_k[2], np.log(res.P_zeta), 4)[-2]
     assert abs(measured - tilt) < 1e-3
-    assert abs(measured - tilt) < 1e-6  # what we actually reach
+    # method bound instead of "what we reach" (1e-6): the degree-4 fit through 5 modes
+    # 0.1 apart in ln k is the 5-point derivative, weights (1, -8, 0, 8, -1)/(12·0.1),
+    # which turn a per-mode error of ln P below 1e-5 (the dS-corrected start at x_in = 100,
+    # inflation.md sect. 2.2: a few 1e-6) into at most 15·1e-5 (measured 5.8e-8, at
+    # eps2 = 0.1 mostly the O(eps1) physics, eps1 ~ 3e-8)
+    assert abs(measured - tilt) < 18 / (12 * 0.1) * 1e-5
 
 
 def test_usr_transition_k4_growth_and_starobinsky_1992():

@@ -8,6 +8,7 @@ written below in the layout of ``zetascan grid`` (made-up verdicts, labelled syn
 from __future__ import annotations
 
 import dataclasses
+import itertools
 import math
 import struct
 from pathlib import Path
@@ -16,12 +17,15 @@ import h5py
 import matplotlib.pyplot as plt
 import numpy as np
 import pytest
+from matplotlib.colors import to_rgba
 from scipy.stats import norm
 from test_sampler_posterior import trained  # noqa: F401  (fixture: the stand-in surrogate)
 from test_surrogate_standin import LIMIT, standin_log10_peak
 
 from scan import store
 from scan.cli import main
+from scan.plots.exclusion import exclusion_figure
+from scan.plots.grid_data import read_grid
 from scan.plots.inputs import Inputs
 from scan.plots.levels import CREDIBLE_MASS, histogram2d, mass_thresholds
 from scan.plots.make import BUILDERS
@@ -321,7 +325,8 @@ def test_run_folder_all_figures_and_corner_levels(run_folder, capsys, monkeypatc
     out = capsys.readouterr().out
     paths = printed_paths(out)
     assert sorted(p.name for p in paths if p.suffix == ".png") == [
-        "standin_corner.png", "standin_f_pbh.png", "standin_omega_gw.png"]
+        "standin_corner.png", "standin_f_pbh.png", "standin_lnp_trace.png",
+        "standin_omega_gw.png"]
     assert all(p.parent == run_folder for p in paths)
     assert_figure_files(paths, max_width_in=7.2)
     assert png_size_in(run_folder / "standin_omega_gw.png")[0] <= 3.6
@@ -331,7 +336,7 @@ def test_run_folder_all_figures_and_corner_levels(run_folder, capsys, monkeypatc
 
 def test_chain_figures_state_levels_and_band_legends(run_folder):
     inputs = Inputs(resolve(run_folder), tuple(DEMO), samples=40)
-    assert supported_kinds(inputs.sources) == ("gw", "pbh", "corner", "bands")
+    assert supported_kinds(inputs.sources) == ("gw", "pbh", "corner", "trace", "bands")
     fig = BUILDERS["corner"]["corner"](inputs)
     text = " ".join(t.get_text() for t in fig.texts)
     assert "68 % and 95 % of the 2-D posterior mass" in text and "burn-in" in text
@@ -341,9 +346,7 @@ def test_chain_figures_state_levels_and_band_legends(run_folder):
     plt.close(fig)
     fig = BUILDERS["bands"]["omega_gw"](inputs)
     texts = legend_texts(fig)
-    for entry in ("posterior 68 %", "posterior 95 %"):
-        assert entry in texts
-    assert any(t.startswith("posterior median") for t in texts)
+    assert any(t.startswith("posterior: median") and t.endswith("68 %, 95 %") for t in texts)
     assert "this model" not in texts
     plt.close(fig)
 
@@ -360,10 +363,15 @@ def test_exclusion_map_from_a_grid_with_the_posterior(grid_file, run_folder, tmp
     fig = BUILDERS["exclusion"]["exclusion"](inputs)
     texts = legend_texts(fig)
     assert texts[:2] == ["invalid model", "not computed (3 of 480 points)"]
-    assert {"Heron-like UL (synthetic): excluded", "f_PBH bounds (synthetic): excluded",
-            "n_s prior (synthetic): disfavoured", "LISA-like (synthetic): detectable (SNR ≥ 10)",
-            "no excluded points: N_eff bound (synthetic)", "posterior 68 %",
+    assert {"Heron-like UL (synthetic): excluded",
+            r"$f_{\rm PBH}$ bounds (synthetic): excluded",
+            r"$n_s$ prior (synthetic): disfavoured",
+            "LISA-like (synthetic): detectable (SNR ≥ 10)", "posterior 68 %",
             "posterior 95 %"} == set(texts[2:])
+    # a constraint with nothing to draw has no legend entry; the legend's title names it
+    assert fig.legends[0].get_title().get_text().splitlines() == [
+        "ticks on an outline point into the region it rules out",
+        r"excluding no grid point: $N_{\rm eff}$ bound (synthetic)"]
     ax = fig.axes[0]
     assert ax.get_xscale() == "log" and "[$M_p$]" in ax.get_xlabel()
     plt.close(fig)
@@ -378,3 +386,101 @@ def test_a_chain_over_other_axes_is_refused(run_folder, tmp_path, capsys):
     assert "no parameter or derived quantity 'model.exponent'" in err and "chain.h5" in err
     assert main(["plot", str(grid), "--kind", "corner"]) == 2
     assert "support: exclusion" in capsys.readouterr().err
+
+
+# --------------------------------------------------------------------------- referee checks
+def drawn_texts(fig) -> list:
+    """Every text the figure draws: titles, axis labels, drawn tick labels, offset texts,
+    annotations, figure texts, legend entries and titles."""
+    fig.canvas.draw()
+    texts = list(fig.texts)
+    for ax in fig.axes + [c for a in fig.axes for c in a.child_axes]:
+        texts += [ax.title, ax._left_title, ax._right_title] + list(ax.texts)
+        for axis in (ax.xaxis, ax.yaxis):
+            texts += [axis.label, axis.get_offset_text()]
+            for tick in axis._update_ticks():  # the ticks inside the view (drawn)
+                texts += [tick.label1, tick.label2]
+    for legend in list(fig.legends) + [ax.get_legend() for ax in fig.axes if ax.get_legend()]:
+        texts += list(legend.get_texts()) + [legend.get_title()]
+    return [t for t in texts if t.get_visible() and t.get_text().strip()]
+
+
+def overlapping_texts(fig) -> list[tuple[str, str]]:
+    """Pairs of drawn texts whose boxes overlap by more than one pixel each way."""
+    renderer = fig.canvas.get_renderer()
+    boxes = [(t.get_text(), t.get_window_extent(renderer).padded(-1.0))
+             for t in drawn_texts(fig)]
+    return [(a, b) for (a, box_a), (b, box_b) in itertools.combinations(boxes, 2)
+            if box_a.overlaps(box_b)]
+
+
+def visible_in(ax, x, y) -> bool:
+    """Independent of the figure code: does a curve have a point inside ``ax``'s view?"""
+    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
+    x, y = np.asarray(x, float), np.asarray(y, float)
+    return bool(np.any((x >= x0) & (x <= x1) & (y >= y0) & (y <= y1)))
+
+
+def test_demo_like_figures_draw_no_overlapping_text(solve_file, run_folder, grid_file):
+    solve = Inputs(resolve(solve_file), tuple(DEMO + [LISA]))
+    chain = Inputs(resolve(run_folder), tuple(DEMO), samples=40)
+    grid = Inputs(resolve(grid_file, run_folder))
+    figures = {"omega_gw": BUILDERS["gw"]["omega_gw"](solve),
+               "f_pbh": BUILDERS["pbh"]["f_pbh"](solve),
+               "bands": BUILDERS["bands"]["omega_gw"](chain),
+               "corner": BUILDERS["corner"]["corner"](chain),
+               "trace": BUILDERS["trace"]["lnp_trace"](chain),
+               "exclusion": BUILDERS["exclusion"]["exclusion"](grid)}
+    for name, fig in figures.items():
+        assert overlapping_texts(fig) == [], name
+        plt.close(fig)
+
+
+def test_gw_legend_names_exactly_the_curves_that_show(solve_file):
+    inputs = Inputs(resolve(solve_file), tuple(DEMO + [LISA]))
+    fig = BUILDERS["gw"]["omega_gw"](inputs)
+    main_ax, pta_ax = fig.axes[0], fig.axes[1]  # the PTA panel: pulsar-timing curves given
+    assert "pulsar-timing" in pta_ax.get_xlabel()
+    texts = legend_texts(fig)
+    assert len(texts) == len(set(texts)) and not any("SNR" in t for t in texts if "noise" in t)
+    for curve in (c for c in inputs.curves if c.y_quantity == "omega_gw_h2"):
+        shows = any(visible_in(ax, curve.x, curve.y) for ax in (main_ax, pta_ax))
+        named = any(t.startswith(curve.label) for t in texts)
+        assert shows == named, (curve.label, shows, named)
+    assert texts[0] == "this model"
+    plt.close(fig)
+
+
+def test_band_entries_only_when_the_band_shows(run_folder):
+    inputs = Inputs(resolve(run_folder), tuple(DEMO), samples=40)
+    for kind, bands in (("omega_gw", inputs.bands.gw), ("f_pbh", inputs.bands.pbh)):
+        fig = BUILDERS["bands"][kind](inputs)
+        ax = fig.axes[0]
+        shows = visible_in(ax, bands.x, bands.percentile(97.5))
+        assert shows == any(t.startswith("posterior: median") for t in legend_texts(fig)), kind
+        plt.close(fig)
+    # the f_PBH peaks of the drawn samples are resolved (scan.sampler.bands.PEAK_POINTS)
+    assert inputs.bands.peak_points >= 15
+
+
+def test_exclusion_legend_matches_the_grid(grid_file):
+    grid = read_grid(grid_file)
+    blind = tuple(dataclasses.replace(t, status=np.where(t.status == 2, 3, t.status))
+                  if t.kind == "sensitivity" else t for t in grid.terms)
+    for data, detectable in ((grid, True), (dataclasses.replace(grid, terms=blind), False)):
+        fig = exclusion_figure(data)
+        legend = fig.legends[0]
+        texts = [t.get_text() for t in legend.get_texts()]
+        assert any("detectable" in t for t in texts) == detectable
+        assert ("detecting no grid point: LISA-like (synthetic)" in
+                legend.get_title().get_text()) == (not detectable)
+        drawn = {tuple(np.round(c, 3)) for coll in fig.axes[0].collections
+                 for c in list(coll.get_edgecolor()) + list(coll.get_facecolor())}
+        for handle in legend.legend_handles:  # every key has a drawn artist of its colour
+            colour = handle.get_color() if hasattr(handle, "get_color") else \
+                handle.get_edgecolor()
+            key = tuple(np.round(to_rgba(colour), 3))
+            key_face = tuple(np.round(to_rgba(getattr(handle, "get_facecolor",
+                                                      lambda: "none")()), 3))
+            assert key in drawn or key_face in drawn, handle
+        plt.close(fig)

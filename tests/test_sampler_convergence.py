@@ -6,11 +6,17 @@ autocorrelation time tau = (1 + rho)/(1 - rho) (a textbook result; e.g. Sokal 19
 """
 from __future__ import annotations
 
+import types
+
 import numpy as np
 import pytest
 from scipy import signal
 
-from scan.sampler.convergence import Policy, assess, burn_in, estimate_tau, thinning
+from scan.plots import inputs
+from scan.sampler import bands, runfile, summary
+from scan.sampler.convergence import (Policy, assess, burn_in, estimate_tau, settle, thinning,
+                                      typical_floor)
+from scan.verify import run
 
 
 def ar1_chain(rho: np.ndarray, steps: int, walkers: int, seed: int) -> np.ndarray:
@@ -64,3 +70,53 @@ def test_burn_in_and_thinning_follow_the_factors():
     assert burn_in(tau, policy) == 39  # ceil(2 * 19.4)
     assert thinning(tau, policy) == 1  # int(0.5 * 3.1) = 1
     assert thinning(np.array([40.0, 60.0]), policy) == 20
+
+
+def gaussian_log_prob(chain: np.ndarray) -> np.ndarray:
+    """ln p of a unit Gaussian (max 0) at every position of a (steps, walkers, dim) chain."""
+    return -0.5 * np.sum(chain**2, axis=-1)
+
+
+def test_typical_floor_of_two_dimensions_is_ln_alpha_below_the_maximum():
+    # chi^2 with 2 dof has P(chi^2 > q) = exp(-q/2) exactly (textbook), so the floor
+    # ln p_max - q/2 at probability alpha is ln p_max + ln alpha.
+    assert typical_floor(3.0, 2, alpha=1e-3) == pytest.approx(3.0 + np.log(1e-3), rel=1e-12)
+
+
+def test_a_stray_walker_is_dropped_and_a_late_one_extends_the_burn_in():
+    rho = np.array([0.5, 0.5])
+    chain = ar1_chain(rho, steps=600, walkers=16, seed=5)
+    chain[:, 3] += 8.0  # stuck in a poor local optimum: ln p ~ -64 all along
+    chain[:250, 7] += 6.0  # arrives in the typical set only at step 250
+    log_prob = gaussian_log_prob(chain)
+    settled = settle(log_prob, burn=40, dim=2)
+    assert settled.dropped == 1 and not settled.kept[3] and settled.kept.sum() == 15
+    assert settled.burn_in == 250  # the late walker's first step in the typical set
+    # the healthy walkers: stationary unit Gaussians are all kept (floor ln 1e-3 below the
+    # maximum; each walker's median ln p ~ -ln 2 ~ -0.69, common practice chi^2 median)
+    healthy = settle(gaussian_log_prob(ar1_chain(rho, 600, 16, seed=6)), burn=40, dim=2)
+    assert healthy.dropped == 0 and healthy.burn_in < 60
+
+
+def test_settle_keeps_everything_when_nothing_can_be_judged():
+    log_prob = np.full((10, 4), -np.inf)
+    settled = settle(log_prob, burn=-1, dim=3)
+    assert settled.burn_in == 0 and settled.kept.all() and settled.floor == -np.inf
+
+
+def test_every_chain_reader_drops_the_stray_walker(monkeypatch):
+    """posterior_samples (the one reader of summary, figures, bands and verify) applies
+    settle: the stray walker's samples never reach a summary or a figure."""
+    assert inputs.posterior_samples is bands.posterior_samples is run.posterior_samples \
+        is summary.posterior_samples
+    chain = ar1_chain(np.array([0.5, 0.5]), steps=400, walkers=8, seed=2)
+    chain[:, 5] += 8.0  # the stray
+    extras = types.SimpleNamespace(burn_in=20, thin=2, names=("a", "b"))
+    monkeypatch.setattr(runfile, "read", lambda path: types.SimpleNamespace(extras=extras))
+    monkeypatch.setattr(runfile, "load_chain", lambda path: {
+        "chain": chain, "log_prob": gaussian_log_prob(chain), "blobs": None})
+    post = summary.posterior_samples("chain.h5")
+    assert post["stray_walkers"] == 1 and post["walkers"] == 7
+    assert post["samples"].shape == ((400 - post["burn_in"] + 1) // 2 * 7, 2)
+    assert np.abs(post["samples"]).max() < 6.0  # nothing from the stray (offset 8)
+    assert post["burn_in"] >= post["burn_in_tau"] == 20

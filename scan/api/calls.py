@@ -19,10 +19,10 @@ import numpy as np
 
 from scan.api.records import PER_MPC, Observed, Solution, solution_from_file
 from scan.config import load_config, load_config_text
-from scan.config.schema import RunConfig
+from scan.config.schema import ObservablesSection, RunConfig
 from scan.errors import InputFileError
-from scan.observables import compute_observables, cosmo, gstar
-from scan.observables.pbh import PBHConventions
+from scan.config.spec import build_section
+from scan.observables.settings import settings_of
 from scan.pipeline import solve_config
 from scan.pipeline.result_file import write_solve_result
 from scan.pipeline.spectrum_file import load_spectrum, validate_spectrum
@@ -141,9 +141,7 @@ def solve(config: ConfigLike, overrides: Mapping[str, Any] | Sequence[str] | Non
     return Solution.from_record(result, source=cfg.source)
 
 
-def observe(spectrum: str | Path | Any, P_zeta: Any = None, *, n_f: int = 200,
-            n_m: int = 200, n_eff: float = cosmo.N_EFF_DEFAULT,
-            gstar_table: str | Path | None = None, **conventions: Any) -> Observed:
+def observe(spectrum: str | Path | Any, P_zeta: Any = None, **observables: Any) -> Observed:
     """Ω_GW h²(f) today and f_PBH(M) of a curvature spectrum.
 
     Parameters
@@ -153,16 +151,12 @@ def observe(spectrum: str | Path | Any, P_zeta: Any = None, *, n_f: int = 200,
         the wavenumbers k (a Quantity convertible to 1/Mpc, or numbers in Mpc⁻¹).
     P_zeta : array, optional
         The dimensionless spectrum at ``k`` (when ``spectrum`` is k).
-    n_f, n_m : int
-        Sizes of the frequency and mass grids.
-    n_eff : float
-        N_eff today.
-    gstar_table : str or Path, optional
-        CSV of g_*(T) (T [GeV], g_rho, g_s); default our Standard-Model computation.
-    **conventions
-        PBH conventions (:class:`scan.observables.pbh.PBHConventions`): ``window``,
-        ``criterion``, ``threshold``, ``mass_function``, ``gamma_c``, ``K``, ``gamma``,
-        ``ps_factor``, ``omega_dm_h2``.
+    **observables
+        Any key of a config's ``[observables]`` table (``configs/README.md``): the PBH
+        conventions ``window``, ``criterion``, ``threshold``, ``mass_function``,
+        ``gamma_c``, ``collapse_K``, ``gamma``, ``ps_factor``, ``omega_dm_h2``; the grids
+        ``n_f``, ``n_m``; ``n_eff``, ``gstar``, ``gstar_table``; non-Gaussianity keys.
+        Defaults are the config defaults, as for ``zetascan observe``.
 
     Returns
     -------
@@ -172,6 +166,8 @@ def observe(spectrum: str | Path | Any, P_zeta: Any = None, *, n_f: int = 200,
     ------
     InputFileError
         An unreadable table, k not positive and strictly increasing, fewer than 8 points.
+    ConfigError
+        An unknown key or a bad value (the message names it).
     """
     if P_zeta is None:
         k, P = load_spectrum(str(spectrum))
@@ -184,10 +180,9 @@ def observe(spectrum: str | Path | Any, P_zeta: Any = None, *, n_f: int = 200,
             raise InputFileError("<arrays>", f"k and P_zeta lengths differ ({k.size} vs "
                                  f"{P.size})")
         validate_spectrum("<arrays>", k, P)
-    dof = gstar.load_table(str(gstar_table)) if gstar_table else None
-    obs = compute_observables(k, P, conventions=PBHConventions(**conventions), n_f=n_f,
-                              n_m=n_m, dof=dof, n_eff=n_eff)
-    return Observed.from_record(obs)
+    section = build_section(ObservablesSection, dict(observables), "observables",
+                            "scan.observe")
+    return Observed.from_record(settings_of(section).compute(k, P))
 
 
 def load_result(path: str | Path) -> Solution:

@@ -7,10 +7,13 @@ from dataclasses import replace
 from functools import lru_cache
 
 import numpy as np
-from scipy.integrate import quad, solve_ivp
+from scipy.integrate import quad
 from scipy.optimize import brentq
 
+from scan.background.compiled import activate, encode, field_of
 from scan.background.crossing import crossing_report
+from scan.background.integrate import (EVENT_NAMES, EXHAUSTED, REACHED, DenseSegment,
+                                       integrate_segment)
 from scan.background.types import (Background, Chart, Segment, chart_map, chart_of, charts, point,
                                    to_chart)
 from scan.errors import ConfigError
@@ -131,71 +134,25 @@ def _chi_at(model: Model, phi: float) -> float:
 #: displacement that matters unless the field creeps with pi < ~1e-20 (eps1 < 1e-40, the
 #: ill-conditioned regime, inflation.md §5.5).  Results vary by < 1e-8 e-folds for 1e-18..1e-22.
 _ATOL_S = 1e-22
+#: The failure message of a step size below the float spacing (as solve_ivp words it).
+MESSAGE_FAILED = "Required step size is less than spacing between numbers."
 
 
 
-class _Exhausted(Exception):
-    """The right-hand-side call budget is used up (stalled or chattering integration)."""
-
-
-def _rhs(kern, chart: Chart, budget: list[int]):
-    """Scalar-fast RHS d(x, π, χ)/dN in a chart (math on floats)."""
-    V, dV = kern.V, kern.dV
-    if chart.pole < 0:
-        K = kern.K
-
-        def rhs(N, y):
-            budget[0] -= 1
-            if budget[0] < 0:
-                raise _Exhausted
-            x, pi, _ = y.tolist()
-            inv = 1.0 / math.sqrt(K(x, math))
-            return [pi * inv, -(3.0 - 0.5 * pi * pi) * (pi + dV(x, math) * inv / V(x, math)), pi]
-        return rhs
-    sing = kern.singular[chart.pole]
-    q, iq, hp, x0, G = sing.q, 1.0 / sing.q, 0.5 * sing.power, sing.position, sing.G
-
-    def rhs(N, y):
-        budget[0] -= 1
-        if budget[0] < 0:
-            raise _Exhausted
-        s, pi, _ = y.tolist()
-        au = abs(s) ** iq
-        u = math.copysign(au, s)
-        sG = math.sqrt(G(u, math))
-        phi = x0 + u
-        slope = dV(phi, math) * au ** hp / (sG * V(phi, math))
-        return [q * pi / sG, -(3.0 - 0.5 * pi * pi) * (pi + slope), pi]
-    return rhs
-
-
-def _event(g, N0: float, y0, sign: float, name: str, terminal: bool = True,
-           direction: float = 0.0):
-    """A solve_ivp event; if g vanishes at the (re)start it reads ``sign`` there instead,
-    the sign g takes just after N0, so a restart does not re-trigger its own event."""
-    g0 = g(N0, y0)
-    nudge = abs(g0) <= 1e-12 * (1.0 + abs(g0))
-
-    def ev(N, y):
-        return sign if (nudge and N == N0) else g(N, y)
-    ev.terminal, ev.direction, ev.__name__ = terminal, direction, name
-    return ev
-
-
-def _events(kern, chart: Chart, has_poles: bool, N0: float, y0) -> list:
-    """End of inflation, pole crossing, chart boundaries and (pole models) π = 0."""
+def _segment_events(kern, chart: Chart, has_poles: bool, N0: float, y0, m):
+    """(enabled, sign at the start, nudge) of the five events of a segment (see
+    :mod:`scan.background.integrate`); an event vanishing at the (re)start reads its sign
+    just after N0 there, so a restart does not re-trigger it."""
     ahead = math.copysign(1.0, y0[1]) if y0[1] != 0.0 else -math.copysign(
         1.0, kern.dV(chart_map(kern, chart, y0[0], math)[0], math))
-    evs = [_event(lambda N, y: 0.5 * y[1] * y[1] - 1.0, N0, y0, -1.0, "end", direction=1.0)]
-    if chart.pole >= 0:
-        evs.append(_event(lambda N, y: y[0], N0, y0, ahead, "cross"))
-    for name, b in (("lo", chart.lo), ("hi", chart.hi)):
-        if math.isfinite(b):
-            evs.append(_event(lambda N, y, b=b: chart_map(kern, chart, y[0], math)[0] - b,
-                              N0, y0, ahead, name))
-    if has_poles:
-        evs.append(_event(lambda N, y: y[1], N0, y0, ahead, "stop"))
-    return evs
+    enabled = np.array([True, chart.pole >= 0, math.isfinite(chart.lo),
+                        math.isfinite(chart.hi), has_poles])
+    signs = np.array([-1.0, ahead, ahead, ahead, ahead])
+    phi0 = field_of(float(y0[0]), chart.pole, m)
+    g0 = np.array([0.5 * y0[1] ** 2 - 1.0, y0[0], phi0 - chart.lo, phi0 - chart.hi, y0[1]])
+    with np.errstate(invalid="ignore"):
+        nudge = enabled & (np.abs(g0) <= 1e-12 * (1.0 + np.abs(g0)))
+    return enabled, signs, nudge
 
 
 def _initial_state(model: Model, phi0: float, velocity: float | None):
@@ -228,34 +185,38 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
     chart, y0 = _initial_state(model, phi0, velocity_start)
     if not np.all(np.isfinite(y0)):
         return _invalid(model, N_start, f"non-finite initial state at phi = {phi0:g}")
-    budget, N0, N_lim = [int(max_rhs_calls)], float(N_start), float(N_start) + float(n_max)
+    budget, N0, N_lim = int(max_rhs_calls), float(N_start), float(N_start) + float(n_max)
+    m = encode(model)
+    activate(model)
     segs, nodes, cross, end, why = [], [], [], math.nan, ""
     while not why:
         if len(segs) > max_restarts:
             why = f"more than {max_restarts} restarts (chattering at N = {N0:.6g})"
             break
-        events = _events(kern, chart, bool(kern.singular), N0, y0)
-        atol = [_ATOL_S if chart.pole >= 0 else 1e-14, 1e-30, 1e-12]
-        try:
-            sol = solve_ivp(_rhs(kern, chart, budget), (N0, N_lim), y0, method="DOP853",
-                            rtol=rtol, atol=atol, events=events, dense_output=True)
-        except _Exhausted:
+        enabled, signs, nudge = _segment_events(kern, chart, bool(kern.singular), N0, y0, m)
+        atol = np.array([_ATOL_S if chart.pole >= 0 else 1e-14, 1e-30, 1e-12])
+        status, hit, t, y, t_old, h, y_old, F, budget = integrate_segment(
+            N0, N_lim, np.asarray(y0, dtype=float), float(rtol), atol, chart.pole, m,
+            np.array([chart.lo, chart.hi]), enabled, signs, nudge, budget)
+        if status == EXHAUSTED:
             why = f"more than {max_rhs_calls} right-hand-side calls (stalled near N = {N0:.6g})"
             break
-        if sol.status < 0 or not np.all(np.isfinite(sol.y)):
-            why = f"non-finite values or integrator failure after N = {N0:.6g}: {sol.message}"
+        y = y.T.copy()
+        if status < 0 or not np.all(np.isfinite(y)):
+            why = (f"non-finite values or integrator failure after N = {N0:.6g}: "
+                   f"{MESSAGE_FAILED if status < 0 else 'non-finite state'}")
             break
-        segs.append(Segment(N0, float(sol.t[-1]), chart, sol.sol))
+        segs.append(Segment(N0, float(t[-1]), chart, DenseSegment(t_old, h, y_old, F)))
         first = 0 if not nodes else 1  # a restart repeats the previous end point
-        nodes.append((chart, sol.t[first:], sol.y[:, first:]))
-        if sol.status == 0:
+        nodes.append((chart, t[first:], y[:, first:]))
+        if status == REACHED:
             if not allow_no_end:
                 why = (f"inflation did not end within n_max = {n_max:g} e-folds "
-                       f"(eps1 = {0.5 * sol.y[1, -1] ** 2:.3g} at N = {N_lim:g})")
+                       f"(eps1 = {0.5 * y[1, -1] ** 2:.3g} at N = {N_lim:g})")
             break
-        name = next(ev.__name__ for ev, t in zip(events, sol.t_events) if len(t))
+        name = EVENT_NAMES[hit]
         moving = math.copysign(1.0, y0[1])
-        N0, y0 = float(sol.t[-1]), sol.y[:, -1].copy()
+        N0, y0 = float(t[-1]), y[:, -1].copy()
         if name == "end":
             end = N0
             break
@@ -263,7 +224,7 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
             why = _stop_reason(model, chart, N0, y0, moving)
         elif name == "cross":
             cross.append((chart.pole, N0))
-            y0[0] = sol.y[0, -1] = 0.0  # exactly on the pole (the root finder leaves ~1e-15)
+            y0[0] = y[0, -1] = 0.0  # exactly on the pole (the root finder leaves ~1e-15)
         else:
             phi_b = chart.lo if name == "lo" else chart.hi
             chart = _neighbour(model, chart, name)

@@ -6,8 +6,9 @@ Each verb lives in its own module ``scan/cli/<verb>.py`` exposing
   example in its epilog), and
 * ``run(args: argparse.Namespace) -> int`` — do the work and return an exit code.
 
-Exit codes: 0 success, 2 bad input (one line naming the file, line or key), 1 internal
-error (traceback shown: that is a bug).  What verbs print goes through
+Exit codes: 0 success, 2 bad input or an output that cannot be written (one line naming
+the file, line or key and the fix), 1 internal error (a bug: one line says which log file
+holds the traceback, see :mod:`scan.cli.failure`).  What verbs print goes through
 :mod:`scan.cli.output` (``--json``, ``--quiet``, ``-v``, progress on stderr).
 """
 from __future__ import annotations
@@ -17,6 +18,7 @@ import importlib
 import sys
 from collections.abc import Sequence
 
+from scan.cli import failure
 from scan.cli.output import strict_json
 from scan.constants import ZETASCAN_VERSION as __version__
 from scan.errors import ZetascanError
@@ -44,6 +46,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit code (0 ok, 2 bad input, 1 internal error)."""
+    argv = list(sys.argv[1:] if argv is None else argv)
     parser = build_parser()
     args = parser.parse_args(argv)
     if getattr(args, "_run", None) is None:
@@ -59,3 +62,12 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"zetascan {args.verb}: interrupted", file=sys.stderr)
         return 130
+    except Exception as err:  # noqa: BLE001 -- the one place that ends every failure
+        message = failure.user_message(err)
+        if message is not None:
+            print(f"zetascan {args.verb}: error: {message}", file=sys.stderr)
+            if getattr(args, "json", False):
+                print(strict_json({"error": message, "exit_code": 2}), flush=True)
+            return 2
+        failure.report_internal(args.verb, err, argv)
+        return 1

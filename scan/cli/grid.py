@@ -10,6 +10,7 @@ from scan.grid import grid_path, install_worker, plan_grid_run, run_grid, summar
 from scan.grid.run import check_config, describe_plan
 from scan.pool import choose_pool
 from scan.sampler.stop import EXIT_CODES, graceful_stop
+from scan.store import check_output_file
 
 EXAMPLE = """examples:
   zetascan grid configs/pole_scan.toml --set 'grid.x="model.poles[0].position"' \\
@@ -66,6 +67,7 @@ def run(args: argparse.Namespace) -> int:
     config = load_config(args.config, overrides=overrides)
     if grid_path(config).exists() and not args.restart:
         check_config(config, grid_path(config), args.resume)  # before loading anything
+    check_output_file(grid_path(config), "grid file")
     grid_run = plan_grid_run(config)
     processes = args.processes
     if processes is None and not args.mpi and grid_run.plan.source == "exact":

@@ -17,9 +17,13 @@ from pathlib import Path
 
 from scan import store
 from scan.cli.output import Output, add_output_options
-from scan.errors import InputFileError
-from scan.observables import Observables, compute_observables, cosmo, gstar
+from scan.config.load import apply_override
+from scan.config.schema import ObservablesSection
+from scan.config.spec import build_section
+from scan.errors import ConfigError, InputFileError
+from scan.observables import Observables, cosmo
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
+from scan.observables.settings import settings_of
 from scan.pipeline.result_file import write_observables
 from scan.pipeline.spectrum_file import load_spectrum
 from scan.plots import gw as gw_plot
@@ -28,6 +32,8 @@ from scan.plots import pbh as pbh_plot
 EPILOG = """example:
   zetascan observe spectrum.csv --out obs.h5 --figures figs/ --criterion compaction \\
       --threshold 0.5 --window gaussian
+  zetascan observe spectrum.csv --set observables.non_gaussianity=local \\
+      --set observables.f_nl=2.5
 """
 
 
@@ -64,7 +70,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--n-f", type=int, default=200, help="number of frequencies (default 200)")
     p.add_argument("--n-m", type=int, default=200, help="number of PBH masses (default 200)")
     p.add_argument("--gstar-table", metavar="CSV", help="g_* table: T [GeV], g_rho, g_s "
-                   "(default: our Standard-Model computation)")
+                   "(default: the built-in table of observables.gstar)")
     p.add_argument("--n-eff", type=float, default=cosmo.N_EFF_DEFAULT,
                    help="N_eff today (default %(default)s)")
     d = PBHConventions()
@@ -73,21 +79,46 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                    "mass_function": MASS_FUNCTIONS}.get(field)
         p.add_argument(flag, dest=field, type=kind, choices=choices,
                        default=getattr(d, field), help=f"{text} (default %(default)s)")
+    p.add_argument("--set", action="append", metavar="observables.KEY=VALUE",
+                   help="override an [observables] key as in zetascan solve, e.g. "
+                        "observables.non_gaussianity=local (repeatable)")
     add_output_options(p)
     return p
 
 
-def _conventions(args) -> PBHConventions:
-    """PBH conventions from the command-line options."""
-    return PBHConventions(**{field: getattr(args, field)
-                             for _, field, _, _ in CONVENTION_OPTIONS})
+def observables_section(args) -> ObservablesSection:
+    """The ``[observables]`` section of the command line: the options, then every
+    ``--set observables.KEY=VALUE`` (as ``zetascan solve``'s overrides).
+
+    Raises
+    ------
+    ConfigError
+        For a key outside ``observables``, a bad value or combination, or
+        ``non_gaussianity = 'model'`` (which needs a solved model).
+    """
+    table = {"n_f": args.n_f, "n_m": args.n_m, "n_eff": args.n_eff,
+             "gstar_table": args.gstar_table or "", "window": args.window,
+             "criterion": args.criterion, "threshold": args.threshold,
+             "mass_function": args.mass_function, "gamma_c": args.gamma_c,
+             "collapse_K": args.K, "gamma": args.gamma, "ps_factor": args.ps_factor,
+             "omega_dm_h2": args.omega_dm_h2}
+    raw = {"observables": table}
+    for text in args.set or ():
+        if not text.startswith("observables."):
+            raise ConfigError("--set", text, "observe takes only observables.KEY=VALUE",
+                              "e.g. --set observables.non_gaussianity=local")
+        apply_override(raw, text)
+    section = build_section(ObservablesSection, raw["observables"], "observables", "--set")
+    if section.non_gaussianity == "model":
+        raise ConfigError("--set", "observables.non_gaussianity", "'model' needs the solved "
+                          "model's background (delta-N), which a spectrum table does not "
+                          "carry", "use zetascan solve, or 'local'/'logarithmic' here")
+    return section
 
 
 def compute(k, P, args) -> Observables:
     """Both observables of the table (k, P) with the command line's conventions."""
-    dof = gstar.load_table(args.gstar_table) if args.gstar_table else None
-    return compute_observables(k, P, conventions=_conventions(args), n_f=args.n_f,
-                               n_m=args.n_m, dof=dof, n_eff=args.n_eff)
+    return settings_of(observables_section(args)).compute(k, P)
 
 
 def write_result(out: Path, source: str, obs: Observables, options: dict) -> None:
@@ -110,10 +141,11 @@ def run(args: argparse.Namespace) -> int:
     """
     output = Output.of(args)
     source = str(args.spectrum)
-    k, P = load_spectrum(source)
-    obs = compute(k, P, args)
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
+    k, P = load_spectrum(source)
+    store.check_output_file(out, "observables file")
+    obs = compute(k, P, args)
     write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
                                     if not k_.startswith("_") and k_ not in _PRINT_OPTIONS})
     for note in obs.notes:

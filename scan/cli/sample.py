@@ -10,6 +10,7 @@ from scan.pool import choose_pool
 from scan.posterior.targets import prepare_target
 from scan.sampler.driver import Progress, RunOutcome, plan_run, run_chain
 from scan.sampler.stop import EXIT_CODES, graceful_stop
+from scan.store import check_output_file
 
 EXAMPLE = """examples:
   zetascan sample configs/gaussian_test.toml                 # start, or resume the same chain
@@ -66,6 +67,7 @@ def run(args: argparse.Namespace) -> int:
     """Start or resume the run; the exit code tells how it ended (see the epilog)."""
     config = load_config(args.config, overrides=args.overrides)
     plan = plan_run(config, args.out)
+    check_output_file(plan.path, "chain file")
     pool = choose_pool(args.processes, args.mpi, vectorized=config.sampler.vectorize,
                        initializer=prepare_target, initargs=(plan.target,))
     output = Output.of(args)

@@ -11,6 +11,7 @@ from scan.config import load_config
 from scan.pipeline import SolveResult, solve_config
 from scan.pipeline.result_file import write_solve_result
 from scan.plots.solve import draw_solve_figures
+from scan.store import check_output_file
 
 EXAMPLE = """example:
   zetascan solve configs/tmodel_pole.toml
@@ -39,6 +40,7 @@ def run(args: argparse.Namespace) -> int:
     """Solve, write, summarise; exit 0 even for an invalid model (the file says why)."""
     config = load_config(args.config, overrides=args.overrides)
     out = Path(args.out) if args.out else Path(config.run.output_dir) / f"{config.run.name}.h5"
+    check_output_file(out, "result file")
     output = Output.of(args)
     output.detail(f"config {config.source} (paths relative to {config.base_dir or '.'})")
     result = solve_config(config)

@@ -7,6 +7,7 @@ from scan.cli.output import Output, add_output_options
 from scan.config import load_config
 from scan.errors import ConfigError
 from scan.pool import choose_pool
+from scan.store import check_output_file
 from scan.surrogate import surrogate_path, training_path
 from scan.surrogate.adapter import SolvePoint
 from scan.surrogate.identity import identity
@@ -77,6 +78,7 @@ def _train(args: argparse.Namespace) -> int:
 
     output = Output.of(args)
     config = load_config(args.config, overrides=args.overrides)
+    check_output_file(training_path(config), "training store")
     space = from_config(config)
     plan = TrainingPlan.from_config(config, args.points)
     pool, workers = _pool(args)

@@ -6,6 +6,7 @@ import argparse
 from scan.cli.output import Output, add_output_options
 from scan.errors import ZetascanError
 from scan.pool import choose_pool
+from scan.store import check_output_file
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
 from scan.verify.run import open_run, verify_run
 
@@ -70,6 +71,7 @@ def run(args: argparse.Namespace) -> int:
     if not args.max_shift > 0.0:
         raise ZetascanError(f"--max-shift {args.max_shift}: give a positive number")
     run_ = open_run(args.run)
+    check_output_file(run_.path, "verification results")
     thresholds = Thresholds(args.min_ess, args.max_shift)
     output = Output.of(args)
     line = output.progress("verify", "exact solve", every_s=10.0)

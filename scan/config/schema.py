@@ -12,9 +12,12 @@ from dataclasses import dataclass
 from scan.config.analysis import GridSection, LikelihoodSection
 from scan.config.spec import spec
 from scan.errors import ConfigError
+from scan.observables.gstar import TABLES as GSTAR_TABLES
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
+from scan.observables.pbh.qcd import QCD_THRESHOLDS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
+from scan.observables.pbh.zeta_map import NON_GAUSSIANITIES
 
 POTENTIALS = ("t_model", "e_model", "starobinsky", "monomial", "exponential", "plugin")
 KINETICS = ("canonical", "poles", "plugin")
@@ -305,7 +308,12 @@ class ObservablesSection:
     n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8)
     n_eff: float = spec("N_eff today (radiation density, g_* today)", 3.044, minimum=0.0)
     gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s, relative "
-                            "to the config file (default: our Standard-Model computation)", "")
+                            "to the config file (replaces the built-in table named by gstar)",
+                            "")
+    gstar: str = spec("built-in g_*(T) table: the published lattice-based table of Saikawa "
+                      "& Shirai 2018, or ideal-gas (our Standard-Model computation, the "
+                      "default before issue 15)", "saikawa-shirai-2018",
+                      choices=tuple(GSTAR_TABLES))
     window: str = spec("smoothing window of the density variance (thresholds are "
                        "window-specific)", "gaussian", choices=PBH_WINDOWS)
     criterion: str = spec("collapse criterion", "compaction", choices=PBH_CRITERIA)
@@ -323,6 +331,41 @@ class ObservablesSection:
                             minimum=0.0, exclusive_minimum=True)
     omega_dm_h2: float = spec("dark-matter density the PBH fraction refers to", 0.12,
                               minimum=0.0, exclusive_minimum=True)
+    non_gaussianity: str = spec("zeta = F(zeta_G) in the compaction function: gaussian, "
+                                "local (f_nl, g_nl), logarithmic (log_lambda) or model "
+                                "(delta-N on the solved model's background)", "gaussian",
+                                choices=NON_GAUSSIANITIES)
+    f_nl: float = spec("local f_NL (non_gaussianity = 'local')", 0.0)
+    g_nl: float = spec("local g_NL (non_gaussianity = 'local')", 0.0)
+    log_lambda: float = spec("lambda of zeta = -ln(1 - lambda zeta_G)/lambda "
+                             "(non_gaussianity = 'logarithmic'; 3 = ultra-slow roll ending "
+                             "abruptly, f_NL = 5 lambda/6)", 0.0)
+
+    qcd_threshold: str = spec("collapse threshold across the QCD crossover: off (one "
+                              "threshold) or harada-scaled (C_th times delta_c(w(T))/"
+                              "delta_c(1/3), w from the g_* table; opt-in)", "off",
+                              choices=QCD_THRESHOLDS)
+
+    def validate(self, where: str, source: str) -> None:
+        """Cross-field rules of the non-Gaussianity and QCD-threshold conventions."""
+        kind = self.non_gaussianity
+        used = {"local": ("f_nl", "g_nl"), "logarithmic": ("log_lambda",)}.get(kind, ())
+        for key in ("f_nl", "g_nl", "log_lambda"):
+            if getattr(self, key) != 0.0 and key not in used:
+                raise ConfigError(source, f"{where}.{key}", f"is {getattr(self, key):g} but "
+                                  f"non_gaussianity = '{kind}' does not use it",
+                                  f"remove it, or set non_gaussianity = "
+                                  f"'{'logarithmic' if key == 'log_lambda' else 'local'}'")
+        if kind == "logarithmic" and self.log_lambda == 0.0:
+            raise ConfigError(source, f"{where}.log_lambda", "non_gaussianity = 'logarithmic' "
+                              "needs a non-zero log_lambda", "e.g. log_lambda = 3")
+        for key, on in (("non_gaussianity", kind != "gaussian"),
+                        ("qcd_threshold", self.qcd_threshold != "off")):
+            if on and (self.criterion, self.mass_function) != ("compaction", "critical"):
+                raise ConfigError(source, f"{where}.{key}", f"'{getattr(self, key)}' needs "
+                                  "criterion = 'compaction' and mass_function = 'critical' "
+                                  "(it enters through the compaction function)",
+                                  f"set those, or the default {key}")
 
 
 @dataclass(frozen=True, kw_only=True)

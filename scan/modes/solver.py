@@ -7,7 +7,7 @@ Only eps1 and H enter (no eps2, eps3, V_chichi), through the table's ln eps1 and
 
 Phase A integrates every mode on the shared relative clock n from n_in = -ln x_in to
 the n where the last mode has k/(aH) <= x_out, so all modes oscillate in step and one
-DOP853 system with a numpy right-hand side serves them all.  Phase B (only if a
+DOP853 system with a compiled right-hand side (:mod:`scan.modes.kernel`) serves them all.  Phase B (only if a
 non-attractor phase, eps2 < eps2_attractor, lies ahead) carries every mode on its own
 affine clock N_i(T) = N_i0 + T L_i, T in [0, 1], to its own final e-fold.
 
@@ -28,9 +28,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.integrate import solve_ivp
 
 from scan.modes.initial import bunch_davies
+from scan.modes.kernel import MESSAGE_DONE, MESSAGE_SMALL, integrate_modes
 from scan.modes.protocol import BackgroundLike
 from scan.modes.settings import ModeSettings
 from scan.modes.table import BackgroundTable
@@ -74,47 +74,21 @@ class ModeResult:
     message: str
 
 
-def _rhs_factory(table: BackgroundTable, Lk: np.ndarray, gk: np.ndarray, N0: np.ndarray,
-                 n0: float, rate: np.ndarray | None):
-    """RHS on clock t: N_i = N0_i + t*rate_i, n_i = n0 + t*rate_i (rate None: rate = 1).
+def _integrate(table: BackgroundTable, y0: np.ndarray, span: tuple[float, float],
+               Lk: np.ndarray, gk: np.ndarray, N0: np.ndarray, n0: float,
+               rate: np.ndarray | None, settings: ModeSettings) -> tuple[np.ndarray, int, bool,
+                                                                          str]:
+    """DOP853 (compiled, :func:`scan.modes.kernel.integrate_modes`) on clock t over ``span``:
+    N_i = N0_i + t*rate_i, n_i = n0 + t*rate_i (rate None: rate = 1).
 
-    The table lookup is inlined (one gather of the 8 Horner coefficients per call) and
-    the four exponentials are taken in one call: per call the cost is dominated by numpy
-    call overhead, not by the number of modes.
-    """
-    M = Lk.size
-    nodes, cT, last = table.N, np.ascontiguousarray(table.coef.T), table.N.size - 2
-    r8 = None if rate is None else np.tile(rate, 8)
-    # exponents of the four coefficients: scalar q' [-2n + dg - dL], scalar p' [dL + dg],
-    # tensor q' [-2n + dg], tensor p' [dg], with dg = g - g_k, dL = L - L_k
-    base = np.stack([Lk - gk, -Lk - gk, -gk, -gk])
-    wL = np.array([-1.0, 1.0, 0.0, 0.0])[:, None]
-    wn = np.array([-2.0, 0.0, -2.0, 0.0])[:, None]
-
-    def rhs(t: float, y: np.ndarray) -> np.ndarray:
-        dn = t if rate is None else t * rate
-        N = N0 + dn
-        i = np.searchsorted(nodes, N, side="right") - 1
-        i = np.minimum(np.maximum(i, 0), last)  # np.clip's Python wrapper costs ~20x more
-        h = N - nodes[i]
-        c = cT[:, i]
-        L = ((c[3] * h + c[2]) * h + c[1]) * h + c[0]
-        g = ((c[7] * h + c[6]) * h + c[5]) * h + c[4]
-        e = np.exp(base + g + wL * L + wn * (n0 + dn))
-        Y = y.reshape(8, M)
-        out = np.empty((8, M))
-        np.multiply(e[0], Y[2:4], out=out[0:2])
-        np.multiply(-e[1], Y[0:2], out=out[2:4])
-        out[2:4] -= Y[2:4]
-        np.multiply(e[2], Y[6:8], out=out[4:6])
-        np.multiply(-e[3], Y[4:6], out=out[6:8])
-        out[6:8] -= Y[6:8]
-        out = out.reshape(-1)
-        if r8 is not None:
-            out *= r8
-        return out
-
-    return rhs
+    Returns (y at the end, right-hand-side calls, success, message)."""
+    y, nfev, ok = integrate_modes(
+        float(span[0]), float(span[1]), np.ascontiguousarray(y0, dtype=float), settings.rtol,
+        settings.rtol * settings.atol_factor, table.N, table.coef, Lk, gk,
+        np.ascontiguousarray(N0, dtype=float), float(n0),
+        np.ones(Lk.size) if rate is None else np.ascontiguousarray(rate, dtype=float),
+        rate is not None)
+    return y, int(nfev), bool(ok), MESSAGE_DONE if ok else MESSAGE_SMALL
 
 
 def _freeze_n(table: BackgroundTable, N_k: np.ndarray, gk: np.ndarray, x_out: float) -> float:
@@ -223,27 +197,26 @@ def solve_modes(bg: BackgroundLike, table: BackgroundTable, N_k: np.ndarray,
     n_A = _freeze_n(table, N_k, gk, settings.x_out)
     if N_k.min() + n_in < table.N[0] or N_k.max() + n_A > N_stop:
         raise ValueError("modes outside the tabulated background range")
-    atol = settings.rtol * settings.atol_factor
     groups = _start_groups(bg, table, N_k, n_in)
     Y = np.empty((8, N_k.size))
     nfev, ok, msg = 0, True, ""
     for idx, n0 in groups:
         y0 = _initial_state(bg, table, N_k[idx], Lk[idx], gk[idx], n0)
-        solA = solve_ivp(_rhs_factory(table, Lk[idx], gk[idx], N_k[idx], 0.0, None),
-                         (n0, n_A), y0, method="DOP853", rtol=settings.rtol, atol=atol)
-        Y[:, idx] = solA.y[:, -1].reshape(8, -1)
-        nfev += solA.nfev
-        if not solA.success:
-            ok, msg = False, solA.message
+        yA, nA, okA, msgA = _integrate(table, y0, (n0, n_A), Lk[idx], gk[idx], N_k[idx], 0.0,
+                                       None, settings)
+        Y[:, idx] = yA.reshape(8, -1)
+        nfev += nA
+        if not okA:
+            ok, msg = False, msgA
         elif ok:
-            msg = solA.message
+            msg = msgA
     y = Y.reshape(-1)
     N_final = final_efolds(table, N_k, n_A, settings, N_stop)
     rate = N_final - (N_k + n_A)
     if ok and np.any(rate > 0.0):
-        solB = solve_ivp(_rhs_factory(table, Lk, gk, N_k + n_A, n_A, rate), (0.0, 1.0), y,
-                         method="DOP853", rtol=settings.rtol, atol=atol)
-        y, nfev, ok, msg = solB.y[:, -1], nfev + solB.nfev, solB.success, solB.message
+        y, nB, ok, msg = _integrate(table, y, (0.0, 1.0), Lk, gk, N_k + n_A, n_A, rate,
+                                    settings)
+        nfev += nB
     return _spectra(y, Lk, gk, N_k, N_final, nfev, ok, msg)
 
 

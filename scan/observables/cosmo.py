@@ -14,8 +14,9 @@ This gives M_H = 20.5 M_sun (g_*/10.75)^{-1/6} (k / 1e6 Mpc^-1)^{-2} for g_* = g
 published shortcuts use 17 M_sun or 12.6 M_sun (a spread of 1.6x).  The relations hold
 in radiation domination only (T >> 1 eV, k >> 0.01 Mpc^-1).
 
-``dof`` arguments select g_*(T), g_*s(T): ``None`` for the built-in Standard-Model table
-(:func:`scan.observables.gstar.standard_model`), a :class:`scan.observables.gstar.DofTable`, or a constant pair
+``dof`` arguments select g_*(T), g_*s(T): ``None`` for the default table
+(:func:`scan.observables.gstar.default_table`: Saikawa & Shirai 2018), a
+:class:`scan.observables.gstar.DofTable`, or a constant pair
 ``(g_rho, g_s)``.
 """
 from __future__ import annotations
@@ -27,7 +28,7 @@ import numpy as np
 from astropy import units as u
 
 from scan import constants as C
-from scan.observables.gstar import DofTable, standard_model
+from scan.observables.gstar import DofTable, default_table
 
 #: Default effective number of neutrino species for today's radiation density.
 N_EFF_DEFAULT: float = 3.044
@@ -116,7 +117,7 @@ def _dof_at(dof: Dof, T) -> tuple[np.ndarray, np.ndarray]:
     """g_*(T), g_*s(T) from a ``dof`` selector (None, DofTable or constant pair)."""
     T = np.asarray(T, dtype=float)
     if dof is None:
-        dof = standard_model()
+        dof = default_table()
     if isinstance(dof, DofTable):
         return dof.rho(T), dof.s(T)
     g, gs = dof

@@ -1,7 +1,13 @@
 """Effective relativistic degrees of freedom g_*(T) (energy) and g_*s(T) (entropy).
 
-The default table is our own ideal-gas computation of the Standard Model from 1 keV to
-10 TeV (:func:`standard_model`):
+Two built-in tables, chosen by name (``[observables] gstar``, :data:`TABLES`):
+
+* ``saikawa-shirai-2018`` (the default since issue 15): the published tabulation of
+  Saikawa & Shirai 2018 (arXiv:1803.01038), lattice-QCD equation of state across the
+  crossover, 2e-5 - 1e4 GeV, shipped as ``scan/observables/data/gstar_saikawa_shirai_2018.csv``
+  (source and licence in its header); :func:`saikawa_shirai_2018`;
+* ``ideal-gas``: our own ideal-gas computation of the Standard Model from 1 keV to
+  10 TeV (:func:`standard_model`), the default before issue 15 (kept by name):
 
 * every species is a free Bose or Fermi gas with its physical mass (exact one-particle
   integrals, no Boltzmann approximation); W, Z, H and t keep their masses at all T, so
@@ -35,6 +41,9 @@ import numpy as np
 from scipy import integrate
 
 from scan.errors import InputFileError
+
+#: The packaged Saikawa & Shirai 2018 table.
+SAIKAWA_SHIRAI_FILE: Path = Path(__file__).with_name("data") / "gstar_saikawa_shirai_2018.csv"
 
 #: Range of the built-in table [GeV].
 T_MIN_GEV: float = 1e-6
@@ -162,6 +171,24 @@ def standard_model() -> DofTable:
     T = np.geomspace(T_MIN_GEV, T_MAX_GEV, 700)
     gr, gs = ideal_gas_sm(T)
     return DofTable(T, gr, gs, "zetascan ideal-gas SM, tanh QCD blend at 0.17 GeV")
+
+
+@functools.lru_cache(maxsize=1)
+def saikawa_shirai_2018() -> DofTable:
+    """The Saikawa & Shirai 2018 table (arXiv:1803.01038), read once from the package."""
+    table = load_table(SAIKAWA_SHIRAI_FILE)
+    return DofTable(table.T_GeV, table.g_rho, table.g_s,
+                    "Saikawa & Shirai 2018 (arXiv:1803.01038) published table")
+
+
+#: The built-in tables by name; the first is the default.
+TABLES = {"saikawa-shirai-2018": saikawa_shirai_2018, "ideal-gas": standard_model}
+DEFAULT_TABLE: str = "saikawa-shirai-2018"
+
+
+def default_table() -> DofTable:
+    """The default g_*(T) table (:data:`DEFAULT_TABLE`)."""
+    return TABLES[DEFAULT_TABLE]()
 
 
 def load_table(path: str | Path) -> DofTable:

@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 
 from scan.observables.pbh.conventions import PBHConventions
+from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Fields shared by all models of a stack (never indexed by :meth:`Observables.row`).
 SHARED_FIELDS: frozenset[str] = frozenset({"f_hz", "m_msun", "ln_1e10_as", "conventions",
@@ -54,6 +55,11 @@ class Observables:
         None: every model on ``m_msun``.
     conventions : PBHConventions or None
         The PBH conventions f_PBH was computed with.
+    zeta_map : ZetaMap or None
+        zeta = F(zeta_G) f_PBH was computed with (None: Gaussian, as before issue 15).
+    f_pbh_total_gaussian : float or None [1]
+        f_PBH total of the same spectrum with Gaussian zeta, when ``zeta_map`` is not
+        Gaussian (for comparison; None otherwise).
     notes : tuple of str
         Warnings raised on the way (truncated or under-resolved spectrum tables).
     """
@@ -74,6 +80,8 @@ class Observables:
     ln_mass_shift: np.ndarray | None = None
     conventions: PBHConventions | None = None
     notes: tuple[str, ...] = ()
+    zeta_map: ZetaMap | None = None
+    f_pbh_total_gaussian: Any = None
 
     def row(self, i: int) -> Observables:
         """Model ``i`` of a stack, with its own masses in ``m_msun`` (no shift left)."""

@@ -13,6 +13,7 @@ import numpy as np
 from scan.config.schema import ObservablesSection
 from scan.observables import gstar
 from scan.observables.pbh import PBHConventions
+from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 from scan.observables.record import Observables
 from scan.observables.single import compute_observables
 
@@ -26,11 +27,17 @@ class ObservableSettings:
     conventions : PBHConventions
         Window, criterion, threshold, critical collapse, Ω_DM h².
     dof : gstar.DofTable or None
-        A user's g_*(T) table (None: the built-in Standard Model).
+        The g_*(T) table: a user's file, or the built-in table named by ``gstar``.
     n_eff : float
         N_eff today.
     n_f, n_m : int
         Sizes of the frequency and mass grids of one spectrum's observables.
+    non_gaussianity : str
+        ``[observables] non_gaussianity``.
+    zeta_map : ZetaMap or None
+        The analytic zeta = F(zeta_G) (None for ``model``: the solve computes it).
+    qcd_threshold : str
+        ``[observables] qcd_threshold``.
     """
 
     conventions: PBHConventions
@@ -38,11 +45,20 @@ class ObservableSettings:
     n_eff: float
     n_f: int
     n_m: int
+    non_gaussianity: str = "gaussian"
+    zeta_map: ZetaMap | None = None
+    qcd_threshold: str = "off"
 
-    def compute(self, k: np.ndarray, P_zeta: np.ndarray) -> Observables:
-        """Ω_GW h²(f) and f_PBH(M) of a tabulated spectrum (k [Mpc⁻¹]) with these settings."""
+    def compute(self, k: np.ndarray, P_zeta: np.ndarray,
+                zeta_map: ZetaMap | None = None) -> Observables:
+        """Ω_GW h²(f) and f_PBH(M) of a tabulated spectrum (k [Mpc⁻¹]) with these settings.
+
+        ``zeta_map`` (the model's delta-N map) replaces the configured analytic map.
+        """
         return compute_observables(k, P_zeta, conventions=self.conventions, n_f=self.n_f,
-                                   n_m=self.n_m, dof=self.dof, n_eff=self.n_eff)
+                                   n_m=self.n_m, dof=self.dof, n_eff=self.n_eff,
+                                   zeta_map=zeta_map or self.zeta_map,
+                                   qcd_threshold=self.qcd_threshold)
 
 
 def conventions_of(section: ObservablesSection) -> PBHConventions:
@@ -55,6 +71,11 @@ def conventions_of(section: ObservablesSection) -> PBHConventions:
 
 def settings_of(section: ObservablesSection) -> ObservableSettings:
     """The settings of an ``[observables]`` section (reads its g_* table file, if any)."""
-    dof = gstar.load_table(section.gstar_table) if section.gstar_table else None
+    dof = gstar.load_table(section.gstar_table) if section.gstar_table \
+        else gstar.TABLES[section.gstar]()
+    kind = section.non_gaussianity
+    zmap = None if kind == "model" else zeta_map_of(kind, f_nl=section.f_nl,
+                                                    g_nl=section.g_nl,
+                                                    log_lambda=section.log_lambda)
     return ObservableSettings(conventions_of(section), dof, section.n_eff, section.n_f,
-                              section.n_m)
+                              section.n_m, kind, zmap, section.qcd_threshold)

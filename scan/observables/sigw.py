@@ -15,7 +15,8 @@ any feature the table resolves is resolved by the quadrature.
 
 P_zeta is interpolated linearly in (ln k, ln P) and is zero outside its table.
 :func:`plan_sigw` precomputes, for a fixed input k-grid and output k, every node's
-kernel weight and its interpolation indices/fractions; :meth:`SIGWPlan.omega_gw` is then
+kernel weight and its interpolation indices/fractions (placed by compiled loops,
+:mod:`scan.observables.sigw_nodes`); :meth:`SIGWPlan.omega_gw` is then
 a sparse product on ln P, an exponential and a weighted segmented sum (a second sparse
 product), for one spectrum or a stack of m spectra on the same table at once.  Today:
 Omega_GW,0 h^2 = c_g(T_c) Omega_r,0 h^2 Omega_GW(eta_c, k) (:func:`scan.observables.cosmo.gw_transfer_h2`).
@@ -30,10 +31,7 @@ import numpy as np
 from scipy import sparse
 
 from scan.observables import cosmo
-
-#: Location of the log resonance u + v = sqrt(3) in t.
-T_RESONANCE: float = math.sqrt(3.0) - 1.0
-_TINY = 1e-300
+from scan.observables.sigw_nodes import T_RESONANCE, TINY, kernel_array, nodes_for_k  # noqa: F401
 
 
 class TruncationWarning(UserWarning):
@@ -56,14 +54,9 @@ def induced_kernel(u, v):
     -------
     ndarray [1]
     """
-    u, v = np.asarray(u, dtype=float), np.asarray(v, dtype=float)
-    a = u * u + v * v - 3.0
-    geo = ((4 * v * v - (1 + v * v - u * u)**2) / (4 * u * v))**2
-    pre = (3 * a / (4 * u**3 * v**3))**2
-    with np.errstate(divide="ignore"):
-        log = np.log(np.abs((3 - (u + v)**2) / (3 - (u - v)**2)))
-    brace = (-4 * u * v + a * log)**2 + np.where(u + v > math.sqrt(3.0), (math.pi * a)**2, 0.0)
-    return geo * pre * brace / 12.0
+    u, v = np.broadcast_arrays(np.asarray(u, dtype=float), np.asarray(v, dtype=float))
+    flat = kernel_array(np.ascontiguousarray(u).ravel(), np.ascontiguousarray(v).ravel())
+    return flat.reshape(u.shape)
 
 
 def omega_gw_delta(k, k_star: float, amplitude: float):
@@ -91,62 +84,6 @@ def _gauss(n: int) -> tuple[np.ndarray, np.ndarray]:
     """Gauss-Legendre nodes and weights on [0, 1]."""
     x, w = np.polynomial.legendre.leggauss(n)
     return 0.5 * (x + 1), 0.5 * w
-
-
-def _t_panels(t_lo: float, t_hi: float, h: float, grade: int) -> np.ndarray:
-    """Panel edges in t on [t_lo, t_hi]: graded towards sqrt(3)-1, uniform in ln(1+t) above."""
-    r = 0.3
-    left = T_RESONANCE * (1 - r**np.arange(grade + 1))
-    right = T_RESONANCE * (1 + r**np.arange(grade, -1, -1))
-    width = min(0.4, 3.0 * h)
-    tau0, tau1 = math.log1p(right[-1]), math.log1p(max(t_hi, right[-1]))
-    n_tau = max(1, math.ceil((tau1 - tau0) / width))
-    upper = np.expm1(np.linspace(tau0, tau1, n_tau + 1))[1:]
-    edges = np.unique(np.clip(np.concatenate([left, [T_RESONANCE], right, upper]), t_lo, t_hi))
-    return _subdivide(edges, width)
-
-
-def _subdivide(edges: np.ndarray, width: float) -> np.ndarray:
-    """Split panels wider than ``width`` in ln(1+t) into equal pieces."""
-    tau = np.log1p(edges)
-    pieces = [tau[:1]]
-    for a, b in zip(tau[:-1], tau[1:]):
-        n = max(1, math.ceil((b - a) / width))
-        pieces.append(np.linspace(a, b, n + 1)[1:])
-    return np.expm1(np.concatenate(pieces))
-
-
-def _nodes_for_k(k: float, lnk_lo: float, lnk_hi: float, h: float, n_gl: int,
-                 grade: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(s, t, weight) quadrature nodes for one output k (weights exclude the kernel)."""
-    t_lo = max(0.0, 2 * math.exp(lnk_lo) / k - 1)
-    t_hi = 2 * math.exp(lnk_hi) / k - 1
-    if t_hi <= t_lo:
-        return np.empty(0), np.empty(0), np.empty(0)
-    xg, wg = _gauss(n_gl)
-    edges = _t_panels(t_lo, t_hi, h, grade)
-    s_all, t_all, w_all = [], [], []
-    v_floor = math.exp(lnk_lo) / k
-    for a, b in zip(edges[:-1], edges[1:]):
-        tn, tw = a + (b - a) * xg, (b - a) * wg
-        tm = 0.5 * (a + b)
-        spread = max(math.log((tm + 2) / (tm + 1)),
-                     math.log((tm + 1) / max(tm, 2 * v_floor, 0.02)))
-        n_s = int(min(48, max(1, math.ceil(spread / (2.0 * h)))))
-        s_edges = np.linspace(0.0, 1.0, n_s + 1)
-        sn = (s_edges[:-1, None] + np.diff(s_edges)[:, None] * xg).ravel()
-        sw = (np.diff(s_edges)[:, None] * wg).ravel()
-        s_all.append(np.repeat(sn[None, :], tn.size, 0).ravel())
-        t_all.append(np.repeat(tn, sn.size))
-        w_all.append(np.outer(tw, sw).ravel())
-    return np.concatenate(s_all), np.concatenate(t_all), np.concatenate(w_all)
-
-
-def _locate(lnx: np.ndarray, lnk_in: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Lower table index and fraction of each ln x inside the table."""
-    i = np.clip(np.searchsorted(lnk_in, lnx, side="right") - 1, 0, lnk_in.size - 2)
-    frac = (lnx - lnk_in[i]) / (lnk_in[i + 1] - lnk_in[i])
-    return i.astype(np.int32), frac
 
 
 @dataclass(frozen=True)
@@ -190,7 +127,7 @@ class SIGWPlan:
         ndarray [1]
             Shape (n_out,) for one spectrum, (m, n_out) for a stack.
         """
-        lp = np.log(np.maximum(self._spectra(P_zeta), _TINY))
+        lp = np.log(np.maximum(self._spectra(P_zeta), TINY))
         a = self._interp @ lp.T              # ln P(ku) + ln P(kv) per node: (n_nodes[, m])
         np.exp(a, out=a)
         return np.asarray(self._sum @ a).T   # sum_nodes w K P P per k_out: ([m, ]n_out)
@@ -224,10 +161,11 @@ def _interpolation_matrix(iu_l, fu_l, iv_l, fv_l, n_in: int) -> sparse.csr_matri
     iu, fu = np.concatenate(iu_l), np.concatenate(fu_l)
     iv, fv = np.concatenate(iv_l), np.concatenate(fv_l)
     n = iu.size
-    rows = np.repeat(np.arange(n), 4)
     cols = np.stack([iu, iu + 1, iv, iv + 1], axis=1).ravel()
     vals = np.stack([1 - fu, fu, 1 - fv, fv], axis=1).ravel()
-    return sparse.csr_matrix((vals, (rows, cols)), shape=(n, n_in))
+    # built in CSR form directly (4 entries a row; a column met twice in a row is summed
+    # by the product, as the COO route would sum it once)
+    return sparse.csr_matrix((vals, cols, np.arange(0, 4 * n + 1, 4)), shape=(n, n_in))
 
 
 def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
@@ -292,25 +230,15 @@ def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 
     counts : ndarray of int
         Nodes per output k.
     """
-    lnk_in = np.log(k_in)
+    lnk_in = np.ascontiguousarray(np.log(k_in), dtype=float)
     h = float(np.median(np.diff(lnk_in)))
-    parts, counts = [], []
+    xg, wg = _gauss(n_gl)
+    iu_l, fu_l, iv_l, fv_l, w_l, counts = [], [], [], [], [], []
     for k in k_out:
-        s, t, w = _nodes_for_k(k, lnk_in[0], lnk_in[-1], h, n_gl, grade)
-        parts.append((k, s, t, w))
-    iu_l, fu_l, iv_l, fv_l, w_l = [], [], [], [], []
-    for k, s, t, w in parts:
-        u, v = 0.5 * (t + s + 1), 0.5 * (t - s + 1)
-        lu, lv = np.log(k * u), np.log(np.maximum(k * v, _TINY))
-        keep = (lv >= lnk_in[0]) & (lu <= lnk_in[-1]) & (v > 0)
-        u, v, lu, lv, w = u[keep], v[keep], lu[keep], lv[keep], w[keep]
-        wk = w * induced_kernel(u, v)
-        good = np.isfinite(wk) & (wk != 0)
-        iu, fu = _locate(lu[good], lnk_in)
-        iv, fv = _locate(lv[good], lnk_in)
+        iu, fu, iv, fv, w = nodes_for_k(float(k), lnk_in, h, xg, wg, int(grade))
         iu_l.append(iu), fu_l.append(fu), iv_l.append(iv), fv_l.append(fv)
-        w_l.append(wk[good])
-        counts.append(int(good.sum()))
+        w_l.append(w)
+        counts.append(w.size)
     return iu_l, fu_l, iv_l, fv_l, w_l, np.array(counts, dtype=int)
 
 

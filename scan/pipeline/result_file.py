@@ -120,6 +120,23 @@ def write_observables(handle: h5py.Group, obs: Observables) -> None:
     store.attach_scale(pbh, "M", "M_g", "f_pbh")
     pbh.attrs["f_pbh_total"] = obs.f_pbh_total
     store.write_attrs(pbh, obs.conventions.as_attrs())
+    write_zeta_map(pbh, obs)
+
+
+def write_zeta_map(pbh: h5py.Group, obs: Observables) -> None:
+    """The non-Gaussianity convention as ``pbh`` attributes (``non_gaussianity`` and its
+    parameters; ``f_pbh_total_gaussian`` beside a non-Gaussian total) and, for ``model``,
+    the delta-N map as dataset ``zeta_map`` (columns zeta_G, zeta) and ``f_nl_peak``."""
+    zmap = obs.zeta_map
+    if zmap is None:
+        pbh.attrs["non_gaussianity"] = "gaussian"
+        return
+    store.write_attrs(pbh, zmap.as_attrs())
+    if obs.f_pbh_total_gaussian is not None:
+        pbh.attrs["f_pbh_total_gaussian"] = obs.f_pbh_total_gaussian
+    if zmap.kind == "model":
+        store.write_dataset(pbh, "zeta_map", np.column_stack([zmap.zeta_g, zmap.zeta]), "1",
+                            "delta-N map at the peak scale: columns zeta_G, zeta")
 
 
 def read_spectrum(path: str | Path) -> tuple[np.ndarray, np.ndarray]:

@@ -15,6 +15,7 @@ from scan.config.schema import RunConfig
 from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
 from scan.observables import Observables
+from scan.observables.pbh.deltan import peak_map
 from scan.observables.settings import settings_of
 
 #: E-folds the background must provide before the pivot exits (initial data of the
@@ -76,6 +77,11 @@ class SolveResult:
             lines.append(f"PBHs: f_PBH total = {o.f_pbh_total:.3e} "
                          f"({o.conventions.criterion}, {o.conventions.window} window, "
                          f"threshold {o.conventions.threshold:g})")
+            if o.f_pbh_total_gaussian is not None:
+                lines.append(f"PBHs: f_PBH total = {o.f_pbh_total_gaussian:.3e} with Gaussian "
+                             f"zeta, {o.f_pbh_total:.3e} with non-Gaussian zeta "
+                             f"({o.zeta_map.kind}, f_NL at the peak "
+                             f"{o.zeta_map.f_nl_equivalent():.3g})")
             lines += [f"note: {note}" for note in o.notes]
         return lines
 
@@ -98,9 +104,21 @@ def mode_settings_of(config: RunConfig) -> ModeSettings:
     return ModeSettings(x_in=m.x_in, x_out=m.x_out, rtol=m.rtol, p_zeta_max=m.stochastic_limit)
 
 
-def observables_of(config: RunConfig, spectrum: Spectrum) -> Observables:
-    """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions."""
-    return settings_of(config.observables).compute(spectrum.k, spectrum.P_zeta)
+def observables_of(config: RunConfig, spectrum: Spectrum,
+                   bg: Background | None = None) -> Observables:
+    """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions.
+
+    ``non_gaussianity = 'model'`` needs the background ``bg``: zeta = F(zeta_G) is then
+    computed by delta-N at the spectrum's peak (:func:`scan.observables.pbh.deltan.peak_map`).
+    """
+    settings = settings_of(config.observables)
+    if settings.non_gaussianity != "model":
+        return settings.compute(spectrum.k, spectrum.P_zeta)
+    if bg is None:
+        raise ValueError("non_gaussianity = 'model' needs the model's background")
+    dn = peak_map(bg, spectrum.k_peak, spectrum.P_peak, spectrum.N_star, spectrum.k_star)
+    obs = settings.compute(spectrum.k, spectrum.P_zeta, dn.zeta_map)
+    return obs.replace(notes=obs.notes + dn.notes)
 
 
 def solve_background_of(config: RunConfig, model: Model | None = None) -> Background:
@@ -148,7 +166,7 @@ def solve_config(config: RunConfig, *, with_modes: bool = True,
                                 settings=mode_settings_of(config), N_star_guess=pivot.N_star)
     if not spectrum.valid:
         return SolveResult(model, bg, pivot, spectrum, False, f"spectrum: {spectrum.reason}")
-    observables = observables_of(config, spectrum) if with_observables else None
+    observables = observables_of(config, spectrum, bg) if with_observables else None
     return SolveResult(model, bg, pivot, spectrum, True, "", observables)
 
 

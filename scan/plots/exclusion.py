@@ -1,32 +1,40 @@
-"""Figure: the exclusion map of a 2-D grid — one shaded, hatched region per constraint.
+"""Figure: the exclusion map of a 2-D grid — one outlined region per constraint.
 
-Drawn, bottom to top: points not computed (white, hatched) and invalid models (grey);
-every excluding constraint's region (status 1: filled with transparency and its own
-hatch, legend text from the term's ``label``); every sensitivity's detectable region
-(status 2) faintly tinted inside its boundary line; decades of P_peak as thin dotted contours;
-and, when a chain is given, the posterior's 68 % and 95 % regions (mass fractions of its
-smoothed 2-D histogram, :mod:`scan.plots.levels`).  Constraints that exclude no grid
-point are named together in one legend entry.
+Drawn, bottom to top: invalid models (grey) and points not computed (dotted hatch); every
+excluding constraint's region (status 1) as its boundary in the constraint's fixed colour
+(:mod:`scan.plots.looks`), ticks on the excluded side — outlines do not mix into new
+colours where regions overlap; every sensitivity's detectable region (status 2) faintly
+tinted inside a solid boundary; decades of P_peak as thin dotted contours; and, when a
+chain is given, the posterior's 68 % and 95 % regions (mass fractions of its smoothed 2-D
+histogram, :mod:`scan.plots.levels`).  The legend lists only what is drawn: constraints
+that exclude no grid point and sensitivities that detect none are named in its title.
 """
 from __future__ import annotations
 
 import re
 
 import numpy as np
+from matplotlib import patheffects
 from matplotlib.colors import to_rgb
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
 from scan.plots.grid_data import DETECTABLE, EXCLUDED, EXCLUDING_KINDS, GridData
 from scan.plots.levels import Histogram2D
-from scan.plots.style import COLUMN_WIDTH_IN, PALETTE, figure, legend_below
+from scan.plots.looks import GUIDE_GREY, POSTERIOR_COLOUR, look_of, readable
+from scan.plots.style import COLUMN_WIDTH_IN, figure, legend_below, wrap_text
 
-HATCHES: tuple[str, ...] = ("////", "\\\\\\\\", "xxx", "||||", "----", "++", "**")
 INVALID_GREY = "#bdbdbd"
 #: Legend labels up to this length fit two legend columns under a column-wide map.
 SHORT_LABEL: int = 34
 UNIT_TEXT = {"M_p": r"$M_p$", "Mpc^-1": r"Mpc$^{-1}$"}
 _DISFAVOURING = ("prior", "detection")
+
+
+def ticked(angle: float = 45.0):
+    """Path effect: a line with short ticks on its right-hand side (matplotlib contours
+    of a 0/1 mask at 0.5 keep the 1 side there)."""
+    return [patheffects.withTickedStroke(angle=angle, spacing=6, length=0.5)]
 
 
 def exclusion_figure(grid: GridData, posterior: Histogram2D | None = None, *,
@@ -50,18 +58,16 @@ def exclusion_figure(grid: GridData, posterior: Histogram2D | None = None, *,
     handles = _coverage(ax, grid, X, Y)
     excluding = [t for t in grid.terms if t.kind in EXCLUDING_KINDS
                  and (t.status == EXCLUDED).any()]
-    for i, term in enumerate(excluding):
-        handles.append(_region(ax, X, Y, term.status == EXCLUDED, PALETTE[i % len(PALETTE)],
-                               HATCHES[i % len(HATCHES)], _verdict(term)))
+    for term in excluding:
+        handles.append(_region(ax, X, Y, term.status == EXCLUDED, look_of(term.name).colour,
+                               _verdict(term)))
     sensitivities = [t for t in grid.terms if t.kind == "sensitivity"]
-    for j, term in enumerate(sensitivities):
-        color = PALETTE[(len(excluding) + j) % len(PALETTE)]
-        snr = "" if term.snr_threshold is None else f" (SNR ≥ {term.snr_threshold:g})"
-        handles.append(_detectable(ax, X, Y, term.status == DETECTABLE, color,
-                                   f"{term.label}: detectable{snr}"))
-    quiet = [t.label for t in grid.terms if t.kind in EXCLUDING_KINDS and t not in excluding]
-    if quiet:
-        handles.append(Patch(visible=False, label="no excluded points: " + ", ".join(quiet)))
+    for term in sensitivities:
+        if (term.status == DETECTABLE).any():
+            snr = "" if term.snr_threshold is None else f" (SNR ≥ {term.snr_threshold:g})"
+            handles.append(_detectable(ax, X, Y, term.status == DETECTABLE,
+                                       look_of(term.name).colour,
+                                       f"{_name(term)}: detectable{snr}"))
     if p_peak_contours:
         _p_peak(ax, grid, X, Y)
     if posterior is not None:
@@ -73,8 +79,28 @@ def exclusion_figure(grid: GridData, posterior: Histogram2D | None = None, *,
     ax.set_xlabel(axis_label(grid.x_label, grid.x_units))
     ax.set_ylabel(axis_label(grid.y_label, grid.y_units))
     short = all(len(h.get_label()) <= SHORT_LABEL for h in handles)
-    legend_below(fig, handles, ncols=2 if short else 1, wrap=60)
+    legend_below(fig, handles, ncols=2 if short else 1, wrap=60,
+                 title=_nowhere_text(grid, excluding, sensitivities))
     return fig
+
+
+def _name(term) -> str:
+    return readable(term.name, term.label)
+
+
+def _nowhere_text(grid: GridData, excluding, sensitivities) -> str | None:
+    """Legend title naming constraints without excluded and sensitivities without
+    detectable points (they have nothing drawn, so no legend entry)."""
+    lines = ["ticks on an outline point into the region it rules out"] if excluding else []
+    quiet = [_name(t) for t in grid.terms if t.kind in EXCLUDING_KINDS and t not in excluding]
+    if quiet:
+        lines.append("excluding no grid point: " + ", ".join(quiet))
+    blind = [_name(t) for t in sensitivities if not (t.status == DETECTABLE).any()]
+    if blind:
+        lines.append("detecting no grid point: " + ", ".join(blind))
+    if not lines:
+        return None
+    return "\n".join(wrap_text(line, 62) for line in lines)
 
 
 def axis_label(label: str, units: str) -> str:
@@ -86,7 +112,7 @@ def axis_label(label: str, units: str) -> str:
 
 
 def _verdict(term) -> str:
-    return f"{term.label}: {'disfavoured' if term.kind in _DISFAVOURING else 'excluded'}"
+    return f"{_name(term)}: {'disfavoured' if term.kind in _DISFAVOURING else 'excluded'}"
 
 
 def _coverage(ax, grid: GridData, X, Y) -> list:
@@ -99,21 +125,27 @@ def _coverage(ax, grid: GridData, X, Y) -> list:
     if (~grid.done).any():
         cs = ax.contourf(X, Y, (~grid.done).astype(float), levels=[0.5, 1.5],
                          colors=["none"], hatches=["...."])
-        cs.set_edgecolor(PALETTE[7])
-        handles.append(Patch(facecolor="none", edgecolor=PALETTE[7], hatch="....",
+        cs.set_edgecolor(GUIDE_GREY)
+        handles.append(Patch(facecolor="none", edgecolor=GUIDE_GREY, hatch="....",
                              label=f"not computed ({int((~grid.done).sum())} of "
                                    f"{grid.done.size} points)"))
     return handles
 
 
-def _region(ax, X, Y, mask: np.ndarray, color: str, hatch: str, label: str) -> Patch:
-    """A filled, hatched region where ``mask`` holds; its legend patch."""
-    if mask.any():
-        cs = ax.contourf(X, Y, mask.astype(float), levels=[0.5, 1.5], colors=[color],
-                         alpha=0.28, hatches=[hatch])
+def _region(ax, X, Y, mask: np.ndarray, color: str, label: str):
+    """The boundary of ``mask`` with ticks on its inside; its legend handle.
+
+    A region covering the whole grid has no boundary inside it: it is hatched instead.
+    """
+    if mask.all():
+        cs = ax.contourf(X, Y, np.ones(mask.shape), levels=[0.5, 1.5], colors=["none"],
+                         hatches=["////"])
         cs.set_edgecolor(color)
-        _contour_indicator(ax, X, Y, mask, color, "-", 0.8)
-    return Patch(facecolor=color, alpha=0.28, edgecolor=color, hatch=hatch, label=label)
+        return Patch(facecolor="none", edgecolor=color, hatch="////",
+                     label=f"{label} (whole grid)")
+    ax.contour(X, Y, mask.astype(float), levels=[0.5], colors=[color], linewidths=1.1
+               ).set(path_effects=ticked())
+    return Line2D([], [], color=color, lw=1.1, path_effects=ticked(), label=label)
 
 
 def _detectable(ax, X, Y, mask: np.ndarray, color: str, label: str) -> Patch:
@@ -144,14 +176,15 @@ def _p_peak(ax, grid: GridData, X, Y) -> None:
     decades = np.arange(np.ceil(lo), np.floor(hi) + 1)
     if not decades.size:
         return
-    cs = ax.contour(X, Y, log_p, levels=decades, colors=[PALETTE[7]], linestyles=[":"],
+    cs = ax.contour(X, Y, log_p, levels=decades, colors=[GUIDE_GREY], linestyles=[":"],
                     linewidths=0.6)
     ax.clabel(cs, fmt=lambda v: rf"$\mathcal{{P}}_{{\rm peak}}=10^{{{v:.0f}}}$",
               fontsize=5.5, inline=True)
 
 
 def _posterior(ax, post: Histogram2D, grid: GridData) -> list:
-    """68 % (solid) and 95 % (dashed) posterior contours; their legend handles."""
+    """68 % (solid) and 95 % (dashed) posterior contours in the posterior colour (as the
+    bands of the other figures); their legend handles."""
     x = 10.0 ** post.x if grid.x_scale == "log" else post.x
     y = 10.0 ** post.y if grid.y_scale == "log" else post.y
     order = np.argsort(post.thresholds)  # contour levels must increase
@@ -160,7 +193,7 @@ def _posterior(ax, post: Histogram2D, grid: GridData) -> list:
     fractions = [post.fractions[i] for i in order]
     if np.unique(levels).size < levels.size:
         return []
-    ax.contour(x, y, post.density, levels=levels, colors=["k"],
+    ax.contour(x, y, post.density, levels=levels, colors=[POSTERIOR_COLOUR],
                linestyles=[styles.get(f, "-.") for f in fractions], linewidths=1.0)
-    return [Line2D([], [], color="k", lw=1.0, ls=styles.get(f, "-."),
+    return [Line2D([], [], color=POSTERIOR_COLOUR, lw=1.0, ls=styles.get(f, "-."),
                    label=f"posterior {f:.0%}".replace("%", " %")) for f in post.fractions]

@@ -15,8 +15,8 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.curves import load_curve
 from scan.errors import ConfigError, InputFileError
-from scan.plots.sources import Sources, chain_has_observables
 from scan.likelihood.from_config import curve_paths_of
+from scan.plots.sources import Sources, chain_has_observables
 from scan.sampler.bands import N_SAMPLES, SEED, posterior_bands
 from scan.sampler.summary import posterior_samples
 from scan.store import stored_base_dir
@@ -129,7 +129,9 @@ class Inputs:
             return None
         bands = posterior_bands(chain, self.samples, self.seed)
         self.notes.append(f"bands: {bands.used} of {bands.drawn} drawn samples "
-                          f"(of {bands.available} after burn-in and thinning; seed {bands.seed})")
+                          f"(of {bands.available} after burn-in and thinning; seed {bands.seed}); "
+                          f"median {bands.peak_points:g} mass points within 1 dex of a "
+                          "sample's f_PBH maximum")
         return bands
 
     @functools.cached_property

@@ -8,6 +8,7 @@ model      solve result (background re-solved)         ``model``
 gw         solve result and/or posterior chain         ``omega_gw`` (line, bands, curves)
 pbh        solve result and/or posterior chain         ``f_pbh`` (line, bands, curves)
 corner     chain                                       ``corner``
+trace      chain                                       ``lnp_trace`` (ln p per walker)
 bands      posterior chain                             ``omega_gw`` and ``f_pbh``
 exclusion  grid (posterior regions with a chain)       ``exclusion``
 =========  ==========================================  ===================================
@@ -31,7 +32,10 @@ from scan.plots.pbh import f_pbh_figure
 from scan.plots.sources import KINDS, supported_kinds
 from scan.plots.spectrum import spectrum_figure
 from scan.plots.style import save
+from scan.plots.trace import trace_figure
 from scan.plots.triangle import triangle_figure
+from scan.sampler import runfile
+from scan.sampler.convergence import settle
 
 
 class UnsupportedKindError(ZetascanError):
@@ -112,7 +116,18 @@ def _corner(inputs: Inputs):
         labels.append(axis_label(name, label, log))
     note = (f"{len(post['samples'])} samples after burn-in {post['burn_in']}, "
             f"thinning {post['thin']}")
+    if post["stray_walkers"]:
+        note += f"; {post['stray_walkers']} stray walkers dropped (see the trace figure)"
     return triangle_figure(np.column_stack(columns), labels, note=note)
+
+
+def _trace(inputs: Inputs):
+
+    chain = inputs.sources.chain
+    log_prob = runfile.load_chain(chain)["log_prob"]
+    stored = runfile.read(chain)
+    settled = settle(log_prob, stored.extras.burn_in, len(stored.extras.names))
+    return trace_figure(log_prob, settled, stored.extras.burn_in)
 
 
 def _labels(inputs: Inputs) -> list[str]:
@@ -134,4 +149,5 @@ def _exclusion(inputs: Inputs):
 BUILDERS: dict[str, dict[str, Callable[[Inputs], object]]] = {
     "spectrum": {"spectrum": _spectrum}, "model": {"model": _model},
     "gw": {"omega_gw": _gw}, "pbh": {"f_pbh": _pbh}, "corner": {"corner": _corner},
+    "trace": {"lnp_trace": _trace},
     "bands": {"omega_gw": _gw, "f_pbh": _pbh}, "exclusion": {"exclusion": _exclusion}}

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from scan.plots.looks import GUIDE_GREY
 from scan.plots.style import PAGE_WIDTH_IN, PALETTE, figure
 
 
@@ -40,7 +41,7 @@ def model_figure(model, background):
         twin.semilogy(phi, model.K(phi), color=PALETTE[1], lw=0.8, label=r"$K(\phi)$")
         twin.set_ylabel(r"$K(\phi)$", color=PALETTE[1])
         for pole in poles:
-            ax_phi.axvline(pole.position, color=PALETTE[7], lw=0.6, ls=":")
+            ax_phi.axvline(pole.position, color=GUIDE_GREY, lw=0.6, ls=":")
         _pole_panel(axes[1], model, poles)
     _canonical_panel(ax_chi, model, background)
     return fig
@@ -70,6 +71,6 @@ def _canonical_panel(ax, model, background) -> None:
     ax.plot(pt.chi, model.V(pt.phi), color=PALETTE[0])
     for c in background.crossings:
         chi_c = background.evaluate(c.N_cross).chi[0]
-        ax.axvline(chi_c, color=PALETTE[7], lw=0.6, ls=":")
+        ax.axvline(chi_c, color=GUIDE_GREY, lw=0.6, ls=":")
     ax.set_xlabel(r"$\chi\ [M_p]$ (canonical field)")
     ax.set_ylabel(r"$U(\chi)/V_0$")

@@ -8,10 +8,12 @@ import numpy as np
 
 from scan import constants as C
 from scan.curves import Curve
-from scan.plots.bands import draw_band
-from scan.plots.curves import draw_curve
+from scan.plots.bands import OVERLAID, draw_band
+from scan.plots.curves import draw_curve, synthetic_note
+from scan.plots.looks import MODEL_COLOUR, POSTERIOR_COLOUR
 from scan.plots.ranges import latex_number, log_span, note_if_below, union_limits
-from scan.plots.style import PALETTE, figure, legend_below, save
+from scan.plots.style import figure, legend_below, save
+from scan.plots.visible import shown_entries
 from scan.sampler.bands import Bands
 
 #: Decades below the mass function's peak that the axis ranges keep.
@@ -42,38 +44,45 @@ def f_pbh_figure(M_msun=None, f_pbh=None, total: float | None = None, *,
     fig, ax = figure(aspect=0.8)
     spans = []
     pbh_curves = [c for c in curves if c.y_quantity == "f_pbh"]
-    for i, curve in enumerate(pbh_curves):
-        draw_curve(ax, curve, PALETTE[(i + 2) % len(PALETTE)], mass_unit="M_sun")
+    for curve in pbh_curves:
+        draw_curve(ax, curve, mass_unit="M_sun")
         spans.append(log_span(curve.x, curve.y))
-    band_color = PALETTE[1] if M_msun is not None else PALETTE[0]
+    entries = list(zip(*ax.get_legend_handles_labels()))
     if bands is not None:
-        draw_band(ax, bands, band_color, band_label)
+        entries = draw_band(ax, bands, POSTERIOR_COLOUR, band_label) + entries
         hi = bands.percentile(97.5)
         spans.append(log_span(bands.x, np.where(hi > bands.floor, hi, 0.0), SIGNAL_DECADES))
     if M_msun is not None:
-        spans.append(_model_line(ax, np.asarray(M_msun, float), np.asarray(f_pbh, float),
-                                 total))
+        line, span = _model_line(ax, np.asarray(M_msun, float), np.asarray(f_pbh, float))
+        entries.insert(0, (line, _model_text(total)))
+        spans.append(span)
     limits = union_limits(spans, max_decades=SIGNAL_DECADES + 2)
     if limits is not None:
         ax.set_xlim(*limits[0])
         ax.set_ylim(*limits[1])
     _labels(ax)
     if M_msun is not None:
-        note_if_below(ax, np.asarray(f_pbh, float), "this model", PALETTE[0])
+        note_if_below(ax, np.asarray(f_pbh, float), "this model", MODEL_COLOUR)
     if bands is not None:
-        note_if_below(ax, bands.median, f"{band_label} median", band_color, row=1,
+        note_if_below(ax, bands.median, f"{band_label} median", POSTERIOR_COLOUR, row=1,
                       floor=bands.floor)
-    legend_below(fig)
+    entries = shown_entries(entries, [ax])
+    handles, texts = zip(*entries) if entries else ((), ())
+    legend_below(fig, list(handles), labels=list(texts), title=synthetic_note(pbh_curves),
+                 handler_map={tuple: OVERLAID})
     return fig
 
 
-def _model_line(ax, m: np.ndarray, f: np.ndarray, total: float | None):
-    """Draw one model's mass function; return its span for the axis ranges."""
-    positive = f > 0
-    label = "this model" if total is None else \
+def _model_text(total: float | None) -> str:
+    return "this model" if total is None else \
         rf"this model, $f_{{\rm PBH}} = {latex_number(total)}$"
-    ax.loglog(m[positive], f[positive], color=PALETTE[0], label=label)
-    return log_span(m, f, SIGNAL_DECADES)
+
+
+def _model_line(ax, m: np.ndarray, f: np.ndarray):
+    """Draw one model's mass function; return the line and its span for the ranges."""
+    positive = f > 0
+    (line,) = ax.loglog(m[positive], f[positive], color=MODEL_COLOUR)
+    return line, log_span(m, f, SIGNAL_DECADES)
 
 
 def _labels(ax) -> None:

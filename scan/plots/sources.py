@@ -17,7 +17,8 @@ from scan.errors import InputFileError
 from scan.sampler import runfile
 
 #: Figure kinds, in the order ``all`` makes them.
-KINDS: tuple[str, ...] = ("spectrum", "model", "gw", "pbh", "corner", "bands", "exclusion")
+KINDS: tuple[str, ...] = ("spectrum", "model", "gw", "pbh", "corner", "trace", "bands",
+                          "exclusion")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -125,7 +126,7 @@ def supported_kinds(sources: Sources) -> tuple[str, ...]:
                 kinds.add("spectrum")
             kinds.update(k for k, g in (("gw", "gw"), ("pbh", "pbh")) if g in handle)
     if sources.chain is not None:
-        kinds.add("corner")
+        kinds.update(("corner", "trace"))
         if chain_has_observables(sources.chain):
             kinds.update(("gw", "pbh", "bands"))
     if sources.grid is not None:

@@ -4,6 +4,7 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.ticker import FixedLocator, FormatStrFormatter, NullLocator
 
+from scan.plots.looks import GUIDE_GREY
 from scan.plots.style import PALETTE, figure
 
 
@@ -34,9 +35,9 @@ def spectrum_figure(k: np.ndarray, P_zeta: np.ndarray, N_exit: np.ndarray, *, k_
     ax.loglog(k, P_zeta, color=PALETTE[0], label=r"$\mathcal{P}_\zeta$")
     if P_tensor is not None and np.size(P_tensor) == np.size(k):
         ax.loglog(k, P_tensor, color=PALETTE[1], ls="--", label=r"$\mathcal{P}_t$")
-    ax.axvline(k_star, color=PALETTE[7], lw=0.7, ls=":")
+    ax.axvline(k_star, color=GUIDE_GREY, lw=0.7, ls=":")
     ax.annotate(r"$k_\ast$", (k_star, 0.92), xycoords=("data", "axes fraction"),
-                xytext=(3, 0), textcoords="offset points", fontsize=7, color=PALETTE[7])
+                xytext=(3, 0), textcoords="offset points", fontsize=7, color=GUIDE_GREY)
     ax.set_xlabel(r"$k\ [\mathrm{Mpc}^{-1}]$")
     ax.set_ylabel(r"$\mathcal{P}(k)$")
     ax.legend(loc="upper right")

@@ -1,33 +1,22 @@
-"""Shared figure style: journal-column sizes, our colour-blind-safe palette, saving.
+"""Shared figure style: journal-column sizes, the colour-blind-safe palette, saving.
 
-The palette is our own choice of eight hues spaced for deuteranopia/protanopia safety
-(checked against the common-practice rule of distinct lightness between neighbours).
+The palette and each curve's fixed look live in :mod:`scan.plots.looks` (Okabe & Ito 2008).
 """
 from __future__ import annotations
 
-import textwrap
+import re
 from pathlib import Path
 
 import matplotlib
 
 matplotlib.use("Agg")  # no screen on the machines we run on; figures go to files
-import matplotlib.pyplot as plt  # noqa: E402
+import matplotlib.pyplot as plt
+
+from scan.plots.looks import PALETTE
 
 #: Width of one journal column and of a full page width [inches] (common practice: ~3.4, ~7.0).
 COLUMN_WIDTH_IN: float = 3.4
 PAGE_WIDTH_IN: float = 7.0
-
-#: Our palette (hex), in the order curves should use it.
-PALETTE: tuple[str, ...] = (
-    "#1b4f8a",  # deep blue
-    "#e08a1e",  # amber
-    "#3aa7a3",  # teal
-    "#b8336a",  # raspberry
-    "#7a6bbf",  # lavender
-    "#6b8e23",  # olive
-    "#8c5a3c",  # umber
-    "#5f6b73",  # slate
-)
 
 _RC = {
     "font.size": 8.0,
@@ -65,24 +54,45 @@ def figure(width: float = COLUMN_WIDTH_IN, aspect: float = 0.75, **subplot_kw):
 LEGEND_ROW_IN: float = 0.125
 
 
-def legend_below(fig, handles=None, ncols: int = 1, wrap: int = 72) -> None:
+def legend_below(fig, handles=None, ncols: int = 1, wrap: int = 72, *,
+                 labels=None, title: str | None = None, handler_map=None) -> None:
     """A legend under the axes; the figure grows by its rows so the axes keep their size.
 
-    Labels longer than ``wrap`` characters (without mathtext) are wrapped onto more lines.
+    ``handles`` default to those of the first axes (labelled artists); ``labels`` default
+    to the handles' own.  Labels longer than ``wrap`` characters (without mathtext) are
+    wrapped onto more lines.  ``title`` heads the legend (e.g. what ``*`` marks).
     """
     if handles is None:
         handles, labels = fig.axes[0].get_legend_handles_labels()
-    else:
+    elif labels is None:
         labels = [h.get_label() for h in handles]
     if not handles:
         return
-    labels = [textwrap.fill(t, wrap, subsequent_indent="  ") if "$" not in t else t
-              for t in labels]
+    labels = [wrap_text(t, wrap) for t in labels]
     lines = sum(t.count("\n") + 1 for t in labels)
-    rows = -(-lines // ncols)
+    rows = -(-lines // ncols) + (title.count("\n") + 1 if title else 0)
     width, height = fig.get_size_inches()
     fig.set_size_inches(width, height + rows * LEGEND_ROW_IN + 0.1)
-    fig.legend(handles, labels, loc="outside lower center", ncols=ncols)
+    fig.legend(handles, labels, loc="outside lower center", ncols=ncols, title=title,
+               title_fontsize=6.5, handler_map=handler_map, alignment="left")
+
+
+def visible_length(text: str) -> int:
+    """Characters a label shows (mathtext commands and braces not counted)."""
+    return len(re.sub(r"\\[A-Za-z]+|[${}^_]", "", text))
+
+
+def wrap_text(text: str, width: int) -> str:
+    """Wrap ``text`` at spaces outside mathtext so no line shows more than ``width``
+    characters (:func:`visible_length`); continuation lines are indented."""
+    words = re.findall(r"(?:\$[^$]*\$|[^\s$])+", text)
+    lines: list[str] = []
+    for word in words:
+        if lines and visible_length(lines[-1]) + 1 + visible_length(word) <= width:
+            lines[-1] += " " + word
+        else:
+            lines.append(("  " if lines else "") + word)
+    return "\n".join(lines) if lines else text
 
 
 def style_context():

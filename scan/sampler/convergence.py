@@ -6,6 +6,15 @@ Foreman-Mackey et al. 2013, arXiv:1202.3665, and the emcee autocorrelation tutor
 The rule — chain longer than ``tau_factor``·τ for every parameter and τ stable to
 ``tau_rtol`` between checks — is the one emcee's documentation recommends (common
 practice).
+
+Burn-in looks at ln p too (:func:`settle`): after the ``burn_factor``·τ steps, a walker
+whose median ln p lies below the typical set — ln p_max − χ²_d(1 − α)/2, the level a
+d-dimensional Gaussian posterior's samples fall below with probability α (Wilks; common
+practice) — is a stray (stuck in a poor local optimum or not yet arrived) and is dropped,
+as Hou et al. 2012 (arXiv:1104.2612) drop walkers clustered at low likelihood; and the
+burn-in grows until every kept walker has reached the typical set.  The growth is bounded:
+a walker arriving after half of the steps that follow the τ-based burn-in has its median
+below the floor and is dropped instead.
 """
 from __future__ import annotations
 
@@ -14,6 +23,7 @@ import math
 
 import emcee
 import numpy as np
+from scipy.stats import chi2
 
 from scan.config.schema import SamplerSection
 
@@ -80,3 +90,66 @@ def burn_in(tau: np.ndarray, policy: Policy) -> int:
 def thinning(tau: np.ndarray, policy: Policy) -> int:
     """Keep every n-th step: ``thin_factor`` x the smallest τ (at least 1)."""
     return max(1, int(policy.thin_factor * float(np.min(tau))))
+
+
+#: Probability α of the typical-set floor below which a walker's median ln p marks it a
+#: stray: a walker that spends half its time where a healthy one spends 0.1 %.
+STRAY_ALPHA: float = 1e-3
+
+
+@dataclasses.dataclass(frozen=True)
+class Settled:
+    """Burn-in after the ln p check, and the walkers kept.
+
+    Attributes
+    ----------
+    burn_in : int
+        Steps dropped from every walker (at least the τ-based burn-in).
+    kept : ndarray of bool, shape (walkers,)
+        Walkers whose post-burn-in median ln p reaches the typical set.
+    floor : float
+        The typical-set floor ln p_max − χ²_d(1 − α)/2 (−inf when nothing to judge).
+    """
+
+    burn_in: int
+    kept: np.ndarray
+    floor: float
+
+    @property
+    def dropped(self) -> int:
+        """Stray walkers left out."""
+        return int(np.sum(~self.kept))
+
+
+def typical_floor(log_prob_max: float, dim: int, alpha: float = STRAY_ALPHA) -> float:
+    """ln p below which a d-dim Gaussian posterior's samples fall with probability α."""
+    return float(log_prob_max - 0.5 * chi2.ppf(1.0 - alpha, dim))
+
+
+def settle(log_prob: np.ndarray, burn: int, dim: int, alpha: float = STRAY_ALPHA) -> Settled:
+    """Burn-in and kept walkers of a chain from its ln p (see the module docstring).
+
+    Parameters
+    ----------
+    log_prob : ndarray, shape (steps, walkers)
+        ln p of every stored step (−inf for rejected positions never accepted).
+    burn : int
+        The τ-based burn-in [steps] (:func:`burn_in`); negative counts as 0.
+    dim : int
+        Sampled parameters.
+    alpha : float
+        Probability of the typical-set floor.
+    """
+    log_prob = np.asarray(log_prob, float)
+    burn = max(int(burn), 0)
+    walkers = log_prob.shape[1] if log_prob.ndim == 2 else 0
+    after = log_prob[burn:]
+    finite = after[np.isfinite(after)]
+    if not finite.size:
+        return Settled(burn, np.ones(walkers, bool), -np.inf)
+    floor = typical_floor(float(finite.max()), dim, alpha)
+    kept = np.median(np.where(np.isfinite(after), after, -np.inf), axis=0) >= floor
+    if not kept.any():
+        return Settled(burn, np.ones(walkers, bool), floor)
+    arrived = np.argmax(after[:, kept] >= floor, axis=0)  # first step in the typical set
+    return Settled(burn + int(arrived.max()), kept, floor)

@@ -84,11 +84,21 @@ class ChainBackend(HDFBackend):
             return
         with self.open("a") as handle:
             group = handle[self.name]
+            self._require_space(group)
             if self._pending:
                 self._write_steps(group)
             if self.on_flush is not None:
                 self.on_flush(handle)
         self._pending.clear()
+
+    def _require_space(self, group: h5py.Group) -> None:
+        """Stop before a write the disk cannot take (nothing is written, the file stays
+        as it was: readable, and resumable from its last completed step)."""
+        rows = [group[name] for name in ("chain", "log_prob", "blobs") if name in group]
+        done = int(group.attrs["iteration"])
+        store.require_space(self.filename, store.append_bytes(rows, done, len(self._pending)),
+                            f"it keeps the {done} steps written before; free some space "
+                            "and run the same command again to resume")
 
     def _write_steps(self, group: h5py.Group) -> None:
         start = int(group.attrs["iteration"])

@@ -7,6 +7,7 @@ from typing import Any
 import numpy as np
 
 from scan.sampler import runfile
+from scan.sampler.convergence import settle
 
 #: Quantiles reported: median and the central 68 % and 95 % intervals.
 QUANTILES: dict[str, float] = {"q02.5": 0.025, "q16": 0.16, "median": 0.5, "q84": 0.84,
@@ -53,21 +54,37 @@ def _quantiles(samples: np.ndarray) -> dict[str, float]:
 
 
 def posterior_samples(path: str | Path) -> dict[str, Any]:
-    """Flattened samples after burn-in and thinning (as stored in the run file).
+    """Flattened samples after burn-in, stray walkers and thinning — the one reader of a
+    chain's posterior samples (summary, figures, bands, verify).
+
+    The stored τ-based burn-in is extended and stray walkers are dropped by their ln p
+    (:func:`scan.sampler.convergence.settle`); then every ``thin``-th step is kept.
 
     Returns
     -------
     dict
-        ``names``, ``samples`` (n, dim), ``blobs`` (structured, n) or None, ``burn_in``,
-        ``thin``.
+        ``names``, ``samples`` (n, dim), ``log_prob`` (n,), ``blobs`` (structured, n) or
+        None, ``burn_in`` (effective), ``burn_in_tau`` (stored), ``thin``, ``walkers``
+        (kept, of the chain's) and ``stray_walkers`` (dropped).  Rows are step-major:
+        ``samples.reshape(-1, walkers, dim)`` gives (draw, walker, dim) for per-walker
+        (ArviZ "chain") views.
     """
     stored = runfile.read(path)
     data = runfile.load_chain(path)
-    burn, thin = max(stored.extras.burn_in, 0), max(stored.extras.thin, 1)
-    chain = data["chain"][burn::thin]
-    blobs = None if data["blobs"] is None else data["blobs"][burn::thin].reshape(-1)
-    return {"names": stored.extras.names, "samples": chain.reshape(-1, chain.shape[-1]),
-            "blobs": blobs, "burn_in": burn, "thin": thin}
+    chain, log_prob = np.asarray(data["chain"]), np.asarray(data["log_prob"])
+    thin = max(stored.extras.thin, 1)
+    settled = settle(log_prob, stored.extras.burn_in, chain.shape[-1]) if chain.ndim == 3 \
+        else None
+    burn = max(stored.extras.burn_in, 0) if settled is None else settled.burn_in
+    kept = slice(None) if settled is None else settled.kept
+    blobs = None if data["blobs"] is None else \
+        data["blobs"][burn::thin][:, kept].reshape(-1)
+    return {"names": stored.extras.names,
+            "samples": chain[burn::thin][:, kept].reshape(-1, chain.shape[-1]),
+            "log_prob": log_prob[burn::thin][:, kept].reshape(-1), "blobs": blobs,
+            "burn_in": burn, "burn_in_tau": max(stored.extras.burn_in, 0), "thin": thin,
+            "walkers": 0 if settled is None else int(settled.kept.sum()),
+            "stray_walkers": 0 if settled is None else settled.dropped}
 
 
 def summarize(path: str | Path) -> dict[str, Any]:
@@ -97,6 +114,7 @@ def summarize(path: str | Path) -> dict[str, Any]:
         "tau": dict(zip(extras.names, tau)) if tau else None,
         "n_over_tau": (steps / max(tau)) if tau else None,
         "burn_in": post["burn_in"], "thin": post["thin"],
+        "stray_walkers": post["stray_walkers"],
         "samples_used": int(len(post["samples"])),
         "parameters": parameters, "derived": derived, "binding": binding,
         "invalid_reasons": {n: int(c) for n, c in zip(extras.reasons, extras.counts)},

@@ -30,7 +30,16 @@ import h5py
 import numpy as np
 
 from scan.errors import InputFileError
-from scan.store import SingleWriter, config_hash, provenance, put_rows, write_config
+from scan.store import (
+    SingleWriter,
+    append_bytes,
+    atomic_h5,
+    config_hash,
+    provenance,
+    put_rows,
+    require_space,
+    write_config,
+)
 from scan.surrogate.identity import differences
 from scan.surrogate.record import SCALARS, TrainingRecord
 
@@ -58,11 +67,17 @@ def _extendable(group: h5py.Group, name: str, shape: tuple[int, ...], dtype, uni
 
 
 def create_store(path: str | Path, config, space, x: np.ndarray, ident: dict) -> None:
-    """Create an empty training store (refuses to overwrite an existing file)."""
+    """Create an empty training store (refuses to overwrite an existing file).
+
+    Written under a temporary name and renamed (:func:`scan.store.atomic_h5`), so a full
+    disk never leaves a half-made store that ``--resume`` would refuse.
+    """
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
+    if path.exists():
+        raise InputFileError(str(path), "a training store already exists; pass --resume to "
+                             "continue it, or remove the file to start again")
     d, nx = space.dim, len(x)
-    with h5py.File(path, "w-", libver="latest") as handle:
+    with atomic_h5(path, libver="latest") as handle:
         for key, value in provenance(config.effective_text, config.run.seed).items():
             handle.attrs[key] = value
         handle.attrs["kind"] = KIND
@@ -117,6 +132,14 @@ class StoreWriter(SingleWriter):
         super().__init__(path, "another training run is writing this store; wait for it or "
                          "stop it first")
 
+    def _require_space(self, datasets, start: int, rows: int) -> None:
+        """Stop before an append the disk cannot take: the store keeps every finished
+        point and ``--resume`` continues from them."""
+        done = self.handle["points/index"].shape[0]
+        require_space(self.path, append_bytes(list(datasets), start, rows),
+                      f"it keeps the {done} points solved before; free some space and "
+                      "rerun with --resume")
+
     def add_plan(self, u: np.ndarray, stage: int, seq: np.ndarray) -> np.ndarray:
         """Append planned unit-cube points (``seq`` last); return their plan indices.
 
@@ -124,6 +147,7 @@ class StoreWriter(SingleWriter):
         """
         plan = self.handle["plan"]
         start = plan["seq"].shape[0]
+        self._require_space(plan.values(), start, len(u))
         put_rows(plan["u"], start, np.atleast_2d(u))
         put_rows(plan["stage"], start, np.full(len(u), stage, "i4"))
         plan["u"].flush()
@@ -144,6 +168,7 @@ class StoreWriter(SingleWriter):
             return
         pts = self.handle["points"]
         row = pts["index"].shape[0]
+        self._require_space(pts.values(), row, len(records))
         reasons = [r.reason.encode("utf-8")[:REASON_BYTES] for r in records]
         values = {"params": np.array([r.params for r in records], float),
                   "valid": np.array([r.valid for r in records], "i1"),

@@ -54,7 +54,15 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.observables import Observables
 from scan.posterior.exact import ExactOutcome
-from scan.store import SingleWriter, config_hash, provenance, put_rows, write_attrs
+from scan.store import (
+    SingleWriter,
+    append_bytes,
+    config_hash,
+    provenance,
+    put_rows,
+    require_space,
+    write_attrs,
+)
 
 GROUP = "verify_partial"
 KIND = "zetascan verify partial results"
@@ -65,8 +73,11 @@ SCALARS: tuple[str, ...] = ("f_pbh_total", "n_s", "r", "N_star", "ln_1e10_as", "
 ARRAYS: dict[str, str] = {"f_hz": "Hz", "omega_gw_h2": "1", "m_msun": "M_sun",
                           "f_pbh_per_lnm": "1"}
 #: Fields not stored: the PBH conventions follow from the run's stored config, the notes
-#: are kept in the text column, and an exact solve's masses are never shifted.
-NOT_STORED: tuple[str, ...] = ("conventions", "notes", "ln_mass_shift")
+#: are kept in the text column, and an exact solve's masses are never shifted; the
+#: non-Gaussian map and the Gaussian comparison total are not (yet) part of the
+#: verification (issue 15 step 4).
+NOT_STORED: tuple[str, ...] = ("conventions", "notes", "ln_mass_shift", "zeta_map",
+                               "f_pbh_total_gaussian")
 BUSY = ("another 'zetascan verify' of this chain is running (it holds these partial "
         "results); wait for it or stop it first")
 Log = Callable[[str], None]
@@ -264,6 +275,11 @@ class PartialWriter(SingleWriter):
         g = self.group
         row = g["index"].shape[0]  # rows beyond it are torn: overwritten
         valid, scalars, lengths, flat, text = _encode(outcome)
+        need = (append_bytes([g[name] for name in (*ROWS, "index")], row, 1)
+                + append_bytes([g["arrays"]], g["arrays"].shape[0], len(flat))
+                + append_bytes([g["text"]], g["text"].shape[0], len(text)))
+        require_space(self.path, need, f"it keeps the {len(self.rows())} samples solved "
+                      "before; free some space and rerun with --resume")
         values = {"theta": np.asarray(theta, np.float64), "valid": valid, "scalars": scalars,
                   "array_start": _extend(g["arrays"], flat), "array_length": lengths,
                   "text_start": _extend(g["text"], np.frombuffer(text, np.uint8)),

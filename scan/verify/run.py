@@ -40,6 +40,7 @@ from scan.pool import BasePool
 from scan.posterior.build import build_target
 from scan.posterior.exact import ExactSolve
 from scan.sampler import runfile
+from scan.sampler.summary import posterior_samples
 from scan.verify.compare import (MIN_SAMPLES, Evaluated, Thresholds, compare, draw_indices,
                                  jsonable, score_outcomes)
 from scan.verify.partial import draw_of, open_partial
@@ -133,11 +134,9 @@ def open_run(run: str | Path) -> Run:
         raise InputFileError(str(path), f"stored parameters {list(extras.names)} differ "
                              f"from the stored config's {list(priors.names)}")
     target = build_target(config, priors)
-    data = runfile.load_chain(path)
-    chain = data["chain"][extras.burn_in::extras.thin]
-    log_prob = data["log_prob"][extras.burn_in::extras.thin]
-    return Run(path, config, target, chain.reshape(-1, priors.dim), log_prob.reshape(-1),
-               extras.burn_in, extras.thin, extras.status)
+    post = posterior_samples(path)  # burn-in and stray walkers by ln p, thinning
+    return Run(path, config, target, post["samples"], post["log_prob"], post["burn_in"],
+               post["thin"], extras.status)
 
 
 def check_samples(run: Run, samples: int) -> None:

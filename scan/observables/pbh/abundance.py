@@ -109,16 +109,18 @@ def beta_weighted(sigma2, kR2, conv: PBHConventions):
     return (conv.K * excess**conv.gamma_c * p * dy) @ _GL_W
 
 
-def critical_kernel(M_msun, M_H_msun, conv: PBHConventions):
+def critical_kernel(M_msun, M_H_msun, conv: PBHConventions, thresholds=None):
     """Geometry of critical collapse on an (M, M_H) grid: (y, weight, valid).
 
     weight = (M/M_H) (dy/dC) x / gamma_c, so dbeta/dlnM = weight * p(y).
+    ``thresholds`` [1]: one threshold per epoch M_H (default: ``conv.threshold``).
     """
-    y_th, _ = _relation(conv)
+    thr = conv.threshold if thresholds is None else np.asarray(thresholds)[None, :]
+    y_th = compaction_linear(thr) if conv.criterion == "compaction" else thr
     ratio = np.asarray(M_msun)[:, None] / np.asarray(M_H_msun)[None, :]
     with np.errstate(over="ignore"):  # M >> K M_H: x -> inf, outside the valid branch
         x = (ratio / conv.K)**(1 / conv.gamma_c)
-    c = conv.threshold + x
+    c = thr + x
     if conv.criterion == "compaction":
         valid = c < C_MAX
         y = compaction_linear(np.minimum(c, C_MAX))

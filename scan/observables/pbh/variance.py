@@ -42,13 +42,19 @@ def variance_integrand(x, kind: str = "gaussian", moment: int = 0):
     return (16 / 81) * x**(4 + 2 * moment) * (window(x, kind) * transfer_rd(x))**2
 
 
-def variance_matrix(k_in, R, kind: str = "gaussian", moment: int = 0) -> np.ndarray:
-    """Matrix V with sigma_j^2(R) = V @ P on the table ``k_in`` [Mpc^-1], R [Mpc]."""
+def lnk_weights(k_in) -> tuple[np.ndarray, np.ndarray]:
+    """(ln k, trapezoid weights in ln k) of the table ``k_in`` [Mpc^-1]."""
     lnk = np.log(np.asarray(k_in, dtype=float))
     w = np.zeros_like(lnk)
     dl = np.diff(lnk)
     w[:-1] += 0.5 * dl
     w[1:] += 0.5 * dl
+    return lnk, w
+
+
+def variance_matrix(k_in, R, kind: str = "gaussian", moment: int = 0) -> np.ndarray:
+    """Matrix V with sigma_j^2(R) = V @ P on the table ``k_in`` [Mpc^-1], R [Mpc]."""
+    lnk, w = lnk_weights(k_in)
     x = np.outer(np.atleast_1d(R), np.exp(lnk))
     return variance_integrand(x, kind, moment) * w
 

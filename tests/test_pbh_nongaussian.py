@@ -1,0 +1,151 @@
+"""Non-Gaussian compaction abundance (scan.observables.pbh.nongaussian, zeta_map)."""
+import math
+
+import h5py
+import numpy as np
+import pytest
+from scipy import integrate
+
+from scan.cli import main
+from scan.errors import ConfigError
+from scan.observables.pbh import PBHConventions, plan_pbh
+from scan.observables.pbh.nongaussian import (
+    check_conventions,
+    compaction_density,
+    plan_nongaussian,
+)
+from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
+
+K = np.geomspace(1e5, 1e8, 300)
+M = np.geomspace(1e-2, 1e3, 60)
+
+
+def _lognormal(amplitude, width=0.5, k_peak=1e6):
+    return amplitude * np.exp(-np.log(K / k_peak)**2 / (2 * width**2)) / (
+        math.sqrt(2 * math.pi) * width)
+
+
+@pytest.mark.parametrize("window, threshold, amplitude",
+                         [("gaussian", 0.5, 0.05), ("top-hat", 0.55, 0.006)])
+def test_identity_map_reproduces_the_gaussian_abundance(window, threshold, amplitude):
+    # Issue 15 acceptance: F(zeta_G) = zeta_G gives today's f_PBH to 1e-10 relative.  By
+    # construction (module docstring) the two differ by rounding of exponents up to ~760
+    # (~1e-13) and by the weight normalisation (1.8e-15).
+    conv = PBHConventions(window=window, threshold=threshold)
+    plan = plan_pbh(K, M, conv)
+    P = _lognormal(amplitude)
+    gauss = plan.evaluate(P)
+    ng = plan_nongaussian(plan, 256).evaluate(P, ZetaMap())
+    assert gauss.f_pbh_total > 1e-40
+    assert ng.f_pbh_total == pytest.approx(gauss.f_pbh_total, rel=1e-10)
+    big = gauss.f_pbh > 1e-20 * gauss.f_pbh.max()
+    np.testing.assert_allclose(ng.f_pbh[big], gauss.f_pbh[big], rtol=1e-10)
+
+
+def _brute_density(c, s_c2, s_cr, s_r2, zmap):
+    """g(c) = int dz p(c/F'(z), z)/|F'(z)| by adaptive quadrature (scipy.integrate.quad)."""
+    det = s_c2 * s_r2 - s_cr**2
+
+    def f(z):
+        fp = float(zmap.slope(z))
+        if not np.isfinite(fp) or fp == 0:
+            return 0.0
+        cg = c / fp
+        q = (s_r2 * cg * cg - 2 * s_cr * cg * z + s_c2 * z * z) / det
+        return math.exp(-0.5 * q) / (2 * math.pi * math.sqrt(det) * abs(fp))
+
+    lim = 14 * math.sqrt(s_r2)
+    lo, hi = max(-lim, zmap.domain()[0]), min(lim, zmap.domain()[1])
+    return integrate.quad(f, lo, hi, points=[0.0] if lo < 0 < hi else None, epsabs=0,
+                          epsrel=1e-11, limit=400)[0]
+
+
+@pytest.mark.parametrize("zmap", [zeta_map_of("local", f_nl=2.0, g_nl=-1.0),
+                                  zeta_map_of("local", f_nl=-1.5),
+                                  zeta_map_of("logarithmic", log_lambda=3.0),
+                                  zeta_map_of("logarithmic", log_lambda=-2.0)])
+def test_density_of_the_compaction_against_adaptive_quadrature(zmap):
+    # Reference: scipy's adaptive quad of the same definition (Ferrante et al. 2023,
+    # arXiv:2211.01728: C_l = C_G F'(zeta_G), (C_G, zeta_G) jointly Gaussian).  quad runs
+    # at epsrel 1e-11; our fixed rules resolve the integrand to better than 1e-7 here.
+    s_c2, s_cr, s_r2 = 0.01, 0.006, 0.008
+    for c in (0.3, 0.6, 0.9, 1.2):
+        ours = float(compaction_density(np.array(c), s_c2, s_cr, s_r2, zmap))
+        ref = _brute_density(c, s_c2, s_cr, s_r2, zmap)
+        assert ours == pytest.approx(ref, rel=1e-7, abs=1e-300)
+
+
+def test_positive_fnl_raises_and_negative_lowers_the_abundance():
+    # Sign of the effect: f_NL > 0 fattens the positive tail (e.g. Young & Byrnes 2013,
+    # arXiv:1307.4995, abstract: "the sign of the non-linearity parameters ... particularly
+    # important").
+    conv = PBHConventions(window="top-hat", threshold=0.55)
+    plan = plan_nongaussian(plan_pbh(K, M, conv), 256)
+    P = _lognormal(0.006)
+    f0 = plan.evaluate(P, ZetaMap()).f_pbh_total
+    assert plan.evaluate(P, zeta_map_of("local", f_nl=1.0)).f_pbh_total > 1e3 * f0
+    assert plan.evaluate(P, zeta_map_of("local", f_nl=-1.0)).f_pbh_total < 1e-3 * f0
+
+
+def test_bad_combinations_are_refused():
+    with pytest.raises(ConfigError, match="f_nl"):
+        zeta_map_of("gaussian", f_nl=1.0)
+    with pytest.raises(ConfigError, match="log_lambda"):
+        zeta_map_of("logarithmic")
+    with pytest.raises(ConfigError, match="compaction"):
+        check_conventions(PBHConventions(criterion="press-schechter", threshold=0.45),
+                          zeta_map_of("local", f_nl=1.0))
+    with pytest.raises(ConfigError, match="model"):
+        ZetaMap("model")
+
+
+def test_logarithmic_map_closed_form_and_fnl():
+    # f_NL = 5 lambda/6 from the expansion of -ln(1 - lambda x)/lambda (exact algebra).
+    zmap = zeta_map_of("logarithmic", log_lambda=3.0)
+    assert zmap.f_nl_equivalent() == pytest.approx(2.5, rel=1e-15)
+    x = np.array([-0.2, 0.0, 0.1, 0.3])
+    np.testing.assert_allclose(zmap.value(x), -np.log1p(-3 * x) / 3, rtol=1e-15)
+    assert np.isnan(zmap.slope(np.array(0.4)))
+
+
+@pytest.fixture
+def lognormal_csv(tmp_path):
+    path = tmp_path / "spectrum.csv"
+    np.savetxt(path, np.column_stack([K, _lognormal(0.006)]), delimiter=",",
+               header="k,P_zeta", comments="")
+    return path
+
+
+def test_observe_takes_the_non_gaussianity_key_and_records_it(lognormal_csv, tmp_path,
+                                                              capsys):
+    # issue 15: `zetascan observe` accepts --set observables.KEY=VALUE like solve; the
+    # result records the choice as pbh attributes and keeps the Gaussian total beside it
+    out = tmp_path / "obs.h5"
+    assert main(["observe", str(lognormal_csv), "--out", str(out), "--n-f", "16",
+                 "--n-m", "40", "--window", "top-hat", "--threshold", "0.55",
+                 "--set", "observables.non_gaussianity=local",
+                 "--set", "observables.f_nl=1.0"]) == 0
+    assert "moves f_PBH from" in capsys.readouterr().out
+    with h5py.File(out) as handle:
+        attrs = handle["pbh"].attrs
+        assert attrs["non_gaussianity"] == "local" and attrs["f_nl"] == 1.0
+        assert attrs["f_pbh_total"] > 1e3 * attrs["f_pbh_total_gaussian"] > 0
+
+
+@pytest.mark.parametrize("sets, key", [
+    (["observables.f_nl=1"], "observables.f_nl"),
+    (["observables.non_gaussianity=logarithmic"], "observables.log_lambda"),
+    (["observables.non_gaussianity=model"], "observables.non_gaussianity"),
+    (["observables.non_gaussianity=local", "observables.criterion=peaks"],
+     "observables.non_gaussianity"),
+    (["model.alpha=2"], "model.alpha"),
+])
+def test_observe_refuses_bad_combinations_with_exit_2(lognormal_csv, tmp_path, capsys, sets,
+                                                      key):
+    args = ["observe", str(lognormal_csv), "--out", str(tmp_path / "x.h5")]
+    for text in sets:
+        args += ["--set", text]
+    assert main(args) == 2
+    err = capsys.readouterr().err
+    assert key in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "x.h5").exists()
