@@ -130,9 +130,10 @@ def test_load_chain_is_inference_data_with_every_name(example, run_folder):  # n
                and not f.startswith("lnL_")]
     assert {"k_peak", "P_peak", "f_pbh_total", "n_s", "r", "N_star"} <= set(derived)
     assert list(table.index) == names + derived  # az.summary: every one, by name
-    walkers = post["samples"].shape[0] // idata.posterior.sizes["draw"]
-    assert idata.posterior.sizes["chain"] == walkers == 16
+    # walkers kept by the library's one reader (stray walkers dropped by their ln p)
+    assert idata.posterior.sizes["chain"] == post["walkers"] and 0 < post["walkers"] <= 16
     draws = math.ceil((stored.iteration - post["burn_in"]) / post["thin"])
+    assert post["samples"].shape[0] == draws * post["walkers"]
     assert idata.posterior.sizes["draw"] == draws and idata.attrs["burn_in"] == post["burn_in"]
     # the same samples as the library's burn-in and thinning (walker-major here)
     flat = np.stack([idata.posterior[n].values.T.ravel() for n in names], axis=1)
@@ -142,3 +143,4 @@ def test_load_chain_is_inference_data_with_every_name(example, run_folder):  # n
     assert "lp" in idata.sample_stats and "reason" in idata.sample_stats
     whole = scan.load_chain(run_folder, burn_in=0, thin=1)
     assert whole.posterior.sizes["draw"] == stored.iteration
+    assert whole.posterior.sizes["chain"] == 16  # explicit burn-in: every walker

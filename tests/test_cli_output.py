@@ -157,6 +157,7 @@ def test_verify_and_demo_print_strict_json(tmp_path, capsys, monkeypatch):
 
     monkeypatch.setattr(verify, "open_run", lambda run: type("R", (), {"path": run})())
     monkeypatch.setattr(verify, "verify_run", lambda *a, **kw: Canned())
+    monkeypatch.setattr(verify, "check_output_file", lambda *a, **kw: None)
     doc = run_json(capsys, ["verify", str(tmp_path)])
     assert doc == {"ess": None, "biased": False, "errors": {"k_peak": {"p95": None}}}
 

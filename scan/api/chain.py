@@ -14,7 +14,7 @@ from emcee.backends import HDFBackend
 
 from scan.errors import InputFileError
 from scan.sampler import runfile
-from scan.sampler.summary import TERM_PREFIX
+from scan.sampler.summary import TERM_PREFIX, posterior_samples
 from scan.verify.run import blob_units, chain_path
 
 
@@ -53,20 +53,27 @@ def chain_arrays(path: str | Path, burn_in: int | None = None, thin: int | None 
         raise InputFileError(str(path), f"no burn-in / thinning stored (status "
                              f"'{extras.status}'): the run did not finish; pass burn_in= and "
                              "thin= or run 'zetascan sample CONFIG' again to complete it")
-    backend = HDFBackend(str(path), name=runfile.GROUP, read_only=True)
-    chain = backend.get_chain(discard=burn, thin=step)          # (draws, walkers, dim)
+    if burn_in is None and thin is None:  # the library's one reader (stray walkers dropped)
+        post = posterior_samples(path)
+        burn, step, walkers = post["burn_in"], post["thin"], post["walkers"]
+        chain = post["samples"].reshape(-1, walkers, len(extras.names))
+        lp = post["log_prob"].reshape(-1, walkers)
+        blobs = None if post["blobs"] is None else post["blobs"].reshape(-1, walkers)
+    else:
+        backend = HDFBackend(str(path), name=runfile.GROUP, read_only=True)
+        chain = backend.get_chain(discard=burn, thin=step)
+        lp = backend.get_log_prob(discard=burn, thin=step)
+        blobs = backend.get_blobs(discard=burn, thin=step) if backend.has_blobs() else None
     if not chain.shape[0]:
         raise InputFileError(str(path), f"no samples after burn-in {burn} and thinning "
-                             f"{step} (the chain has {backend.iteration} steps)")
+                             f"{step} (the chain has {stored.iteration} steps)")
     posterior = {name: chain[:, :, i].T for i, name in enumerate(extras.names)}
-    stats: dict[str, np.ndarray] = {"lp": backend.get_log_prob(discard=burn, thin=step).T}
+    stats: dict[str, np.ndarray] = {"lp": lp.T}
     units = {name: "" for name in extras.names}
-    if backend.has_blobs():
-        blobs = backend.get_blobs(discard=burn, thin=step)
-        for field in blobs.dtype.names:
-            target = stats if field == "reason" or field.startswith(TERM_PREFIX) else posterior
-            target[field] = np.asarray(blobs[field]).T
-            units[field] = blob_units(field)
+    for field in () if blobs is None else blobs.dtype.names:
+        target = stats if field == "reason" or field.startswith(TERM_PREFIX) else posterior
+        target[field] = np.asarray(blobs[field]).T
+        units[field] = blob_units(field)
     labels = dict(zip(extras.names, extras.labels))
     attrs = {"burn_in": burn, "thin": step, "status": extras.status,
              "reason_names": list(extras.reasons), "source": str(path)}
@@ -82,8 +89,9 @@ def load_chain(run: str | Path, *, burn_in: int | None = None, thin: int | None 
     run : str or Path
         A run folder (``results/<name>``) or its ``chain.h5``.
     burn_in, thin : int, optional
-        Steps to drop and thinning (default: the ones the run stored from its
-        autocorrelation policy).
+        Steps to drop and thinning. Default: the library's posterior samples (the run's
+        stored burn-in, extended where ln p has not settled, stray walkers dropped, its
+        thinning) — the samples of zetascan summary and the figures.
 
     Returns
     -------

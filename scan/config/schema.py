@@ -29,8 +29,7 @@ class RunSection:
 
     name: str = spec("run name; results go to <output_dir>/<name>.h5 (default: the config "
                      "file's stem)", "run")
-    output_dir: str = spec("folder for results, relative to the working directory (the "
-                           "one output path that is not relative to the config file)", "results")
+    output_dir: str = spec("folder for results, relative to the working directory", "results")
     seed: int = spec("seed of every random number generator in the run", 0, minimum=0)
 
 
@@ -308,8 +307,7 @@ class ObservablesSection:
     n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8)
     n_eff: float = spec("N_eff today (radiation density, g_* today)", 3.044, minimum=0.0)
     gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s, relative "
-                            "to the config file (replaces the built-in table named by gstar)",
-                            "")
+                            "to the config file (replaces the built-in table of gstar)", "")
     gstar: str = spec("built-in g_*(T) table: the published lattice-based table of Saikawa "
                       "& Shirai 2018, or ideal-gas (our Standard-Model computation, the "
                       "default before issue 15)", "saikawa-shirai-2018",
@@ -392,9 +390,7 @@ class RunConfig:
     source: str = dataclasses.field(default="<config>", compare=False)
     text: str = dataclasses.field(default="", compare=False, repr=False)
     overrides: tuple[str, ...] = dataclasses.field(default=(), compare=False)
-    #: Folder that relative input paths (curves, surrogate, g_* table) were resolved
-    #: against: the config file's folder, or "" for the working directory.
-    base_dir: str = dataclasses.field(default="", compare=False)
+    base_dir: str = dataclasses.field(default="", compare=False)  # inputs resolved against
 
     @property
     def effective_text(self) -> str:

@@ -80,6 +80,38 @@ REFERENCES: dict[str, tuple[str, int, str, str, bool]] = {
                    "constraints on primordial gravitational waves using Planck, WMAP, and "
                    "BICEP/Keck observations through the 2018 observing season",
                    "Phys. Rev. Lett. 127, 151301", False),
+    "1104.2612": ("J. Hou, J. Goodman, D. W. Hogg, J. Goldberg, E. Weinberg", 2012,
+                  "Affine-invariant sampler for exoplanet fitting and discovery in radial "
+                  "velocity data", "Astrophys. J. 745, 198", False),
+    "1210.3692": ("M. H. Namjoo, H. Firouzjahi, M. Sasaki", 2013, "Violation of "
+                  "non-Gaussianity consistency relation in a single field inflationary model",
+                  "EPL 101, 39001", False),
+    "1712.09998": ("Y.-F. Cai, X. Chen, M. H. Namjoo, M. Sasaki, D.-G. Wang, Z. Wang", 2018,
+                   "Revisiting non-Gaussianity from non-attractor inflation models",
+                   "JCAP 05 (2018) 012", False),
+    "2209.05959": ("G. Franciolini, I. Musco, P. Pani, A. Urbano", 2022, "From inflation to "
+                   "black hole mergers and back again: gravitational-wave data-driven "
+                   "constraints on inflationary scenarios with a first-principle model of "
+                   "primordial black holes across the QCD epoch", "Phys. Rev. D 106, 123526",
+                   False),
+    "2211.01728": ("G. Ferrante, G. Franciolini, A. Iovino Jr., A. Urbano", 2023,
+                   "Primordial non-Gaussianity up to all orders: theoretical aspects and "
+                   "implications for primordial black hole models", "Phys. Rev. D 107, 043520",
+                   False),
+    "2211.08348": ("A. D. Gow, H. Assadullahi, J. H. P. Jackson, K. Koyama, V. Vennin, "
+                   "D. Wands", 2023, "Non-perturbative non-Gaussianity and primordial black "
+                   "holes", "EPL 142, 49001", True),
+    "2211.13932": ("S. Pi, M. Sasaki", 2023, "Logarithmic duality of the curvature "
+                   "perturbation", "Phys. Rev. Lett. 131, 011002", False),
+    "2303.07980": ("I. Musco, K. Jedamzik, S. Young", 2024, "Primordial black hole formation "
+                   "during the QCD phase transition: threshold, mass distribution and "
+                   "abundance", "Phys. Rev. D 109, 083506", False),
+    "astro-ph/0411220": ("D. H. Lyth, K. A. Malik, M. Sasaki", 2005, "A general proof of the "
+                         "conservation of the curvature perturbation", "JCAP 05 (2005) 004",
+                         False),
+    "astro-ph/9507001": ("M. Sasaki, E. D. Stewart", 1996, "A general analytic formula for "
+                         "the spectral index of the density perturbations produced during "
+                         "inflation", "Prog. Theor. Phys. 95, 71", False),
 }
 
 
