@@ -1,4 +1,5 @@
 """Non-Gaussian compaction abundance (scan.observables.pbh.nongaussian, zeta_map)."""
+import itertools
 import math
 
 import h5py
@@ -7,6 +8,7 @@ import pytest
 from scipy import integrate
 
 from scan.cli import main
+from scan.config.schema import ObservablesSection
 from scan.errors import ConfigError
 from scan.observables.pbh import PBHConventions, plan_pbh
 from scan.observables.pbh.nongaussian import (
@@ -15,6 +17,7 @@ from scan.observables.pbh.nongaussian import (
     plan_nongaussian,
 )
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
+from scan.observables.settings import require_gaussian_batch
 
 K = np.geomspace(1e5, 1e8, 300)
 M = np.geomspace(1e-2, 1e3, 60)
@@ -149,3 +152,53 @@ def test_observe_refuses_bad_combinations_with_exit_2(lognormal_csv, tmp_path, c
     err = capsys.readouterr().err
     assert key in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
     assert not (tmp_path / "x.h5").exists()
+
+
+def test_no_live_epoch_gives_exactly_zero():
+    # a spectrum far too small to form anything: every epoch is skipped, f_PBH = 0
+    conv = PBHConventions(window="top-hat", threshold=0.55)
+    plan = plan_nongaussian(plan_pbh(K, M, conv, n_formation=64), 64)
+    res = plan.evaluate(_lognormal(1e-6), zeta_map_of("local", f_nl=1.0))
+    assert res.f_pbh_total == 0.0 and not res.f_pbh.any()
+
+
+@pytest.mark.parametrize("changes, key", [
+    ({"non_gaussianity": "local", "f_nl": 1.0}, "observables.non_gaussianity"),
+    ({"qcd_threshold": "harada-scaled"}, "observables.qcd_threshold"),
+])
+def test_sampler_paths_refuse_conventions_they_do_not_compute(changes, key):
+    # sample/grid/verify evaluate f_PBH with Gaussian zeta and one threshold: they must
+    # stop instead of silently ignoring the convention
+    with pytest.raises(ConfigError, match=key):
+        require_gaussian_batch(ObservablesSection(**changes), "run.toml")
+    require_gaussian_batch(ObservablesSection(), "run.toml")
+
+
+@pytest.mark.parametrize("log_lambda", [3.0, -2.0])
+def test_density_resolves_the_ridge_at_the_logarithmic_edge(log_lambda):
+    # Far from the peak sigma_c^2 << sigma_r^2 (zeta_G keeps the long modes, C_G does
+    # not): then C_l is large only next to lambda zeta_G = 1, on a ridge of width
+    # ~ sigma_c/(C_l |lambda|) ~ 1e-3 (values from a log-normal spectrum's epoch).
+    # Reference: scipy quad on 60 geometric sub-intervals towards the edge, epsrel 1e-10;
+    # our fixed graded rule agrees to <= 7e-6 (measured), asserted at 1e-4.
+    s_c2, s_cr, s_r2 = 3.03e-6, 8.19e-5, 5.93e-3
+    zmap = zeta_map_of("logarithmic", log_lambda=log_lambda)
+    edge = 1 / log_lambda
+    det = s_c2 * s_r2 - s_cr**2
+
+    def f(z, c):
+        fp = float(zmap.slope(z))
+        if not np.isfinite(fp):
+            return 0.0
+        cg = c / fp
+        q = (s_r2 * cg * cg - 2 * s_cr * cg * z + s_c2 * z * z) / det
+        return math.exp(-0.5 * q) / (2 * math.pi * math.sqrt(det) * abs(fp))
+
+    far = 14 * math.sqrt(s_r2) * (-1 if log_lambda > 0 else 1)
+    cuts = edge + (far - edge) * np.concatenate([[0.0], np.geomspace(1e-9, 1, 60)])
+    cuts = np.sort(cuts)
+    for c in (0.7, 1.0, 1.3):
+        ref = sum(integrate.quad(f, a, b, args=(c,), epsabs=0, epsrel=1e-10, limit=200)[0]
+                  for a, b in itertools.pairwise(cuts))
+        ours = float(compaction_density(np.array(c), s_c2, s_cr, s_r2, zmap))
+        assert ours == pytest.approx(ref, rel=1e-4)

@@ -14,7 +14,8 @@ Equations (no slow roll): π ≡ dχ/dN = √K dφ/dN, ε1 = π²/2, H² = V/(3 
 coordinate of a *chart*: x = φ without poles; near pole i (between the midpoints to its
 neighbours) x = s = sign(u)|u|^q, u = φ − φᵢ, q = 1 − pᵢ/2, with
 ds/dN = qπ/√G, G = |u|^p K = |u|^p(1 + R) + c finite at the pole.  u is recovered from s,
-never from φ.  The integration (DOP853) stops and restarts at every pole crossing
+never from φ.  The integration (DOP853, compiled: :mod:`scan.background.integrate`) stops
+and restarts at every pole crossing
 (s = 0) and chart boundary; the end of inflation is ε1 = 1 (upward).
 """
 from scan.background.solve import EPS1_FLOOR, auto_phi_start, solve_background

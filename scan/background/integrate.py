@@ -17,9 +17,8 @@ import numpy as np
 from numba import njit
 
 from scan.background.compiled import chart_rhs, field_of
-from scan.ode import (INTERPOLATOR_POWER, N_STAGES, N_STAGES_EXTENDED, dense_coefficients,
-                      dense_value, error_norm, first_step, first_trial, min_step,
-                      next_step_size, stage_state, stage_time, step_update)
+from scan.ode import (dense_coefficients, dense_value, error_norm, first_step, first_trial,
+                      min_step, next_step_size, sizes, stage_state, stage_time, step_update)
 
 #: The events, in the order a segment reports them.
 EVENT_NAMES = ("end", "cross", "lo", "hi", "stop")
@@ -106,17 +105,19 @@ def _grow(a, n):
 
 @njit(cache=True)
 def integrate_segment(N0, N_lim, y0, rtol, atol, pole, m, bounds, enabled, signs, nudge,
-                      budget):
-    """Integrate d(x, π, χ)/dN in one chart from N0 towards N_lim until an event.
+                      budget, tab):
+    """Integrate d(x, π, χ)/dN in one chart from N0 towards N_lim until an event
+    (``tab``: :data:`scan.ode.TABLEAU`).
 
     Returns (status, event index or -1, step ends t (n+1,), states (n+1, 3), dense
     (t_old, h, y_old, F) per step, right-hand-side calls left of ``budget``)."""
     n = y0.size
+    stages, extended, power = sizes(tab)
     y, f, y_new, tmp = y0.copy(), np.empty(n), np.empty(n), np.empty(n)
-    K = np.empty((N_STAGES_EXTENDED, n))
+    K = np.empty((extended, n))
     ts, ys = np.empty((64, 1)), np.empty((64, n))
     t_old_a, h_a = np.empty((64, 1)), np.empty((64, 1))
-    yold_a, F_a = np.empty((64, n)), np.empty((64, INTERPOLATOR_POWER, n))
+    yold_a, F_a = np.empty((64, n)), np.empty((64, power, n))
     ts[0, 0], ys[0] = N0, y
     steps, status, hit = 0, REACHED, -1
     chart_rhs(y[0], y[1], pole, m, f)
@@ -133,7 +134,7 @@ def integrate_segment(N0, N_lim, y0, rtol, atol, pole, m, bounds, enabled, signs
     h_abs = first_step(y, f, K[1], h0, interval, rtol, atol)
     t = N0
     while t < N_lim:
-        small = min_step(t, 1.0)
+        small = min_step(t)
         h_abs = max(h_abs, small)
         rejected = False
         while True:
@@ -144,28 +145,28 @@ def integrate_segment(N0, N_lim, y0, rtol, atol, pole, m, bounds, enabled, signs
             h = t_new - t
             h_abs = abs(h)
             K[0] = f
-            for s in range(1, N_STAGES):
-                stage_state(y, K, s, h, tmp)
+            for s in range(1, stages):
+                stage_state(y, K, s, h, tmp, tab)
                 chart_rhs(tmp[0], tmp[1], pole, m, K[s])
-            step_update(y, K, h, y_new)
-            chart_rhs(y_new[0], y_new[1], pole, m, K[N_STAGES])
-            budget -= N_STAGES
+            step_update(y, K, h, y_new, tab)
+            chart_rhs(y_new[0], y_new[1], pole, m, K[stages])
+            budget -= stages
             if budget < 0:
                 return EXHAUSTED, -1, ts[:steps + 1, 0], ys[:steps + 1], t_old_a[:steps, 0], \
                     h_a[:steps, 0], yold_a[:steps], F_a[:steps], budget
-            err = error_norm(K[:N_STAGES + 1], h, y, y_new, rtol, atol)
+            err = error_norm(K, h, y, y_new, rtol, atol, tab)
             h_abs = next_step_size(h_abs, err, rejected)
             if err < 1.0:
                 break
             rejected = True
-        for s in range(N_STAGES + 1, N_STAGES_EXTENDED):
-            stage_state(y, K, s, h, tmp)
+        for s in range(stages + 1, extended):
+            stage_state(y, K, s, h, tmp, tab)
             chart_rhs(tmp[0], tmp[1], pole, m, K[s])
-        budget -= N_STAGES_EXTENDED - N_STAGES - 1
+        budget -= extended - stages - 1
         ts, ys = _grow(ts, steps + 2), _grow(ys, steps + 2)
         t_old_a, h_a = _grow(t_old_a, steps + 1), _grow(h_a, steps + 1)
         yold_a, F_a = _grow(yold_a, steps + 1), _grow(F_a, steps + 1)
-        dense_coefficients(y, y_new, f, K[N_STAGES], K, h, F_a[steps])
+        dense_coefficients(y, y_new, f, K[stages], K, h, F_a[steps], tab)
         t_old_a[steps, 0], h_a[steps, 0], yold_a[steps] = t, h, y
         t_end, first = t_new, -1
         for e in range(5):
@@ -188,7 +189,7 @@ def integrate_segment(N0, N_lim, y0, rtol, atol, pole, m, bounds, enabled, signs
                 h_a[:steps, 0], yold_a[:steps], F_a[:steps], budget
         t = t_new
         y[:] = y_new
-        f[:] = K[N_STAGES]
+        f[:] = K[stages]
         ts[steps, 0], ys[steps] = t, y
     return status, hit, ts[:steps + 1, 0], ys[:steps + 1], t_old_a[:steps, 0], h_a[:steps, 0], \
         yold_a[:steps], F_a[:steps], budget

@@ -18,6 +18,7 @@ from scan.background.types import (Background, Chart, Segment, chart_map, chart_
                                    to_chart)
 from scan.errors import ConfigError
 from scan.models import Model, kernel
+from scan.ode import TABLEAU
 
 #: Floor of ε1 below which a background is flagged invalid as classically ill-conditioned
 #: (inflation.md §5.5).  Below it π = √(2ε1) < 1.4e-20, and the pole coordinate moves by
@@ -197,7 +198,7 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
         atol = np.array([_ATOL_S if chart.pole >= 0 else 1e-14, 1e-30, 1e-12])
         status, hit, t, y, t_old, h, y_old, F, budget = integrate_segment(
             N0, N_lim, np.asarray(y0, dtype=float), float(rtol), atol, chart.pole, m,
-            np.array([chart.lo, chart.hi]), enabled, signs, nudge, budget)
+            np.array([chart.lo, chart.hi]), enabled, signs, nudge, budget, TABLEAU)
         if status == EXHAUSTED:
             why = f"more than {max_rhs_calls} right-hand-side calls (stalled near N = {N0:.6g})"
             break

@@ -14,7 +14,7 @@ import math
 import numpy as np
 from numba import njit
 
-from scan.ode import (N_STAGES, error_norm, first_step, first_trial, min_step, next_step_size,
+from scan.ode import (error_norm, first_step, first_trial, min_step, next_step_size, sizes,
                       stage_state, stage_time, step_update)
 
 #: solve_ivp's messages, so results read the same as before.
@@ -75,9 +75,11 @@ def mode_rhs(t, y, nodes, coef, Lk, gk, N0, n0, rate, has_rate, hint, out):
 
 
 @njit(cache=True)
-def integrate_modes(t0, t1, y0, rtol, atol, nodes, coef, Lk, gk, N0, n0, rate, has_rate):
-    """Integrate the modes from t0 to t1 > t0; returns (y(t1), nfev, success)."""
+def integrate_modes(t0, t1, y0, rtol, atol, nodes, coef, Lk, gk, N0, n0, rate, has_rate, tab):
+    """Integrate the modes from t0 to t1 > t0 (``tab``: :data:`scan.ode.TABLEAU`);
+    returns (y(t1), nfev, success)."""
     n = y0.size
+    stages = sizes(tab)[0]
     atol_v = np.full(n, atol)
     hint = np.empty(Lk.size, np.int64)
     for j in range(Lk.size):
@@ -95,11 +97,11 @@ def integrate_modes(t0, t1, y0, rtol, atol, nodes, coef, Lk, gk, N0, n0, rate, h
     mode_rhs(t0 + h0, tmp, nodes, coef, Lk, gk, N0, n0, rate, has_rate, hint, f1)
     nfev += 1
     h_abs = first_step(y, f, f1, h0, interval, rtol, atol_v)
-    K = np.empty((N_STAGES + 1, n))
+    K = np.empty((stages + 1, n))
     y_new = np.empty(n)
     t = t0
     while t < t1:
-        small = min_step(t, 1.0)
+        small = min_step(t)
         h_abs = max(h_abs, small)
         rejected = False
         while True:
@@ -109,20 +111,20 @@ def integrate_modes(t0, t1, y0, rtol, atol, nodes, coef, Lk, gk, N0, n0, rate, h
             h = t_new - t
             h_abs = abs(h)
             K[0] = f
-            for s in range(1, N_STAGES):
-                stage_state(y, K, s, h, tmp)
-                mode_rhs(stage_time(t, h, s), tmp, nodes, coef, Lk, gk, N0, n0, rate,
+            for s in range(1, stages):
+                stage_state(y, K, s, h, tmp, tab)
+                mode_rhs(stage_time(t, h, s, tab), tmp, nodes, coef, Lk, gk, N0, n0, rate,
                          has_rate, hint, K[s])
-            step_update(y, K, h, y_new)
+            step_update(y, K, h, y_new, tab)
             mode_rhs(t + h, y_new, nodes, coef, Lk, gk, N0, n0, rate, has_rate, hint,
-                     K[N_STAGES])
-            nfev += N_STAGES
-            err = error_norm(K, h, y, y_new, rtol, atol_v)
+                     K[stages])
+            nfev += stages
+            err = error_norm(K, h, y, y_new, rtol, atol_v, tab)
             h_abs = next_step_size(h_abs, err, rejected)
             if err < 1.0:
                 break
             rejected = True
         t = t_new
         y[:] = y_new
-        f[:] = K[N_STAGES]
+        f[:] = K[stages]
     return y, nfev, True

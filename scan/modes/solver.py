@@ -34,6 +34,7 @@ from scan.modes.kernel import MESSAGE_DONE, MESSAGE_SMALL, integrate_modes
 from scan.modes.protocol import BackgroundLike
 from scan.modes.settings import ModeSettings
 from scan.modes.table import BackgroundTable
+from scan.ode import TABLEAU
 
 #: eps_t for tensors in z_t = a sqrt(2 eps_t) = a/sqrt(8).
 EPS_TENSOR = 1.0 / 16.0
@@ -87,7 +88,7 @@ def _integrate(table: BackgroundTable, y0: np.ndarray, span: tuple[float, float]
         settings.rtol * settings.atol_factor, table.N, table.coef, Lk, gk,
         np.ascontiguousarray(N0, dtype=float), float(n0),
         np.ones(Lk.size) if rate is None else np.ascontiguousarray(rate, dtype=float),
-        rate is not None)
+        rate is not None, TABLEAU)
     return y, int(nfev), bool(ok), MESSAGE_DONE if ok else MESSAGE_SMALL
 
 

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan.config.schema import ObservablesSection
+from scan.errors import ConfigError
 from scan.observables import gstar
 from scan.observables.pbh import PBHConventions
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
@@ -79,3 +80,24 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
                                                     log_lambda=section.log_lambda)
     return ObservableSettings(conventions_of(section), dof, section.n_eff, section.n_f,
                               section.n_m, kind, zmap, section.qcd_threshold)
+
+
+def require_gaussian_batch(section: ObservablesSection, source: str) -> None:
+    """Refuse conventions the vectorised (surrogate) and table paths do not compute yet.
+
+    The sampler, the grid and verify's table path evaluate f_PBH with Gaussian zeta and one
+    threshold; a non-Gaussian map or the QCD-era threshold would silently be ignored there
+    (issue 15 step 4), so they stop with a message instead.
+
+    Raises
+    ------
+    ConfigError
+        Naming ``observables.non_gaussianity`` or ``observables.qcd_threshold``.
+    """
+    for key, default in (("non_gaussianity", "gaussian"), ("qcd_threshold", "off")):
+        value = getattr(section, key)
+        if value != default:
+            raise ConfigError(source, f"observables.{key}", f"'{value}' is not available in "
+                              "sample, grid and verify yet (their f_PBH is Gaussian with one "
+                              "threshold)", f"set {key} = '{default}' for the posterior and "
+                              "check single models with zetascan solve")

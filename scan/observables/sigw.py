@@ -31,7 +31,8 @@ import numpy as np
 from scipy import sparse
 
 from scan.observables import cosmo
-from scan.observables.sigw_nodes import T_RESONANCE, TINY, kernel_array, nodes_for_k  # noqa: F401
+from scan.observables.sigw_nodes import (T_RESONANCE, TINY, interpolation_entries,  # noqa: F401
+                                         kernel_array, nodes_for_k)
 
 
 class TruncationWarning(UserWarning):
@@ -161,8 +162,7 @@ def _interpolation_matrix(iu_l, fu_l, iv_l, fv_l, n_in: int) -> sparse.csr_matri
     iu, fu = np.concatenate(iu_l), np.concatenate(fu_l)
     iv, fv = np.concatenate(iv_l), np.concatenate(fv_l)
     n = iu.size
-    cols = np.stack([iu, iu + 1, iv, iv + 1], axis=1).ravel()
-    vals = np.stack([1 - fu, fu, 1 - fv, fv], axis=1).ravel()
+    cols, vals = interpolation_entries(iu, fu, iv, fv)
     # built in CSR form directly (4 entries a row; a column met twice in a row is summed
     # by the product, as the COO route would sum it once)
     return sparse.csr_matrix((vals, cols, np.arange(0, 4 * n + 1, 4)), shape=(n, n_in))

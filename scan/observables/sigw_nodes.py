@@ -27,7 +27,7 @@ def kernel_value(u: float, v: float) -> float:
     arXiv:1804.08577, Eq. 29; Espinosa, Racco & Riotto 2018, arXiv:1804.07732)."""
     a = u * u + v * v - 3.0
     g = (4.0 * v * v - (1.0 + v * v - u * u) ** 2) / (4.0 * u * v)
-    p = 3.0 * a / (4.0 * u ** 3 * v ** 3)
+    p = 3.0 * a / (4.0 * (u * u * u) * (v * v * v))
     log = math.log(abs((3.0 - (u + v) ** 2) / (3.0 - (u - v) ** 2)))
     brace = (-4.0 * u * v + a * log) ** 2
     if u + v > _SQRT3:
@@ -98,6 +98,16 @@ def _s_count(a: float, b: float, h: float, v_floor: float) -> int:
     return int(min(48, max(1, math.ceil(spread / (2.0 * h)))))
 
 
+@njit(cache=True)
+def _walk(table, x: float, i: int, last: int) -> int:
+    """Interval of x in the sorted ``table`` (clipped to [0, last]), walking from i."""
+    while i < last and table[i + 1] <= x:
+        i += 1
+    while i > 0 and table[i] > x:
+        i -= 1
+    return i
+
+
 @njit(cache=True, error_model="numpy")
 def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
     """Nodes of one output k inside the table, located in it.
@@ -125,7 +135,7 @@ def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
     iv = np.empty(total, np.int32)
     fu, fv, w = np.empty(total), np.empty(total), np.empty(total)
     last = lnk_in.size - 2
-    n = 0
+    n, i, j = 0, 0, 0  # i, j: the table intervals of the previous node (walks start there)
     for p in range(edges.size - 1):
         a, b = edges[p], edges[p + 1]
         n_s = _s_count(a, b, h, v_floor)
@@ -144,8 +154,8 @@ def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
                     wk = tw * ((s1 - s0) * wg[ks]) * kernel_value(u, v)
                     if not (math.isfinite(wk) and wk != 0.0):
                         continue
-                    i = min(max(np.searchsorted(lnk_in, lu, side="right") - 1, 0), last)
-                    j = min(max(np.searchsorted(lnk_in, lv, side="right") - 1, 0), last)
+                    i = _walk(lnk_in, lu, i, last)
+                    j = _walk(lnk_in, lv, j, last)
                     iu[n], iv[n], w[n] = i, j, wk
                     fu[n] = (lu - lnk_in[i]) / (lnk_in[i + 1] - lnk_in[i])
                     fv[n] = (lv - lnk_in[j]) / (lnk_in[j + 1] - lnk_in[j])
@@ -160,3 +170,18 @@ def kernel_array(u, v):
     for i in range(u.size):
         out[i] = kernel_value(u[i], v[i])
     return out
+
+
+@njit(cache=True)
+def interpolation_entries(iu, fu, iv, fv):
+    """Columns and values of the sparse map ln P (table) -> ln P(ku) + ln P(kv), four a
+    node in the order (iu, iu + 1, iv, iv + 1) with linear weights in ln k."""
+    n = iu.size
+    cols = np.empty(4 * n, np.int32)
+    vals = np.empty(4 * n)
+    for j in range(n):
+        cols[4 * j], cols[4 * j + 1] = iu[j], iu[j] + 1
+        cols[4 * j + 2], cols[4 * j + 3] = iv[j], iv[j] + 1
+        vals[4 * j], vals[4 * j + 1] = 1.0 - fu[j], fu[j]
+        vals[4 * j + 2], vals[4 * j + 3] = 1.0 - fv[j], fv[j]
+    return cols, vals

@@ -14,6 +14,7 @@ from scan.config.schema import RunConfig
 from scan.errors import ConfigError
 from scan.likelihood import Sensitivity
 from scan.likelihood.from_config import build_terms, curve_paths_of
+from scan.observables.settings import require_gaussian_batch
 from scan.posterior.setup import (NUISANCE_NAMES, UNSUPPORTED_NUISANCE, check_collapse_k_prior,
                                   check_threshold_prior)
 from scan.posterior.target import PosteriorTarget
@@ -67,8 +68,9 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
     Raises
     ------
     ConfigError
-        No model parameters, an unknown or unsupported nuisance name, missing curve
-        files or surrogate, or a surrogate over other parameters.
+        No model parameters, an unknown or unsupported nuisance name, a PBH convention the
+        vectorised path does not compute (non-Gaussian zeta, QCD-era threshold), missing
+        curve files or surrogate, or a surrogate over other parameters.
     """
     if priors.n_model == 0:
         raise ConfigError(config.source, "parameters", "the posterior needs varied model "
@@ -85,6 +87,7 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
                                   f"{k} ({v})" for k, v in NUISANCE_NAMES.items()))
     check_threshold_prior(config, priors)
     check_collapse_k_prior(config, priors)
+    require_gaussian_batch(config.observables, config.source)
     paths = curve_paths_of(config)
     surrogate = config.likelihood.surrogate or str(surrogate_path(config))
     if not Path(surrogate).is_file():

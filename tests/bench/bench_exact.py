@@ -22,17 +22,31 @@ reheating, 128 base modes, every other setting at its default; ``tests/exact_mod
     p = 1.5, λ = 3.0   P_peak ≈ 1.4e-4 at k ≈ 5.9e8 Mpc⁻¹
     p = 1.9, λ = 6.0   P_peak ≈ 5.4e-7 at k ≈ 1.6e13 Mpc⁻¹
 
-Profile of the reference (cProfile, one solve each, 2 shared cores; cumulative seconds,
-profiler overhead included, so shares matter more than totals):
+Profile of the reference (cProfile, one solve each after a warm-up, on 2 cores shared
+with other jobs; cumulative seconds with the profiler's overhead, so the shares matter
+more than the totals):
 
-    stage                          p = 0.5   p = 1.0   p = 1.9
-    background (solve_ivp, events)    0.74      1.47      1.15
-    table (dense output samples)      0.3       0.81      0.47
-    modes (solve_ivp, 256+ modes)    49.2       7.86      8.79   (rhs alone 37.3 / 5.0 / 6.2)
-      of which peak/dip refinement    7.2       3.57      3.99
-    induced GWs (node placement)     12.2      10.8       7.36   (Python panel loops)
-    f_PBH                            <0.1      <0.1      <0.1
-    total                            62.2      20.2      17.3
+    stage                                   p = 0.5   p = 1.0   p = 1.5   p = 1.9
+    background (solve_ivp with events)        1.92      1.05      1.40      0.92
+    modes (compute_spectrum, all passes)     57.16      6.55      9.52      9.19
+      of which the background table           0.65      0.60      0.73      0.45
+      of which peak/dip refinement            5.90      3.31      4.68      3.76
+      right-hand-side closures (all)         43.13      4.79      6.81      6.79
+    induced GWs (plan_sigw: node loops)      13.31      7.71      8.33      6.40
+    f_PBH (plan_pbh)                          0.08      0.09      0.03      0.03
+    total                                    72.57     15.48     19.38     16.63
+
+Measured (3 alternating repeats each, medians of the times; the last line is the final
+code of the branch; 2 cores shared with ~7 other jobs, load
+average 12-17, so every time is inflated several-fold and the ratios carry the result):
+
+    commit    p = 0.5   p = 1.0   p = 1.5   p = 1.9
+    3e316c7     35.6      15.8      14.0      16.8
+    b6b1925     26.1      11.9      15.9      16.1
+    a880cbe     32.1      16.0      12.7      16.0
+    c466ace     31.7      18.4      17.3      12.9
+
+P_peak, k_peak and n_s agreed with the reference to ≤ 5.3e-7, 3.6e-7 and 2.2e-11.
 
 Everything in the reference's hot path is scipy's Python step loop (~12 right-hand-side
 calls a step, each a few numpy calls) and Python loops over quadrature panels; the

@@ -141,8 +141,9 @@ def delta_n_map(model: Model, phi_s: float, pi_s: float, phi_f: float, n_f: floa
             "field stops; zeta unbounded there); the map is continued linearly")
     notes = (note,) if lost else ()
     keep = _contiguous_finite(finite, dn.size // 2)
-    zmap = ZetaMap("model", zeta_g=n_chi * dchi[keep], zeta=dn[keep])
-    return DeltaNResult(zmap, n_chi, 5 / 6 * n_chichi / n_chi**2, notes)
+    f_nl = 5 / 6 * n_chichi / n_chi**2
+    zmap = ZetaMap("model", f_nl=f_nl, zeta_g=n_chi * dchi[keep], zeta=dn[keep])
+    return DeltaNResult(zmap, n_chi, f_nl, notes)
 
 
 def _fit_derivatives(x: np.ndarray, y: np.ndarray, scale: float) -> tuple[float, float]:
@@ -169,14 +170,14 @@ SETTLE_EFOLDS: float = 5.0
 
 
 def peak_map(bg: Background, k_peak: float, P_peak: float, N_star: float,
-             k_star: float) -> DeltaNResult:
+             k_star: float, n_points: int = 41) -> DeltaNResult:
     """The delta-N map at the peak scale of a solved model.
 
     Initial flat slice: the exit of ``k_peak`` [Mpc^-1] (located from the pivot ``k_star``
     [Mpc^-1], which exits ``N_star`` e-folds before the end); end slice: the field value
     the reference trajectory reaches :data:`SETTLE_EFOLDS` after the last ultra-slow-roll
     window (or half an e-fold before the end of inflation, if earlier).  The grid spans
-    6 sqrt(``P_peak``) either side.
+    6 sqrt(``P_peak``) either side with ``n_points`` trajectories.
     """
     N_pivot = bg.N_end - N_star
     N_s = exit_efold(bg, math.log(k_peak / k_star), N_pivot)
@@ -184,4 +185,4 @@ def peak_map(bg: Background, k_peak: float, P_peak: float, N_star: float,
     N_f = min(after + SETTLE_EFOLDS, bg.N_end - 0.5)
     start, end = bg.evaluate(N_s), bg.evaluate(N_f)
     return delta_n_map(bg.model, float(start.phi[0]), float(start.dchi_dN[0]),
-                       float(end.phi[0]), N_f - N_s, math.sqrt(P_peak))
+                       float(end.phi[0]), N_f - N_s, math.sqrt(P_peak), n_points=n_points)

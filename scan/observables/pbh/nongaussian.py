@@ -23,11 +23,13 @@ standard normal density (1 - 1.8e-15): for F' = 1 every node carries p_C(c) phi(
 exactly, so g = p_C to rounding and the Gaussian abundance is a special case of this
 integral.  (ii) Where F' is large the integrand has a second ridge far from m(c) (e.g.
 the logarithmic map near zeta_G = 1/lambda, where a small C_G gives a large C_l): the
-rest of [-12, 12] sigma_r on either side of part (i) is covered by 24 panels of 8-point
+rest of [-12, 12] sigma_r on either side of part (i) is covered by 16 panels of 8-point
 Gauss-Legendre per side (for F' = 1 it adds < e^{-72} relative); every interval is cut
-to the map's domain (lambda zeta_G < 1 for the logarithmic map).  The y = C_l
+to the map's domain (lambda zeta_G < 1 for the logarithmic map), and an interval that
+ends at a finite domain edge has its nodes graded towards it (x - edge ~ u^6): there a
+small C_G already gives a large C_l, and the integrand has a narrow ridge.  The y = C_l
 integral of the total uses the nodes of :func:`scan.observables.pbh.abundance.beta_weighted`
-(span min(4/3 - y_th, 14 sigma_c)) plus, for the heavier non-Gaussian tails, four 48-point
+(span min(4/3 - y_th, 14 sigma_c)) plus, for the heavier non-Gaussian tails, four 16-point
 panels on the rest of [y_th, 4/3] (contributing < e^{-98} relative for F' = 1).
 
 Units: k [Mpc^-1], masses [M_sun], everything else [1].
@@ -52,14 +54,19 @@ _T, _TW = np.polynomial.legendre.leggauss(64)
 _TW = _TW / np.sum(_T_SPAN * _TW * np.exp(-0.5 * (_T_SPAN * _T)**2) / math.sqrt(2 * math.pi))
 #: The conditional rule on [0, 1] (64-point Gauss-Legendre, normalised as described above).
 _UNIT, _UNIT_W = 0.5 * (_T + 1), 0.5 * _TW
-#: The side rule on [0, 1]: 24 panels of 8-point Gauss-Legendre.
+#: The side rule on [0, 1]: 16 panels of 8-point Gauss-Legendre.
 _g, _gw = np.polynomial.legendre.leggauss(8)
-_edges = np.linspace(0.0, 1.0, 25)
+_edges = np.linspace(0.0, 1.0, 17)
 _half = 0.5 * np.diff(_edges)
 _SIDE = ((_edges[:-1] + _half)[:, None] + _half[:, None] * _g).ravel()
 _SIDE_W = (_half[:, None] * _gw).ravel()
 _WIDE = 2 * _T_SPAN * _SIDE - _T_SPAN
 _TAIL_PANELS: int = 4
+#: Power of the grading towards a finite domain edge (:func:`_graded`).
+_GRADING: int = 6
+#: Gauss-Legendre nodes per tail panel of the y = C_l integral, on [0, 1].
+_TAIL_Z, _TAIL_W = np.polynomial.legendre.leggauss(16)
+_TAIL_Z, _TAIL_W = 0.5 * (_TAIL_Z + 1), 0.5 * _TAIL_W
 
 
 def zeta_window(x, kind: str = "gaussian") -> np.ndarray:
@@ -120,7 +127,8 @@ def compaction_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.
 
 def _zeta_nodes(mean, s, s_r, domain: tuple[float, float]):
     """zeta_G nodes and weights: the conditional interval mean +- 12 s, then the rest of
-    +-12 s_r on either side (each side a composite rule), all cut to the map's ``domain``."""
+    +-12 s_r on either side (each side a composite rule), all cut to the map's ``domain``;
+    an interval ending on a finite domain edge is graded towards it."""
     lo = np.maximum(np.minimum(-_T_SPAN * s_r, mean - _T_SPAN * s), domain[0])
     hi = np.minimum(np.maximum(_T_SPAN * s_r, mean + _T_SPAN * s), domain[1])
     a = np.clip(mean - _T_SPAN * s, lo, hi)
@@ -128,10 +136,25 @@ def _zeta_nodes(mean, s, s_r, domain: tuple[float, float]):
     parts, weights = [], []
     for x0, x1, rule, w in ((a, b, _UNIT, _UNIT_W), (lo, a, _SIDE, _SIDE_W),
                             (b, hi, _SIDE, _SIDE_W)):
-        width = np.maximum(x1 - x0, 0.0)[..., None]
-        parts.append(x0[..., None] + width * rule)
-        weights.append(width * w)
+        x, dx = _graded(x0, x1, rule, w, x1 == domain[1], x0 == domain[0])
+        parts.append(x)
+        weights.append(dx)
     return np.concatenate(parts, axis=-1), np.concatenate(weights, axis=-1)
+
+
+def _graded(x0, x1, u, w, to_end, to_start):
+    """Nodes and weights of the rule (u, w) on [x0, x1], graded as (x1 - x) ~ (1 - u)^p
+    where ``to_end`` (else as (x - x0) ~ u^p where ``to_start``, else uniform), p = 6.
+
+    At a finite domain edge of the map (the logarithmic map's 1/lambda) a tiny C_G already
+    gives a large C_l: the integrand has a ridge of width ~ sigma_c / (C_l lambda) there,
+    far narrower than the panels, which the grading resolves."""
+    width = np.maximum(x1 - x0, 0.0)[..., None]
+    end, start = to_end[..., None], to_start[..., None]
+    p = _GRADING
+    frac = np.where(end, 1 - (1 - u)**p, np.where(start, u**p, u))
+    jac = np.where(end, p * (1 - u)**(p - 1), np.where(start, p * u**(p - 1), 1.0))
+    return x0[..., None] + width * frac, width * jac * w
 
 
 def _y_nodes(y_th: np.ndarray, sigma: np.ndarray, gamma_c: float):
@@ -144,9 +167,9 @@ def _y_nodes(y_th: np.ndarray, sigma: np.ndarray, gamma_c: float):
     lo = y_th + span
     width = (C_L_MAX - lo) / _TAIL_PANELS
     edges = lo + width * np.arange(_TAIL_PANELS)
-    yt = (edges[:, :, None] + width[:, :, None] * _GL_Z).reshape(sigma.size, -1)
-    dyt = np.broadcast_to(width[:, :, None] * _GL_W, (sigma.size, _TAIL_PANELS,
-                                                       _GL_Z.size)).reshape(sigma.size, -1)
+    yt = (edges[:, :, None] + width[:, :, None] * _TAIL_Z).reshape(sigma.size, -1)
+    dyt = np.broadcast_to(width[:, :, None] * _TAIL_W, (sigma.size, _TAIL_PANELS,
+                                                         _TAIL_Z.size)).reshape(sigma.size, -1)
     return np.hstack([y, yt]), np.hstack([dy, dyt])
 
 
@@ -181,12 +204,13 @@ class NonGaussianPlan:
                                         conv.ps_factor)
         with np.errstate(invalid="ignore"):
             f = np.where(live, weight * dens, 0.0) @ epoch
-        yn, dyn = _y_nodes(y_th[on, None], np.sqrt(s_c2[on]), conv.gamma_c)
-        excess = np.clip(yn - 0.375 * yn * yn - c_th[on, None], 0.0, None)
-        g = compaction_density(yn, s_c2[on, None], s_cr[on, None], s_r2[on, None], zmap,
-                               conv.ps_factor)
         beta = np.zeros_like(s_c2)
-        beta[on] = np.sum(conv.K * excess**conv.gamma_c * g * dyn, axis=1)
+        if on.any():
+            yn, dyn = _y_nodes(y_th[on, None], np.sqrt(s_c2[on]), conv.gamma_c)
+            excess = np.clip(yn - 0.375 * yn * yn - c_th[on, None], 0.0, None)
+            g = compaction_density(yn, s_c2[on, None], s_cr[on, None], s_r2[on, None],
+                                   zmap, conv.ps_factor)
+            beta[on] = np.sum(conv.K * excess**conv.gamma_c * g * dyn, axis=1)
         return PBHResult(plan.M, f, float(epoch @ beta), plan.M_H, s_c2, conv)
 
 

@@ -41,7 +41,8 @@ class ZetaMap:
     kind : str
         ``gaussian``, ``local``, ``logarithmic`` or ``model``.
     f_nl, g_nl : float [1]
-        Local coefficients (``local``).
+        Local coefficients (``local``); for ``model``, ``f_nl`` is the delta-N fit's f_NL
+        at the peak (0: take it from the spline).
     log_lambda : float [1]
         lambda of the logarithmic mapping (``logarithmic``).
     zeta_g, zeta : ndarray [1] or None
@@ -107,6 +108,8 @@ class ZetaMap:
             return self.f_nl
         if self.kind == "logarithmic":
             return 5 * self.log_lambda / 6
+        if self.f_nl != 0.0:
+            return self.f_nl
         s = self._spline()
         return float(5 / 6 * s(0.0, 2) / s(0.0, 1)**2)
 
