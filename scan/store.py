@@ -16,6 +16,7 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import errno
+import fcntl
 import hashlib
 import math
 import os
@@ -41,7 +42,8 @@ UNITS_M_P4: str = f"{M_PLANCK_REDUCED_GEV ** 4:.6e} GeV4"
 UNITS_EFOLDS: str = "1"
 
 #: Distributions whose versions go into every result file.
-DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib")
+DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib",
+                                 "ultranest")
 
 #: Bytes kept free beyond what a write allocates [B]: HDF5 metadata written with it
 #: (object headers, chunk-index nodes, attributes, the free-space and EOF updates).
@@ -183,6 +185,24 @@ def read_config_text(path: str | Path) -> str:
     return raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
 
 
+def lock_file(path: str | Path, busy: str, name: str | None = None) -> Any:
+    """Hold an exclusive lock on ``path`` (created if absent); close the result to release.
+
+    Raises
+    ------
+    InputFileError
+        Another process holds it (``busy`` says what is writing and what to do; the
+        error names ``name``, default ``path``).
+    """
+    lock = open(path, "w")
+    try:
+        fcntl.flock(lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except BlockingIOError:
+        lock.close()
+        raise InputFileError(str(name or path), busy) from None
+    return lock
+
+
 def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = None
                        ) -> tuple[Any, h5py.File]:
     """Become the one writer of an append-only HDF5 file: lock file, then SWMR mode.
@@ -207,15 +227,8 @@ def open_single_writer(path: str | Path, busy: str, hdf5_locking: bool | None = 
     InputFileError
         Another writer holds the lock.
     """
-    import fcntl
-
     path = Path(path)
-    lock = open(path.with_name(path.name + ".lock"), "w")
-    try:
-        fcntl.flock(lock, fcntl.LOCK_EX | fcntl.LOCK_NB)
-    except BlockingIOError:
-        lock.close()
-        raise InputFileError(str(path), busy) from None
+    lock = lock_file(path.with_name(path.name + ".lock"), busy, str(path))
     try:
         try:
             handle = h5py.File(path, "r+", libver="latest", locking=hdf5_locking)
@@ -363,13 +376,15 @@ def check_writable(folder: str | Path, what: str = "results") -> Path:
             handle.write(b"\0" * 4096)
             handle.flush()
             os.fsync(handle.fileno())
+    except ValueError as err:  # e.g. a NUL character in the name
+        raise OutputError(repr(str(folder)), f"not a usable folder name ({err})", fix) from None
     except OSError as err:
         problem = write_problem(err)
         if problem is None:
             raise
         raise OutputError(str(folder), f"cannot write here: {problem}", fix) from None
     finally:
-        with contextlib.suppress(OSError):
+        with contextlib.suppress(OSError, ValueError):
             probe.unlink()
     require_space(folder, 0, fix)
     return folder

@@ -208,3 +208,27 @@ def test_train_disk_full_injected_keeps_points_and_resumes(tmp_path, monkeypatch
     assert np.array_equal(a.index, b.index) and np.array_equal(a.params, b.params)
     assert np.array_equal(a.shape, b.shape, equal_nan=True)
     assert np.array_equal(read_plan(path)[0], read_plan(ref)[0])
+
+
+def test_read_only_disk_is_refused_before_any_work(tmp_path, capsys):
+    """A chain on a disk that became read-only: sample (resume or --restart), solve and
+    observe refuse in one line naming the folder, before computing anything."""
+    with small_tmpfs(tmp_path / "disk") as disk:
+        cfg = gaussian_config(tmp_path, disk, max_steps=20)
+        assert main(["sample", str(cfg)]) == 0
+        capsys.readouterr()
+        done = subprocess.run(["mount", "-o", "remount,ro", str(disk)], capture_output=True,
+                              text=True, check=False)
+        if done.returncode != 0:
+            pytest.skip(f"cannot remount read-only here: {done.stderr.strip()}")
+        table = tmp_path / "s.csv"
+        k = np.geomspace(1.0, 1e6, 40)
+        np.savetxt(table, np.c_[k, 1e-2 * np.exp(-np.log(k / 1e3) ** 2)], delimiter=",",
+                   header="k,P_zeta", comments="")
+        for argv in (["sample", str(cfg)], ["sample", str(cfg), "--restart"],
+                     ["solve", str(cfg), "--no-figures"],
+                     ["observe", str(table), "--out", str(disk / "o.h5")]):
+            assert main(argv) == 2, argv
+            line = one_error_line(capsys)
+            assert str(disk) in line and "read-only file system" in line, line
+        assert runfile.read(disk / "gaussian_test" / "chain.h5").iteration == 20  # intact

@@ -26,7 +26,7 @@ from test_verify import NS_SIGMA, StandinExact, SurrogateAsExact, chain  # noqa:
 
 from scan import store
 from scan.cli import main
-from scan.errors import InputFileError
+from scan.errors import InputFileError, OutputError
 from scan.observables import Observables
 from scan.pool import ProcessPool, SerialPool
 from scan.posterior.exact import ExactOutcome
@@ -374,3 +374,31 @@ def test_help_lists_resume(capsys):
     assert code.value.code == 0
     text = capsys.readouterr().out
     assert "--resume" in text and "chain.verify_partial.h5" in text
+
+
+def test_a_full_disk_midway_keeps_the_solved_samples_and_resumes(copy, monkeypatch):
+    """A disk full after 7 appends (injected: scan.store.free_bytes): the verification
+    stops with the 7 solved samples kept, the chain file untouched, and ``resume`` ends
+    as a run that never stopped."""
+    run = open_run(copy)
+    checks = {"n": 0}
+
+    def filling(path) -> int:
+        checks["n"] += 1
+        return 0 if checks["n"] > 7 else 1 << 40
+
+    real = store.free_bytes
+    monkeypatch.setattr(store, "free_bytes", filling)
+    with SerialPool() as pool, pytest.raises(OutputError, match="keeps the 7 samples solved"):
+        verify_run(run, 12, pool, exact=marked(run))
+    assert len(partial_rows(partial_path(copy))) == 7
+    with h5py.File(copy, "r") as f:
+        assert "verify" not in f
+    monkeypatch.setattr(store, "free_bytes", real)
+    resumed = Counting(marked(run))
+    with SerialPool() as pool:
+        result = verify_run(run, 12, pool, exact=resumed, resume=True)
+    assert len(resumed.thetas) == 5
+    with SerialPool() as pool:
+        memory = verify_run(run, 12, pool, exact=marked(run), write=False)
+    assert result.report == memory.report and not partial_path(copy).exists()

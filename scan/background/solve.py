@@ -196,9 +196,15 @@ def _run(model: Model, *, phi_start, velocity_start, N_start, n_max, rtol, min_e
             break
         enabled, signs, nudge = _segment_events(kern, chart, bool(kern.singular), N0, y0, m)
         atol = np.array([_ATOL_S if chart.pole >= 0 else 1e-14, 1e-30, 1e-12])
-        status, hit, t, y, t_old, h, y_old, F, budget = integrate_segment(
-            N0, N_lim, np.asarray(y0, dtype=float), float(rtol), atol, chart.pole, m,
-            np.array([chart.lo, chart.hi]), enabled, signs, nudge, budget, TABLEAU)
+        try:
+            status, hit, t, y, t_old, h, y_old, F, budget = integrate_segment(
+                N0, N_lim, np.asarray(y0, dtype=float), float(rtol), atol, chart.pole, m,
+                np.array([chart.lo, chart.hi]), enabled, signs, nudge, budget, TABLEAU)
+        except (ZeroDivisionError, OverflowError, FloatingPointError) as err:
+            # e.g. V = 0 exactly, or cosh overflowing in a pole chart: the model, not a bug
+            why = (f"non-finite values in the right-hand side after N = {N0:.6g} "
+                   f"({type(err).__name__}: {err})")
+            break
         if status == EXHAUSTED:
             why = f"more than {max_rhs_calls} right-hand-side calls (stalled near N = {N0:.6g})"
             break

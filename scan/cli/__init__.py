@@ -24,8 +24,8 @@ from scan.constants import ZETASCAN_VERSION as __version__
 from scan.errors import ZetascanError
 
 #: Verb modules, in the order ``zetascan --help`` lists them.
-VERBS: tuple[str, ...] = ("solve", "observe", "curves", "train", "sample", "verify", "summary",
-                          "grid", "plot", "demo")
+VERBS: tuple[str, ...] = ("solve", "observe", "curves", "train", "sample", "evidence", "verify",
+                          "summary", "grid", "plot", "demo")
 
 
 def build_parser() -> argparse.ArgumentParser:

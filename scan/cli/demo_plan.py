@@ -8,16 +8,19 @@ bound curves of ``constraints/demo`` plus the LISA noise curve):
 1. ``train``   — a small surrogate trained on exact background + mode solves;
 2. ``sample``  — the posterior over pole position, sharpness, the SMBH-binary foreground
    amplitude and the PBH collapse threshold, until converged (vectorised surrogate);
-3. ``verify``  — a few posterior samples re-solved exactly: importance weights and ESS;
-4. ``grid``    — an exclusion grid over position and sharpness (surrogate);
-5. ``plot``    — every figure (spectrum and model of the config's pole, Omega_GW and
+3. ``evidence`` — nested sampling of the same posterior: ln Z of the pole model and of the
+   SMBH-binary foreground alone, and their Bayes factor;
+4. ``verify``  — a few posterior samples re-solved exactly: importance weights and ESS;
+5. ``grid``    — an exclusion grid over position and sharpness (surrogate);
+6. ``plot``    — every figure (spectrum and model of the config's pole, Omega_GW and
    f_PBH with bounds and posterior bands, the triangle, the exclusion map);
-6. ``summary`` — medians, intervals, convergence and the binding constraint.
+7. ``summary`` — medians, intervals, convergence, the binding constraint and the nested
+   posterior's agreement with the chain.
 
 Every step writes its own file under the output folder, so the demo's results are
 exactly what a user gets by running the verbs by hand.  ``quick`` shrinks every step
 (no single solve, fewer training points and modes, no PBH-threshold nuisance, a smaller
-grid, fewer verified samples, and a τ that need only be stable to 5 % instead of 2 %;
+grid, fewer verified samples, 200 instead of 400 live points for the evidence, and a τ that need only be stable to 5 % instead of 2 %;
 the chain must still be longer than 50 τ) so that it runs in about two minutes; the overrides are recorded in
 every result file like any ``--set``.
 """
@@ -55,6 +58,7 @@ class DemoPlan:
     verify_samples: int
     band_samples: int
     quick: bool = False
+    live_points: int = 400
 
 
 def plan_demo(out: str | Path, quick: bool, processes: int | None = None) -> DemoPlan:
@@ -91,7 +95,7 @@ def plan_demo(out: str | Path, quick: bool, processes: int | None = None) -> Dem
     return DemoPlan(config=config, overrides=overrides, out=out,
                     processes=processes or min(2, os.cpu_count() or 1),
                     verify_samples=10 if quick else 40, band_samples=60 if quick else 200,
-                    quick=quick)
+                    quick=quick, live_points=200 if quick else 400)
 
 
 #: The line of ``configs/demo.toml`` after which only the full demo reads.
@@ -125,6 +129,8 @@ def steps(plan: DemoPlan) -> list[tuple[str, list[str]]]:
     return (solve if not plan.quick else []) + [
         ("train the surrogate on exact solves", ["train", cfg, *resume, *procs, *sets]),
         ("sample the posterior (surrogate, vectorised)", ["sample", cfg, "--restart", *sets]),
+        ("evidence: nested sampling, ln B of the model against the foreground alone",
+         ["evidence", cfg, "--live-points", str(plan.live_points), *sets]),
         ("verify posterior samples with exact solves",
          ["verify", run, "--samples", str(plan.verify_samples), *procs]),
         ("exclusion grid over position and sharpness", ["grid", cfg, "--restart", *sets]),

@@ -2,7 +2,8 @@
 
 * A user-side failure the library did not already word as a
   :class:`~scan.errors.ZetascanError` — the disk is full or read-only, a path is missing or
-  is a folder, memory runs out — becomes one line naming the file and the fix (exit 2).
+  is a folder, memory runs out, HDF5 cannot read a damaged file — becomes one line naming
+  the file and the fix (exit 2).
 * Anything else is a bug in zetascan (exit 1): the traceback goes to a log file in
   ``$ZETASCAN_LOG_DIR`` (default ``~/.cache/zetascan/logs``, or the system's temporary
   folder when that cannot be written) and one line says where it is and where to report it.
@@ -17,6 +18,8 @@ import sys
 import tempfile
 import traceback
 from pathlib import Path
+
+import h5py
 
 from scan.constants import ZETASCAN_VERSION as __version__
 from scan.store import write_problem
@@ -42,8 +45,36 @@ def _filename(err: OSError) -> str:
     return "output"
 
 
+def _innermost_frames(err: BaseException) -> list:
+    frames, tb = [], err.__traceback__
+    while tb is not None:
+        frames.append(tb.tb_frame)
+        tb = tb.tb_next
+    return frames[::-1]
+
+
+def _hdf5_file(err: BaseException) -> str | None:
+    """The HDF5 file whose reading raised ``err`` inside h5py, or None if h5py did not."""
+    frames = _innermost_frames(err)
+    if not frames or not frames[0].f_globals.get("__name__", "").startswith("h5py"):
+        return None
+    for frame in frames:
+        for value in frame.f_locals.values():
+            if isinstance(value, (h5py.File, h5py.Group, h5py.Dataset)):
+                try:
+                    return str(value.file.filename)
+                except Exception:  # noqa: BLE001 -- a damaged file may not even say that
+                    continue
+    return "an HDF5 file"
+
+
 def user_message(err: BaseException) -> str | None:
     """The one-line message of a user-side failure, or None for a bug."""
+    damaged = _hdf5_file(err) if not isinstance(err, OSError) or err.errno is None else None
+    if damaged is not None:
+        first = str(err).splitlines()[0][:200] if str(err) else type(err).__name__
+        return (f"{damaged}: HDF5 cannot read it ({first}); the file is damaged or not the "
+                "kind this command reads (give an intact zetascan result file)")
     if isinstance(err, MemoryError):
         return ("out of memory: the input table or the grids (n_k, n_f, n_m) are too large "
                 "for this machine (use a smaller table or grid)")

@@ -19,7 +19,7 @@ from scan import store
 from scan.cli.output import Output, add_output_options
 from scan.config.load import apply_override
 from scan.config.schema import ObservablesSection
-from scan.config.spec import build_section
+from scan.config.spec import N_GRID_MAX, build_section
 from scan.errors import ConfigError, InputFileError
 from scan.observables import Observables, cosmo
 from scan.observables.pbh import CRITERIA, MASS_FUNCTIONS, WINDOWS, PBHConventions
@@ -116,6 +116,14 @@ def observables_section(args) -> ObservablesSection:
     return section
 
 
+def check_grid_sizes(args) -> None:
+    """--n-f and --n-m within [8, N_GRID_MAX] (memory grows with them)."""
+    for option, value in (("--n-f", args.n_f), ("--n-m", args.n_m)):
+        if not 8 <= value <= N_GRID_MAX:
+            raise ConfigError("command line", option, f"{value} is outside [8, {N_GRID_MAX}]",
+                              f"give {option} between 8 and {N_GRID_MAX}")
+
+
 def compute(k, P, args) -> Observables:
     """Both observables of the table (k, P) with the command line's conventions."""
     return settings_of(observables_section(args)).compute(k, P)
@@ -141,11 +149,16 @@ def run(args: argparse.Namespace) -> int:
     """
     output = Output.of(args)
     source = str(args.spectrum)
+    check_grid_sizes(args)
     out = Path(args.out) if args.out else Path(source).with_name(Path(source).stem
                                                                  + "_observables.h5")
     k, P = load_spectrum(source)
     store.check_output_file(out, "observables file")
     obs = compute(k, P, args)
+    if not math.isfinite(obs.f_pbh_total):
+        raise InputFileError(source, f"f_PBH is not finite (P_zeta reaches {P.max():.3g}): "
+                             "the spectrum is far beyond perturbation theory; check that "
+                             "P_zeta is the dimensionless power spectrum")
     write_result(out, source, obs, {k_: v for k_, v in vars(args).items()
                                     if not k_.startswith("_") and k_ not in _PRINT_OPTIONS})
     for note in obs.notes:

@@ -6,7 +6,8 @@ from pathlib import Path
 
 from scan.cli.output import Output, add_output_options
 from scan.errors import InputFileError
-from scan.sampler.summary import summarize
+from scan.evidence.compare import nested_summary
+from scan.sampler.summary import posterior_samples, summarize
 
 EXAMPLE = """examples:
   zetascan summary results/gaussian_test            # the run folder or its chain.h5
@@ -39,7 +40,10 @@ def _chain_path(run: str) -> Path:
 
 def run(args: argparse.Namespace) -> int:
     """Print the summary."""
-    info = summarize(_chain_path(args.run))
+    path = _chain_path(args.run)
+    info = summarize(path)
+    post = posterior_samples(path)
+    info["nested"] = nested_summary(path.parent, post["names"], post["samples"])
     Output.of(args).result(info, format_summary(info))
     return 0
 
@@ -74,4 +78,23 @@ def format_summary(info: dict) -> str:
                      + (f"; none binding {100 * b['none']:.0f} %" if b["none"] else ""))
     lines.append("evaluations by reason: " + ", ".join(
         f"{k} {v}" for k, v in info["invalid_reasons"].items()))
+    if info.get("nested"):
+        lines += nested_lines(info["nested"])
     return "\n".join(lines)
+
+
+def nested_lines(nested: dict) -> list[str]:
+    """The evidence file's numbers and the nested-vs-emcee agreement."""
+    lines = [(f"nested sampling (evidence.h5): ln Z = {nested['ln_Z']:.3f} +- "
+              f"{nested['ln_Z_err']:.3f}")]
+    if nested["ln_B_vs_foreground"] == nested["ln_B_vs_foreground"]:
+        lines.append(f"  ln B vs foreground only = {nested['ln_B_vs_foreground']:.3f} +- "
+                     f"{nested['ln_B_vs_foreground_err']:.3f}; {nested['scale_note']}")
+    if "error" in nested:
+        return lines + [f"  not compared with the chain: {nested['error']}"]
+    verdict = "agree" if nested["agree"] else "DISAGREE"
+    lines.append(f"  nested vs emcee: {verdict} (|median shift| < {nested['agree_shift']:g} "
+                 "of the emcee 68 % half-width for every parameter)")
+    lines += [f"  {name:<28} median shift {row['median_shift']:+.3f}, KS {row['ks']:.3f}"
+              for name, row in nested["agreement"].items()]
+    return lines

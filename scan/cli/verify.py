@@ -5,6 +5,8 @@ import argparse
 
 from scan.cli.output import Output, add_output_options
 from scan.errors import ZetascanError
+from scan.evidence.reweight import (evidence_shift, ln_z_of, open_nested, shift_lines,
+                                   write_shift)
 from scan.pool import choose_pool
 from scan.store import check_output_file
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
@@ -16,6 +18,7 @@ EXAMPLE = f"""examples:
   mpiexec -n 9 python -m mpi4py.futures -m scan verify results/pole_scan --mpi
   zetascan verify results/pole_scan --json               # the report as JSON
   zetascan verify results/pole_scan --resume             # continue after a kill
+  zetascan verify results/pole_scan --nested             # nested samples: how ln Z moves
 
 M samples are drawn without replacement (seed run.seed) from the chain after burn-in and
 thinning and solved exactly (~ seconds each); they are scored by the run's own likelihood.
@@ -30,6 +33,10 @@ Every exact solve is kept as it finishes in chain.verify_partial.h5 next to the 
 samples still missing (same --samples and chain: the draw is fixed by run.seed) and
 writes the same 'verify' group an uninterrupted run would; without --resume, earlier
 partial results are discarded.
+
+With --nested the samples are the equal-weight nested samples of evidence.h5 ('zetascan
+evidence'); the group 'verify' goes into evidence.h5, and the importance-sampled change
+of ln Z (surrogate -> exact) with its error and ESS is added to its 'evidence' group.
 
 exit codes: 0 done (flagged or not: read the report), 2 bad input, 1 internal error.
 """
@@ -59,6 +66,9 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     parser.add_argument("--resume", action="store_true",
                         help="continue an interrupted verification of the same draw, "
                              "solving only the samples it lacks")
+    parser.add_argument("--nested", action="store_true",
+                        help="verify the nested samples of evidence.h5 and report how "
+                             "ln Z moves")
     add_output_options(parser)
     return parser
 
@@ -70,7 +80,7 @@ def run(args: argparse.Namespace) -> int:
         raise ZetascanError(f"--min-ess {args.min_ess}: give a fraction in (0, 1]")
     if not args.max_shift > 0.0:
         raise ZetascanError(f"--max-shift {args.max_shift}: give a positive number")
-    run_ = open_run(args.run)
+    run_ = open_nested(args.run) if args.nested else open_run(args.run)
     check_output_file(run_.path, "verification results")
     thresholds = Thresholds(args.min_ess, args.max_shift)
     output = Output.of(args)
@@ -80,7 +90,13 @@ def run(args: argparse.Namespace) -> int:
         result = verify_run(run_, args.samples, pool, thresholds=thresholds,
                             on_progress=line.update, resume=args.resume, log=output.note)
     line.close()
-    output.result(result.report, lambda: format_report(result.report))
+    report, lines = result.report, []
+    if args.nested:
+        shift = evidence_shift(result.evaluated)
+        write_shift(run_.path, shift)
+        report = {**report, "evidence_shift": shift}
+        lines = shift_lines(shift, ln_z_of(run_.path))
+    output.result(report, lambda: "\n".join([format_report(report), *lines]))
     return 0
 
 

@@ -53,6 +53,7 @@ def apply_override(raw: dict[str, Any], text: str) -> None:
                                   "define the entry in the config file first")
             node = node[step]
         else:
+            _require_table(node, step, text)
             node = node.setdefault(step, [] if isinstance(nxt, int) else {})
             if not isinstance(node, (dict, list)):
                 raise ConfigError("--set", text, f"'{step}' is a value, not a table")
@@ -60,7 +61,16 @@ def apply_override(raw: dict[str, Any], text: str) -> None:
     if isinstance(last, int):
         if not isinstance(node, list) or last >= len(node):
             raise ConfigError("--set", text, f"index [{last}] does not exist")
+    else:
+        _require_table(node, last, text)
     node[last] = value
+
+
+def _require_table(node: Any, key: str, text: str) -> None:
+    """A named key needs a table; a list of tables needs an index first."""
+    if not isinstance(node, dict):
+        raise ConfigError("--set", text, f"'{key}' is looked up in a list of tables",
+                          "give the entry's index, e.g. model.poles[0].width=0.02")
 
 
 # --------------------------------------------------------------------------- loading
@@ -82,7 +92,7 @@ def load_config(path: str | Path, overrides: tuple[str, ...] | list[str] = ()):
     """
     source = str(path)
     try:
-        text = Path(path).read_text(encoding="utf-8")
+        text = Path(path).read_text(encoding="utf-8-sig")  # a byte-order mark is no error
     except FileNotFoundError:
         raise ConfigError(source, "", "file not found", "check the path") from None
     except (OSError, UnicodeDecodeError) as err:
@@ -135,7 +145,11 @@ def load_config_text(text: str, source: str = "<config>", overrides: tuple[str, 
                           "check quotes, brackets and '=' signs on that line") from None
     for item in overrides:
         apply_override(raw, item)
-    raw.setdefault("run", {}).setdefault("name", default_name)
+    run = raw.setdefault("run", {})
+    if not isinstance(run, dict):
+        raise ConfigError(source, "run", f"must be a table, got {run!r}",
+                          "write a [run] section, or --set run.name=... for one key")
+    run.setdefault("name", default_name)
     config = build_section(RunConfig, raw, "", source)
     config = dataclasses.replace(config, source=source, text=text, overrides=tuple(overrides))
     return with_resolved_paths(config, base_dir)

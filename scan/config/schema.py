@@ -10,7 +10,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from scan.config.analysis import GridSection, LikelihoodSection
-from scan.config.spec import spec
+from scan.config.spec import N_GRID_MAX, N_K_MAX, SEED_MAX, X_IN_MAX, spec
 from scan.errors import ConfigError
 from scan.observables.gstar import TABLES as GSTAR_TABLES
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
@@ -30,7 +30,7 @@ class RunSection:
     name: str = spec("run name; results go to <output_dir>/<name>.h5 (default: the config "
                      "file's stem)", "run")
     output_dir: str = spec("folder for results, relative to the working directory", "results")
-    seed: int = spec("seed of every random number generator in the run", 0, minimum=0)
+    seed: int = spec("seed of every random-number generator", 0, minimum=0, maximum=SEED_MAX)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -154,9 +154,9 @@ class PivotSection:
 class ModesSection:
     """``[modes]``: the Mukhanov–Sasaki solve and its k grid."""
 
-    n_k: int = spec("number of log-spaced wavenumbers before refinement", 128, minimum=8)
+    n_k: int = spec("log-spaced wavenumbers before refinement", 128, minimum=8, maximum=N_K_MAX)
     x_in: float = spec("start each mode at k/(aH) = x_in (Bunch–Davies with de Sitter "
-                       "correction)", 100.0, minimum=10.0)
+                       "correction)", 100.0, minimum=10.0, maximum=X_IN_MAX)
     x_out: float = spec("a mode is frozen once k/(aH) <= x_out (and past non-attractor "
                         "phases)", 1e-3, minimum=1e-8, maximum=0.1)
     rtol: float = spec("relative tolerance of the mode integration", 1e-8, minimum=1e-13,
@@ -303,8 +303,8 @@ class ObservablesSection:
     """``[observables]``: induced GWs today and the PBH abundance (every convention)."""
 
     n_f: int = spec("number of GW frequencies (log-spaced over the spectrum's range)", 200,
-                    minimum=8)
-    n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8)
+                    minimum=8, maximum=N_GRID_MAX)
+    n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8, maximum=N_GRID_MAX)
     n_eff: float = spec("N_eff today (radiation density, g_* today)", 3.044, minimum=0.0)
     gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s, relative "
                             "to the config file (replaces the built-in table of gstar)", "")

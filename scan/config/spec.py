@@ -32,6 +32,14 @@ class Spec:
     choices: tuple[str, ...] = ()
 
 
+#: Upper bounds of run-config keys, as time and memory grow with each: ``modes.n_k`` (32 x
+#: the default 128), ``modes.x_in`` (a mode oscillates ~x_in times before exit; the
+#: de Sitter start is good to a few 1e-6 at 100, inflation.md sect. 2.2),
+#: ``observables.n_f``/``n_m`` (the GW quadrature's memory grows as n_f x table rows), and
+#: ``run.seed`` (the range of emcee's generator, numpy's RandomState).
+N_K_MAX, X_IN_MAX, N_GRID_MAX, SEED_MAX = 4096, 1e4, 1000, 2**32 - 1
+
+
 def spec(doc: str, default: Any = REQUIRED, *, units: str = "", minimum: float | None = None,
          maximum: float | None = None, exclusive_minimum: bool = False,
          exclusive_maximum: bool = False, choices: tuple[str, ...] = (),

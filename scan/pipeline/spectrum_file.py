@@ -30,7 +30,7 @@ def _parse_row(path: str, number: int, text: str) -> list[float] | None:
 def load_spectrum_csv(path: str) -> tuple[np.ndarray, np.ndarray]:
     """Read and validate a (k [Mpc^-1], P_zeta) CSV table; errors name the line."""
     try:
-        lines = Path(path).read_text().splitlines()
+        lines = Path(path).read_text(encoding="utf-8-sig").splitlines()  # a BOM is no error
     except (OSError, UnicodeDecodeError) as err:
         raise InputFileError(path, f"cannot read ({err})") from None
     cols, rows, lines_of = (0, 1), [], []

@@ -20,6 +20,11 @@ For every walker ``theta = (model parameters, nuisance parameters)``:
    (ln L = -inf) is ``excluded``.  Every term's ln L is stored as blob ``lnL_<name>``
    (so summaries can say which constraint binds).
 
+With ``omega_gw_off`` the model's Omega_GW h^2 is set to zero before the terms read it:
+the GW terms see only the SMBH-binary foreground (its amplitude still sampled), while the
+PBH and CMB-pivot terms still see the model — the foreground-only hypothesis of
+``zetascan evidence``.
+
 Everything is deterministic in ``theta`` (no state carried between calls), so a resumed
 chain reproduces an uninterrupted one.  :meth:`PosteriorTarget.score` scores observables
 computed elsewhere (exact solves, for ``zetascan verify``) through the same terms.
@@ -82,6 +87,8 @@ class PosteriorTarget(TargetBase):
         Output frequencies of Omega_GW per walker (over ``x[0] .. x[-1] + ln 2``).
     n_mass : int
         Masses of d f_PBH / d ln M.
+    omega_gw_off : bool
+        Score every model as if its Omega_GW h^2 were zero (foreground-only hypothesis).
 
     Notes
     -----
@@ -98,6 +105,7 @@ class PosteriorTarget(TargetBase):
     n_out: int = 64
     n_mass: int = 64
     reasons: tuple[str, ...] = REASONS
+    omega_gw_off: bool = False
 
     # ----------------------------------------------------------------- target protocol
     @property
@@ -151,6 +159,13 @@ class PosteriorTarget(TargetBase):
             surrogate=surrogate, order=np.array([keys.index(k) for k in surrogate.space.keys]),
             terms=terms, plan=plan, snr=[by_name[name] for name in self.snr_curves],
             planned=plan_terms(terms, plan.f_gw, np.asarray(plan.pbh.M)))
+
+    def without_model_gw(self) -> PosteriorTarget:
+        """This target with ``omega_gw_off`` (sharing what :meth:`prepare` loaded)."""
+        other = dataclasses.replace(self, omega_gw_off=True)
+        if "_loaded" in self.__dict__:
+            other.__dict__["_loaded"] = self.__dict__["_loaded"]
+        return other
 
     @property
     def loaded(self) -> dict[str, Any]:
@@ -333,6 +348,8 @@ class PosteriorTarget(TargetBase):
         with one name are refused.
         """
         planned = self.loaded["planned"]
+        if self.omega_gw_off:
+            obs = obs.replace(omega_gw_h2=np.zeros_like(obs.omega_gw_h2))
         if planned.covers(obs):
             spectra = planned.spectra(obs)
             values = planned.loglikes(spectra, nuisance)

@@ -239,9 +239,23 @@ def update_config(path: Path, config: RunConfig, previous_sha256: str) -> None:
 
 
 def load_chain(path: str | Path) -> dict[str, Any]:
-    """The stored chain (steps, walkers, dim), log_prob, blobs and acceptance counts."""
-    backend = HDFBackend(str(path), name=GROUP, read_only=True)
-    out = {"chain": backend.get_chain(), "log_prob": backend.get_log_prob(),
-           "iteration": backend.iteration, "accepted": backend.accepted}
-    out["blobs"] = backend.get_blobs() if backend.has_blobs() else None
+    """The stored chain (steps, walkers, dim), log_prob, blobs and acceptance counts.
+
+    Raises
+    ------
+    InputFileError
+        The file is not a readable chain file (not HDF5, damaged, or missing the
+        ``mcmc`` group or one of its arrays).
+    """
+    try:
+        backend = HDFBackend(str(path), name=GROUP, read_only=True)
+        out = {"chain": backend.get_chain(), "log_prob": backend.get_log_prob(),
+               "iteration": backend.iteration, "accepted": backend.accepted}
+        out["blobs"] = backend.get_blobs() if backend.has_blobs() else None
+    except (OSError, KeyError, AttributeError, ValueError, TypeError, IndexError) as err:
+        raise InputFileError(str(path), f"not a readable zetascan chain file ({err}); "
+                             "give the chain.h5 of a sample run") from None
+    if out["chain"].ndim != 3 or out["log_prob"].shape != out["chain"].shape[:2]:
+        raise InputFileError(str(path), f"mcmc/chain has shape {out['chain'].shape} and "
+                             f"mcmc/log_prob {out['log_prob'].shape}: not a chain file")
     return out

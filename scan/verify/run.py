@@ -276,8 +276,16 @@ def assemble(run: Run, index: np.ndarray, outcomes: list[Any], solver: str,
 
 
 def write_group(path: str | Path, result: Verification) -> None:
-    """Replace the ``verify`` group of the chain file (append mode; nothing else changes)."""
+    """Replace the ``verify`` group of the chain file (append mode; nothing else changes).
+
+    The free space is checked first (twice the group's data, for HDF5's own records): a
+    chain file cut short by a full disk would no longer read back.
+    """
     report, ev = result.report, result.evaluated
+    data = (ev.blobs_surrogate.nbytes + ev.blobs_exact.nbytes + len(json.dumps(report))
+            + np.asarray(result.weights).nbytes + np.asarray(result.index).nbytes)
+    store.require_space(path, 2 * data, "the chain file is unchanged and every solved sample "
+                        "stays in the partial file; free some space and rerun with --resume")
     try:
         with h5py.File(path, "a") as handle:
             if GROUP in handle:

@@ -1,0 +1,1 @@
+"""Evidences and Bayes factors by nested sampling (``zetascan evidence``)."""
