@@ -112,6 +112,12 @@ REFERENCES: dict[str, tuple[str, int, str, str, bool]] = {
     "astro-ph/9507001": ("M. Sasaki, E. D. Stewart", 1996, "A general analytic formula for "
                          "the spectral index of the density perturbations produced during "
                          "inflation", "Prog. Theor. Phys. 95, 71", False),
+    "1407.5459": ("J. Buchner", 2016, "A statistical test for nested sampling algorithms",
+                  "Stat. Comput. 26, 383", False),
+    "1707.00537": ("V. Vennin, H. Assadullahi, D. Wands (as the code cites it)", 2017,
+                   "title not yet recorded", "journal not yet recorded", False),
+    "2101.09604": ("J. Buchner", 2021, "UltraNest — a robust, general purpose Bayesian "
+                   "inference engine", "J. Open Source Softw. 6, 3001", False),
 }
 
 
