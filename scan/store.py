@@ -29,16 +29,12 @@ from typing import Any
 import h5py
 import numpy as np
 
-from scan.constants import M_PLANCK_REDUCED_GEV
-from scan.constants import ZETASCAN_VERSION as __version__
+from scan.constants import M_PLANCK_REDUCED_GEV, ZETASCAN_VERSION as __version__  # noqa: I001
 from scan.errors import InputFileError, OutputError
 
-#: ``units`` of quantities in reduced Planck units (M_p = (8 pi G)^-1/2 = 1): the reduced
-#: Planck mass written as a scaled GeV unit, which astropy (and any unit parser that
-#: accepts a scale factor) reads as the intended unit; "M_p" alone would read as the
-#: proton mass.  E-folds are dimensionless ("1").
-UNITS_M_P: str = f"{M_PLANCK_REDUCED_GEV:.6e} GeV"
-UNITS_M_P4: str = f"{M_PLANCK_REDUCED_GEV ** 4:.6e} GeV4"
+#: ``units`` in reduced Planck units as a scaled GeV unit astropy reads ("M_p" would read
+#: as the proton mass); e-folds are dimensionless.
+UNITS_M_P, UNITS_M_P4 = f"{M_PLANCK_REDUCED_GEV:.6e} GeV", f"{M_PLANCK_REDUCED_GEV**4:.6e} GeV4"
 UNITS_EFOLDS: str = "1"
 
 #: Distributions whose versions go into every result file.
@@ -115,9 +111,7 @@ def write_dataset(group: h5py.Group, name: str, data: Any, units: str,
 
 
 def attach_scale(group: h5py.Group, scale: str, *names: str) -> None:
-    """Make ``group[scale]`` an HDF5 dimension scale (named ``scale``) and attach it to
-    axis 0 of the datasets ``names`` present, so netCDF readers (xarray) see it as their
-    coordinate."""
+    """Make ``group[scale]`` the dimension scale (xarray's coordinate) of ``names``."""
     axis = group[scale]
     axis.make_scale(scale)
     for name in names:
@@ -137,8 +131,7 @@ def write_attrs(obj: h5py.Group | h5py.Dataset, attrs: Mapping[str, Any]) -> Non
 
 def write_config(handle: h5py.File, config_text: str, overrides: tuple[str, ...] = (),
                  base_dir: str = "") -> None:
-    """Store the config text (dataset ``config``), its command-line overrides and the
-    folder its relative input paths resolve against (attribute ``base_dir``)."""
+    """Store the config text (dataset ``config``), its overrides and ``base_dir``."""
     if "config" in handle:
         del handle["config"]
     dset = handle.create_dataset("config", data=config_text, dtype=h5py.string_dtype())
@@ -149,7 +142,7 @@ def write_config(handle: h5py.File, config_text: str, overrides: tuple[str, ...]
 
 
 def stored_base_dir(handle: h5py.File) -> str:
-    """The ``base_dir`` of a stored config ("" in files written before it was recorded)."""
+    """The stored config's ``base_dir`` ("" before it was recorded)."""
     return str(handle["config"].attrs.get("base_dir", ""))
 
 

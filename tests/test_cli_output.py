@@ -93,8 +93,8 @@ def test_solve_observe_and_curves_json(tmp_path, capsys):
 
 
 def test_a_non_finite_f_pbh_is_bad_input_exit_2(tmp_path, capsys, monkeypatch):
-    """The file is still written; stdout stays one strict document with null and the
-    error; stderr has the one-line error."""
+    """Exit 2 (bad input), stdout one strict JSON document with the error, stderr one
+    line."""
     from scan.cli import observe
 
     real = observe.compute
@@ -103,8 +103,7 @@ def test_a_non_finite_f_pbh_is_bad_input_exit_2(tmp_path, capsys, monkeypatch):
     table = tmp_path / "t.csv"
     table.write_text("\n".join(f"{x:.6e},1e-2" for x in np.geomspace(1e3, 1e9, 12)) + "\n")
     doc = run_json(capsys, ["observe", str(table), "--n-f", "16", "--n-m", "16"], code=2)
-    assert doc["f_pbh_total"] is None
-    assert "f_PBH total is inf" in doc["error"] and Path(doc["result"]).is_file()
+    assert doc["exit_code"] == 2 and "f_PBH is not finite" in doc["error"]
     assert main(["observe", str(table), "--n-f", "16", "--n-m", "16"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "zetascan observe: error:" in err[0]
