@@ -7,9 +7,17 @@ megaparsec in metres, ``M_SUN_G`` one solar mass in grams.
 from __future__ import annotations
 
 import math
+from importlib.metadata import PackageNotFoundError
+from importlib.metadata import version as _version
 
 from astropy import constants as _c
 from astropy import units as _u
+
+try:
+    #: The installed zetascan version (``scan.__version__`` re-exports it).
+    ZETASCAN_VERSION: str = _version("zetascan")
+except PackageNotFoundError:  # running from a source tree without installation
+    ZETASCAN_VERSION = "0.0.0+unknown"
 
 C_M_S: float = float(_c.c.si.value)                    # speed of light [m/s]
 G_SI: float = float(_c.G.si.value)                     # Newton's constant [m^3 kg^-1 s^-2]

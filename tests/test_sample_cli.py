@@ -67,12 +67,12 @@ def chain_contents(path: Path) -> dict[str, np.ndarray]:
 
 
 def start_and_signal(config: Path, sig: int, min_step: int) -> subprocess.Popen:
-    """Start the CLI, wait for a progress line at >= min_step, send ``sig``."""
+    """Start the CLI, wait for a progress line (stderr) at >= min_step, send ``sig``."""
     proc = subprocess.Popen([sys.executable, "-m", "scan", "sample", str(config)],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     deadline = time.monotonic() + 120
-    for line in proc.stdout:
-        if line.startswith("step ") and int(line.split()[1].split("/")[0]) >= min_step:
+    for line in proc.stderr:
+        if line.startswith("sample: ") and int(line.split()[1].split("/")[0]) >= min_step:
             proc.send_signal(sig)
             break
         assert time.monotonic() < deadline

@@ -69,3 +69,37 @@ def test_invalid_model_is_reported_not_raised(tmp_path, capsys):
     assert "INVALID" in text
     with h5py.File(out, "r") as f:
         assert not bool(f.attrs["valid"]) and f.attrs["reason"]
+
+
+def test_other_tools_read_the_groups_with_coordinates_and_units(solved):
+    """xarray (netCDF over HDF5, engine h5netcdf) opens spectrum, gw and pbh with k, f and
+    M as coordinates (HDF5 dimension scales), and every units attribute parses with
+    astropy to the intended unit — M_p is the reduced Planck mass (8 pi G)^-1/2, about
+    2.435e18 GeV (PDG 2024, Astrophysical constants), not the proton mass."""
+    import astropy.units as u
+    import xarray as xr
+
+    for group, coord, names in (("spectrum", "k", ("P_zeta", "P_tensor", "N_exit")),
+                                ("gw", "f", ("omega_gw_h2", "k")),
+                                ("pbh", "M", ("f_pbh", "M_g"))):
+        with xr.open_dataset(solved, group=group, engine="h5netcdf") as ds:
+            assert coord in ds.coords and ds[coord].dims == (coord,), group
+            for name in names:
+                assert ds[name].dims == (coord,), (group, name)
+            with h5py.File(solved, "r") as f:
+                assert np.array_equal(ds[coord].values, f[group][coord][()])
+    expected = {"spectrum/k": u.Mpc ** -1, "gw/f": u.Hz, "gw/k": u.Mpc ** -1,
+                "pbh/M": u.M_sun, "pbh/M_g": u.g, "spectrum/N_exit": u.one,
+                "background/N": u.one, "background/phi": u.GeV}
+    with h5py.File(solved, "r") as f:
+        units = {}
+        f.visititems(lambda name, obj: units.update(
+            {name: obj.attrs["units"]} if isinstance(obj, h5py.Dataset) else {}))
+        for name, text in units.items():
+            unit = u.Unit(text)  # raises on a string astropy cannot read
+            if name in expected:
+                assert unit.is_equivalent(expected[name]), (name, text)
+        m_p = u.Unit(f["background/phi"].attrs["units"]).to(u.GeV)
+        assert m_p == pytest.approx(2.435e18, rel=5e-4)
+        v0 = u.Unit(f["cmb"].attrs["units_V0"])
+        assert v0.to(u.GeV ** 4) == pytest.approx(m_p ** 4, rel=4e-6)  # 7 digits: 4 x 5e-7 + 5e-7

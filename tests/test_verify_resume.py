@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 import hashlib
+import json
 import shutil
 import textwrap
 import time
@@ -344,6 +345,12 @@ def test_without_resume_a_leftover_partial_is_discarded(copy, capsys, monkeypatc
     captured = capsys.readouterr()
     assert CountingStandin.calls == 22
     assert "nothing to resume" in captured.err and captured.out.lstrip().startswith("{")
+    report = json.loads(captured.out, parse_constant=_refuse)  # strict JSON: no NaN
+    assert report["samples"] == 10
+
+
+def _refuse(name: str):
+    raise ValueError(f"non-standard JSON constant {name}")
 
 
 def test_unreadable_partial_results_are_refused_on_resume_and_discarded_without(copy):

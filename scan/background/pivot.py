@@ -13,7 +13,7 @@ exact-mode normalisation fixes it, V0 is estimated from the slow-roll amplitude
 P_ζ ≈ H*²/(8π²ε1*) = A_s and the two are iterated to a fixed point.
 
 n_s and r at second order in the Hubble-flow parameters (Stewart & Lyth 1993,
-gr-qc/9302019; flow form of Schwarz et al. 2001, hep-ph/0106020), C = γ_E + ln 2 − 2.
+gr-qc/9302019; flow form of Schwarz et al. 2001, astro-ph/0106020), C = γ_E + ln 2 − 2.
 """
 from __future__ import annotations
 

@@ -8,7 +8,8 @@ Each verb lives in its own module ``scan/cli/<verb>.py`` exposing
 
 Exit codes: 0 success, 2 bad input or an output that cannot be written (one line naming
 the file, line or key and the fix), 1 internal error (a bug: one line says which log file
-holds the traceback, see :mod:`scan.cli.failure`).
+holds the traceback, see :mod:`scan.cli.failure`).  What verbs print goes through
+:mod:`scan.cli.output` (``--json``, ``--quiet``, ``-v``, progress on stderr).
 """
 from __future__ import annotations
 
@@ -18,8 +19,9 @@ import sys
 import textwrap
 from collections.abc import Sequence
 
-from scan import __version__
 from scan.cli import failure
+from scan.cli.output import strict_json
+from scan.constants import ZETASCAN_VERSION as __version__
 from scan.errors import ZetascanError
 
 #: Said by ``zetascan --help`` and the help of every verb that runs a config.
@@ -67,6 +69,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(args._run(args) or 0)
     except ZetascanError as err:
         print(f"zetascan {args.verb}: error: {err}", file=sys.stderr)
+        if getattr(args, "json", False):  # a script reading stdout still gets JSON
+            print(strict_json({"error": str(err), "exit_code": 2}), flush=True)
         return 2
     except KeyboardInterrupt:
         print(f"zetascan {args.verb}: interrupted", file=sys.stderr)
@@ -75,6 +79,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         message = failure.user_message(err)
         if message is not None:
             print(f"zetascan {args.verb}: error: {message}", file=sys.stderr)
+            if getattr(args, "json", False):
+                print(strict_json({"error": message, "exit_code": 2}), flush=True)
             return 2
         failure.report_internal(args.verb, err, argv)
         return 1

@@ -4,6 +4,7 @@ from __future__ import annotations
 import argparse
 import warnings
 
+from scan.cli.output import Output, add_output_options
 from scan.curves import CurveWarning, load_curve
 from scan.curves.sensitivity_file import write_sensitivity
 from scan.plots.curves import curves_figure
@@ -24,9 +25,9 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         epilog=EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
     sub = parser.add_subparsers(dest="curves_action", metavar="ACTION", required=True)
     check = sub.add_parser("check", help="validate files, one summary line each")
-    check.add_argument("files", nargs="+", metavar="FILE")
+    check.add_argument("files", nargs="+", metavar="FILE", help="bound-curve CSV files")
     plot = sub.add_parser("plot", help="figure of the curves in their natural axes")
-    plot.add_argument("files", nargs="+", metavar="FILE")
+    plot.add_argument("files", nargs="+", metavar="FILE", help="bound-curve CSV files")
     plot.add_argument("--out", default="curves", help="path stem of the PDF/PNG "
                                                       "(default: ./curves)")
     sens = sub.add_parser("sensitivity", help="write the LISA sensitivity as a curve file")
@@ -37,7 +38,10 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     sens.add_argument("--form", choices=("pli", "noise"), default="pli",
                       help="power-law-integrated curve (default) or Omega_n h^2 itself")
     sens.add_argument("--points", type=int, default=241, help="rows written (default 241)")
-    sens.add_argument("--out", required=True, metavar="FILE.csv")
+    sens.add_argument("--out", required=True, metavar="FILE.csv",
+                      help="the curve file to write")
+    for action in (check, plot, sens):
+        add_output_options(action)
     return parser
 
 
@@ -47,30 +51,37 @@ def run(args: argparse.Namespace) -> int:
         args.curves_action](args)
 
 
-def _load_all(files):
+def _load_all(files, output: Output) -> tuple[list, list[str]]:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CurveWarning)
         curves = [load_curve(f) for f in files]
-    for w in caught:
-        if issubclass(w.category, CurveWarning):
-            print(f"warning: {w.message}")
-    return curves
+    notes = [f"warning: {w.message}" for w in caught if issubclass(w.category, CurveWarning)]
+    for note in notes:
+        output.note(note)
+    return curves, notes
 
 
 def _check(args) -> int:
-    for curve in _load_all(args.files):
-        print(f"ok  {curve.path}: {curve.summary()}")
+    output = Output.of(args)
+    curves, notes = _load_all(args.files, output)
+    output.result({"curves": [{"file": c.path, "ok": True, "name": c.name, "kind": c.kind,
+                               "summary": c.summary(), "synthetic": c.synthetic}
+                              for c in curves], "notes": notes},
+                  "\n".join(f"ok  {c.path}: {c.summary()}" for c in curves))
     return 0
 
 
 def _plot(args) -> int:
-    paths = save(curves_figure(_load_all(args.files)), args.out)
-    print("wrote " + ", ".join(str(p) for p in paths))
+    output = Output.of(args)
+    curves, notes = _load_all(args.files, output)
+    paths = save(curves_figure(curves), args.out)
+    output.result({"figures": paths, "notes": notes},
+                  "wrote " + ", ".join(str(p) for p in paths))
     return 0
 
 
 def _sensitivity(args) -> int:
     path = write_sensitivity(args.out, args.snr, args.years, args.confusion, args.form,
                              args.points)
-    print(f"wrote {path}")
+    Output.of(args).result({"curve": path}, f"wrote {path}")
     return 0

@@ -2,10 +2,13 @@
 from __future__ import annotations
 
 import argparse
+import contextlib
+import sys
 
 from scan.cli import with_plugin_note
 from scan.cli import main
 from scan.cli.demo_plan import plan_demo, run_demo
+from scan.cli.output import Output, add_output_options
 
 EXAMPLE = """examples:
   zetascan demo                    # about 10 minutes on 2 cores: results/demo/
@@ -30,11 +33,32 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         help="a smaller, faster demo (about 2 minutes)")
     parser.add_argument("--processes", type=int, default=None, metavar="N",
                         help="worker processes for the exact solves (default: up to 2)")
+    add_output_options(parser)
     return parser
 
 
 def run(args: argparse.Namespace) -> int:
-    """Run the demo's steps; exit with the first failing step's code."""
+    """Run the demo's steps; exit with the first failing step's code.
 
+    With --json every step prints on stderr and stdout holds only the final document
+    (output folder, exit code, files); --quiet and -v are passed to every step.
+    """
+    output = Output.of(args)
     plan = plan_demo(args.out, args.quick, args.processes)
-    return run_demo(plan, main, lambda line: print(line, flush=True))
+    flags = ["--quiet"] * output.quiet + ["-v"] * output.verbose
+    lines: list[str] = []
+
+    def step(argv) -> int:
+        return main([*argv, *flags])
+
+    def say(line: str) -> None:
+        lines.append(line)
+        output.info(line)
+
+    with contextlib.redirect_stdout(sys.stderr) if output.json else contextlib.nullcontext():
+        code = run_demo(plan, step, say)
+    files = sorted(str(p) for p in plan.out.iterdir() if p.suffix in (".h5", ".png", ".pdf"))
+    if output.json:
+        output.result({"out": plan.out, "exit_code": code, "files": files,
+                       "log": [ln.strip() for ln in lines if ln.strip()]}, "")
+    return code

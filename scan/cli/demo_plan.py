@@ -65,7 +65,7 @@ def plan_demo(out: str | Path, quick: bool, processes: int | None = None) -> Dem
     """The demo's steps for an output folder.
 
     The run's ``output_dir``/``name`` are set so that the files land in ``out`` itself,
-    and the curve paths are made absolute so the demo runs from any folder.
+    and the curve paths are absolute (the quick demo's config is a copy in ``out``).
 
     Raises
     ------
@@ -81,7 +81,7 @@ def plan_demo(out: str | Path, quick: bool, processes: int | None = None) -> Dem
                              "a checkout of zetascan (pip install -e .)")
     out = Path(out).resolve()
     base = load_config(CONFIG)
-    curves = [str((ROOT / c).resolve()) for c in base.likelihood.curves]
+    curves = list(base.likelihood.curves)  # absolute: resolved against configs/
     for path in curves:
         if not Path(path).is_file():
             raise InputFileError(path, "a demo bound curve is missing; run the demo from a "

@@ -2,9 +2,9 @@
 from __future__ import annotations
 
 import argparse
-import json
 import time
 
+from scan.cli.output import add_output_options, strict_json
 from scan.config import load_config
 from scan.errors import ZetascanError
 from scan.evidence.compare import compare_runs
@@ -57,7 +57,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         help="stop when the remaining ln Z is below D (default %(default)s)")
     parser.add_argument("--compare", nargs=2, metavar=("RUN_A", "RUN_B"),
                         help="print ln B = ln Z_A - ln Z_B of two finished runs")
-    parser.add_argument("--json", action="store_true", help="print the result as JSON")
+    add_output_options(parser)
     return parser
 
 
@@ -67,7 +67,7 @@ def run(args: argparse.Namespace) -> int:
         if args.config:
             raise ZetascanError("give either CONFIG or --compare RUN_A RUN_B, not both")
         info = compare_runs(*args.compare)
-        print(json.dumps(info, indent=2) if args.json else format_compare(info))
+        print(strict_json(info) if args.json else format_compare(info))
         return 0
     if not args.config:
         raise ZetascanError("give a CONFIG (or --compare RUN_A RUN_B)")
@@ -93,7 +93,7 @@ def run(args: argparse.Namespace) -> int:
             print(f"stopped by {flag.signal_name}; the checkpoints are kept in "
                   f"{plan.nested_dir}: run again with --resume", flush=True)
             return EXIT_CODES.get(flag.signal_name or "", 1)
-    print(json.dumps(outcome_json(outcome), indent=2) if args.json
+    print(strict_json(outcome_json(outcome)) if args.json
           else format_outcome(outcome))
     return 0
 

@@ -21,7 +21,7 @@ from pathlib import Path
 
 import h5py
 
-from scan import __version__
+from scan.constants import ZETASCAN_VERSION as __version__
 from scan.store import write_problem
 
 #: Where to report an internal error.

@@ -2,11 +2,9 @@
 from __future__ import annotations
 
 import argparse
-import sys
-import time
-from collections.abc import Callable
 
 from scan.cli import with_plugin_note
+from scan.cli.output import Output, add_output_options
 from scan.config import load_config
 from scan.grid.command import grid_run
 from scan.grid.run import describe_plan
@@ -57,34 +55,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         help="exact solves of every point (same as --set grid.source=exact)")
     parser.add_argument("--set", dest="overrides", metavar="KEY=VALUE", action="append",
                         default=[], help="override a config key (repeatable)")
+    add_output_options(parser)
     return parser
-
-
-def _progress(every_s: float) -> Callable[[int, int], None]:
-    """A tqdm bar on a terminal, plain periodic lines on stderr otherwise."""
-    state: dict = {"bar": None, "last": -float("inf"), "t0": time.monotonic(), "n0": None}
-
-    def update(done: int, total: int) -> None:
-        if sys.stderr.isatty():
-            from tqdm import tqdm
-
-            if state["bar"] is None:
-                state["bar"] = tqdm(total=total, initial=done, unit="point")
-            state["bar"].update(done - state["bar"].n)
-            if done >= total:
-                state["bar"].close()
-            return
-        now = time.monotonic()
-        if state["n0"] is None:
-            state.update(n0=done, t0=now)
-        if now - state["last"] >= every_s or done >= total:
-            rate = (done - state["n0"]) / max(now - state["t0"], 1e-9)
-            eta = f"{(total - done) / rate:.0f} s" if rate > 0 else "-"
-            print(f"grid: {done}/{total} points, {rate:.2f} points/s, ETA {eta}",
-                  file=sys.stderr, flush=True)
-            state["last"] = now
-
-    return update
 
 
 def run(args: argparse.Namespace) -> int:
@@ -92,13 +64,22 @@ def run(args: argparse.Namespace) -> int:
 
     overrides = list(args.overrides) + (['grid.source="exact"'] if args.exact else [])
     config = load_config(args.config, overrides=overrides)
-    outcome = grid_run(config, resume=args.resume, restart=args.restart,
-                       processes=args.processes, mpi=args.mpi,
-                       on_start=lambda run_: print(describe_plan(run_), flush=True),
-                       progress=_progress(config.grid.progress_every_s))
-    print("\n".join(outcome.summary), flush=True)
+    output = Output.of(args)
+    line = output.progress("grid", "point", config.grid.progress_every_s)
+    try:
+        outcome = grid_run(config, resume=args.resume, restart=args.restart,
+                           processes=args.processes, mpi=args.mpi,
+                           on_start=lambda run_: output.info(describe_plan(run_)),
+                           progress=line.update)
+    finally:
+        line.close()
+    lines = list(outcome.summary)
     if outcome.status == "stopped":
-        print(f"stopped after {outcome.done}/{outcome.total} points; everything finished is "
-              "written; run the same command with --resume to continue", flush=True)
+        lines.append(f"stopped after {outcome.done}/{outcome.total} points; everything "
+                     "finished is written; run the same command with --resume to continue")
+    output.result({"grid": outcome.path, "status": outcome.status, "done": outcome.done,
+                   "total": outcome.total, "summary": list(outcome.summary)},
+                  "\n".join(lines))
+    if outcome.status == "stopped":
         return EXIT_CODES.get(outcome.stopped_by or "", 1)
     return 0

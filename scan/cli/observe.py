@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from scan.cli.output import Output, add_output_options
 from scan.config.load import apply_override
 from scan.config.schema import ObservablesSection
 from scan.config.spec import N_GRID_MAX, build_section
@@ -28,31 +29,52 @@ EPILOG = """example:
 """
 
 
+#: The PBH-convention options: flag, PBHConventions field, type, help text.
+CONVENTION_OPTIONS: tuple[tuple[str, str, type, str], ...] = (
+    ("--window", "window", str, "smoothing window of the density variance; thresholds are "
+                                "window-specific"),
+    ("--criterion", "criterion", str, "collapse criterion"),
+    ("--threshold", "threshold", float, "C_th (compaction) or delta_c; must match the window"),
+    ("--mass-function", "mass_function", str, "critical collapse (extended) or monochromatic "
+                                              "M = gamma M_H"),
+    ("--gamma-c", "gamma_c", float, "critical-collapse exponent"),
+    ("--K", "K", float, "critical-collapse coefficient K in M = K M_H (delta - delta_c)"
+                        "^gamma_c"),
+    ("--gamma", "gamma", float, "M/M_H of the monochromatic mass function"),
+    ("--ps-factor", "ps_factor", float, "prefactor of the Press-Schechter-like integral, "
+                                        "1 or 2"),
+    ("--omega-dm-h2", "omega_dm_h2", float, "dark-matter density the PBH fraction refers to"),
+)
+
+
 def add_parser(subparsers) -> argparse.ArgumentParser:
     """Register ``observe``."""
-    p = subparsers.add_parser("observe", help="Omega_GW h^2(f) and f_PBH(M) from a P_zeta table",
-                              epilog=EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p = subparsers.add_parser(
+        "observe", help="Omega_GW h^2(f) and f_PBH(M) from a P_zeta table",
+        description="Induced GWs today and the PBH mass function of your own curvature "
+                    "spectrum, written to an HDF5 file (groups gw and pbh). A non-finite "
+                    "f_PBH total (the spectrum or the conventions out of range) exits 2 "
+                    "after the file is written.",
+        epilog=EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("spectrum", metavar="SPECTRUM", help="CSV (k [Mpc^-1], P_zeta) or zetascan .h5")
     p.add_argument("--out", help="output HDF5 (default: SPECTRUM stem + _observables.h5)")
     p.add_argument("--figures", metavar="DIR", help="write gw and pbh figures (PDF, PNG) here")
     p.add_argument("--n-f", type=int, default=200, help="number of frequencies (default 200)")
     p.add_argument("--n-m", type=int, default=200, help="number of PBH masses (default 200)")
-    p.add_argument("--gstar-table", metavar="CSV", help="g_* table: T [GeV], g_rho, g_s")
-    p.add_argument("--n-eff", type=float, default=cosmo.N_EFF_DEFAULT, help="N_eff today")
+    p.add_argument("--gstar-table", metavar="CSV", help="g_* table: T [GeV], g_rho, g_s "
+                   "(default: the built-in table of observables.gstar)")
+    p.add_argument("--n-eff", type=float, default=cosmo.N_EFF_DEFAULT,
+                   help="N_eff today (default %(default)s)")
     d = PBHConventions()
-    p.add_argument("--window", choices=WINDOWS, default=d.window)
-    p.add_argument("--criterion", choices=CRITERIA, default=d.criterion)
-    p.add_argument("--threshold", type=float, default=d.threshold,
-                   help="C_th (compaction) or delta_c; must match the window")
-    p.add_argument("--mass-function", choices=MASS_FUNCTIONS, default=d.mass_function)
-    p.add_argument("--gamma-c", type=float, default=d.gamma_c, help="critical exponent")
-    p.add_argument("--K", type=float, default=d.K, help="critical-collapse coefficient")
-    p.add_argument("--gamma", type=float, default=d.gamma, help="M/M_H (monochromatic)")
-    p.add_argument("--ps-factor", type=float, default=d.ps_factor)
-    p.add_argument("--omega-dm-h2", type=float, default=d.omega_dm_h2)
+    for flag, field, kind, text in CONVENTION_OPTIONS:
+        choices = {"window": WINDOWS, "criterion": CRITERIA,
+                   "mass_function": MASS_FUNCTIONS}.get(field)
+        p.add_argument(flag, dest=field, type=kind, choices=choices,
+                       default=getattr(d, field), help=f"{text} (default %(default)s)")
     p.add_argument("--set", action="append", metavar="observables.KEY=VALUE",
                    help="override an [observables] key as in zetascan solve, e.g. "
                         "observables.non_gaussianity=local (repeatable)")
+    add_output_options(p)
     return p
 
 
@@ -103,18 +125,31 @@ def _draw(folder: str):
     return draw
 
 
+#: Options that say how the output is printed, not how it is computed (not recorded).
+_PRINT_OPTIONS = ("json", "quiet", "verbose")
+
+
 def run(args: argparse.Namespace) -> int:
-    """Compute both observables, write the HDF5 file (and figures); exit code."""
+    """Compute both observables, write the HDF5 file (and figures); exit code.
+
+    A non-finite f_PBH total is bad input: exit 2 with one line, before anything is written.
+    """
+    output = Output.of(args)
     check_grid_sizes(args)
     done = observe_spectrum(args.spectrum, observables_section(args), out=args.out,
                             options={k: v for k, v in vars(args).items()
-                                     if not k.startswith("_")},
+                                     if not k.startswith("_") and k not in _PRINT_OPTIONS},
                             draw=_draw(args.figures) if args.figures else None)
     obs = done.observables
     for note in obs.notes:
-        print(f"zetascan observe: warning: {note}")
-    print(f"wrote {done.out}: max Omega_GW h^2 = {obs.omega_gw_h2_peak:.3e} at "
-          f"f = {obs.f_gw_peak:.3e} Hz; f_PBH total = {obs.f_pbh_total:.3e}")
+        output.note(f"zetascan observe: warning: {note}")
+    text = (f"wrote {done.out}: max Omega_GW h^2 = {obs.omega_gw_h2_peak:.3e} at "
+            f"f = {obs.f_gw_peak:.3e} Hz; f_PBH total = {obs.f_pbh_total:.3e}")
     if done.figures:
-        print("figures: " + ", ".join(str(p) for p in done.figures))
+        text += "\nfigures: " + ", ".join(str(p) for p in done.figures)
+    output.result({"result": done.out, "input": str(args.spectrum),
+                   "f_peak_Hz": obs.f_gw_peak, "omega_gw_h2_peak": obs.omega_gw_h2_peak,
+                   "f_pbh_total": obs.f_pbh_total,
+                   "conventions": obs.conventions.as_attrs(), "notes": list(obs.notes),
+                   "figures": list(done.figures)}, text)
     return 0

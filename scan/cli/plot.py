@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import argparse
 
+from scan.cli.output import Output, add_output_options
 from scan.plots.make import plot_result
 from scan.plots.sources import KINDS
 from scan.sampler.bands import N_SAMPLES, SEED
@@ -55,6 +56,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         help=f"posterior samples drawn for the bands (default {N_SAMPLES})")
     parser.add_argument("--seed", type=int, default=SEED,
                         help=f"seed of that draw (default {SEED})")
+    add_output_options(parser)
     return parser
 
 
@@ -63,7 +65,9 @@ def run(args: argparse.Namespace) -> int:
 
     plotted = plot_result(args.result, args.kind, out=args.out, chain=args.chain,
                           curves=args.curves, samples=args.samples, seed=args.seed)
+    output = Output.of(args)
     for note in plotted.notes:
-        print(f"note: {note}")
-    print("\n".join(f"figure: {p}" for p in plotted.paths))
+        output.note(f"note: {note}")
+    output.result({"figures": list(plotted.paths), "notes": list(plotted.notes)},
+                  "\n".join(f"figure: {p}" for p in plotted.paths))
     return 0

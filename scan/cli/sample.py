@@ -2,9 +2,9 @@
 from __future__ import annotations
 
 import argparse
-import sys
-import time
+from collections.abc import Callable
 
+from scan.cli.output import Output, ProgressLine, add_output_options
 from scan.config import load_config
 from scan.pool import BasePool
 from scan.sampler.command import sample_run
@@ -46,58 +46,39 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                              "python -m mpi4py.futures)")
     parser.add_argument("--restart", action="store_true",
                         help="discard an existing chain file and start again")
+    add_output_options(parser)
     return parser
 
 
-class _Reporter:
-    """Progress: a tqdm bar on a terminal, plain periodic lines otherwise."""
+def _reporter(line: ProgressLine) -> Callable[[Progress], None]:
+    """Sampler progress as a :class:`~scan.cli.output.ProgressLine` (steps of max_steps)."""
 
-    def __init__(self, every_s: float, max_steps: int, start: int) -> None:
-        self.every_s, self.last = every_s, time.monotonic()
-        self.bar = None
-        if sys.stdout.isatty():
-            from tqdm import tqdm
-
-            self.bar = tqdm(total=max_steps, initial=start, unit="step", dynamic_ncols=True)
-
-    def __call__(self, p: Progress) -> None:
+    def show(p: Progress) -> None:
         tau = "-" if p.tau_max is None else f"{p.tau_max:.1f}"
-        if self.bar is not None:
-            self.bar.update(p.step - self.bar.n)
-            self.bar.set_postfix_str(f"acc={p.acceptance:.2f} tau={tau}", refresh=False)
-            return
-        now = time.monotonic()
-        if now - self.last < self.every_s:
-            return
-        self.last = now
-        rate = p.steps_this_run / p.elapsed_s if p.elapsed_s > 0 else 0.0
-        eta = (p.max_steps - p.step) / rate if rate > 0 else float("nan")
         ratio = "-" if p.n_over_tau is None else f"{p.n_over_tau:.1f}"
-        print(f"step {p.step}/{p.max_steps}  acceptance {p.acceptance:.3f}  tau {tau}  "
-              f"N/tau {ratio}  {rate:.1f} steps/s  eta(max_steps) {eta:.0f} s", flush=True)
+        line.update(p.step, p.max_steps,
+                    extra=f"acceptance {p.acceptance:.3f}, tau {tau}, N/tau {ratio}")
 
-    def close(self) -> None:
-        if self.bar is not None:
-            self.bar.close()
+    return show
 
 
 def run(args: argparse.Namespace) -> int:
     """Start or resume the run; the exit code tells how it ended (see the epilog)."""
     config = load_config(args.config, overrides=args.overrides)
-    reporter = _Reporter(config.sampler.progress_every_s, config.sampler.max_steps, 0)
+    output = Output.of(args)
+    line = output.progress("sample", "step", config.sampler.progress_every_s)
+
+    def started(plan: RunPlan, pool: BasePool) -> None:
+        output.info(f"sampling {plan.priors.dim} parameters with {config.sampler.walkers} "
+                    f"walkers ({pool.describe()}) -> {plan.path}")
     try:
         outcome = sample_run(config, out=args.out, restart=args.restart,
-                             processes=args.processes, mpi=args.mpi, on_start=_started,
-                             on_progress=reporter)
+                             processes=args.processes, mpi=args.mpi, on_start=started,
+                             on_progress=_reporter(line))
     finally:
-        reporter.close()
-    print(format_outcome(outcome), flush=True)
+        line.close()
+    output.result(outcome, format_outcome(outcome))
     return EXIT_CODES.get(outcome.stopped_by or "", 1) if outcome.status == "stopped" else 0
-
-
-def _started(plan: RunPlan, pool: BasePool) -> None:
-    print(f"sampling {plan.priors.dim} parameters with {plan.config.sampler.walkers} "
-          f"walkers ({pool.describe()}) -> {plan.path}", flush=True)
 
 
 def format_outcome(outcome: RunOutcome) -> str:

@@ -2,10 +2,9 @@
 from __future__ import annotations
 
 import argparse
-import json
-
 from pathlib import Path
 
+from scan.cli.output import Output, add_output_options
 from scan.evidence.compare import nested_summary
 from scan.sampler.summary import posterior_samples, summarize
 
@@ -19,12 +18,12 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     """Register ``summary``."""
     parser = subparsers.add_parser(
         "summary", help="summarise a posterior run (medians, intervals, convergence)",
-        description="Medians and 68 %% / 95 %% intervals of the parameters and derived "
+        description="Medians and 68 % / 95 % intervals of the parameters and derived "
                     "quantities after burn-in and thinning, the autocorrelation times, "
                     "and the counts of invalid-model reasons.",
         epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("run", help="run folder (containing chain.h5) or chain file")
-    parser.add_argument("--json", action="store_true", help="print JSON")
+    add_output_options(parser)
     return parser
 
 
@@ -34,7 +33,7 @@ def run(args: argparse.Namespace) -> int:
     chain = Path(info["file"])
     post = posterior_samples(chain)
     info["nested"] = nested_summary(chain.parent, post["names"], post["samples"])
-    print(json.dumps(info, indent=2) if args.json else format_summary(info))
+    Output.of(args).result(info, format_summary(info))
     return 0
 
 

@@ -2,11 +2,9 @@
 from __future__ import annotations
 
 import argparse
-import sys
-import time
-from collections.abc import Callable
 
 from scan.cli import with_plugin_note
+from scan.cli.output import Output, add_output_options
 from scan.config import load_config
 from scan.errors import ConfigError
 from scan.pool import choose_pool
@@ -30,8 +28,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                     "parallel, appended to <output_dir>/<name>/training.h5 as points "
                     "finish), refine it adaptively, fit the emulator, validate it on "
                     "held-out points and write <output_dir>/<name>/surrogate.h5.",
-        epilog=with_plugin_note(EXAMPLE),
-        formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE), formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", nargs="?", help="run configuration (TOML)")
     parser.add_argument("--points", type=int, default=None, metavar="N",
                         help="design points (default: surrogate.points)")
@@ -45,37 +42,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         default=[], help="override a config key (repeatable)")
     parser.add_argument("--report", metavar="FILE", default=None,
                         help="only reprint the validation report of a surrogate file")
+    add_output_options(parser)
     return parser
-
-
-def _progress() -> Callable[[int, int, str], None]:
-    """A tqdm bar on a terminal, plain periodic log lines otherwise."""
-    state: dict = {"bar": None, "label": None, "last": 0.0, "t0": time.monotonic(), "n0": 0}
-
-    def update(done: int, total: int, label: str) -> None:
-        if sys.stderr.isatty():
-            from tqdm import tqdm
-
-            if state["label"] != label:
-                if state["bar"] is not None:
-                    state["bar"].close()
-                state["bar"] = tqdm(total=total, initial=done, desc=label, unit="point")
-                state["label"] = label
-            bar = state["bar"]
-            bar.total = total
-            bar.update(done - bar.n)
-            return
-        now = time.monotonic()
-        if state["label"] != label:
-            state.update(label=label, t0=now, n0=done, last=0.0)
-        if now - state["last"] >= LOG_EVERY_S or done >= total:
-            rate = (done - state["n0"]) / max(now - state["t0"], 1e-9)
-            eta = (total - done) / rate if rate > 0 else float("nan")
-            print(f"train [{label}]: {done}/{total} points, {rate:.2f} points/s, "
-                  f"ETA {eta:.0f} s", file=sys.stderr, flush=True)
-            state["last"] = now
-
-    return update
 
 
 def _pool(args: argparse.Namespace):
@@ -91,7 +59,9 @@ def run(args: argparse.Namespace) -> int:
     """Train (or reprint a report); exit 0 on success."""
 
     if args.report:
-        print("\n".join(format_report(read_report(args.report))))
+        report = read_report(args.report)
+        Output.of(args).result({"surrogate": args.report, "report": report},
+                               "\n".join(format_report(report)))
         return 0
     if not args.config:
         raise ConfigError("zetascan train", "CONFIG", "no run configuration given",
@@ -101,11 +71,19 @@ def run(args: argparse.Namespace) -> int:
 
 def _train(args: argparse.Namespace) -> int:
 
+    output = Output.of(args)
     config = load_config(args.config, overrides=args.overrides)
     pool, workers = _pool(args)
+    line = output.progress("train", "point", LOG_EVERY_S)
     with pool:
-        outcome = train_surrogate(config, pool.map, workers=workers, points=args.points,
-                                  resume=args.resume, progress=_progress())
-    print("\n".join(format_report(outcome.report)
-                    + [f"training store: {outcome.training}", f"surrogate: {outcome.surrogate}"]))
+        output.detail(f"training on {workers} worker(s)")
+        outcome = train_surrogate(
+            config, pool.map, workers=workers, points=args.points, resume=args.resume,
+            progress=lambda done, total, label: line.update(done, total, f"train [{label}]"))
+    line.close()
+    output.result({"training_store": outcome.training, "surrogate": outcome.surrogate,
+                   "report": outcome.report},
+                  "\n".join(format_report(outcome.report)
+                            + [f"training store: {outcome.training}",
+                               f"surrogate: {outcome.surrogate}"]))
     return 0

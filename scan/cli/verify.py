@@ -2,12 +2,9 @@
 from __future__ import annotations
 
 import argparse
-import json
-import sys
-import time
-from collections.abc import Callable
 
 from scan.cli import with_plugin_note
+from scan.cli.output import Output, add_output_options
 from scan.errors import ZetascanError
 from scan.evidence.file import write_shift
 from scan.evidence.reweight import evidence_shift, ln_z_of, open_nested, shift_lines
@@ -73,7 +70,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     parser.add_argument("--nested", action="store_true",
                         help="verify the nested samples of evidence.h5 and report how "
                              "ln Z moves")
-    parser.add_argument("--json", action="store_true", help="print the report as JSON")
+    add_output_options(parser)
     return parser
 
 
@@ -84,52 +81,29 @@ def run(args: argparse.Namespace) -> int:
         raise ZetascanError(f"--min-ess {args.min_ess}: give a fraction in (0, 1]")
     if not args.max_shift > 0.0:
         raise ZetascanError(f"--max-shift {args.max_shift}: give a positive number")
-    progress = None if args.json else _Progress()
-
+    output = Output.of(args)
+    line = output.progress("verify", "exact solve", every_s=10.0)
     opened: dict[str, Run] = {}
 
     def started(run_: Run, pool: BasePool) -> None:
         opened["run"] = run_
-        if progress is not None:
-            print(f"verifying {run_.path}: {args.samples} exact solves ({pool.describe()})",
-                  flush=True)
+        output.info(f"verifying {run_.path}: {args.samples} exact solves ({pool.describe()})")
 
-    result = verify_command(args.run, args.samples, processes=args.processes, mpi=args.mpi,
-                            thresholds=Thresholds(args.min_ess, args.max_shift),
-                            resume=args.resume, on_start=started, on_progress=progress,
-                            log=_log(args.json), opener=open_nested if args.nested else None)
+    try:
+        result = verify_command(args.run, args.samples, processes=args.processes, mpi=args.mpi,
+                                thresholds=Thresholds(args.min_ess, args.max_shift),
+                                resume=args.resume, on_start=started, on_progress=line.update,
+                                log=output.note, opener=open_nested if args.nested else None)
+    finally:
+        line.close()
     report, lines = result.report, []
     if args.nested:
         shift = evidence_shift(result.evaluated)
         write_shift(opened["run"].path, shift)
         report = {**report, "evidence_shift": shift}
         lines = shift_lines(shift, ln_z_of(opened["run"].path))
-    print(json.dumps(report, indent=2) if args.json
-          else "\n".join([format_report(report), *lines]))
+    output.result(report, lambda: "\n".join([format_report(report), *lines]))
     return 0
-
-
-def _log(as_json: bool) -> Callable[[str], None]:
-    """Notes on earlier partial results: stdout, or stderr when stdout carries JSON."""
-    stream = sys.stderr if as_json else sys.stdout
-    return lambda line: print(line, file=stream, flush=True)
-
-
-class _Progress:
-    """A line on the exact solves done (resumed ones included), at most every few seconds."""
-
-    def __init__(self, every_s: float = 10.0) -> None:
-        self.t0 = self.last = time.monotonic()
-        self.every_s = every_s
-
-    def __call__(self, done: int, total: int) -> None:
-        now = time.monotonic()
-        if done < total and now - self.last < self.every_s:
-            return
-        self.last = now
-        rate = done / (now - self.t0) if now > self.t0 else 0.0
-        eta = (total - done) / rate if rate > 0 else float("nan")
-        print(f"  {done}/{total} exact solves, {rate:.2f}/s, eta {eta:.0f} s", flush=True)
 
 
 #: Width of the name column of the report.

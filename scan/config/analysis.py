@@ -23,15 +23,16 @@ class LikelihoodSection:
     """``[likelihood]``: bound curves, CMB priors and the surrogate of a posterior run."""
 
     curves: tuple[str, ...] = spec("bound-curve CSV files and scalar-bound TOML files "
-                                   "(relative to the working directory); when given, "
+                                   "(relative to the config file); when given, "
                                    "directory is not read", default_factory=tuple)
-    directory: str = spec("folder whose *.csv curves and *.toml scalar bounds are all used "
-                          "when curves is empty", "constraints/demo")
+    directory: str = spec("folder (relative to the config file) whose *.csv curves and "
+                          "*.toml scalar bounds are all used when curves is empty; no default: "
+                          "a run that needs bounds names them here or in curves", "")
     cmb_priors: bool = spec("Planck 2018 n_s and ln(10^10 A_s) priors and the BICEP/Keck "
                             "2021 r limit: true adds them once, false leaves them out even when a "
                             "scalar file asks for them", True)
-    surrogate: str = spec("surrogate file from 'zetascan train' (default: "
-                          "<run.output_dir>/<run.name>/surrogate.h5)", "")
+    surrogate: str = spec("surrogate file from 'zetascan train', relative to the config "
+                          "file (default: <run.output_dir>/<run.name>/surrogate.h5)", "")
     pbh_combine: str = spec("how several f_PBH bounds combine", "max",
                             choices=("max", "quadrature"))
     sensitivity_mode: str = spec("sensitivity curves only report the SNR, or exclude / "

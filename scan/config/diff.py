@@ -51,10 +51,12 @@ def config_diff(old: RunConfig, new: RunConfig) -> list[tuple[str, Any, Any]]:
     return rows
 
 
-def stored_config(text: str, overrides: tuple[str, ...], run_name: str) -> RunConfig:
-    """Rebuild the config a run file was made with."""
+def stored_config(text: str, overrides: tuple[str, ...], run_name: str,
+                  base_dir: str = "") -> RunConfig:
+    """Rebuild the config a run file was made with (relative input paths against
+    ``base_dir``, the stored config file's folder)."""
     return load_config_text(text, source="<stored config>", overrides=overrides,
-                            default_name=run_name)
+                            default_name=run_name, base_dir=base_dir)
 
 
 def result_config(path: str | Path) -> RunConfig:
@@ -62,7 +64,7 @@ def result_config(path: str | Path) -> RunConfig:
     nothing is imported: plug-ins are only named)."""
     stored = read_stored_config(path)
     return load_config_text(stored.text, f"{path} (stored config)", stored.overrides,
-                            stored.run_name)
+                            stored.run_name, stored.base_dir)
 
 
 def format_diff(rows: list[tuple[str, Any, Any]]) -> str:

@@ -87,7 +87,8 @@ def load_config(path: str | Path, overrides: tuple[str, ...] | list[str] = ()):
     Returns
     -------
     scan.config.schema.RunConfig
-        The frozen configuration, with its source text and overrides attached.
+        The frozen configuration, with its source text and overrides attached; relative
+        input paths resolved against the file's folder (``base_dir``).
     """
     source = str(path)
     try:
@@ -97,12 +98,46 @@ def load_config(path: str | Path, overrides: tuple[str, ...] | list[str] = ()):
     except (OSError, UnicodeDecodeError) as err:
         raise ConfigError(source, "", f"cannot read the file ({err})") from None
     return load_config_text(text, source=source, overrides=tuple(overrides),
-                            default_name=Path(path).stem)
+                            default_name=Path(path).stem,
+                            base_dir=str(Path(path).resolve().parent))
+
+
+#: Input-file keys whose relative paths resolve against the config file's folder.
+INPUT_PATH_KEYS: tuple[tuple[str, str], ...] = (
+    ("likelihood", "curves"), ("likelihood", "directory"), ("likelihood", "surrogate"),
+    ("observables", "gstar_table"))
+
+
+def resolve_path(name: str, base_dir: str | Path) -> str:
+    """``name`` made absolute against ``base_dir`` ("" = the working directory); an empty
+    name (an unset key) stays empty."""
+    if not name:
+        return name
+    path = Path(name).expanduser()
+    return str(path if path.is_absolute() else (Path(base_dir or ".") / path).resolve())
+
+
+def with_resolved_paths(config: RunConfig, base_dir: str | Path):
+    """``config`` with every input path of :data:`INPUT_PATH_KEYS` absolute."""
+    for section_name, key in INPUT_PATH_KEYS:
+        section = getattr(config, section_name)
+        value = getattr(section, key)
+        value = (tuple(resolve_path(v, base_dir) for v in value) if isinstance(value, tuple)
+                 else resolve_path(value, base_dir))
+        config = dataclasses.replace(
+            config, **{section_name: dataclasses.replace(section, **{key: value})})
+    return dataclasses.replace(config, base_dir=str(base_dir))
 
 
 def load_config_text(text: str, source: str = "<config>", overrides: tuple[str, ...] = (),
-                     default_name: str = "run"):
-    """Validate config ``text`` (see :func:`load_config`)."""
+                     default_name: str = "run", base_dir: str | Path = ""):
+    """Validate config ``text`` (see :func:`load_config`).
+
+    Relative input paths (``likelihood.curves``, ``likelihood.directory``,
+    ``likelihood.surrogate``, ``observables.gstar_table``) resolve against ``base_dir``,
+    the folder of the file the text came from ("" = the working directory);
+    ``run.output_dir`` stays relative to the working directory.
+    """
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
@@ -116,4 +151,5 @@ def load_config_text(text: str, source: str = "<config>", overrides: tuple[str, 
                           "write a [run] section, or --set run.name=... for one key")
     run.setdefault("name", default_name)
     config = build_section(RunConfig, raw, "", source)
-    return dataclasses.replace(config, source=source, text=text, overrides=tuple(overrides))
+    config = dataclasses.replace(config, source=source, text=text, overrides=tuple(overrides))
+    return with_resolved_paths(config, base_dir)

@@ -224,8 +224,8 @@ class ObservablesSection:
                     minimum=8, maximum=N_GRID_MAX)
     n_m: int = spec("number of PBH masses (log-spaced)", 200, minimum=8, maximum=N_GRID_MAX)
     n_eff: float = spec("N_eff today (radiation density, g_* today)", 3.044, minimum=0.0)
-    gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s "
-                            "(replaces the built-in table named by gstar)", "")
+    gstar_table: str = spec("optional CSV of g_*(T): temperature [GeV], g_rho, g_s, relative "
+                            "to the config file (replaces the built-in table of gstar)", "")
     gstar: str = spec("built-in g_*(T) table: the published lattice-based table of Saikawa "
                       "& Shirai 2018, or ideal-gas (our Standard-Model computation, the "
                       "default before issue 15)", "saikawa-shirai-2018",
@@ -308,6 +308,7 @@ class RunConfig:
     source: str = dataclasses.field(default="<config>", compare=False)
     text: str = dataclasses.field(default="", compare=False, repr=False)
     overrides: tuple[str, ...] = dataclasses.field(default=(), compare=False)
+    base_dir: str = dataclasses.field(default="", compare=False)  # inputs resolved against
 
     @property
     def effective_text(self) -> str:

@@ -137,7 +137,8 @@ def check_config(config: RunConfig, path: str | Path, resume: bool) -> None:
                              "continue it or --restart to overwrite it")
     stored = read_grid(path)
     old = stored_config(stored["config_text"], stored["overrides"],
-                        str(stored["attrs"].get("run_name", config.run.name)))
+                        str(stored["attrs"].get("run_name", config.run.name)),
+                        stored["base_dir"])
     rows = [row for row in config_diff(old, config)
             if not row[0].startswith(RESUMABLE_PREFIXES) and row[0] not in LOCATION_KEYS]
     if rows:

@@ -74,7 +74,7 @@ def create_grid_file(path: str | Path, config: Any, plan: GridPlan, infos: list[
         with h5py.File(tmp, "w", libver="latest") as handle:
             write_attrs(handle, provenance(config.effective_text, config.run.seed))
             write_attrs(handle, {"kind": KIND, "run_name": config.run.name, **digests})
-            write_config(handle, config.effective_text, config.overrides)
+            write_config(handle, config.effective_text, config.overrides, config.base_dir)
             g = handle.create_group("grid")
             names = plan.priors.names
             write_attrs(g, {"x_key": plan.x.key, "y_key": plan.y.key, "x_label": plan.x.label,
@@ -231,6 +231,7 @@ def read_grid(path: str | Path) -> dict[str, Any]:
                             for name, t in g["terms"].items()}
             stored = stored_config_of(handle, str(handle.attrs.get("run_name", "run")))
             out["config_text"], out["overrides"] = stored.text, stored.overrides
+            out["base_dir"] = stored.base_dir
     except KeyError as err:
         raise InputFileError(str(path), f"incomplete grid file: missing {err}; was it "
                              "written by an older or unfinished zetascan grid?") from None

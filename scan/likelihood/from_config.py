@@ -29,14 +29,20 @@ def curve_paths_of(config: RunConfig) -> tuple[str, ...]:
             if not path.is_file() or path.suffix not in (".csv", ".toml"):
                 raise ConfigError(config.source, f"likelihood.curves[{i}]",
                                   f"'{name}' is not a .csv curve or .toml scalar-bound file",
-                                  "give an existing file, relative to the working directory")
+                                  "give an existing file, relative to the config file")
         return tuple(section.curves)
+    if not section.directory:
+        raise ConfigError(config.source, "likelihood.curves",
+                          "no bound curves: the run names neither likelihood.curves nor "
+                          "likelihood.directory",
+                          "list your curve files in likelihood.curves, relative to the config "
+                          "file; the invented demo curves are in constraints/demo")
     folder = Path(section.directory)
     if not folder.is_dir():
         raise ConfigError(config.source, "likelihood.directory",
                           f"'{section.directory}' is not a folder",
-                          "give an existing folder of bound curves (e.g. constraints/demo), "
-                          "relative to the working directory, or list likelihood.curves")
+                          "give an existing folder of bound curves, relative to the config "
+                          "file, or list likelihood.curves")
     paths = tuple(str(p) for p in sorted(folder.glob("*.csv")) + sorted(folder.glob("*.toml")))
     if not paths:
         raise ConfigError(config.source, "likelihood.directory",

@@ -73,8 +73,11 @@ def solve_to_file(config: RunConfig, out: str | Path | None = None,
     return Solved(result, out, figures)
 
 
-_BACKGROUND_UNITS = {"N": "e-folds", "phi": "M_p", "chi": "M_p", "dchi_dN": "M_p",
-                     "H": "M_p (for V0 = 1; scales as sqrt(V0))", "eps1": "1", "eps2": "1"}
+_BACKGROUND_UNITS = {"N": store.UNITS_EFOLDS, "phi": store.UNITS_M_P, "chi": store.UNITS_M_P,
+                     "dchi_dN": store.UNITS_M_P, "H": store.UNITS_M_P, "eps1": "1", "eps2": "1"}
+_BACKGROUND_NOTES = {"N": "e-folds (ln a)", "phi": "inflaton [reduced Planck mass M_p]",
+                     "chi": "canonical field [M_p]", "dchi_dN": "d chi / dN [M_p per e-fold]",
+                     "H": "Hubble rate [M_p] for V0 = 1 (scales as sqrt(V0))"}
 
 
 def write_solve_result(path: str | Path, config: RunConfig, result: SolveResult) -> Path:
@@ -83,7 +86,7 @@ def write_solve_result(path: str | Path, config: RunConfig, result: SolveResult)
     with store.atomic_h5(path) as handle:
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
         store.write_attrs(handle, {"valid": result.valid, "reason": result.reason})
-        store.write_config(handle, config.text, config.overrides)
+        store.write_config(handle, config.text, config.overrides, config.base_dir)
         _write_background(handle.create_group("background"), result)
         _write_cmb(handle.create_group("cmb"), result)
         if result.spectrum is not None:
@@ -96,15 +99,16 @@ def write_solve_result(path: str | Path, config: RunConfig, result: SolveResult)
 def _write_background(group: h5py.Group, result: SolveResult) -> None:
     bg = result.background
     for name, units in _BACKGROUND_UNITS.items():
-        store.write_dataset(group, name, getattr(bg, name), units)
+        store.write_dataset(group, name, getattr(bg, name), units,
+                            _BACKGROUND_NOTES.get(name, ""))
+    store.attach_scale(group, "N", *(n for n in _BACKGROUND_UNITS if n != "N"))
     store.write_attrs(group, {"valid": bg.valid, "reason": bg.reason, "N_start": bg.N_start,
                               "N_end": bg.N_end, "n_crossings": len(bg.crossings)})
     if bg.crossings:
         sub = group.create_group("crossings")
         for fld in dataclasses.fields(bg.crossings[0]):
             values = [getattr(c, fld.name) for c in bg.crossings]
-            units = "1" if fld.name == "index" else ("M_p" if fld.name == "position"
-                                                     else "e-folds")
+            units = store.UNITS_M_P if fld.name == "position" else "1"  # index, e-folds
             store.write_dataset(sub, fld.name, values, units)
 
 
@@ -112,7 +116,7 @@ def _write_cmb(group: h5py.Group, result: SolveResult) -> None:
     p, s = result.pivot, result.spectrum
     nan = math.nan
     attrs = {"k_star": nan, "N_star": nan, "n_s": nan, "r": nan, "V0": nan,
-             "source": "none", "units_k_star": "Mpc^-1", "units_V0": "M_p^4"}
+             "source": "none", "units_k_star": "Mpc^-1", "units_V0": store.UNITS_M_P4}
     if p is not None:
         attrs.update(k_star=p.k_star, N_star=p.N_star, n_s=p.n_s, r=p.r, V0=p.V0,
                      n_s_slow_roll=p.n_s, r_slow_roll=p.r, eps1=p.eps1, eps2=p.eps2,
@@ -130,12 +134,14 @@ def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
     store.write_dataset(group, "P_zeta", s.P_zeta, "1", "dimensionless curvature power spectrum")
     store.write_dataset(group, "P_tensor", s.P_tensor, "1", "dimensionless tensor power "
                         "spectrum (both polarisations)")
-    store.write_dataset(group, "N_exit", s.N_exit, "e-folds", "e-fold of horizon exit k = aH")
+    store.write_dataset(group, "N_exit", s.N_exit, store.UNITS_EFOLDS,
+                        "e-fold of horizon exit k = aH")
+    store.attach_scale(group, "k", "P_zeta", "P_tensor", "N_exit")
     store.write_attrs(group, {
         "k_peak": s.k_peak, "P_peak": s.P_peak, "k_dip": s.k_dip, "P_dip": s.P_dip,
         "n_s": s.n_s, "r": s.r, "alpha_s": s.alpha_s, "A_s": s.A_s, "V0": s.V0,
         "N_star": s.N_star, "k_star": s.k_star, "usr_efolds": s.usr_efolds,
-        "valid": s.valid, "reason": s.reason, "units_k_peak": "Mpc^-1", "units_V0": "M_p^4"})
+        "valid": s.valid, "reason": s.reason, "units_k_peak": "Mpc^-1", "units_V0": store.UNITS_M_P4})
     peaks = store.write_dataset(group, "peaks", as_records(result.peaks),
                                 "; ".join(f"{k}: {u}" for k, u in UNITS.items()),
                                 "every peak of P_zeta (prominence >= 1 dex), one row each: "
@@ -152,12 +158,14 @@ def write_observables(handle: h5py.Group, obs: Observables) -> None:
     store.write_dataset(gw, "f", obs.f_hz, "Hz", "GW frequency today")
     store.write_dataset(gw, "k", cosmo.f_to_k(obs.f_hz), "Mpc^-1", "comoving wavenumber")
     store.write_dataset(gw, "omega_gw_h2", obs.omega_gw_h2, "1", "Omega_GW,0 h^2 per ln f")
+    store.attach_scale(gw, "f", "k", "omega_gw_h2")
     store.write_attrs(gw, {"f_peak": obs.f_gw_peak, "omega_gw_h2_peak": obs.omega_gw_h2_peak,
                            "units_f_peak": "Hz", "notes": list(obs.notes) or ["none"]})
     pbh = handle.create_group("pbh")
     store.write_dataset(pbh, "M", obs.m_msun, "M_sun", "PBH mass")
     store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(obs.m_msun), "g", "PBH mass")
     store.write_dataset(pbh, "f_pbh", obs.f_pbh_per_lnm, "1", "fraction of dark matter per ln M")
+    store.attach_scale(pbh, "M", "M_g", "f_pbh")
     pbh.attrs["f_pbh_total"] = obs.f_pbh_total
     store.write_attrs(pbh, obs.conventions.as_attrs())
     write_zeta_map(pbh, obs)

@@ -112,7 +112,8 @@ def _check_resumable(plan: RunPlan, stored: runfile.Stored) -> bool:
     new_hash = store.config_hash(plan.config.effective_text)
     if new_hash == stored.config_sha256:
         return False
-    old = stored_config(stored.config_text, stored.overrides, stored.run_name)
+    old = stored_config(stored.config_text, stored.overrides, stored.run_name,
+                        stored.base_dir)
     rows = [row for row in config_diff(old, plan.config) if not resumable(row[0])]
     if rows:
         raise ConfigMismatchError(

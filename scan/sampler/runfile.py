@@ -191,7 +191,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
         store.write_attrs(handle, store.curve_attrs(curves or {}))
         handle.attrs["run_name"] = config.run.name
-        store.write_config(handle, config.effective_text, config.overrides)
+        store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",
                             "initial walker positions (parameter units)")
@@ -208,6 +208,7 @@ class Stored:
     iteration: int
     extras: Extras
     curves: dict[str, str] | None = None
+    base_dir: str = ""
 
 
 def read(path: str | Path) -> Stored:
@@ -231,7 +232,7 @@ def read(path: str | Path) -> Stored:
             iteration = int(handle[GROUP].attrs["iteration"]) if GROUP in handle else 0
             return Stored(config.text, str(handle.attrs["config_sha256"]), config.overrides,
                           config.run_name, iteration, Extras.read(handle),
-                          store.stored_digests(handle.attrs))
+                          store.stored_digests(handle.attrs), config.base_dir)
     except (OSError, KeyError) as err:
         raise InputFileError(str(path), f"cannot read the chain file ({err}); it may have "
                              "been damaged during a write: use --restart") from None
@@ -240,7 +241,7 @@ def read(path: str | Path) -> Stored:
 def update_config(path: Path, config: RunConfig, previous_sha256: str) -> None:
     """Store a changed-but-compatible config (resume with new max_steps etc.)."""
     with h5py.File(path, "a") as handle:
-        store.write_config(handle, config.effective_text, config.overrides)
+        store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         history = [str(v) for v in handle.attrs.get("previous_config_sha256", [])]
         handle.attrs["previous_config_sha256"] = history + [previous_sha256]
         handle.attrs["config_sha256"] = store.config_hash(config.effective_text)

@@ -28,9 +28,14 @@ from typing import Any
 import h5py
 import numpy as np
 
-from scan import __version__
+from scan.constants import M_PLANCK_REDUCED_GEV, ZETASCAN_VERSION as __version__  # noqa: I001
 from scan.errors import OutputError
 from scan.store.lock import RunLock
+
+#: ``units`` in reduced Planck units as a scaled GeV unit astropy reads ("M_p" would read
+#: as the proton mass); e-folds are dimensionless.
+UNITS_M_P, UNITS_M_P4 = f"{M_PLANCK_REDUCED_GEV:.6e} GeV", f"{M_PLANCK_REDUCED_GEV**4:.6e} GeV4"
+UNITS_EFOLDS: str = "1"
 
 #: Distributions whose versions go into every result file.
 DEPENDENCIES: tuple[str, ...] = ("numpy", "scipy", "h5py", "astropy", "emcee", "matplotlib",
@@ -105,6 +110,15 @@ def write_dataset(group: h5py.Group, name: str, data: Any, units: str,
     return dset
 
 
+def attach_scale(group: h5py.Group, scale: str, *names: str) -> None:
+    """Make ``group[scale]`` the dimension scale (xarray's coordinate) of ``names``."""
+    axis = group[scale]
+    axis.make_scale(scale)
+    for name in names:
+        if name in group and group[name].shape[:1] == axis.shape:
+            group[name].dims[0].attach_scale(axis)
+
+
 def write_attrs(obj: h5py.Group | h5py.Dataset, attrs: Mapping[str, Any]) -> None:
     """Set attributes, turning None into "none" and tuples of strings into lists."""
     for key, value in attrs.items():
@@ -115,14 +129,21 @@ def write_attrs(obj: h5py.Group | h5py.Dataset, attrs: Mapping[str, Any]) -> Non
         obj.attrs[key] = value
 
 
-def write_config(handle: h5py.File, config_text: str, overrides: tuple[str, ...] = ()) -> None:
-    """Store the config text (dataset ``config``) and its command-line overrides."""
+def write_config(handle: h5py.File, config_text: str, overrides: tuple[str, ...] = (),
+                 base_dir: str = "") -> None:
+    """Store the config text (dataset ``config``), its overrides and ``base_dir``."""
     if "config" in handle:
         del handle["config"]
     dset = handle.create_dataset("config", data=config_text, dtype=h5py.string_dtype())
     dset.attrs["units"] = "1"
     dset.attrs["format"] = "TOML"
     dset.attrs["overrides"] = list(overrides) if overrides else ["none"]
+    dset.attrs["base_dir"] = str(base_dir)
+
+
+def stored_base_dir(handle: h5py.File) -> str:
+    """The stored config's ``base_dir`` ("" before it was recorded)."""
+    return str(handle["config"].attrs.get("base_dir", ""))
 
 
 @contextlib.contextmanager

@@ -17,11 +17,13 @@ from scan.errors import InputFileError
 
 @dataclasses.dataclass(frozen=True)
 class StoredConfig:
-    """The config a result file was made with: its text, ``--set`` overrides, run name."""
+    """The config a result file was made with: its text, ``--set`` overrides, run name
+    and the folder of the config file it was read from."""
 
     text: str
     overrides: tuple[str, ...]
     run_name: str
+    base_dir: str = ""  # the config file's folder: relative input paths resolve against it
 
 
 def stored_config_of(handle: h5py.File, default_name: str = "run") -> StoredConfig:
@@ -30,7 +32,8 @@ def stored_config_of(handle: h5py.File, default_name: str = "run") -> StoredConf
     text = raw.decode("utf-8") if isinstance(raw, bytes) else str(raw)
     overrides = tuple(str(v) for v in handle["config"].attrs.get("overrides", [])
                       if str(v) != "none")
-    return StoredConfig(text, overrides, str(handle.attrs.get("run_name", default_name)))
+    return StoredConfig(text, overrides, str(handle.attrs.get("run_name", default_name)),
+                        str(handle["config"].attrs.get("base_dir", "")))
 
 
 def read_stored_config(path: str | Path) -> StoredConfig:

@@ -26,7 +26,7 @@ def configure(config, keys: Sequence[str], values: Sequence[float]):
     sets = tuple(f"{key}={float(value)!r}" for key, value in zip(keys, values))
     return load_config_text(config.text, source=config.source,
                             overrides=tuple(config.overrides) + sets,
-                            default_name=config.run.name)
+                            default_name=config.run.name, base_dir=config.base_dir)
 
 
 class SolvePoint:

@@ -18,7 +18,7 @@ SCALARS: tuple[str, ...] = ("ln_k_peak", "log10_P_peak", "n_s", "log10_r", "log1
 #: Units of the scalar targets (HDF5 ``units`` attributes).
 SCALAR_UNITS: dict[str, str] = {"ln_k_peak": "ln(Mpc^-1)", "log10_P_peak": "dex",
                                 "n_s": "1", "log10_r": "dex", "log10_V0": "dex(M_p^4)",
-                                "N_star": "e-folds"}
+                                "N_star": "1"}  # e-folds
 
 
 def shape_grid(span: float, points: int) -> np.ndarray:

@@ -79,7 +79,7 @@ def create_store(path: str | Path, config, space, x: np.ndarray, ident: dict) ->
         handle.attrs["parameter_priors"] = list(space.kinds)
         handle.attrs["parameter_low"] = np.array(space.low)
         handle.attrs["parameter_high"] = np.array(space.high)
-        write_config(handle, config.effective_text, config.overrides)
+        write_config(handle, config.effective_text, config.overrides, config.base_dir)
         handle.create_dataset("shape_x", data=np.asarray(x, float)).attrs["units"] = "1"
         plan = handle.create_group("plan")
         _extendable(plan, "u", (d,), "f8", "1")

@@ -73,7 +73,7 @@ def write_surrogate(path: str | Path, config, space: ParameterSpace, emulator: E
             handle.attrs[key] = value
         handle.attrs["kind"] = KIND
         handle.attrs["identity_json"] = json.dumps(ident, sort_keys=True)
-        write_config(handle, config.effective_text, config.overrides)
+        write_config(handle, config.effective_text, config.overrides, config.base_dir)
         grp = handle.create_group("surrogate")
         grp.attrs["parameter_keys"] = list(space.keys)
         grp.attrs["parameter_priors"] = list(space.kinds)

@@ -26,7 +26,7 @@ GROUP = "verify"
 BLOB_UNITS: dict[str, str] = {"k_peak": "Mpc^-1", "P_peak": "1", "f_gw_peak": "Hz",
                               "omega_gw_h2_peak": "1", "f_pbh_total": "1",
                               "M_pbh_peak": "M_sun", "n_s": "1", "r": "1",
-                              "N_star": "e-folds", "log_like": "1", "reason": "1"}
+                              "N_star": "1", "log_like": "1", "reason": "1"}
 
 
 def blob_units(name: str) -> str:

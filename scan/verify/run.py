@@ -41,7 +41,7 @@ from scan.sampler.summary import posterior_samples
 from scan.verify.compare import (MIN_SAMPLES, Evaluated, Thresholds, compare, draw_indices,
                                  jsonable, score_outcomes)
 from scan.verify.partial import draw_of, open_partial
-from scan.verify.report_file import read_report, write_group
+from scan.verify.report_file import write_group
 
 #: What to do when another process writes the chain (the lock names its PID).
 BUSY = ("another zetascan command is writing this chain (sample or verify); wait for it to "
@@ -97,7 +97,8 @@ def open_run(run: str | Path) -> Run:
                              f"'{extras.status}', {stored.iteration} steps): the run did not "
                              "finish; run 'zetascan sample CONFIG' again to complete it")
     config = dataclasses.replace(
-        stored_config(stored.config_text, stored.overrides, stored.run_name),
+        stored_config(stored.config_text, stored.overrides, stored.run_name,
+                      stored.base_dir),
         source=f"{path} (stored config)")
     if config.sampler.target != "posterior":
         raise ConfigError(config.source, "sampler.target",

@@ -1,0 +1,1 @@
+"""Your own model functions for zetascan's plug-in mechanism (tutorial example)."""

@@ -1,0 +1,97 @@
+"""The documentation that must follow the code: the methods bibliography (generated from
+the arXiv ids the code cites), the troubleshooting page (every invalid-model reason),
+CITATION.cff (valid, same version and licence as the package) and the tutorial."""
+from __future__ import annotations
+
+import importlib.util
+import re
+import tomllib
+from pathlib import Path
+
+import yaml
+
+from scan.posterior.reasons import REASONS
+
+ROOT = Path(__file__).resolve().parents[1]
+DOCS = ROOT / "docs"
+
+
+def _tool(name: str):
+    spec = importlib.util.spec_from_file_location(name, ROOT / "tests" / "tools" / f"{name}.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+def test_the_bibliography_is_generated_from_the_code_and_up_to_date():
+    bib = _tool("bibliography")
+    ids = bib.cited()
+    assert len(ids) >= 30 and set(ids) <= set(bib.REFERENCES)
+    assert (DOCS / "bibliography.md").read_text(encoding="utf-8") == bib.render(), \
+        "run: python tests/tools/bibliography.py --write"
+    assert set(bib.REFERENCES) == set(ids), "REFERENCES holds ids the code no longer cites"
+
+
+#: Where the solver's invalid-model reasons are written (the stage's own texts).
+REASON_SOURCES = ("scan/background/solve.py", "scan/background/pivot.py",
+                  "scan/modes/spectrum.py")
+#: Calls and assignments whose string argument is a reason text.
+REASON_TEXT = re.compile(r"(?:_invalid\(model, N_start, |why = \(?|invalid_spectrum\(|"
+                         r"_invalid_pivot\(|return False, \(?|return \(?)f?\"([a-zA-Z][^\"{]*)")
+
+
+def solver_reason_heads() -> set[str]:
+    """The fixed beginning of every reason text the solver stages can give."""
+    heads = set()
+    for name in REASON_SOURCES:
+        text = (ROOT / name).read_text(encoding="utf-8")
+        for match in REASON_TEXT.finditer(text):
+            head = match.group(1).strip()
+            if len(head) > 8 and " " in head:  # a sentence, not an identifier
+                heads.add(head)
+    return heads
+
+
+def test_troubleshooting_explains_every_invalid_model_reason():
+    page = (DOCS / "troubleshooting.md").read_text(encoding="utf-8")
+    for name in REASONS:
+        assert f"`{name}`" in page, name
+    heads = solver_reason_heads()
+    assert len(heads) >= 15, heads
+    missing = [h for h in sorted(heads) if h.rstrip(":(= ").lower() not in page.lower()]
+    assert not missing, f"docs/troubleshooting.md lacks: {missing}"
+
+
+def test_citation_file_is_valid_and_matches_the_package():
+    cff = yaml.safe_load((ROOT / "CITATION.cff").read_text(encoding="utf-8"))
+    project = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))["project"]
+    assert cff["cff-version"] == "1.2.0" and cff["type"] == "software"
+    assert cff["version"] == project["version"] and cff["license"] == project["license"]
+    assert cff["authors"] and cff["title"].startswith("zetascan") and cff["message"]
+    assert "bibliography" in cff["message"]
+
+
+def test_the_tutorial_config_and_plugin_are_the_ones_it_shows(monkeypatch):
+    """docs/tutorial/pole_plugin.toml loads from any folder, names its curves relative to
+    itself, and its plug-in potential is the alpha = 1 T-model it says it is (the built-in
+    family V/V0 = tanh^2(phi/sqrt(6 alpha)), Kallosh & Linde 2013, arXiv:1306.5220, from
+    memory); both are closed forms in double precision, so they agree to rounding."""
+    import numpy as np
+
+    from scan.config import load_config
+    from scan.likelihood.from_config import curve_paths_of
+    from scan.models import model_from_section
+
+    monkeypatch.syspath_prepend(str(DOCS / "tutorial"))
+    monkeypatch.chdir(ROOT.parent)
+    config = load_config(DOCS / "tutorial" / "pole_plugin.toml")
+    assert all(Path(p).is_file() for p in curve_paths_of(config))
+    text = (DOCS / "tutorial.md").read_text(encoding="utf-8")
+    for verb in ("solve", "train", "grid", "plot"):
+        assert f"$ zetascan {verb} docs/tutorial/pole_plugin.toml" in text or \
+            f"$ zetascan {verb} results/pole_plugin" in text, verb
+    plugin = model_from_section(config.model)
+    builtin = model_from_section(load_config(ROOT / "configs" / "tmodel_pole.toml").model)
+    phi = np.linspace(0.5, 7.0, 50)
+    assert np.allclose(plugin.V(phi), builtin.V(phi), rtol=1e-13, atol=0)
+    assert np.allclose(plugin.dV(phi), builtin.dV(phi), rtol=1e-13, atol=0)
