@@ -172,6 +172,9 @@ FILE_MODULES: set[str] = {"scan.store.hdf5", "scan.store.kinds", "scan.store.sto
                           "scan.surrogate.surrogate_file", "scan.verify.partial",
                           "scan.verify.report_file", "scan.pipeline.result_file",
                           "scan.pipeline.spectrum_file", "scan.evidence.file",
+                          # the Python API's readers of solve and observe results as
+                          # astropy Quantities (read only; the writers are in result_file)
+                          "scan.api.calls", "scan.api.records",
                           # not a file kind: it reads h5py's exception context to name the
                           # damaged file in an error message, and opens nothing
                           "scan.cli.failure"}

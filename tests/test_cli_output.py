@@ -95,11 +95,18 @@ def test_solve_observe_and_curves_json(tmp_path, capsys):
 def test_a_non_finite_f_pbh_is_bad_input_exit_2(tmp_path, capsys, monkeypatch):
     """Exit 2 (bad input), stdout one strict JSON document with the error, stderr one
     line."""
-    from scan.cli import observe
+    from scan.pipeline import observe
 
-    real = observe.compute
-    monkeypatch.setattr(observe, "compute",
-                        lambda k, P, args: real(k, P, args).replace(f_pbh_total=math.inf))
+    real = observe.settings_of
+
+    class Inflated:  # the conventions' compute, with a non-finite total
+        def __init__(self, section):
+            self.settings = real(section)
+
+        def compute(self, k, P):
+            return self.settings.compute(k, P).replace(f_pbh_total=math.inf)
+
+    monkeypatch.setattr(observe, "settings_of", Inflated)
     table = tmp_path / "t.csv"
     table.write_text("\n".join(f"{x:.6e},1e-2" for x in np.geomspace(1e3, 1e9, 12)) + "\n")
     doc = run_json(capsys, ["observe", str(table), "--n-f", "16", "--n-m", "16"], code=2)
@@ -154,9 +161,7 @@ def test_verify_and_demo_print_strict_json(tmp_path, capsys, monkeypatch):
     class Canned:
         report = {"ess": math.nan, "biased": False, "errors": {"k_peak": {"p95": math.inf}}}
 
-    monkeypatch.setattr(verify, "open_run", lambda run: type("R", (), {"path": run})())
-    monkeypatch.setattr(verify, "verify_run", lambda *a, **kw: Canned())
-    monkeypatch.setattr(verify, "check_output_file", lambda *a, **kw: None)
+    monkeypatch.setattr(verify, "verify_command", lambda *a, **kw: Canned())
     doc = run_json(capsys, ["verify", str(tmp_path)])
     assert doc == {"ess": None, "biased": False, "errors": {"k_peak": {"p95": None}}}
 

@@ -14,8 +14,9 @@ from emcee.backends import HDFBackend
 
 from scan.errors import InputFileError
 from scan.sampler import runfile
+from scan.sampler.runfile import chain_path
 from scan.sampler.summary import TERM_PREFIX, posterior_samples
-from scan.verify.run import blob_units, chain_path
+from scan.verify.report_file import blob_units
 
 
 def _arviz() -> Any:

@@ -151,5 +151,5 @@ def run(args: argparse.Namespace) -> int:
                    "f_peak_Hz": obs.f_gw_peak, "omega_gw_h2_peak": obs.omega_gw_h2_peak,
                    "f_pbh_total": obs.f_pbh_total,
                    "conventions": obs.conventions.as_attrs(), "notes": list(obs.notes),
-                   "figures": list(done.figures)}, text)
+                   "figures": list(done.figures), "error": None}, text)
     return 0

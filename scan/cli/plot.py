@@ -68,6 +68,7 @@ def run(args: argparse.Namespace) -> int:
     output = Output.of(args)
     for note in plotted.notes:
         output.note(f"note: {note}")
-    output.result({"figures": list(plotted.paths), "notes": list(plotted.notes)},
+    output.result({"figures": list(plotted.paths), "kinds": list(plotted.kinds),
+                   "notes": list(plotted.notes)},
                   "\n".join(f"figure: {p}" for p in plotted.paths))
     return 0

@@ -6,6 +6,8 @@ import argparse
 import math
 from pathlib import Path
 
+from scan.cli import with_plugin_note
+from scan.cli.output import Output, add_output_options
 from scan.config import load_config, load_config_text
 from scan.config.edit import set_pole_keys
 from scan.errors import ZetascanError
@@ -26,7 +28,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                     "a target (and its position so that the peak sits at a given k or f); "
                     "write the config with the values found.  Exit 2 when the target "
                     "cannot be reached (the message names why and the closest value).",
-        epilog=EXAMPLE, formatter_class=argparse.RawDescriptionHelpFormatter)
+        epilog=with_plugin_note(EXAMPLE), formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", help="run configuration (TOML) with [[model.poles]] tables")
     parser.add_argument("--peak-height", type=float, metavar="LOG10P", default=None,
                         help="target log10 P_zeta at the peak")
@@ -43,11 +45,13 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
                         help="budget of exact solves (default 25)")
     parser.add_argument("--out", metavar="TUNED.toml", required=True,
                         help="where to write the tuned config")
+    add_output_options(parser)
     return parser
 
 
 def run(args: argparse.Namespace) -> int:
     """Tune, print the search, write the config; exit 2 if the target is unreachable."""
+    output = Output.of(args)
     config = load_config(args.config)
     peak_k = _target_k(args)
     kwargs = {} if args.tolerance is None else {"height_tol": args.tolerance}
@@ -55,13 +59,17 @@ def run(args: argparse.Namespace) -> int:
         result = tune_pole(config, pole=args.pole, peak_height=args.peak_height,
                            peak_k=peak_k, max_solves=args.max_solves, **kwargs)
     except TuneError as err:
-        print("\n".join(format_trials(err.result)))
+        output.info("\n".join(format_trials(err.result)))
         raise
     text = tuned_text(config, result)
     out = Path(args.out)
     out.parent.mkdir(parents=True, exist_ok=True)
     out.write_text(text)
-    print("\n".join(format_trials(result) + [f"tuned config: {out}"]))
+    best = result.best
+    output.result({"config": out, "pole": result.pole, "solves": len(result.trials),
+                   "width": best.width, "position": best.position,
+                   "log10_P_peak": best.log10_P_peak, "k_peak": best.k_peak},
+                  "\n".join(format_trials(result) + [f"tuned config: {out}"]))
     return 0
 
 

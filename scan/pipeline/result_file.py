@@ -142,12 +142,12 @@ def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
         "n_s": s.n_s, "r": s.r, "alpha_s": s.alpha_s, "A_s": s.A_s, "V0": s.V0,
         "N_star": s.N_star, "k_star": s.k_star, "usr_efolds": s.usr_efolds,
         "valid": s.valid, "reason": s.reason, "units_k_peak": "Mpc^-1", "units_V0": store.UNITS_M_P4})
-    peaks = store.write_dataset(group, "peaks", as_records(result.peaks),
-                                "; ".join(f"{k}: {u}" for k, u in UNITS.items()),
+    peaks = store.write_dataset(group, "peaks", as_records(result.peaks), "1",
                                 "every peak of P_zeta (prominence >= 1 dex), one row each: "
                                 "pole (config number), k, P_zeta, Omega_GW h^2 maximum "
                                 "(f_gw, omega_gw_h2) and f_PBH per ln M maximum (M_pbh, "
-                                "f_pbh) in the peak's share of the axis")
+                                "f_pbh) in the peak's share of the axis; each column's units "
+                                "in the attribute units_<column>")
     store.write_attrs(peaks, {f"units_{k}": u for k, u in UNITS.items()})
 
 

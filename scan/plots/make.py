@@ -79,6 +79,7 @@ class Plotted:
 
     paths: tuple[Path, ...]
     notes: tuple[str, ...]
+    kinds: tuple[str, ...] = ()
 
 
 def plot_result(result: str | Path, kinds: Sequence[str] = ("all",), *,
@@ -99,7 +100,7 @@ def plot_result(result: str | Path, kinds: Sequence[str] = ("all",), *,
     inputs = Inputs(sources, tuple(curves) if curves else None, samples, seed)
     chosen = select_kinds(inputs, kinds)
     paths = make_figures(inputs, chosen, Path(out) if out else sources.folder)
-    return Plotted(tuple(paths), tuple(inputs.notes))
+    return Plotted(tuple(paths), tuple(inputs.notes), tuple(chosen))
 
 
 def make_figures(inputs: Inputs, kinds: Sequence[str], out_dir: Path) -> list[Path]:

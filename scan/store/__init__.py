@@ -11,11 +11,12 @@ the one table of file kinds (what a file is, asked in one place).
 * :mod:`scan.store.stored_config` — the config a result file was made with.
 """
 from scan.store.folder import FILES, RunFolder, name_problem
-from scan.store.hdf5 import (DEPENDENCIES, SPACE_MARGIN, SingleWriter, append_bytes, atomic_h5,
+from scan.store.hdf5 import (DEPENDENCIES, SPACE_MARGIN, UNITS_EFOLDS, UNITS_M_P, UNITS_M_P4,
+                             SingleWriter, append_bytes, atomic_h5, attach_scale,
                              check_output_file, check_writable, config_hash, free_bytes,
                              git_hash, open_single_writer, provenance, put_rows,
-                             recover_store, require_space, write_attrs, write_config,
-                             write_dataset, write_problem)
+                             recover_store, require_space, stored_base_dir, write_attrs,
+                             write_config, write_dataset, write_problem)
 from scan.store.identity import (LOCATION_KEYS, check_curves, curve_attrs, curve_digests,
                                  file_sha256, stored_digests)
 from scan.store.kinds import KIND_ATTRS, KINDS, FileKind, identify, kind_of, require
@@ -23,7 +24,8 @@ from scan.store.lock import RunLock, holder_pid, lock_path
 from scan.store.stored_config import (StoredConfig, read_config_text, read_stored_config,
                                       stored_config_of)
 
-__all__ = ["DEPENDENCIES", "SPACE_MARGIN", "append_bytes", "check_output_file",
+__all__ = ["DEPENDENCIES", "SPACE_MARGIN", "UNITS_EFOLDS", "UNITS_M_P", "UNITS_M_P4",
+           "attach_scale", "stored_base_dir", "append_bytes", "check_output_file",
            "check_writable", "free_bytes", "require_space", "write_problem", "FILES", "KIND_ATTRS", "KINDS", "LOCATION_KEYS", "FileKind",
            "RunFolder", "RunLock", "SingleWriter", "StoredConfig", "atomic_h5", "check_curves",
            "config_hash", "curve_attrs", "curve_digests", "file_sha256", "git_hash",

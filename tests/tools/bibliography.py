@@ -66,6 +66,9 @@ REFERENCES: dict[str, tuple[str, int, str, str, bool]] = {
     "1804.08577": ("K. Kohri, T. Terada", 2018, "Semianalytic calculation of gravitational "
                    "wave spectrum nonlinearly induced from primordial curvature "
                    "perturbations", "Phys. Rev. D 97, 123532", False),
+    "1507.02704": ("Planck Collaboration (N. Aghanim et al.)", 2016, "Planck 2015 results. XI. "
+                   "CMB power spectra, likelihoods, and robustness of parameters",
+                   "Astron. Astrophys. 594, A11", False),
     "1807.06209": ("Planck Collaboration (N. Aghanim et al.)", 2020, "Planck 2018 results. VI. "
                    "Cosmological parameters", "Astron. Astrophys. 641, A6", False),
     "1807.06211": ("Planck Collaboration (Y. Akrami et al.)", 2020, "Planck 2018 results. X. "
