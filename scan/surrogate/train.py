@@ -15,7 +15,7 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.surrogate import design
 from scan.surrogate.emulator import (Emulator, EmulatorSettings, TrainingSet, classify,
-                                     fit_emulator, loo_error_score, peak_sd)
+                                     fit_emulator, loo_error_score, peak_sd, predict_unit)
 from scan.surrogate.identity import identity
 from scan.surrogate.record import SCALARS, TrainingRecord, cmb_feature, shape_grid
 from scan.surrogate.space import ParameterSpace
@@ -37,6 +37,8 @@ class TrainingPlan:
 
     points: int
     holdout: int
+    peak_holdout: int
+    peak_holdout_min: float
     refine_rounds: int
     refine_points: int
     boundary_fraction: float
@@ -46,8 +48,9 @@ class TrainingPlan:
     def from_config(cls, config, points: int | None = None) -> "TrainingPlan":
         """The plan of a run config."""
         s = config.surrogate
-        return cls(points if points is not None else s.points, s.holdout, s.refine_rounds,
-                   s.refine_points, s.boundary_fraction, config.run.seed)
+        return cls(points if points is not None else s.points, s.holdout, s.peak_holdout,
+                   s.peak_holdout_min, s.refine_rounds, s.refine_points, s.boundary_fraction,
+                   config.run.seed)
 
 
 def settings_of(config) -> EmulatorSettings:
@@ -121,7 +124,7 @@ def training_set(path: Path, space: ParameterSpace, x: np.ndarray,
     """Finished points as arrays: training stages (default) or the hold-out set."""
     u, stage, _ = read_plan(path)
     pts = read_points(path)
-    is_holdout = stage[pts.index] == design.STAGE_HOLDOUT
+    is_holdout = np.isin(stage[pts.index], design.HOLDOUT_STAGES)
     keep = is_holdout if holdout else ~is_holdout
     if stages is not None:
         keep &= np.isin(stage[pts.index], stages)
@@ -144,6 +147,22 @@ def propose_refinement(emulator: Emulator, data: TrainingSet, plan: TrainingPlan
     score = np.where(margin > -0.5, score, 0.0)  # errors only matter where valid
     return design.refine_points(data.u, score, margin, cand, plan.refine_points,
                                 plan.boundary_fraction)
+
+
+def plan_peak_holdout(path: Path, writer: StoreWriter, space: ParameterSpace, x: np.ndarray,
+                      settings: EmulatorSettings, plan: TrainingPlan) -> None:
+    """Plan the peak hold-out points once (:func:`design.peak_holdout_points`)."""
+    _, stages, _ = read_plan(path)
+    if plan.peak_holdout == 0 or np.any(stages == design.STAGE_HOLDOUT_PEAK):
+        return
+    emulator = fit_emulator(training_set(path, space, x), settings)
+    cand = design.peak_candidates(space.dim, CANDIDATES_PER_POINT * plan.peak_holdout,
+                                  plan.seed)
+    pred = predict_unit(emulator, cand)
+    new = design.peak_holdout_points(cand, pred.log10_P_peak, classify(emulator, cand),
+                                     plan.peak_holdout_min, plan.peak_holdout, plan.seed)
+    if len(new):
+        writer.add_plan(new, design.STAGE_HOLDOUT_PEAK, np.arange(len(new)))
 
 
 def run_training(path: Path, config, space: ParameterSpace, solve: Solve, map_fn: MapFunction,
@@ -197,6 +216,8 @@ def _train_locked(path, lock, config, space, solve, map_fn, plan, resume, chunk,
                 writer.add_plan(new, design.STAGE_REFINE + r, np.arange(len(new)))
             solve_pending(path, writer, space, solve, map_fn, chunk, progress,
                           f"refine {r + 1}/{plan.refine_rounds}")
+        plan_peak_holdout(path, writer, space, x, settings, plan)
+        solve_pending(path, writer, space, solve, map_fn, chunk, progress, "held-out peaks")
     data = training_set(path, space, x)
     _check_enough_valid(path, data)
     return fit_emulator(data, settings), data, training_set(path, space, x, holdout=True)
