@@ -85,11 +85,11 @@ def base_config(regime: Regime, position: float = POSITION, n_k: int = 128) -> R
         "modes": {"n_k": n_k}})
 
 
-def tuned(config: RunConfig) -> tuple[TuneResult, str]:
-    """The width solver's result toward :data:`TARGET`, and why it stopped short ("" if
-    it reached the target)."""
+def tuned(config: RunConfig, target: float = TARGET) -> tuple[TuneResult, str]:
+    """The width solver's result toward log10 P_peak = ``target``, and why it stopped
+    short ("" if it reached the target)."""
     try:
-        return tune_pole(config, peak_height=TARGET), ""
+        return tune_pole(config, peak_height=target), ""
     except TuneError as err:
         return err.result, str(err)
 
@@ -120,9 +120,10 @@ class Found:
 
 
 def find(regime: Regime, position: float = POSITION, observables: bool = True,
-         n_k: int = 128) -> Found:
-    """Tune ``regime``'s width at ``position`` [M_p]; solve the tuned model exactly."""
-    result, stopped = tuned(base_config(regime, position, n_k))
+         target: float = TARGET, n_k: int = 128) -> Found:
+    """Tune ``regime``'s width at ``position`` [M_p] toward log10 P_peak = ``target``;
+    solve the tuned model exactly."""
+    result, stopped = tuned(base_config(regime, position, n_k), target)
     return Found(regime, result, stopped,
                  scan.solve(result.config, observables=observables))
 
@@ -194,14 +195,23 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--positions", type=float, nargs="+", metavar="PHI",
                         help="pole positions [M_p] to tune at instead of the figure's "
                              f"{POSITION:g} (table only, no observables)")
+    parser.add_argument("--target", type=float, default=TARGET, metavar="LOG10P",
+                        help=f"target log10 P_peak (default {TARGET:g}; the figure uses it)")
+    parser.add_argument("--powers", type=float, nargs="+", metavar="P",
+                        help="only these of the powers " +
+                             ", ".join(f"{r.power:g}" for r in REGIMES))
     args = parser.parse_args(argv)
-    print(f"T-model alpha = 1, target log10 P_peak = {TARGET:g}")
+    if args.write and (args.positions or args.powers or args.target != TARGET):
+        parser.error("--write draws the figure's own models: drop --positions, --powers "
+                     "and --target")
+    regimes = [r for r in REGIMES if not args.powers or r.power in args.powers]
+    print(f"T-model alpha = 1, target log10 P_peak = {args.target:g}")
     for position in args.positions or [POSITION]:
-        found = [find(r, position, observables=not args.positions) for r in REGIMES]
+        found = [find(r, position, not args.positions, args.target) for r in regimes]
         for item in found:
             print(item.row() + (f"\n    {item.stopped}" if item.stopped and
                                 not args.positions else ""))
-    if args.write and not args.positions:
+    if args.write:
         curves = [load_curve(ROOT / c) for c in CURVES]
         print(*save(regimes_figure(found, curves), FIGURE, formats=("png",)), sep="\n")
     return 0
