@@ -72,6 +72,8 @@ class Regime:
 REGIMES = (Regime(0.8, 0.4, OKABE_ITO["blue"], "--"),
            Regime(1.0, 0.9, OKABE_ITO["black"], "-"),
            Regime(1.5, 3.0, OKABE_ITO["reddish purple"], "-."))
+#: Powers for the tables only (``--powers``), not drawn.
+MORE = (Regime(1.9, 5.5, OKABE_ITO["sky blue"], ":"),)
 
 
 def base_config(regime: Regime, position: float = POSITION, n_k: int = 128) -> RunConfig:
@@ -112,6 +114,9 @@ class Found:
                 f"{'at the wall' if self.stopped else 'target'}): log10 P_peak = "
                 f"{np.log10(float(s.scalars['P_peak'])):.3f} at k = {peak_k:.3g} Mpc^-1 "
                 f"(ln k = {np.log(peak_k):.2f}); n_s = {float(s.scalars['n_s']):.4f}")
+        for c in s.record.background.crossings:
+            text += (f"; {c.efolds_near:.1f} e-folds with |phi - phi_1| < w, "
+                     f"{c.usr_efolds:.1f} of ultra-slow roll")
         obs = s.record.observables
         if obs is not None:
             text += (f"; Omega_GW h^2 = {obs.omega_gw_h2_peak:.3g} at f = "
@@ -199,12 +204,13 @@ def main(argv: list[str] | None = None) -> int:
                         help=f"target log10 P_peak (default {TARGET:g}; the figure uses it)")
     parser.add_argument("--powers", type=float, nargs="+", metavar="P",
                         help="only these of the powers " +
-                             ", ".join(f"{r.power:g}" for r in REGIMES))
+                             ", ".join(f"{r.power:g}" for r in REGIMES + MORE))
     args = parser.parse_args(argv)
     if args.write and (args.positions or args.powers or args.target != TARGET):
         parser.error("--write draws the figure's own models: drop --positions, --powers "
                      "and --target")
-    regimes = [r for r in REGIMES if not args.powers or r.power in args.powers]
+    regimes = [r for r in REGIMES + MORE if r.power in (args.powers or
+                                                         [r.power for r in REGIMES])]
     print(f"T-model alpha = 1, target log10 P_peak = {args.target:g}")
     for position in args.positions or [POSITION]:
         found = [find(r, position, not args.positions, args.target) for r in regimes]
