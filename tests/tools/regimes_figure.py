@@ -114,6 +114,8 @@ class Found:
                 f"{'at the wall' if self.stopped else 'target'}): log10 P_peak = "
                 f"{np.log10(float(s.scalars['P_peak'])):.3f} at k = {peak_k:.3g} Mpc^-1 "
                 f"(ln k = {np.log(peak_k):.2f}); n_s = {float(s.scalars['n_s']):.4f}")
+        text += (f"; P_zeta within 10x of its peak over "
+                 f"{decades_within(s.k.value, s.P_zeta.value):.1f} decades of k")
         for c in s.record.background.crossings:
             text += (f"; {c.efolds_near:.1f} e-folds with |phi - phi_1| < w, "
                      f"{c.usr_efolds:.1f} of ultra-slow roll")
@@ -122,6 +124,13 @@ class Found:
             text += (f"; Omega_GW h^2 = {obs.omega_gw_h2_peak:.3g} at f = "
                      f"{obs.f_gw_peak:.3g} Hz; f_PBH = {obs.f_pbh_total:.3g}")
         return text
+
+
+def decades_within(k: np.ndarray, P_zeta: np.ndarray, factor: float = 10.0) -> float:
+    """Decades of k [Mpc⁻¹] between the first and last k where P_ζ is within ``factor``
+    of its maximum (a plateau and a narrow peak of the same height differ here)."""
+    above = k[P_zeta > P_zeta.max() / factor]
+    return float(np.log10(above.max() / above.min()))
 
 
 def find(regime: Regime, position: float = POSITION, observables: bool = True,
