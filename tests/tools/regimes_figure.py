@@ -29,7 +29,8 @@ from scan.api import as_config
 from scan.config.schema import RunConfig
 from scan.curves import load_curve
 from scan.observables import cosmo
-from scan.pipeline.tune import TuneError, TuneResult, tune_pole
+from scan.pipeline import solve_config
+from scan.pipeline.tune import TuneError, TuneResult, tune_pole, with_pole
 from scan.pipeline.validity import K_CMB_MAX, K_CMB_MIN
 from scan.plots.curves import draw_curve, synthetic_note
 from scan.plots.looks import GUIDE_GREY, OKABE_ITO
@@ -47,6 +48,8 @@ CURVES = ("constraints/demo/pta_excess_kestrel.csv",
           "constraints/lisa_pli_snr10_4yr.csv")
 #: Opacity of those curves.
 FAINT = 0.35
+#: Widths past a wall (in units of the wall's width) solved by ``--past-wall``.
+PAST_WALL = (1.001, 1.01, 1.05, 1.2, 1.4)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -142,6 +145,23 @@ def find(regime: Regime, position: float = POSITION, observables: bool = True,
                  scan.solve(result.config, observables=observables))
 
 
+def past_wall(found: Found) -> list[str]:
+    """What lies beyond the wall: solves at :data:`PAST_WALL` times its width, the
+    validity verdict ignored (is the cap the rule's or the physics'?)."""
+    rows = []
+    for factor in PAST_WALL:
+        width = found.tune.best.width * factor
+        result = solve_config(with_pole(found.tune.config, 0, width=width),
+                              with_observables=False)
+        s = result.spectrum
+        peak = "no spectrum" if s is None else (
+            f"log10 P_peak = {np.log10(s.P_peak):.3f} at k = {s.k_peak:.3g} Mpc^-1"
+            if s.P_peak > 0 else "no interior peak")
+        tilt = "" if s is None else f", n_s = {s.n_s:.3f}"
+        rows.append(f"    width x {factor:g}: {peak}{tilt} ({result.reason or 'valid'})")
+    return rows
+
+
 def legend_text(found: Found) -> str:
     """The regime's legend entry: its power, the peak it reaches and the pivot tilt."""
     scalars = found.solution.scalars
@@ -211,13 +231,16 @@ def main(argv: list[str] | None = None) -> int:
                              f"{POSITION:g} (table only, no observables)")
     parser.add_argument("--target", type=float, default=TARGET, metavar="LOG10P",
                         help=f"target log10 P_peak (default {TARGET:g}; the figure uses it)")
+    parser.add_argument("--past-wall", action="store_true",
+                        help="also solve past each wall, the validity verdict ignored")
     parser.add_argument("--powers", type=float, nargs="+", metavar="P",
                         help="only these of the powers " +
                              ", ".join(f"{r.power:g}" for r in REGIMES + MORE))
     args = parser.parse_args(argv)
-    if args.write and (args.positions or args.powers or args.target != TARGET):
-        parser.error("--write draws the figure's own models: drop --positions, --powers "
-                     "and --target")
+    if args.write and (args.positions or args.powers or args.target != TARGET
+                       or args.past_wall):
+        parser.error("--write draws the figure's own models: drop --positions, --powers, "
+                     "--target and --past-wall")
     regimes = [r for r in REGIMES + MORE if r.power in (args.powers or
                                                          [r.power for r in REGIMES])]
     print(f"T-model alpha = 1, target log10 P_peak = {args.target:g}")
@@ -226,6 +249,8 @@ def main(argv: list[str] | None = None) -> int:
         for item in found:
             print(item.row() + (f"\n    {item.stopped}" if item.stopped and
                                 not args.positions else ""))
+            if args.past_wall and item.stopped:
+                print(*past_wall(item), sep="\n")
     if args.write:
         curves = [load_curve(ROOT / c) for c in CURVES]
         print(*save(regimes_figure(found, curves), FIGURE, formats=("png",)), sep="\n")
