@@ -12,7 +12,7 @@ P_ζ(k) and Ω_GW h²(f), the invented demo curves faint behind::
     python tests/tools/regimes_figure.py            # tune, solve, print the table
     python tests/tools/regimes_figure.py --write    # ... and write docs/regimes.png
 
-About 50 exact solves, a minute or two on one core.  The README section "Three regimes
+43 exact solves, about 15 s on one core.  The README section "Three regimes
 of the pole power" quotes the table this prints.
 """
 from __future__ import annotations
