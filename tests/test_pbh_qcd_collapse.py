@@ -127,6 +127,8 @@ def test_observe_prints_the_limitation_and_refuses_bad_input(flat_csv, tmp_path,
         text.out + text.err
     with h5py.File(out) as h:
         assert any("gamma-of-w" in str(n) for n in h["gw"].attrs["notes"])
+        assert h["pbh"].attrs["qcd_collapse"] == "gamma-of-w"
+        assert h["pbh"].attrs["qcd_threshold"] == "off"
     bad = tmp_path / "b.h5"
     assert main(["observe", str(flat_csv), "--out", str(bad), "--set",
                  "observables.qcd_collapse=gamma-of-w", "--set",

@@ -183,7 +183,8 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                        f_pbh_total=pbh.f_pbh_total, f_gw_peak=f_peak,
                        omega_gw_h2_peak=omega_peak, conventions=pbh.conventions,
                        notes=notes + ((resampled,) if resampled else ()) + warnings_,
-                       zeta_map=zeta_map, f_pbh_total_gaussian=gaussian_total)
+                       zeta_map=zeta_map, f_pbh_total_gaussian=gaussian_total,
+                       qcd={"qcd_threshold": qcd_threshold, "qcd_collapse": qcd_collapse})
 
 
 def qcd_note(M_H: np.ndarray, thresholds: np.ndarray, threshold: float) -> str:
