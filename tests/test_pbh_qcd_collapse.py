@@ -28,8 +28,9 @@ def test_exponent_matches_published_perfect_fluid_values():
     # Each value is an independent published number, quoted to its stated digits:
     # radiation w = 1/3: 0.36 (Evans & Coleman 1994, gr-qc/9402041, abstract) and
     # gamma ~ 0.356 in PBH simulations (Musco & Miller 2013, arXiv:1201.2379);
-    # w -> 0: the Newtonian isothermal exponent, predicted 0.10567 and measured 0.11
-    # (Harada, Maeda & Semelin 2003, gr-qc/0210027, abstract; the limit from memory);
+    # w -> 0: the Newtonian isothermal exponent, computed 0.10567 (Maeda & Harada 2001,
+    # gr-qc/0109095, abstract) and measured 0.11 (Harada, Maeda & Semelin 2003,
+    # gr-qc/0210027, abstract; that it is the w -> 0 limit is from memory);
     # stiff fluid w = 1: gamma ~ 0.94 (gr-qc/0207096, abstract).
     assert float(critical_exponent_of_w(1 / 3)) == pytest.approx(0.36, abs=0.005)
     assert float(critical_exponent_of_w(1 / 3)) == pytest.approx(0.356, abs=0.0005)

@@ -47,6 +47,8 @@ REFERENCES: dict[str, tuple[str, int, str, str, bool]] = {
     "gr-qc/0207096": ("P. R. Brady, M. W. Choptuik, C. Gundlach, D. W. Neilsen", 2002,
                       "Black-hole threshold solutions in stiff fluid collapse",
                       "Class. Quant. Grav. 19, 6359", False),
+    "gr-qc/0109095": ("H. Maeda, T. Harada", 2001, "Critical phenomena in Newtonian gravity",
+                      "Phys. Rev. D 64, 124024", True),
     "gr-qc/0210027": ("T. Harada, H. Maeda, B. Semelin", 2003, "Criticality and convergence "
                       "in Newtonian collapse", "Phys. Rev. D 67, 084003", True),
     "0811.1452": ("I. Musco, J. C. Miller, A. G. Polnarev", 2009, "Primordial black hole "

@@ -24,15 +24,14 @@ The opt-in ``gamma-of-w`` (``[observables] qcd_collapse``) scales the configured
 formation epoch by gamma(w)/gamma(1/3), with gamma(w) piecewise linear in w through the
 published exponents we could confirm:
 
-* w -> 0: 0.10567, the Newtonian isothermal critical exponent, predicted by Harada and
-  Maeda and measured as 0.11 by Harada, Maeda & Semelin 2003 (PRD 67, 084003,
-  gr-qc/0210027, abstract); that the relativistic family tends to it as w -> 0 is from
-  memory;
+* w -> 0: 0.10567, the Newtonian isothermal critical exponent (the one unstable mode of
+  Hunter's (A) solution, Maeda & Harada 2001, gr-qc/0109095, abstract; measured as 0.11
+  by Harada, Maeda & Semelin 2003, PRD 67, 084003, gr-qc/0210027, abstract); that the
+  relativistic family tends to it as w -> 0 is from memory;
 * w = 1/3: 0.3558 (Koike, Hara & Adachi 1995, digits from memory; 0.36 measured by Evans
   & Coleman 1994, gr-qc/9402041; 0.356-0.357 in cosmological PBH simulations, Musco &
   Miller 2013, arXiv:1201.2379, and Musco, Miller & Polnarev 2009, arXiv:0811.1452);
-* w = 1: 0.94 (stiff fluid, CQG 19, 6359 (2002), gr-qc/0207096, abstract; authors Brady,
-  Choptuik, Gundlach & Neilsen from memory).
+* w = 1: 0.94 (stiff fluid, Brady et al. 2002, CQG 19, 6359, gr-qc/0207096, abstract).
 
 Between them the straight line is our interpolation, not a published table (Maison 1996
 computed gamma(w) for many w up to 0.89, Gundlach & Martin-Garcia 2007, Living Rev. Rel.
