@@ -47,6 +47,8 @@ REFERENCES: dict[str, tuple[str, int, str, str, bool]] = {
     "gr-qc/0207096": ("P. R. Brady, M. W. Choptuik, C. Gundlach, D. W. Neilsen", 2002,
                       "Black-hole threshold solutions in stiff fluid collapse",
                       "Class. Quant. Grav. 19, 6359", False),
+    "gr-qc/9906124": ("C. Gundlach", 2002, "Critical gravitational collapse of a perfect "
+                      "fluid: nonspherical perturbations", "Phys. Rev. D 65, 084021", False),
     "gr-qc/0109095": ("H. Maeda, T. Harada", 2001, "Critical phenomena in Newtonian gravity",
                       "Phys. Rev. D 64, 124024", True),
     "gr-qc/0210027": ("T. Harada, H. Maeda, B. Semelin", 2003, "Criticality and convergence "

@@ -37,6 +37,9 @@ Between them the straight line is our interpolation, not a published table (Mais
 computed gamma(w) for many w up to 0.89, Gundlach & Martin-Garcia 2007, Living Rev. Rel.
 10, 5, but we could not read his values).  K is kept at the
 configured value: we found no published K(w).  Both limitations are printed with results.
+The crossover only reaches w ~ 0.23 (the softest g_* table row), inside 1/9 < w < 0.49
+where the spherical critical solution has one growing mode and no non-spherical ones
+(Gundlach 1999, gr-qc/9906124, abstract); the w -> 0 anchor only shapes the line.
 
 Units: masses [M_sun], T [GeV], w and thresholds [1].
 """
