@@ -16,10 +16,12 @@ from scipy import integrate
 
 from scan.cli import main
 from scan.config import load_config_text
-from scan.config.priors import Prior, PriorSet
+from scan.config.priors import Prior, PriorSet, apply_parameters
 from scan.config.width_prior import MappedWidthPrior, ratio_of_pole, wall_coordinate_of
 from scan.errors import ConfigError
+from scan.pipeline.solve import wall_sharpness, wall_width
 from scan.sampler import runfile
+from scan.surrogate.adapter import solve_point
 from scan.surrogate.emulator import TrainingSet, fit_emulator, predict_unit
 
 W_WALL = 0.03  # a fixed w_w [M_p] for the pure checks (any positive value)
@@ -176,3 +178,19 @@ def test_emulator_interpolates_ln_wall_width_and_needs_none_without_it():
     six = TrainingSet(u, np.ones(24, bool), scalars[:, :6], shapes, x)
     emulator = fit_emulator(six)
     assert emulator.wall is None and np.all(np.isnan(predict_unit(emulator, u).ln_wall_width))
+
+
+def test_training_record_carries_the_exact_wall_width():
+    # w_w = (1 - p/2)|V'/V|(phi_1)/lambda_w (configs/README.md, model.poles[].sharpness) with
+    # the T-model V = V0 tanh^2(phi/sqrt(6 alpha)) (Kallosh & Linde 2013, arXiv:1306.5220):
+    # V'/V = 4/(sqrt(6 alpha) sinh(2 phi/sqrt(6 alpha))) by differentiation
+    config = load_config_text(BASE + WALL_PARAMETER, "w.toml")
+    record = solve_point(config, [5.2, 1.05])
+    lam_w = wall_sharpness(apply_parameters(config, [5.2, 1.05]), 0)
+    s = math.sqrt(6.0)
+    expected = 0.5 * 4.0 / (s * math.sinh(2.0 * 5.2 / s)) / lam_w
+    # same lambda_w, analytic V'/V on both sides: they differ by float rounding only
+    assert record.ln_wall_width == pytest.approx(math.log(expected), abs=1e-12)
+    assert record.scalar_targets()[-1] == record.ln_wall_width
+    canonical = load_config_text(BASE.replace("wall_ratio = 1.05", "width = 0.02"), "c.toml")
+    assert math.isnan(wall_width(canonical))  # no wall coordinate: no wall width
