@@ -238,9 +238,10 @@ class PosteriorTarget(TargetBase):
             reason[todo[~np.isfinite(log_prior[todo])]] = Reason.OUTSIDE_PRIOR
         scalars = np.column_stack([pred.ln_k_peak, pred.log10_P_peak, pred.n_s, pred.log10_r,
                                    pred.N_star])
+        in_prior = reason[todo] == 0
         ok = pred.valid & np.all(np.isfinite(scalars), axis=1) \
-            & np.all(np.isfinite(pred.shape), axis=1) & (reason[todo] == 0)
-        reason[todo[~ok]] = Reason.INVALID_MODEL
+            & np.all(np.isfinite(pred.shape), axis=1) & in_prior
+        reason[todo[~ok & in_prior]] = Reason.INVALID_MODEL
         lo, hi = data["plan"].peak_range
         in_table = (pred.ln_k_peak >= lo) & (pred.ln_k_peak <= hi)
         reason[todo[ok & ~in_table]] = Reason.PEAK_OUTSIDE_TABLE
