@@ -265,6 +265,12 @@ def mapped_width_prior(config: RunConfig, model: list[Prior]) -> MappedWidthPrio
     return mapped
 
 
+def width_prior_attributes(config: RunConfig) -> dict[str, object]:
+    """The ``width_prior_*`` attributes a chain or evidence file records ({} without one)."""
+    mapped = PriorSet.from_config(config).width_prior if config.parameters else None
+    return {} if mapped is None else mapped.attributes()
+
+
 # --------------------------------------------------------------------------- config keys
 def _split_key(key: str) -> list[str | int]:
     path: list[str | int] = []

@@ -107,4 +107,8 @@ class MappedWidthPrior:
                 "width_prior_map": f"w = w_w / rho, rho = {WALL_COORDINATES[self.coordinate][2]}",
                 "width_prior_jacobian": "|dw/dc| = w_w / rho^2 applied; w_w from the "
                                         "surrogate's ln_wall_width (sample) or the exact "
-                                        "wall (verify)"}
+                                        "wall (verify)",
+                "width_prior_normalisation": "not renormalised per w_w: width-prior mass "
+                                             "outside the sampled box counts as zero "
+                                             "likelihood (an evidence uses the normalised "
+                                             "width prior)"}

@@ -30,7 +30,7 @@ import numpy as np
 from emcee.backends import HDFBackend
 
 from scan import store
-from scan.config.priors import PriorSet
+from scan.config.priors import width_prior_attributes
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
 
@@ -198,9 +198,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",
                             "initial walker positions (parameter units)")
-        mapped = PriorSet.from_config(config).width_prior if config.parameters else None
-        if mapped is not None:  # the width prior mapped onto the wall coordinate
-            store.write_attrs(handle[EXTRA], mapped.attributes())
+        store.write_attrs(handle[EXTRA], width_prior_attributes(config))
 
 
 @dataclasses.dataclass(frozen=True)
