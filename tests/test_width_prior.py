@@ -24,6 +24,9 @@ from scan.posterior.exact import exact_ln_wall_width
 from scan.sampler import runfile
 from scan.surrogate.adapter import solve_point
 from scan.surrogate.emulator import TrainingSet, fit_emulator, predict_unit
+from scan.surrogate.record import TrainingRecord
+from scan.surrogate.space import from_config
+from scan.surrogate.store import StoreWriter, create_store, read_points
 
 W_WALL = 0.03  # a fixed w_w [M_p] for the pure checks (any positive value)
 BOX = Prior("model.poles[0].wall_ratio", "rho", "uniform", 1.0, 3.0)
@@ -198,3 +201,23 @@ def test_training_record_carries_the_exact_wall_width():
     assert exact_ln_wall_width(config, np.array([[5.2, 1.05]]))[0] == record.ln_wall_width
     canonical = load_config_text(BASE.replace("wall_ratio = 1.05", "width = 0.02"), "c.toml")
     assert math.isnan(wall_width(canonical))  # no wall coordinate: no wall width
+
+
+def test_a_store_made_before_the_wall_column_reads_it_as_nan_and_keeps_six(tmp_path):
+    config = load_config_text(BASE + WALL_PARAMETER, "w.toml")
+    space = from_config(config)
+    path = tmp_path / "training.h5"
+    create_store(path, config, space, np.linspace(-3.0, 3.0, 5), {})
+    with h5py.File(path, "r+", libver="latest") as handle:  # the old six-column layout
+        del handle["points/scalars"]
+        handle["points"].create_dataset("scalars", shape=(0, 6), maxshape=(None, 6),
+                                        dtype="f8", chunks=(64, 6))
+    record = TrainingRecord(np.array([5.2, 1.5]), True, "", 20.0, -3.0, np.zeros(5), 0.96,
+                            1e-3, -9.0, 55.0, math.log(W_WALL))
+    with StoreWriter(path) as writer:
+        writer.append([0], [record])
+    with h5py.File(path, "r") as handle:
+        assert handle["points/scalars"].shape == (1, 6)
+    points = read_points(path)
+    assert points.scalars.shape == (1, 7) and math.isnan(points.scalars[0, 6])
+    np.testing.assert_array_equal(points.scalars[0, :6], record.scalar_targets()[:6])

@@ -17,6 +17,7 @@ from test_surrogate_standin import standin_solve
 
 from scan.config import load_config_text
 from scan.config.priors import PriorSet
+from scan.errors import ConfigError
 from scan.posterior.build import posterior_target
 from scan.surrogate.identity import identity
 from scan.surrogate.record import TrainingRecord, shape_grid
@@ -112,12 +113,15 @@ def targets(tmp_path_factory):
                                    TrainingPlan.from_config(plain))
     write_surrogate(tmp / "wallstandin" / "surrogate.h5", plain, space, em,
                     validate(em, train, hold), identity(plain, space))
+    # the same emulator as a surrogate made before ln w_w was emulated
+    write_surrogate(tmp / "old.h5", plain, space, dataclasses.replace(em, wall=None),
+                    validate(em, train, hold), identity(plain, space))
     return (posterior_target(mapped, PriorSet.from_config(mapped)),
-            posterior_target(plain, PriorSet.from_config(plain)))
+            posterior_target(plain, PriorSet.from_config(plain)), tmp)
 
 
 def test_the_target_adds_the_mapped_width_prior_with_the_emulated_wall(targets):
-    mapped, plain = targets
+    mapped, plain, _ = targets
     rng = np.random.default_rng(8)
     theta = np.column_stack([rng.uniform(1.0, 3.0, 200), rng.uniform(1.5, 1.7, 200),
                              rng.uniform(0.5, 2.0, 200), np.full(200, 1e-15)])
@@ -137,3 +141,12 @@ def test_the_target_adds_the_mapped_width_prior_with_the_emulated_wall(targets):
     assert outside.any()
     reasons = {mapped.reasons[int(r)] for r in blobs["reason"][outside]}
     assert reasons == {"outside_prior"}
+
+
+def test_a_surrogate_without_the_wall_block_is_refused_for_a_width_prior(targets):
+    tmp = targets[2]
+    config = config_of(tmp, WIDTH_PRIOR)
+    config = dataclasses.replace(config, likelihood=dataclasses.replace(
+        config.likelihood, surrogate=str(tmp / "old.h5")))
+    with pytest.raises(ConfigError, match="does not emulate ln w_w"):
+        posterior_target(config, PriorSet.from_config(config))
