@@ -223,3 +223,20 @@ def test_a_store_made_before_the_wall_column_reads_it_as_nan_and_keeps_six(tmp_p
     points = read_points(path)
     assert points.scalars.shape == (1, 7) and math.isnan(points.scalars[0, 6])
     np.testing.assert_array_equal(points.scalars[0, :6], record.scalar_targets()[:6])
+
+
+@pytest.mark.parametrize("width", [Prior("w", "w", "log_uniform", 0.012, 0.028),
+                                   Prior("w", "w", "gaussian", 0.005, np.inf, mean=0.02,
+                                         sigma=0.01)], ids=["log_uniform", "gaussian"])
+@pytest.mark.parametrize("ln_ww", [math.log(0.03), math.log(0.05)])
+def test_kept_mass_is_the_integral_of_the_mapped_density_over_the_box(width, ln_ww):
+    # two routes to the same number: the width prior's CDF at the box's image, and the
+    # mapped density integrated over the box (adaptive quadrature, epsrel 1e-10)
+    prior = mapped(width, box=Prior("c", "c", "uniform", 1.2, 2.0))
+    kept = float(prior.kept_mass(np.array(ln_ww)))
+    points = [math.exp(ln_ww) / b for b in (width.low, width.high) if math.isfinite(b)]
+    mass, _ = integrate.quad(lambda c: math.exp(prior.log_density(np.array(c), ln_ww)),
+                             1.2, 2.0, points=[p for p in points if 1.2 < p < 2.0],
+                             epsabs=0.0, epsrel=1e-10, limit=200)
+    assert 0.0 < kept < 1.0
+    assert kept == pytest.approx(mass, rel=1e-8)

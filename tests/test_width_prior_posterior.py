@@ -18,7 +18,7 @@ from test_surrogate_standin import standin_solve
 from scan.config import load_config_text
 from scan.config.priors import PriorSet
 from scan.errors import ConfigError
-from scan.posterior.build import posterior_target
+from scan.posterior.build import posterior_target, width_prior_note
 from scan.surrogate.identity import identity
 from scan.surrogate.record import TrainingRecord, shape_grid
 from scan.surrogate.space import from_config
@@ -150,3 +150,13 @@ def test_a_surrogate_without_the_wall_block_is_refused_for_a_width_prior(targets
         config.likelihood, surrogate=str(tmp / "old.h5")))
     with pytest.raises(ConfigError, match="does not emulate ln w_w"):
         posterior_target(config, PriorSet.from_config(config))
+
+
+def test_sample_notes_how_much_of_the_width_prior_the_box_keeps(targets):
+    mapped, plain, _ = targets
+    note = width_prior_note(mapped)
+    theta = mapped.priors.sample(np.random.default_rng(mapped.config.run.seed), 512)
+    kept = mapped.priors.width_prior.kept_mass(ln_wall_width(theta[:, 1]))
+    assert note.startswith("width prior of model.poles[0].wall_ratio: the sampled box keeps "
+                           f"{np.median(kept):.0%} of its mass")
+    assert width_prior_note(plain) is None

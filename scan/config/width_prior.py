@@ -98,6 +98,21 @@ class MappedWidthPrior:
             ratio = self.log_density(c, ln_wall_width) - box
         return np.where(np.isfinite(box), ratio, -np.inf)
 
+    def kept_mass(self, ln_wall_width: np.ndarray) -> np.ndarray:
+        """Share of the width prior's mass inside the sampled box, per ln w_w [ln M_p].
+
+        The box [c_lo, c_hi] holds the widths [w_w/ρ(c_hi), w_w/ρ(c_lo)]; the rest of the
+        width prior counts as zero likelihood.
+        """
+        ww = np.exp(np.asarray(ln_wall_width, float))
+        rho_of = WALL_COORDINATES[self.coordinate][0]
+        rho = rho_of(np.array([self.box.low, self.box.high], float))
+
+        def cdf(w: np.ndarray) -> np.ndarray:
+            return np.clip(self.width.to_unit(w), 0.0, 1.0)
+
+        return cdf(ww / rho[0]) - cdf(ww / rho[1])
+
     def attributes(self) -> dict[str, object]:
         """What a chain or posterior file records about the mapping (HDF5 attributes)."""
         w = self.width
