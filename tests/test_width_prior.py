@@ -147,7 +147,7 @@ def test_bad_width_priors_stop_with_exit_2_naming_the_key(tmp_path, capsys, repl
         text = text.replace("low = 1.0\nhigh = 3.0", "low = 0.9\nhigh = 1.1")
     config = tmp_path / "bad.toml"
     config.write_text(f'[run]\noutput_dir = "{tmp_path / "out"}"\n' + text)
-    assert main(["train", str(config)]) == 2
+    assert main(["sample", str(config)]) == 2
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1 and "Traceback" not in err
     assert key in err and words in err
