@@ -17,7 +17,7 @@ from scan.errors import ConfigError
 from scan.observables.gstar import TABLES as GSTAR_TABLES
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
-from scan.observables.pbh.qcd import QCD_THRESHOLDS
+from scan.observables.pbh.qcd import QCD_COLLAPSES, QCD_THRESHOLDS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
 from scan.observables.pbh.zeta_map import NON_GAUSSIANITIES
 
@@ -276,6 +276,10 @@ class ObservablesSection:
                               "threshold) or harada-scaled (C_th times delta_c(w(T))/"
                               "delta_c(1/3), w from the g_* table; opt-in)", "off",
                               choices=QCD_THRESHOLDS)
+    qcd_collapse: str = spec("critical-collapse exponent across the QCD crossover: off (one "
+                             "gamma_c) or gamma-of-w (gamma_c times gamma(w(T))/gamma(1/3), "
+                             "perfect-fluid exponents interpolated in w; K fixed; opt-in)",
+                             "off", choices=QCD_COLLAPSES)
 
     def validate(self, where: str, source: str) -> None:
         """Cross-field rules of the non-Gaussianity and QCD-threshold conventions."""
@@ -291,7 +295,8 @@ class ObservablesSection:
             raise ConfigError(source, f"{where}.log_lambda", "non_gaussianity = 'logarithmic' "
                               "needs a non-zero log_lambda", "e.g. log_lambda = 3")
         for key, on in (("non_gaussianity", kind != "gaussian"),
-                        ("qcd_threshold", self.qcd_threshold != "off")):
+                        ("qcd_threshold", self.qcd_threshold != "off"),
+                        ("qcd_collapse", self.qcd_collapse != "off")):
             if on and (self.criterion, self.mass_function) != ("compaction", "critical"):
                 raise ConfigError(source, f"{where}.{key}", f"'{getattr(self, key)}' needs "
                                   "criterion = 'compaction' and mass_function = 'critical' "
