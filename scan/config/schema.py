@@ -126,10 +126,9 @@ PRIOR_KINDS = ("uniform", "log_uniform", "gaussian")
 
 
 @dataclass(frozen=True, kw_only=True)
-class PriorFields:
-    """Prior keys shared by ``[[parameters]]`` and ``[[nuisance]]`` entries."""
+class PriorShape:
+    """A prior family and its numbers (also the ``width_prior`` table of a parameter)."""
 
-    label: str = spec("LaTeX label for plots (default: the key or name)", "")
     prior: str = spec("prior family", choices=PRIOR_KINDS)
     low: float | None = spec("lower bound (uniform, log_uniform; optional truncation of "
                              "gaussian)", None)
@@ -138,8 +137,6 @@ class PriorFields:
     mean: float | None = spec("mean of a gaussian prior", None)
     sigma: float | None = spec("standard deviation of a gaussian prior", None, minimum=0.0,
                                exclusive_minimum=True)
-    start: float | None = spec("centre of the starting ball when sampler.start = 'ball' "
-                               "(default: the model's value, else the prior's centre)", None)
 
     def validate(self, where: str, source: str) -> None:
         """Each prior family has its keys; bounds are ordered; log_uniform is positive."""
@@ -165,6 +162,19 @@ class PriorFields:
             raise ConfigError(source, f"{where}.low",
                               f"log_uniform needs low > 0, got {self.low}",
                               "use a positive lower bound or prior = \"uniform\"")
+
+
+@dataclass(frozen=True, kw_only=True)
+class PriorFields(PriorShape):
+    """Prior keys shared by ``[[parameters]]`` and ``[[nuisance]]`` entries."""
+
+    label: str = spec("LaTeX label for plots (default: the key or name)", "")
+    start: float | None = spec("centre of the starting ball when sampler.start = 'ball' "
+                               "(default: the model's value, else the prior's centre)", None)
+
+    def validate(self, where: str, source: str) -> None:
+        """The family's keys (:meth:`PriorShape.validate`); the start inside the bounds."""
+        super().validate(where, source)
         lo = -float("inf") if self.low is None else self.low
         hi = float("inf") if self.high is None else self.high
         if self.start is not None and not lo <= self.start <= hi:
@@ -177,6 +187,11 @@ class ParameterSection(PriorFields):
     """One ``[[parameters]]`` entry: a varied model key and its prior."""
 
     key: str = spec("config key path of the varied number, e.g. \"model.poles[0].position\"")
+    width_prior: PriorShape | None = spec(
+        "only for a pole's wall coordinate (wall_ratio): the prior on the pole's physical "
+        "width w [M_p] as a table {prior, low, high, mean, sigma}; the coordinate is sampled "
+        "in its own box and its density is the width prior mapped by w = w_w/rho with the "
+        "Jacobian w_w/rho^2 (w_w: the width at the wall)", None)
 
 
 @dataclass(frozen=True, kw_only=True)
