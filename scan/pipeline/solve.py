@@ -114,7 +114,7 @@ def resolve_walls(config: RunConfig) -> RunConfig:
         If more than one pole uses the wall, or the pole has no wall.
     """
     poles = config.model.poles
-    walled = [i for i, p in enumerate(poles) if wall_ratio_of(p) is not None]
+    walled = [i for i, p in enumerate(poles) if ratio_of_pole(p) is not None]
     if not walled:
         return config
     if len(walled) > 1:
@@ -124,18 +124,9 @@ def resolve_walls(config: RunConfig) -> RunConfig:
     i = walled[0]
     lam_w = wall_sharpness(config, i)
     pole = dataclasses.replace(poles[i], wall_ratio=None, wall_distance=None,
-                               sharpness=wall_ratio_of(poles[i]) * lam_w)
+                               sharpness=ratio_of_pole(poles[i]) * lam_w)
     return dataclasses.replace(config, model=dataclasses.replace(
         config.model, poles=poles[:i] + (pole,) + poles[i + 1:]))
-
-
-def wall_ratio_of(pole) -> float | None:
-    """ρ = λ/λ_w of a pole section given by ``wall_ratio`` or ``wall_distance`` (else None)."""
-    if getattr(pole, "wall_ratio", None) is not None:
-        return pole.wall_ratio
-    if getattr(pole, "wall_distance", None) is not None:
-        return 1.0 + pole.wall_distance
-    return None
 
 
 def wall_sharpness(config: RunConfig, pole: int) -> float:
