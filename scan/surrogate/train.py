@@ -149,18 +149,18 @@ def propose_refinement(emulator: Emulator, data: TrainingSet, plan: TrainingPlan
                                 plan.boundary_fraction)
 
 
-def plan_peak_holdout(path: Path, writer: StoreWriter, space: ParameterSpace, x: np.ndarray,
-                      settings: EmulatorSettings, plan: TrainingPlan) -> None:
-    """Plan the peak hold-out points once (:func:`design.peak_holdout_points`)."""
+def plan_peak_holdout(path: Path, writer: StoreWriter, space: ParameterSpace,
+                      emulator: Emulator, plan: TrainingPlan) -> None:
+    """Plan the peak hold-out points once (:func:`design.peak_holdout_points`), where the
+    final ``emulator`` predicts a valid model with a high peak."""
     _, stages, _ = read_plan(path)
     if plan.peak_holdout == 0 or np.any(stages == design.STAGE_HOLDOUT_PEAK):
         return
-    emulator = fit_emulator(training_set(path, space, x), settings)
     cand = design.peak_candidates(space.dim, CANDIDATES_PER_POINT * plan.peak_holdout,
                                   plan.seed)
-    pred = predict_unit(emulator, cand)
-    new = design.peak_holdout_points(cand, pred.log10_P_peak, classify(emulator, cand),
-                                     plan.peak_holdout_min, plan.peak_holdout, plan.seed)
+    new = design.peak_holdout_points(cand, predict_unit(emulator, cand).log10_P_peak,
+                                     classify(emulator, cand), plan.peak_holdout_min,
+                                     plan.peak_holdout, plan.seed)
     if len(new):
         writer.add_plan(new, design.STAGE_HOLDOUT_PEAK, np.arange(len(new)))
 
@@ -216,11 +216,12 @@ def _train_locked(path, lock, config, space, solve, map_fn, plan, resume, chunk,
                 writer.add_plan(new, design.STAGE_REFINE + r, np.arange(len(new)))
             solve_pending(path, writer, space, solve, map_fn, chunk, progress,
                           f"refine {r + 1}/{plan.refine_rounds}")
-        plan_peak_holdout(path, writer, space, x, settings, plan)
+        data = training_set(path, space, x)
+        _check_enough_valid(path, data)
+        emulator = fit_emulator(data, settings)  # the final fit also places the peak hold-out
+        plan_peak_holdout(path, writer, space, emulator, plan)
         solve_pending(path, writer, space, solve, map_fn, chunk, progress, "held-out peaks")
-    data = training_set(path, space, x)
-    _check_enough_valid(path, data)
-    return fit_emulator(data, settings), data, training_set(path, space, x, holdout=True)
+    return emulator, data, training_set(path, space, x, holdout=True)
 
 
 def _check_enough_valid(path: Path, data: TrainingSet) -> None:
