@@ -29,6 +29,9 @@ MapFunction = Callable[[Callable, Iterable], Iterable]
 #: ``progress(done, total, label)``: called after every appended batch.
 Progress = Callable[[int, int, str], None]
 CANDIDATES_PER_POINT = 64
+#: Candidates per peak hold-out point: a high peak is a thin sliver of a wide box (in the
+#: wide pole box f_PBH > 1e-10 needs log10 P_peak >~ -1.1, ~1 % of the box).
+PEAK_CANDIDATES_PER_POINT = 256
 
 
 @dataclass(frozen=True)
@@ -156,7 +159,7 @@ def plan_peak_holdout(path: Path, writer: StoreWriter, space: ParameterSpace,
     _, stages, _ = read_plan(path)
     if plan.peak_holdout == 0 or np.any(stages == design.STAGE_HOLDOUT_PEAK):
         return
-    cand = design.peak_candidates(space.dim, CANDIDATES_PER_POINT * plan.peak_holdout,
+    cand = design.peak_candidates(space.dim, PEAK_CANDIDATES_PER_POINT * plan.peak_holdout,
                                   plan.seed)
     new = design.peak_holdout_points(cand, predict_unit(emulator, cand).log10_P_peak,
                                      classify(emulator, cand), plan.peak_holdout_min,
