@@ -30,6 +30,7 @@ Units: all quantities [1].
 """
 from __future__ import annotations
 
+import itertools
 import math
 
 import numpy as np
@@ -133,7 +134,7 @@ def branches(zmap: ZetaMap) -> list[tuple[float, float]]:
         roots = [] if disc <= 0 else sorted(((-p - math.sqrt(disc)) / (2 * q),
                                              (-p + math.sqrt(disc)) / (2 * q)))
     edges = [-math.inf, *roots, math.inf]
-    return list(zip(edges[:-1], edges[1:]))
+    return list(itertools.pairwise(edges))
 
 
 def _psi(zmap: ZetaMap, x, c, a, t2, s_r2, order: int):
@@ -160,9 +161,8 @@ def _ln_local(c, s_c2, s_cr, s_r2, zmap: ZetaMap, n_gh: int = N_GH) -> np.ndarra
     a, t2, ln_norm = joint(s_c2, s_cr, s_r2)
     s = np.sqrt(s_r2 * t2 / s_c2)                     # sd of zeta_G given C_G
     start = (s_cr / s_c2) * c                         # mean of zeta_G given C_G = c
-    gx, glw = ((_GH_X, _GH_LNW) if n_gh == N_GH else
-               (lambda xw: (xw[0], np.log(xw[1]) + xw[0]**2))(
-                   np.polynomial.hermite.hermgauss(n_gh)))
+    gx, gw = np.polynomial.hermite.hermgauss(n_gh) if n_gh != N_GH else (_GH_X, _GH_W)
+    glw = np.log(gw) + gx * gx
     parts = [_branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw)
              for lo, hi in branches(zmap)]
     total = log_sum_exp(np.stack(parts, axis=-1))
@@ -192,8 +192,12 @@ def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
     apart = np.abs(x2 - x1) > 0.1 * np.minimum(w1, w2)
     quad = ((x1, w1, p1), (x2, w2, p2))
     one = _rule(zmap, x1, w1, lo, hi, gx, glw, args, quad, apart, 0)
-    two = np.where(apart, _rule(zmap, x2, w2, lo, hi, gx, glw, args, quad, apart, 1),
-                   -np.inf)
+    two = np.full(one.shape, -np.inf)
+    if apart.any():
+        sub = [v[apart] for v in (x2, w2)]
+        two[apart] = _rule(zmap, *sub, lo, hi, gx, glw, tuple(v[apart] for v in args),
+                           tuple(tuple(v[apart] for v in r) for r in quad),
+                           apart[apart], 1)
     return log_sum_exp(np.stack([one, two], axis=-1))
 
 

@@ -29,8 +29,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scan.observables.pbh.nongaussian import NonGaussianPlan
 from scan.observables.pbh.ng_density import ln_density
+from scan.observables.pbh.nongaussian import NonGaussianPlan, live_epochs
 from scan.observables.pbh.plan import PBHResult
 from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
 from scan.observables.pbh.zeta_map import ZetaMap
@@ -102,7 +102,9 @@ class StackedNGPlan:
         s_c2, _ = base.sigma2(P2)
         s_c2 = np.maximum(s_c2, 1e-300)
         s_cr, s_r2 = P2 @ self.ng.v_cr.T, np.maximum(P2 @ self.ng.v_r.T, 1e-300)
-        i, h = np.nonzero(np.ones_like(s_c2, dtype=bool))
+        live = np.ones_like(s_c2, dtype=bool) if zmap.kind == "logarithmic" else \
+            live_epochs(self.y_nodes[0], s_c2.ravel(), s_r2.ravel(), zmap).reshape(s_c2.shape)
+        i, h = np.nonzero(live)
         lng = ln_density(self.y_nodes, s_c2[i, h, None], s_cr[i, h, None],
                          s_r2[i, h, None], zmap, base.conventions.ps_factor)
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
@@ -132,14 +134,18 @@ class StackedNGPlan:
         return f
 
 
+def _to_unit(y, y_th: float):
+    """Map y in [y_th, 4/3] to [-1, 1]."""
+    return 2 * (y - y_th) / (C_L_MAX - y_th) - 1
+
+
 def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y) -> StackedNGPlan:
     """Lay out ``ng`` (one threshold for all epochs) for stacks; ``n_y`` nodes of ln g."""
     conv = ng.base.conventions
     y_th = float(compaction_linear(conv.threshold))
     x = lobatto(n_y)
-    to_x = lambda y: 2 * (y - y_th) / (C_L_MAX - y_th) - 1      # noqa: E731
     y_mass = ng.base._y.T                                    # (n_H, n_M)
     yb, wb = beta_nodes(y_th, conv.threshold, conv.gamma_c, conv.K)
     return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
-                         barycentric_matrix(x, np.clip(to_x(y_mass), -1, 1)),
-                         barycentric_matrix(x, to_x(yb)), wb)
+                         barycentric_matrix(x, np.clip(_to_unit(y_mass, y_th), -1, 1)),
+                         barycentric_matrix(x, _to_unit(yb, y_th)), wb)
