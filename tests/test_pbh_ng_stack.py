@@ -17,7 +17,7 @@ import pytest
 from scipy import integrate
 
 from scan.observables.pbh import PBHConventions, plan_pbh
-from scan.observables.pbh.ng_density import ln_density
+from scan.observables.pbh.ng_density import _ln_local, ln_density
 from scan.observables.pbh.ng_stack import plan_stacked
 from scan.observables.pbh.nongaussian import plan_nongaussian
 from scan.observables.pbh.zeta_map import zeta_map_of
@@ -63,14 +63,20 @@ def test_logarithmic_closed_form_matches_quad(lam):
 
 @pytest.mark.parametrize("f_nl", [1.0, 5.0, -2.0])
 def test_local_gauss_hermite_matches_quad(f_nl):
-    """Adaptive 24-point Gauss-Hermite per branch (both branches of the quadratic map):
-    |d ln g| <= 1e-5.  The bound is the rule's measured convergence: doubling to 48 nodes
-    changes ln g by <= 2e-7 on these cases (ridges of non-Gaussian shape)."""
+    """Adaptive Gauss-Hermite per branch (both branches of the quadratic map).  The
+    16-point rule's error is estimated by doubling it: the estimate must bound the
+    actual error (up to the 32-point rule's own, <= 1e-6 here; measured 1.4e-7) and the
+    error stays below 5e-5 in ln g (measured 1.1e-5 over these and the benchmark's
+    variances; a few times the doubling change, common practice)."""
     zmap = zeta_map_of("local", f_nl=f_nl)
     for s_c, cor, s_r in VARIANCES:
         for c in (0.78, 1.05, 1.33):
-            got = float(ln_density(c, s_c**2, cor * s_c * s_r, s_r**2, zmap))
-            assert got == pytest.approx(_quad_ln_density(c, s_c, cor, s_r, zmap), abs=1e-5)
+            args = [np.array([v]) for v in (c, s_c**2, cor * s_c * s_r, s_r**2)]
+            exact = _quad_ln_density(c, s_c, cor, s_r, zmap)
+            g16, g32 = _ln_local(*args, zmap, 16)[0], _ln_local(*args, zmap, 32)[0]
+            assert abs(g32 - exact) <= 1e-6
+            assert abs(g16 - exact) <= abs(g16 - g32) + 1e-6
+            assert abs(g16 - exact) <= 5e-5
 
 
 @pytest.fixture(scope="module")
@@ -99,7 +105,7 @@ def test_identity_map_reproduces_gaussian_stack(plans):
 
 
 @pytest.mark.parametrize("zmap, rtol, per_mass", [
-    (zeta_map_of("local", f_nl=1.0), 1e-7, True),  # measured 4e-9 (f), 3e-10 (total)
+    (zeta_map_of("local", f_nl=1.0), 1e-4, True),  # GH-16 error in ln g <= 5e-5 (above)
     (zeta_map_of("logarithmic", log_lambda=3.0), 2e-5, False),  # measured 1.2e-6 (total)
 ])
 def test_stack_matches_per_spectrum_path(plans, zmap, rtol, per_mass):
@@ -123,7 +129,8 @@ def test_stack_matches_per_spectrum_path(plans, zmap, rtol, per_mass):
 @pytest.mark.parametrize("zmap", [zeta_map_of("local", f_nl=1.0),
                                   zeta_map_of("logarithmic", log_lambda=3.0)])
 def test_interpolation_converged_by_doubling(plans, zmap):
-    """17 vs 33 Chebyshev-Lobatto nodes of ln g: the change bounds the interpolation error
-    (geometric convergence for an analytic ln g); measured <= 4e-9 (local), 2e-13 (log)."""
+    """9 vs 17 Chebyshev-Lobatto nodes of ln g: the change bounds the interpolation error
+    (geometric convergence for an analytic ln g); measured on the 64 benchmark spectra
+    against 33 nodes: <= 1.1e-6 (local f_NL = -1), 7e-8 (logarithmic) per mass."""
     _, ng, stacked, P = plans
-    _close(stacked.evaluate(P, zmap), plan_stacked(ng, 33).evaluate(P, zmap), 1e-7)
+    _close(stacked.evaluate(P, zmap), plan_stacked(ng, 17).evaluate(P, zmap), 1e-5)

@@ -36,7 +36,7 @@ from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
 from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Chebyshev-Lobatto nodes of ln g per pair.
-N_Y: int = 17
+N_Y: int = 9
 #: Geometric panels of the beta integral towards y_th.
 N_PANELS: int = 14
 #: A pair whose ln g stays below this at every node contributes exactly 0 (e^{-800} is
