@@ -46,6 +46,7 @@ from scan.observables import Observables
 from scan.observables.batch import (batch_observables, parabolic_peak, plan_batch,
                                     with_collapse_coefficient)
 from scan.observables.pbh import plan_pbh_thresholds
+from scan.observables.pbh.ng_stack import plan_pbh_mapped
 from scan.observables.settings import settings_of
 from scan.posterior.blobs import (empty_blobs, finish_log_posterior, mass_at_peak, peak_range,
                                   store_blobs, total_of_terms)
@@ -146,7 +147,13 @@ class PosteriorTarget(TargetBase):
         conventions, dof, n_eff = settings.conventions, settings.dof, settings.n_eff
         span = threshold_range(self.priors)
         pbh_plan = None
-        if span is not None:
+        zmap = settings.zeta_map
+        if zmap is not None and not zmap.is_gaussian:
+
+            def pbh_plan(k_table, masses):
+                return plan_pbh_mapped(k_table, masses, conventions, zmap, dof=dof,
+                                       n_eff=n_eff)
+        elif span is not None:
 
             def pbh_plan(k_table, masses):
                 return plan_pbh_thresholds(k_table, masses, conventions, span, dof=dof,

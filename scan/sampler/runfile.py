@@ -30,6 +30,7 @@ from emcee.backends import HDFBackend
 from scan import store
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
+from scan.observables.settings import pbh_convention_attrs
 
 GROUP = "mcmc"
 EXTRA = "sampler"
@@ -191,6 +192,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
         store.write_attrs(handle, store.curve_attrs(curves or {}))
         handle.attrs["run_name"] = config.run.name
+        store.write_attrs(handle, pbh_convention_attrs(config.observables))
         store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",

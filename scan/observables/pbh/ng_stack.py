@@ -30,8 +30,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from scan.observables.pbh.ng_density import ln_density
-from scan.observables.pbh.nongaussian import NonGaussianPlan, live_epochs
-from scan.observables.pbh.plan import PBHResult
+from scan.observables.pbh.nongaussian import (
+    NonGaussianPlan,
+    live_epochs,
+    plan_nongaussian,
+)
+from scan.observables.pbh.plan import PBHResult, plan_pbh
 from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
 from scan.observables.pbh.zeta_map import ZetaMap
 
@@ -102,8 +106,7 @@ class StackedNGPlan:
         s_c2, _ = base.sigma2(P2)
         s_c2 = np.maximum(s_c2, 1e-300)
         s_cr, s_r2 = P2 @ self.ng.v_cr.T, np.maximum(P2 @ self.ng.v_r.T, 1e-300)
-        live = np.ones_like(s_c2, dtype=bool) if zmap.kind == "logarithmic" else \
-            live_epochs(self.y_nodes[0], s_c2.ravel(), s_r2.ravel(), zmap).reshape(s_c2.shape)
+        live = _live(self.y_nodes[0], s_c2, s_r2, zmap)
         i, h = np.nonzero(live)
         lng = ln_density(self.y_nodes, s_c2[i, h, None], s_cr[i, h, None],
                          s_r2[i, h, None], zmap, base.conventions.ps_factor)
@@ -134,6 +137,21 @@ class StackedNGPlan:
         return f
 
 
+def _live(y_th: float, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
+    """(spectrum, epoch) pairs whose density above ``y_th`` can be non-zero in double
+    precision.  Variances below 1e-250 (columns the spectrum does not reach) are dead.
+    Logarithmic map: on the curve C_G = y u, u = 1 - lambda zeta_G, the exponent q of
+    the joint density is at least max(C_G^2/sigma_c^2, zeta_G^2/sigma_r^2) (each marginal
+    bounds it), whose minimum over u is y^2 / (sigma_c + |lambda| y sigma_r)^2; dead where
+    q/2 > 1500 (e^{-1500} times a prefactor below 1e250 underflows); other maps:
+    :func:`live_epochs`."""
+    on = (s_c2 > 1e-250) & (s_r2 > 1e-250)
+    if zmap.kind == "logarithmic":
+        q = y_th**2 / (np.sqrt(s_c2) + abs(zmap.log_lambda) * y_th * np.sqrt(s_r2))**2
+        return on & (0.5 * q < 1500.0)
+    return on & live_epochs(y_th, s_c2.ravel(), s_r2.ravel(), zmap).reshape(s_c2.shape)
+
+
 def _to_unit(y, y_th: float):
     """Map y in [y_th, 4/3] to [-1, 1]."""
     return 2 * (y - y_th) / (C_L_MAX - y_th) - 1
@@ -149,3 +167,33 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y) -> StackedNGPlan:
     return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
                          barycentric_matrix(x, np.clip(_to_unit(y_mass, y_th), -1, 1)),
                          barycentric_matrix(x, _to_unit(yb, y_th)), wb)
+
+
+@dataclass(frozen=True)
+class MappedStackPlan:
+    """A :class:`StackedNGPlan` bound to one map: the ``evaluate(P_stack)`` protocol of
+    the batch path (:func:`scan.observables.batch.plan_batch`'s ``pbh_plan``)."""
+
+    stacked: StackedNGPlan
+    zmap: ZetaMap
+
+    @property
+    def M(self) -> np.ndarray:
+        """Output masses [M_sun]."""
+        return self.stacked.ng.base.M
+
+    def evaluate(self, P_zeta, thresholds=None) -> PBHResult:
+        """f_PBH of a stack (m, n_k) [1]; per-spectrum thresholds are not supported."""
+        if thresholds is not None:
+            raise ValueError("the stacked non-Gaussian plan has one threshold for all "
+                             "spectra")
+        return self.stacked.evaluate(P_zeta, self.zmap)
+
+
+def plan_pbh_mapped(k_table, masses, conventions, zmap: ZetaMap, *, dof=None,
+                    n_eff: float | None = None, n_formation: int = 256) -> MappedStackPlan:
+    """The batch path's f_PBH plan for spectra on ``k_table`` [Mpc^-1] at ``masses``
+    [M_sun] with zeta = F(zeta_G) given by ``zmap`` (gaussian, local or logarithmic)."""
+    kw = {} if n_eff is None else {"n_eff": n_eff}
+    base = plan_pbh(k_table, masses, conventions, n_formation=n_formation, dof=dof, **kw)
+    return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation)), zmap)

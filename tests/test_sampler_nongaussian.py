@@ -1,0 +1,64 @@
+"""The posterior target with a non-Gaussian zeta (issue 15 step 4): local and logarithmic
+maps in the vectorised f_PBH, ``model`` and per-walker thresholds refused, the convention
+recorded.  The surrogate is the stand-in of tests/test_sampler_posterior.py (trained in
+well under a second); the reference is the per-spectrum non-Gaussian path
+(scan/observables/pbh/nongaussian.py, checked against scipy quad in
+tests/test_pbh_nongaussian.py).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
+
+from scan.errors import ConfigError
+from scan.observables.settings import pbh_convention_attrs
+from scan.observables.window import spectra_on_table
+from scan.sampler import plan_run
+
+THETAS = np.array([[0.012, 1.55, 1.0, 1e-15], [0.015, 1.62, 1.4, 3e-15]])
+LOCAL = '[observables]\nnon_gaussianity = "local"\nf_nl = 1.0\n'
+
+
+def _target(trained, extra):  # noqa: F811
+    tmp, _, _ = trained
+    cfg = make_config(tmp, surrogate=tmp / "standin" / "surrogate.h5", extra=extra)
+    return cfg, plan_run(cfg, tmp / f"chain_{abs(hash(extra))}.h5").target
+
+
+@pytest.mark.parametrize("extra", [LOCAL, ('[observables]\nnon_gaussianity = '
+                                    '"logarithmic"\nlog_lambda = 3.0\n')])
+def test_posterior_f_pbh_is_the_per_spectrum_non_gaussian_one(trained, extra):  # noqa: F811
+    """The walkers' f_PBH total equals the per-spectrum path on the same table spectra
+    (rtol 1e-4: the stack's Gauss-Hermite error in ln g, <= 5e-5, tests/test_pbh_ng_stack.py;
+    for the logarithmic map the per-spectrum density's own edge error, <= 7e-6 in the
+    totals) and is not the Gaussian one."""
+    _, gauss_target = _target(trained, "")
+    _, target = _target(trained, extra)
+    _, blobs = target.log_and_blobs(THETAS)
+    _, gauss_blobs = gauss_target.log_and_blobs(THETAS)
+    plan, pbh = target.loaded["plan"], target.loaded["plan"].pbh
+    pred = target.loaded["surrogate"].predict(THETAS[:, :3])
+    log10_p = pred.log10_P_peak[:, None] + pred.shape
+    table = spectra_on_table(plan.lnk_table, pred.ln_k_peak, plan.x, log10_p)
+    for i, row in enumerate(table):
+        ref = pbh.stacked.ng.evaluate(row, pbh.zmap).f_pbh_total
+        assert blobs["f_pbh_total"][i] == pytest.approx(ref, rel=1e-4)
+        assert blobs["f_pbh_total"][i] > 10 * gauss_blobs["f_pbh_total"][i]
+
+
+def test_model_map_and_sampled_threshold_are_refused_naming_the_key(trained):  # noqa: F811
+    with pytest.raises(ConfigError, match=r"observables\.non_gaussianity.*f_nl"):
+        _target(trained, '[observables]\nnon_gaussianity = "model"\n')
+    extra = LOCAL.replace("[observables]", "[[nuisance]]\nname = \"pbh.threshold\"\n"
+                          "prior = \"uniform\"\nlow = 0.4\nhigh = 0.6\n[observables]")
+    with pytest.raises(ConfigError, match=r"nuisance\[1\].*gaussian"):
+        _target(trained, extra)
+
+
+def test_runs_record_the_convention(trained):  # noqa: F811
+    cfg, _ = _target(trained, LOCAL)
+    assert pbh_convention_attrs(cfg.observables) == {"non_gaussianity": "local",
+                                                     "f_nl": 1.0, "g_nl": 0.0}
+    gauss, _ = _target(trained, "")
+    assert pbh_convention_attrs(gauss.observables) == {"non_gaussianity": "gaussian"}
