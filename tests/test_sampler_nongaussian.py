@@ -11,19 +11,28 @@ import numpy as np
 import pytest
 from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
 
+from scan.cli.summary import format_summary
 from scan.errors import ConfigError
 from scan.observables.settings import pbh_convention_attrs
 from scan.observables.window import spectra_on_table
-from scan.sampler import plan_run
+from scan.pool import choose_pool
+from scan.sampler import plan_run, run_chain, runfile
+from scan.sampler.runfile import load_chain
+from scan.sampler.summary import summarize
 
 THETAS = np.array([[0.012, 1.55, 1.0, 1e-15], [0.015, 1.62, 1.4, 3e-15]])
 LOCAL = '[observables]\nnon_gaussianity = "local"\nf_nl = 1.0\n'
 
 
-def _target(trained, extra):  # noqa: F811
+def _plan(trained, extra):  # noqa: F811
     tmp, _, _ = trained
     cfg = make_config(tmp, surrogate=tmp / "standin" / "surrogate.h5", extra=extra)
-    return cfg, plan_run(cfg, tmp / f"chain_{abs(hash(extra))}.h5").target
+    return cfg, plan_run(cfg, tmp / f"chain_{abs(hash(extra))}.h5")
+
+
+def _target(trained, extra):  # noqa: F811
+    cfg, plan = _plan(trained, extra)
+    return cfg, plan.target
 
 
 @pytest.mark.parametrize("extra", [LOCAL, ('[observables]\nnon_gaussianity = '
@@ -62,3 +71,19 @@ def test_runs_record_the_convention(trained):  # noqa: F811
                                                      "f_nl": 1.0, "g_nl": 0.0}
     gauss, _ = _target(trained, "")
     assert pbh_convention_attrs(gauss.observables) == {"non_gaussianity": "gaussian"}
+
+
+def test_chain_records_the_convention_and_summary_shows_both_totals(trained):  # noqa: F811
+    """A 30-step chain with local f_NL = 1: the file's attributes name the map, every
+    valid sample carries both totals, and the summary says which is which."""
+    _, plan = _plan(trained, LOCAL)
+    with choose_pool(None, False, vectorized=True) as pool:
+        run_chain(plan, pool, restart=True)
+    assert runfile.pbh_convention(plan.path) == {"non_gaussianity": "local", "f_nl": 1.0,
+                                                 "g_nl": 0.0}
+    blobs = load_chain(plan.path)["blobs"].reshape(-1)
+    ok = blobs["reason"] == 0
+    assert ok.any() and np.all(blobs["f_pbh_total"][ok] >= blobs["f_pbh_total_gaussian"][ok])
+    text = format_summary(summarize(plan.path))
+    assert "non_gaussianity = 'local' (f_nl = 1, g_nl = 0)" in text
+    assert "f_pbh_total_gaussian" in text and "Gaussian ->" in text

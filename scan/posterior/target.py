@@ -63,6 +63,8 @@ __all__ = ["PosteriorTarget", "BLOB_FIELDS"]
 BLOB_FIELDS: tuple[str, ...] = ("k_peak", "P_peak", "f_gw_peak", "omega_gw_h2_peak",
                                 "f_pbh_total", "M_pbh_peak", "n_s", "r", "N_star",
                                 "log_like")
+#: Blob field of the Gaussian-zeta total beside a non-Gaussian ``f_pbh_total``.
+GAUSSIAN_TOTAL = "f_pbh_total_gaussian"
 
 
 @dataclasses.dataclass(frozen=True)
@@ -116,11 +118,22 @@ class PosteriorTarget(TargetBase):
 
     @functools.cached_property
     def blob_dtype(self) -> np.dtype:  # type: ignore[override]
-        """Derived fields, ``snr_<curve>``, ``lnL_<term>`` and ``reason``."""
-        fields = [(name, np.float64) for name in BLOB_FIELDS]
+        """Derived fields (with ``f_pbh_total_gaussian`` beside a non-Gaussian
+        ``f_pbh_total``), ``snr_<curve>``, ``lnL_<term>`` and ``reason``."""
+        fields = [(name, np.float64) for name in BLOB_FIELDS + self._extra_fields]
         fields += [(f"snr_{name}", np.float64) for name in self.snr_curves]
         fields += [(f"lnL_{name}", np.float64) for name in self.term_names]
         return np.dtype(fields + [("reason", np.int16)])
+
+    @property
+    def _extra_fields(self) -> tuple[str, ...]:
+        """``f_pbh_total_gaussian`` when the run's zeta is non-Gaussian."""
+        return () if self.config.observables.non_gaussianity == "gaussian" \
+            else (GAUSSIAN_TOTAL,)
+
+    def _extras_of(self, obs: Any) -> dict[str, Any]:
+        """The extra blob values of ``obs`` (see :attr:`_extra_fields`)."""
+        return {GAUSSIAN_TOTAL: obs.f_pbh_total_gaussian} if self._extra_fields else {}
 
     def __getstate__(self) -> dict[str, Any]:
         state = dict(self.__dict__)
@@ -300,7 +313,7 @@ class PosteriorTarget(TargetBase):
                 omega_gw_h2_peak=batch.omega_gw_h2_peak, f_pbh_total=batch.f_pbh_total,
                 M_pbh_peak=mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm,
                                         batch.ln_mass_shift),
-                n_s=batch.n_s, r=batch.r, N_star=batch.N_star))
+                n_s=batch.n_s, r=batch.r, N_star=batch.N_star, **self._extras_of(batch)))
             finish_log_posterior(log_p, reason, rows, total, log_prior, Reason.EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs
@@ -339,7 +352,7 @@ class PosteriorTarget(TargetBase):
                 k_peak=ob.k_peak, P_peak=ob.P_peak, f_gw_peak=math.exp(ln_f),
                 omega_gw_h2_peak=math.exp(ln_omega), f_pbh_total=ob.f_pbh_total,
                 M_pbh_peak=mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
-                n_s=ob.n_s, r=ob.r, N_star=ob.N_star))
+                n_s=ob.n_s, r=ob.r, N_star=ob.N_star, **self._extras_of(ob)))
             finish_log_posterior(log_p, reason, rows, total, log_prior, Reason.EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs

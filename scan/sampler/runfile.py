@@ -184,6 +184,18 @@ def chain_path(run: str | Path) -> Path:
     return path
 
 
+#: Root attributes of a chain recording the PBH non-Gaussianity convention.
+CONVENTION_ATTRS: tuple[str, ...] = ("non_gaussianity", "f_nl", "g_nl", "log_lambda")
+
+
+def pbh_convention(path: str | Path) -> dict[str, Any]:
+    """The chain's recorded non-Gaussianity convention (empty for chains written before
+    it was recorded)."""
+    with h5py.File(path, "r") as handle:
+        return {key: (str(v) if isinstance(v, (str, bytes)) else float(v))
+                for key in CONVENTION_ATTRS if (v := handle.attrs.get(key)) is not None}
+
+
 def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
            curves: Mapping[str, str] | None = None) -> None:
     """Write a new run file (atomically): provenance, config, the digests of the curve

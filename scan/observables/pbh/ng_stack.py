@@ -25,7 +25,7 @@ Units: masses [M_sun]; everything else [1].
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -183,11 +183,14 @@ class MappedStackPlan:
         return self.stacked.ng.base.M
 
     def evaluate(self, P_zeta, thresholds=None) -> PBHResult:
-        """f_PBH of a stack (m, n_k) [1]; per-spectrum thresholds are not supported."""
+        """f_PBH of a stack (m, n_k) [1] with the Gaussian total beside it
+        (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported."""
         if thresholds is not None:
             raise ValueError("the stacked non-Gaussian plan has one threshold for all "
                              "spectra")
-        return self.stacked.evaluate(P_zeta, self.zmap)
+        gaussian = self.stacked.ng.base.evaluate(P_zeta).f_pbh_total
+        return replace(self.stacked.evaluate(P_zeta, self.zmap),
+                       f_pbh_total_gaussian=gaussian)
 
 
 def plan_pbh_mapped(k_table, masses, conventions, zmap: ZetaMap, *, dof=None,
