@@ -20,8 +20,8 @@ Everything is returned as a logarithm, so that densities far below the smallest 
   Gauss-Hermite quadrature on each monotone branch of F (between the real roots of F',
   where C_G = c/F' diverges and the integrand vanishes): Newton steps on the
   log-integrand psi from the Gaussian conditional mean, then ``n_gh`` Gauss-Hermite
-  nodes scaled by 1/sqrt(-psi'') (Liu & Pierce 1994, Biometrika 81, 624, "adaptive
-  Gauss-Hermite").  For a Gaussian integrand (F' = 1) the rule is exact for any n_gh; the
+  nodes scaled by 1/sqrt(-psi'') (adaptive Gauss-Hermite: Liu & Pierce 1994, "A note on
+  Gauss-Hermite quadrature", Biometrika 81(3), 624-629).  For a Gaussian integrand (F' = 1) the rule is exact for any n_gh; the
   error for a smooth ridge falls like the Gauss-Hermite remainder n! / (2^n (2n)!) times
   the 2n-th derivative of the integrand over its Gaussian part.  Both branches of a
   non-monotone map are integrated (C_G < 0 with F' < 0 also gives C_l > 0).
@@ -115,8 +115,9 @@ def _ln_half_moment(A, mu) -> np.ndarray:
 
 
 def _series(z):
-    """1 - sqrt(pi) z erfcx(z) for large z: 1/(2z^2) - 3/(4z^4) + 15/(8z^6) - 105/(16z^8)
-    (Abramowitz & Stegun 1964, 7.1.23)."""
+    """1 - sqrt(pi) z erfcx(z) for large z: 1/(2z^2) - 3/(4z^4) + 15/(8z^6) - 105/(16z^8),
+    from the asymptotic series of erfc (Abramowitz & Stegun 1964, eq. 7.1.23; equation
+    number from memory; checked against scipy's erfcx in tests/test_pbh_ng_stack.py)."""
     r = 1.0 / (z * z)
     return r * (0.5 + r * (-0.75 + r * (1.875 - r * 6.5625)))
 

@@ -3,7 +3,8 @@
 For every (spectrum, formation epoch) pair the log-density ln g(C_l) of the linear
 compaction (:mod:`scan.observables.pbh.ng_density`) is evaluated at ``n_y`` Chebyshev-Lobatto
 nodes on the type-I interval [y_th, 4/3] (y_th = C_l at C = C_th) and interpolated as a
-polynomial (barycentric form, Berrut & Trefethen 2004, SIAM Review 46, 501) to
+polynomial (barycentric form, Berrut & Trefethen 2004, "Barycentric Lagrange
+interpolation", SIAM Review 46(3), 501-517) to
 
 * the critical-collapse masses y(M, M_H) of the mass function (one fixed matrix per
   epoch), and
