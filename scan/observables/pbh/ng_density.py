@@ -68,13 +68,13 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
     ValueError
         For ``model`` maps (tabulated delta-N: use the per-spectrum path).
     """
-    c, s_c2, s_cr, s_r2 = np.broadcast_arrays(*(np.asarray(v, dtype=float)
-                                                for v in (c, s_c2, s_cr, s_r2)))
+    c, s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
     if zmap.kind == "gaussian":
         out = -0.5 * np.log(2 * math.pi * s_c2) - 0.5 * c * c / s_c2
     elif zmap.kind == "logarithmic":
         out = _ln_log_map(c, s_c2, s_cr, s_r2, zmap.log_lambda)
     elif zmap.kind == "local":
+        c, s_c2, s_cr, s_r2 = np.broadcast_arrays(c, s_c2, s_cr, s_r2)
         out = _ln_local(*(v.ravel() for v in (c, s_c2, s_cr, s_r2)), zmap).reshape(c.shape)
     else:
         raise ValueError("the stacked density covers gaussian, local and logarithmic maps; "
@@ -90,28 +90,33 @@ def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:
     A = kappa + alpha^2/t^2, mu = (kappa + alpha b / t^2) / A, and
     g = e^{-Q_min/2} / (2 pi sqrt(det) |lambda|) int_0^inf u e^{-A (u - mu)^2 / 2} du.
     """
-    a, t2, ln_norm = joint(s_c2, s_cr, s_r2)
+    a, t2, ln_norm = joint(s_c2, s_cr, s_r2)          # per pair: broadcast below
     kappa = 1.0 / (lam * lam * s_r2)
     b = a / lam
+    inv_t2 = 1.0 / t2
     alpha = c + b
-    A = kappa + alpha * alpha / t2
-    mu = (kappa + alpha * b / t2) / A
-    q_min = kappa * c * c / (t2 * A)
-    return ln_norm - 0.5 * q_min - math.log(abs(lam)) + _ln_half_moment(A, mu)
+    A = kappa + alpha * alpha * inv_t2
+    mu = (kappa + alpha * (b * inv_t2)) / A
+    q_min = (kappa * inv_t2) * (c * c) / A
+    return (ln_norm - math.log(abs(lam))) - 0.5 * q_min + _ln_half_moment(A, mu)
 
 
 def _ln_half_moment(A, mu) -> np.ndarray:
     """ln int_0^inf u exp(-A (u - mu)^2 / 2) du [1], stable for every sign of mu."""
+    out = np.empty(np.shape(A))
     x = mu * np.sqrt(0.5 * A)
     pos = mu >= 0
+    neg = ~pos
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-        xp = np.where(pos, x, 0.0)
-        up = np.log(np.exp(-xp * xp) / A
-                    + np.where(pos, mu, 0.0) * np.sqrt(0.5 * math.pi / A) * special.erfc(-xp))
-        z = np.where(pos, 1.0, -x)
-        h = np.where(z > _Z_SERIES, _series(z), 1 - math.sqrt(math.pi) * z * special.erfcx(z))
-        down = -z * z - np.log(A) + np.log(h)
-    return np.where(pos, up, down)
+        xp, ap = x[pos], A[pos]
+        out[pos] = np.log(np.exp(-xp * xp) / ap
+                          + mu[pos] * np.sqrt(0.5 * math.pi / ap) * special.erfc(-xp))
+        z = -x[neg]
+        h = 1 - math.sqrt(math.pi) * z * special.erfcx(z)
+        far = z > _Z_SERIES
+        h[far] = _series(z[far])
+        out[neg] = -z * z - np.log(A[neg]) + np.log(h)
+    return out
 
 
 def _series(z):

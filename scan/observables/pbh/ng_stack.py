@@ -87,7 +87,11 @@ def beta_nodes(y_th: float, threshold: float, gamma_c: float, K: float):
 
 @dataclass(frozen=True)
 class StackedNGPlan:
-    """A :class:`NonGaussianPlan` laid out for stacks of spectra (see the module doc)."""
+    """A :class:`NonGaussianPlan` laid out for stacks of spectra (see the module doc).
+
+    ``mass_matrix`` (n_H, n_y, n_M) takes ln g at the nodes to the masses' y(M, M_H) per
+    epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights.
+    """
 
     ng: NonGaussianPlan
     y_nodes: np.ndarray
@@ -123,19 +127,18 @@ class StackedNGPlan:
         return PBHResult(base.M, f, total, base.M_H, s_c2, base.conventions)
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
-        """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))."""
+        """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H)).
+
+        The pairs' ln g is laid out densely per (epoch, spectrum), dead pairs at
+        ``LN_DEAD`` (a constant interpolates to itself; e^{-800} is 0), and every
+        epoch's mass matrix applied in one batched product."""
         weight = self.ng.base._kernel.weight                 # (n_H, n_M), epoch-major
-        vals = np.zeros((lng.shape[0], weight.shape[1]))
-        order = np.argsort(h, kind="stable")
-        hs = h[order]
-        starts = np.flatnonzero(np.r_[True, hs[1:] != hs[:-1]])
-        for a, b in zip(starts, np.r_[starts[1:], hs.size]):
-            rows = order[a:b]
-            e = hs[a]
-            vals[rows] = np.exp(lng[rows] @ self.mass_matrix[e].T) * weight[e]
-        f = np.zeros((m, weight.shape[1]))
-        np.add.at(f, i, vals)
-        return f
+        dense = np.full((weight.shape[0], m, lng.shape[1]), LN_DEAD)
+        dense[h, i] = lng
+        ln_f = np.matmul(dense, self.mass_matrix)            # (n_H, m, n_M)
+        np.exp(ln_f, out=ln_f)
+        ln_f *= weight[:, None, :]
+        return ln_f.sum(axis=0)
 
 
 def _live(y_th: float, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
@@ -166,7 +169,8 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y) -> StackedNGPlan:
     y_mass = ng.base._y.T                                    # (n_H, n_M)
     yb, wb = beta_nodes(y_th, conv.threshold, conv.gamma_c, conv.K)
     return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
-                         barycentric_matrix(x, np.clip(_to_unit(y_mass, y_th), -1, 1)),
+                         np.ascontiguousarray(barycentric_matrix(
+                             x, np.clip(_to_unit(y_mass, y_th), -1, 1)).transpose(0, 2, 1)),
                          barycentric_matrix(x, _to_unit(yb, y_th)), wb)
 
 
