@@ -5,8 +5,10 @@ from __future__ import annotations
 
 import importlib.util
 import re
+import sys
 import tomllib
 from pathlib import Path
+from types import SimpleNamespace
 
 import yaml
 
@@ -19,6 +21,7 @@ DOCS = ROOT / "docs"
 def _tool(name: str):
     spec = importlib.util.spec_from_file_location(name, ROOT / "tests" / "tools" / f"{name}.py")
     module = importlib.util.module_from_spec(spec)
+    sys.modules.setdefault(name, module)  # dataclasses look their module up by name
     spec.loader.exec_module(module)
     return module
 
@@ -95,3 +98,51 @@ def test_the_tutorial_config_and_plugin_are_the_ones_it_shows(monkeypatch):
     phi = np.linspace(0.5, 7.0, 50)
     assert np.allclose(plugin.V(phi), builtin.V(phi), rtol=1e-13, atol=0)
     assert np.allclose(plugin.dV(phi), builtin.dV(phi), rtol=1e-13, atol=0)
+
+
+def _lognormal_stand_in(regime, ln_k0: float, sigma: float, tool):
+    """A made-up solve of ``regime``: P_ζ a log-normal in k of width ``sigma`` (e-folds),
+    Ω_GW h² the same shape on f = ck/2π; no solver runs."""
+    import astropy.units as u
+    import numpy as np
+
+    from scan.observables import cosmo
+
+    k = np.logspace(-2, 16, 721)
+    P = 1e-2 * np.exp(-((np.log(k) - ln_k0) ** 2) / (2 * sigma**2)) + 2e-9
+    observables = SimpleNamespace(f_hz=cosmo.k_to_f(k), omega_gw_h2=1e-8 * P)
+    solution = SimpleNamespace(k=k / u.Mpc, P_zeta=P * u.one,
+                               scalars={"P_peak": P.max() * u.one, "n_s": 0.96 * u.one},
+                               record=SimpleNamespace(observables=observables))
+    return tool.Found(regime, None, "", solution)
+
+
+def test_the_regimes_figure_draws_three_powers_with_units_and_their_legend_first():
+    """tests/tools/regimes_figure.py (docs/regimes.png) on stand-in spectra: two panels
+    with k in Mpc^-1 and f in Hz, one line per power in each, the powers' legend entries
+    in the first legend row.  ``decades_within`` of a log-normal of width σ (e-folds):
+    P > P_max/10 where |ln k − ln k0| < σ √(2 ln 10), i.e. 2σ √(2 ln 10)/ln 10 decades
+    (algebra), to within the grid's spacing of 0.025 decades at either end."""
+    import numpy as np
+
+    from scan.curves import load_curve
+
+    tool = _tool("regimes_figure")
+    found = [_lognormal_stand_in(r, 10.0 + 5 * i, 1.0 + i, tool)
+             for i, r in enumerate(tool.REGIMES)]
+    curves = [load_curve(ROOT / c) for c in tool.CURVES]
+    fig = tool.regimes_figure(found, curves)
+    left, right = fig.axes[:2]
+    assert "Mpc" in left.get_xlabel() and "Hz" in right.get_xlabel()
+    powers = [f"$p = {r.power:g}$" for r in tool.REGIMES]
+    assert [ln.get_label().split(":")[0] for ln in left.get_lines()
+            if ln.get_label().startswith("$p")] == powers
+    assert sum(ln.get_linestyle() in ("--", "-", "-.") and ln.get_color() in
+               [r.colour for r in tool.REGIMES] for ln in right.get_lines()) == 3
+    texts = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert len(texts) == 2 * len(powers)  # 3 columns filled column by column:
+    assert [t.split(":")[0] for t in texts[0::2]] == powers  # entries 0, 2, 4 = row 1
+    for i, item in enumerate(found):
+        decades = tool.decades_within(item.solution.k.value, item.solution.P_zeta.value)
+        sigma = 1.0 + i
+        assert abs(decades - 2 * sigma * np.sqrt(2 * np.log(10)) / np.log(10)) <= 0.05

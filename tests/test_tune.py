@@ -6,10 +6,11 @@ import math
 import pytest
 
 from scan.cli import main
+from scan.cli.tune import tuned_text
 from scan.config import load_config, load_config_text
 from scan.config.edit import set_pole_keys
 from scan.pipeline.roots import Unreachable, illinois
-from scan.pipeline.tune import tune_pole
+from scan.pipeline.tune import Trial, TuneResult, tune_pole, with_pole
 
 #: Fewer modes than the default 128 (the peak is still refined to modes.refine_tol =
 #: 1e-3, 4e-4 dex): the solves keep the default tolerances and take ~1 s each.
@@ -48,6 +49,22 @@ def test_the_tuned_config_keeps_everything_else():
     assert config.model.poles[0].sharpness is None
     assert config.model.poles[1].width == 0.026 and "# keep me" in out
     assert out.count("\n") == text.count("\n")
+
+
+def test_a_pole_given_by_its_wall_ratio_is_tuned_into_a_width():
+    """A pole stated as ``wall_ratio`` leaves the search as a width: the wall ratio is
+    dropped from the model the solver runs and from the written TOML (one of width,
+    sharpness and wall_ratio per pole).  No solve: the trial is made up."""
+    text = ("[run]\nname = 't'\n\n[model]\npotential = 't_model'\nkinetic = 'poles'\n\n"
+            "[[model.poles]]\nposition = 5.0\nwall_ratio = 1.2\npower = 1.0\n")
+    config = load_config_text(text)
+    moved = with_pole(config, 0, width=0.031).model.poles[0]
+    assert (moved.width, moved.wall_ratio, moved.sharpness) == (0.031, None, None)
+    trial = Trial(0.031, 5.0, True, "", -2.0, 1.3e8)
+    out = tuned_text(config, TuneResult(with_pole(config, 0, width=0.031), 0, trial,
+                                        (trial,)))
+    pole = load_config_text(out).model.poles[0]
+    assert (pole.width, pole.wall_ratio) == (0.031, None) and "wall_ratio" not in out
 
 
 @pytest.mark.parametrize("power, width", [(1.0, 0.0254), (1.9, 0.000462)])

@@ -7,6 +7,7 @@ from collections.abc import Callable
 from scan.cli.output import Output, ProgressLine, add_output_options
 from scan.config import load_config
 from scan.pool import BasePool
+from scan.posterior.build import width_prior_note
 from scan.sampler.command import sample_run
 from scan.sampler.driver import Progress, RunOutcome, RunPlan
 from scan.sampler.stop import EXIT_CODES
@@ -71,6 +72,9 @@ def run(args: argparse.Namespace) -> int:
     def started(plan: RunPlan, pool: BasePool) -> None:
         output.info(f"sampling {plan.priors.dim} parameters with {config.sampler.walkers} "
                     f"walkers ({pool.describe()}) -> {plan.path}")
+        note = width_prior_note(plan.target)
+        if note:
+            output.note(f"note: {note}")
     try:
         outcome = sample_run(config, out=args.out, restart=args.restart,
                              processes=args.processes, mpi=args.mpi, on_start=started,

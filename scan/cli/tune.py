@@ -89,8 +89,8 @@ def tuned_text(config, result: TuneResult) -> str:
     if best.position != config.model.poles[result.pole].position:
         values["position"] = best.position
     note = f"zetascan tune: log10 P_peak = {best.log10_P_peak:.4f}, k_peak = {best.k_peak:.4g}"
-    text = set_pole_keys(config.text, result.pole, values, drop=("sharpness",), note=note,
-                         source=config.source)
+    text = set_pole_keys(config.text, result.pole, values, drop=("sharpness", "wall_ratio"),
+                         note=note, source=config.source)
     check = load_config_text(text, source=config.source).model.poles[result.pole]
     if check.width != best.width or check.position != best.position:
         raise ZetascanError(f"{config.source}: could not rewrite pole {result.pole} "

@@ -17,7 +17,8 @@ from typing import Any
 import numpy as np
 from scipy import special, stats
 
-from scan.config.schema import NuisanceSection, ParameterSection, RunConfig
+from scan.config.schema import NuisanceSection, ParameterSection, PriorShape, RunConfig
+from scan.config.width_prior import MappedWidthPrior, wall_coordinate_of
 from scan.errors import ConfigError
 
 _STEP = re.compile(r"^([A-Za-z_]\w*)(?:\[(\d+)\])?$")
@@ -109,15 +110,15 @@ class Prior:
         return stats.truncnorm(a, b, loc=self.mean, scale=self.sigma)
 
 
-def _prior_from_section(section: ParameterSection | NuisanceSection, name: str,
+def _prior_from_section(section: ParameterSection | NuisanceSection | PriorShape, name: str,
                         default_start: float | None) -> Prior:
     low = -math.inf if section.low is None else section.low
     high = math.inf if section.high is None else section.high
-    prior = Prior(name=name, label=section.label or name, kind=section.prior, low=low,
-                  high=high,
+    prior = Prior(name=name, label=getattr(section, "label", "") or name, kind=section.prior,
+                  low=low, high=high,
                   mean=math.nan if section.mean is None else section.mean,
                   sigma=math.nan if section.sigma is None else section.sigma)
-    start = section.start
+    start = getattr(section, "start", None)
     if start is None and default_start is not None and low <= default_start <= high:
         start = default_start
     return dataclasses.replace(prior, start=prior.centre() if start is None else start)
@@ -130,6 +131,8 @@ class PriorSet:
     priors: tuple[Prior, ...]
     #: How many leading entries are model parameters (the rest are nuisance).
     n_model: int
+    #: A prior on a pole's width stated for its sampled wall coordinate (or None).
+    width_prior: MappedWidthPrior | None = None
 
     @classmethod
     def from_config(cls, config: RunConfig) -> PriorSet:
@@ -145,7 +148,7 @@ class PriorSet:
         model = [_prior_from_section(p, p.key, float(get_key(config, p.key)))
                  for p in config.parameters]
         nuisance = [_prior_from_section(n, n.name, None) for n in config.nuisance]
-        return cls(tuple(model + nuisance), len(model))
+        return cls(tuple(model + nuisance), len(model), mapped_width_prior(config, model))
 
     @property
     def dim(self) -> int:
@@ -169,6 +172,25 @@ class PriorSet:
         for i, prior in enumerate(self.priors):
             total = total + prior.log_pdf(theta[..., i])
         return total
+
+    def log_prior_mapped(self, theta: np.ndarray, ln_wall_width: np.ndarray | None
+                         ) -> np.ndarray:
+        """The posterior's log-prior: :meth:`log_prior` with a ``width_prior`` applied.
+
+        With a width prior the wall coordinate's box density is replaced by the width
+        prior mapped through w = w_w/ρ and its Jacobian (:mod:`scan.config.width_prior`);
+        ``ln_wall_width`` is ln w_w [ln M_p] of each vector, shape (...,).  Without one,
+        :meth:`log_prior` (``ln_wall_width`` is ignored).
+        """
+        total = self.log_prior(theta)
+        mapped = self.width_prior
+        if mapped is None:
+            return total
+        if ln_wall_width is None:
+            raise ValueError("a width prior needs ln w_w of every vector")
+        c = np.asarray(theta, float)[..., mapped.index]
+        with np.errstate(invalid="ignore"):
+            return total + mapped.log_ratio(c, ln_wall_width)
 
     def from_unit(self, u: np.ndarray) -> np.ndarray:
         """Unit-cube points of shape (..., dim) to parameter vectors."""
@@ -203,6 +225,50 @@ class PriorSet:
         if values.shape[-1:] != (self.dim,):
             raise ValueError(f"expected vectors of length {self.dim}, got shape {values.shape}")
         return values
+
+
+def mapped_width_prior(config: RunConfig, model: list[Prior]) -> MappedWidthPrior | None:
+    """The ``width_prior`` of the ``[[parameters]]`` (at most one, on a wall coordinate).
+
+    Raises
+    ------
+    ConfigError
+        A width prior on a key that is not a pole's wall coordinate, a second one, a
+        coordinate box that is not uniform or log_uniform, or a width prior without a
+        positive lower bound.
+    """
+    mapped = None
+    for i, section in enumerate(config.parameters):
+        if section.width_prior is None:
+            continue
+        where = f"parameters[{i}].width_prior"
+        found = wall_coordinate_of(section.key)
+        if found is None:
+            raise ConfigError(config.source, where, f"'{section.key}' is not a pole's wall "
+                              "coordinate; a width prior maps onto model.poles[i].wall_ratio",
+                              "vary the pole's wall_ratio with this table, or state the prior "
+                              "on model.poles[i].width directly")
+        if mapped is not None:
+            raise ConfigError(config.source, where, "only one parameter may carry a "
+                              "width_prior", "keep one width_prior table")
+        if section.prior not in ("uniform", "log_uniform"):
+            raise ConfigError(config.source, f"parameters[{i}].prior", f"the box of a "
+                              f"coordinate with a width_prior must be uniform or log_uniform, "
+                              f"got '{section.prior}'", "give its box as low and high")
+        width = section.width_prior
+        if width.low is None or width.low <= 0.0:
+            raise ConfigError(config.source, f"{where}.low", "a width prior needs a lower "
+                              "bound > 0 (widths are positive)", "give low > 0 [M_p]")
+        mapped = MappedWidthPrior(index=i, key=section.key, coordinate=found[1],
+                                  width=_prior_from_section(width, f"width of {section.key}",
+                                                            None), box=model[i])
+    return mapped
+
+
+def width_prior_attributes(config: RunConfig) -> dict[str, object]:
+    """The ``width_prior_*`` attributes a chain or evidence file records ({} without one)."""
+    mapped = PriorSet.from_config(config).width_prior if config.parameters else None
+    return {} if mapped is None else mapped.attributes()
 
 
 # --------------------------------------------------------------------------- config keys

@@ -17,7 +17,7 @@ from scan.errors import ConfigError
 from scan.observables.gstar import TABLES as GSTAR_TABLES
 from scan.observables.pbh.conventions import CRITERIA as PBH_CRITERIA
 from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTIONS
-from scan.observables.pbh.qcd import QCD_THRESHOLDS
+from scan.observables.pbh.qcd import QCD_COLLAPSES, QCD_THRESHOLDS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
 from scan.observables.pbh.zeta_map import NON_GAUSSIANITIES
 
@@ -120,10 +120,9 @@ PRIOR_KINDS = ("uniform", "log_uniform", "gaussian")
 
 
 @dataclass(frozen=True, kw_only=True)
-class PriorFields:
-    """Prior keys shared by ``[[parameters]]`` and ``[[nuisance]]`` entries."""
+class PriorShape:
+    """A prior family and its numbers (also the ``width_prior`` table of a parameter)."""
 
-    label: str = spec("LaTeX label for plots (default: the key or name)", "")
     prior: str = spec("prior family", choices=PRIOR_KINDS)
     low: float | None = spec("lower bound (uniform, log_uniform; optional truncation of "
                              "gaussian)", None)
@@ -132,8 +131,6 @@ class PriorFields:
     mean: float | None = spec("mean of a gaussian prior", None)
     sigma: float | None = spec("standard deviation of a gaussian prior", None, minimum=0.0,
                                exclusive_minimum=True)
-    start: float | None = spec("centre of the starting ball when sampler.start = 'ball' "
-                               "(default: the model's value, else the prior's centre)", None)
 
     def validate(self, where: str, source: str) -> None:
         """Each prior family has its keys; bounds are ordered; log_uniform is positive."""
@@ -159,6 +156,19 @@ class PriorFields:
             raise ConfigError(source, f"{where}.low",
                               f"log_uniform needs low > 0, got {self.low}",
                               "use a positive lower bound or prior = \"uniform\"")
+
+
+@dataclass(frozen=True, kw_only=True)
+class PriorFields(PriorShape):
+    """Prior keys shared by ``[[parameters]]`` and ``[[nuisance]]`` entries."""
+
+    label: str = spec("LaTeX label for plots (default: the key or name)", "")
+    start: float | None = spec("centre of the starting ball when sampler.start = 'ball' "
+                               "(default: the model's value, else the prior's centre)", None)
+
+    def validate(self, where: str, source: str) -> None:
+        """The family's keys (:meth:`PriorShape.validate`); the start inside the bounds."""
+        super().validate(where, source)
         lo = -float("inf") if self.low is None else self.low
         hi = float("inf") if self.high is None else self.high
         if self.start is not None and not lo <= self.start <= hi:
@@ -171,6 +181,11 @@ class ParameterSection(PriorFields):
     """One ``[[parameters]]`` entry: a varied model key and its prior."""
 
     key: str = spec("config key path of the varied number, e.g. \"model.poles[0].position\"")
+    width_prior: PriorShape | None = spec(
+        "only for a pole's wall coordinate (wall_ratio): the prior on the pole's physical "
+        "width w [M_p] as a table {prior, low, high, mean, sigma}; the coordinate is sampled "
+        "in its own box and its density is the width prior mapped by w = w_w/rho with the "
+        "Jacobian w_w/rho^2 (w_w: the width at the wall)", None)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -261,6 +276,10 @@ class ObservablesSection:
                               "threshold) or harada-scaled (C_th times delta_c(w(T))/"
                               "delta_c(1/3), w from the g_* table; opt-in)", "off",
                               choices=QCD_THRESHOLDS)
+    qcd_collapse: str = spec("critical-collapse exponent across the QCD crossover: off (one "
+                             "gamma_c) or gamma-of-w (gamma_c times gamma(w(T))/gamma(1/3), "
+                             "perfect-fluid exponents interpolated in w; K fixed; opt-in)",
+                             "off", choices=QCD_COLLAPSES)
 
     def validate(self, where: str, source: str) -> None:
         """Cross-field rules of the non-Gaussianity and QCD-threshold conventions."""
@@ -276,7 +295,8 @@ class ObservablesSection:
             raise ConfigError(source, f"{where}.log_lambda", "non_gaussianity = 'logarithmic' "
                               "needs a non-zero log_lambda", "e.g. log_lambda = 3")
         for key, on in (("non_gaussianity", kind != "gaussian"),
-                        ("qcd_threshold", self.qcd_threshold != "off")):
+                        ("qcd_threshold", self.qcd_threshold != "off"),
+                        ("qcd_collapse", self.qcd_collapse != "off")):
             if on and (self.criterion, self.mass_function) != ("compaction", "critical"):
                 raise ConfigError(source, f"{where}.{key}", f"'{getattr(self, key)}' needs "
                                   "criterion = 'compaction' and mass_function = 'critical' "

@@ -189,6 +189,8 @@ def describe(cls: type, prefix: str = "") -> list[tuple[str, str, str, str, str]
         tp = hints[fld.name]
         path = f"{prefix}{fld.name}"
         inner = typing.get_args(tp)[0] if typing.get_origin(tp) is tuple else tp
+        if typing.get_origin(tp) in (typing.Union, types.UnionType):  # an optional table
+            inner = next(a for a in typing.get_args(tp) if a is not type(None))
         if dataclasses.is_dataclass(inner):
             sub = f"{path}[]." if typing.get_origin(tp) is tuple else f"{path}."
             rows.extend(describe(inner, sub))

@@ -8,7 +8,8 @@ Layout (every dataset has a ``units`` attribute):
   ``ln_Z_foreground_err``, ``ln_B_vs_foreground``, ``ln_B_vs_foreground_err`` (NaN
   when the run has no foreground hypothesis), ``scale_note`` (Kass & Raftery 1995),
   ``foreground_note`` (what the foreground hypothesis keeps), ``engine``, the
-  settings (``live_points``, ``dlogz``, ``frac_remain``, ``seed``), ``parameter_names``;
+  settings (``live_points``, ``dlogz``, ``frac_remain``, ``seed``), ``parameter_names``
+  (and ``width_prior_*`` when a width prior is mapped onto a wall coordinate);
   one subgroup per hypothesis (``model``, ``foreground``) with attributes ``ln_Z``,
   ``ln_Z_err``, ``ncall``, ``iterations``, ``ess`` and datasets ``points`` (every dead
   point), ``weights`` (sum 1), ``log_like`` and ``samples`` (equal-weight posterior draws).
@@ -24,6 +25,7 @@ import h5py
 import numpy as np
 
 from scan import store
+from scan.config.priors import width_prior_attributes
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
 from scan.evidence.nested import ENGINE, NestedResult, NestedSettings
@@ -77,7 +79,7 @@ def write_evidence(path: Path, config: RunConfig, names: tuple[str, ...],
             "foreground_note": "no foreground hypothesis" if fg is None else FOREGROUND_NOTE,
             "engine": ENGINE, "live_points": settings.live_points, "dlogz": settings.dlogz,
             "frac_remain": settings.frac_remain, "seed": settings.seed,
-            "parameter_names": list(names)})
+            "parameter_names": list(names), **width_prior_attributes(config)})
         for name, result in results.items():
             _write_hypothesis(group.create_group(name), result)
     return factor

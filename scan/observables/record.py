@@ -18,7 +18,7 @@ from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Fields shared by all models of a stack (never indexed by :meth:`Observables.row`).
 SHARED_FIELDS: frozenset[str] = frozenset({"f_hz", "m_msun", "ln_1e10_as", "conventions",
-                                           "notes"})
+                                           "notes", "qcd"})
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -62,6 +62,9 @@ class Observables:
         Gaussian (for comparison; None otherwise).
     notes : tuple of str
         Warnings raised on the way (truncated or under-resolved spectrum tables).
+    qcd : dict or None
+        The QCD-era conventions ``{"qcd_threshold": ..., "qcd_collapse": ...}`` f_PBH was
+        computed with (None: not recorded by the producer).
     """
 
     f_hz: np.ndarray | None = None
@@ -82,6 +85,7 @@ class Observables:
     notes: tuple[str, ...] = ()
     zeta_map: ZetaMap | None = None
     f_pbh_total_gaussian: Any = None
+    qcd: dict[str, str] | None = None
 
     def row(self, i: int) -> Observables:
         """Model ``i`` of a stack, with its own masses in ``m_msun`` (no shift left)."""

@@ -39,6 +39,8 @@ class ObservableSettings:
         The analytic zeta = F(zeta_G) (None for ``model``: the solve computes it).
     qcd_threshold : str
         ``[observables] qcd_threshold``.
+    qcd_collapse : str
+        ``[observables] qcd_collapse``.
     """
 
     conventions: PBHConventions
@@ -49,6 +51,7 @@ class ObservableSettings:
     non_gaussianity: str = "gaussian"
     zeta_map: ZetaMap | None = None
     qcd_threshold: str = "off"
+    qcd_collapse: str = "off"
 
     def compute(self, k: np.ndarray, P_zeta: np.ndarray,
                 zeta_map: ZetaMap | None = None) -> Observables:
@@ -59,7 +62,8 @@ class ObservableSettings:
         return compute_observables(k, P_zeta, conventions=self.conventions, n_f=self.n_f,
                                    n_m=self.n_m, dof=self.dof, n_eff=self.n_eff,
                                    zeta_map=zeta_map or self.zeta_map,
-                                   qcd_threshold=self.qcd_threshold)
+                                   qcd_threshold=self.qcd_threshold,
+                                   qcd_collapse=self.qcd_collapse)
 
 
 def conventions_of(section: ObservablesSection) -> PBHConventions:
@@ -79,7 +83,8 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
                                                     g_nl=section.g_nl,
                                                     log_lambda=section.log_lambda)
     return ObservableSettings(conventions_of(section), dof, section.n_eff, section.n_f,
-                              section.n_m, kind, zmap, section.qcd_threshold)
+                              section.n_m, kind, zmap, section.qcd_threshold,
+                              section.qcd_collapse)
 
 
 def require_batch_conventions(section: ObservablesSection, source: str) -> None:
@@ -95,7 +100,8 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
     Raises
     ------
     ConfigError
-        Naming ``observables.non_gaussianity`` or ``observables.qcd_threshold``.
+        Naming ``observables.non_gaussianity``, ``observables.qcd_threshold`` or
+        ``observables.qcd_collapse``.
     """
     if section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' is not available "
@@ -103,12 +109,13 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
                           "sample's delta-N map)", "use non_gaussianity = 'local' with the "
                           "f_nl that 'zetascan solve' prints for your best model (f_NL at "
                           "the peak), or 'logarithmic' with log_lambda")
-    if section.qcd_threshold != "off":
-        raise ConfigError(source, "observables.qcd_threshold", f"'{section.qcd_threshold}' "
-                          "is not available in sample, grid and verify yet (their f_PBH has "
-                          "one threshold for all formation epochs)", "set qcd_threshold = "
-                          "'off' for the posterior and check single models with zetascan "
-                          "solve")
+    for key in ("qcd_threshold", "qcd_collapse"):
+        value = getattr(section, key)
+        if value != "off":
+            raise ConfigError(source, f"observables.{key}", f"'{value}' is not available in "
+                              "sample, grid and verify yet (their f_PBH has one threshold and "
+                              "one gamma_c for all formation epochs)", f"set {key} = 'off' "
+                              "for the posterior and check single models with zetascan solve")
 
 
 def pbh_convention_attrs(section: ObservablesSection) -> dict:

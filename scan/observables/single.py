@@ -13,7 +13,12 @@ import numpy as np
 from scan.observables import cosmo, sigw
 from scan.observables.pbh import PBHConventions, plan_pbh
 from scan.observables.pbh.nongaussian import check_conventions, plan_nongaussian
-from scan.observables.pbh.qcd import epoch_thresholds
+from scan.observables.pbh.qcd import (
+    check_collapse,
+    collapse_note,
+    epoch_exponents,
+    epoch_thresholds,
+)
 from scan.observables.pbh.zeta_map import ZetaMap
 from scan.observables.record import Observables, peak_of
 
@@ -105,7 +110,7 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                         conventions: PBHConventions = PBHConventions(), n_f: int = 200,
                         n_m: int = 200, dof=None, n_eff: float = cosmo.N_EFF_DEFAULT,
                         zeta_map: ZetaMap | None = None,
-                        qcd_threshold: str = "off") -> Observables:
+                        qcd_threshold: str = "off", qcd_collapse: str = "off") -> Observables:
     """Ω_GW h²(f) and f_PBH(M) of a tabulated spectrum.
 
     A table longer than :func:`max_table_rows` is resampled first (:func:`resample_table`;
@@ -131,6 +136,9 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     qcd_threshold : str
         ``"harada-scaled"``: the threshold follows w(T) across the QCD crossover
         (:mod:`scan.observables.pbh.qcd`); ``"off"``: one threshold for every epoch.
+    qcd_collapse : str
+        ``"gamma-of-w"``: the critical-collapse exponent follows w(T) across the QCD
+        crossover (:mod:`scan.observables.pbh.qcd`; K stays fixed); ``"off"``: one gamma_c.
 
     Returns
     -------
@@ -150,18 +158,22 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     notes = tuple(str(w.message) for w in caught)
     gaussian_total = None
     non_gaussian = zeta_map is not None and not zeta_map.is_gaussian
-    if non_gaussian or qcd_threshold != "off":
+    if non_gaussian or qcd_threshold != "off" or qcd_collapse != "off":
         zmap = zeta_map if non_gaussian else ZetaMap()
         check_conventions(conventions, zmap, qcd_threshold)
-        thresholds = None
+        check_collapse(conventions, qcd_collapse)
+        thresholds = exponents = None
         if qcd_threshold != "off":
             thresholds = epoch_thresholds(plan.M_H, conventions.threshold, dof)
             notes += (qcd_note(plan.M_H, thresholds, conventions.threshold),)
+        if qcd_collapse != "off":
+            exponents = epoch_exponents(plan.M_H, conventions.gamma_c, dof)
+            notes += (collapse_note(plan.M_H, exponents, conventions),)
         ng_plan = plan_nongaussian(plan, N_FORMATION)
         if non_gaussian:
-            gaussian_total = ng_plan.evaluate(P_zeta, ZetaMap(), thresholds).f_pbh_total \
-                if thresholds is not None else pbh.f_pbh_total
-        pbh = ng_plan.evaluate(P_zeta, zmap, thresholds)
+            gaussian_total = pbh.f_pbh_total if thresholds is None and exponents is None \
+                else ng_plan.evaluate(P_zeta, ZetaMap(), thresholds, exponents).f_pbh_total
+        pbh = ng_plan.evaluate(P_zeta, zmap, thresholds, exponents)
         if non_gaussian:
             notes += (nongaussian_note(zmap, gaussian_total, pbh.f_pbh_total,
                                        conventions.window),)
@@ -171,7 +183,8 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                        f_pbh_total=pbh.f_pbh_total, f_gw_peak=f_peak,
                        omega_gw_h2_peak=omega_peak, conventions=pbh.conventions,
                        notes=notes + ((resampled,) if resampled else ()) + warnings_,
-                       zeta_map=zeta_map, f_pbh_total_gaussian=gaussian_total)
+                       zeta_map=zeta_map, f_pbh_total_gaussian=gaussian_total,
+                       qcd={"qcd_threshold": qcd_threshold, "qcd_collapse": qcd_collapse})
 
 
 def qcd_note(M_H: np.ndarray, thresholds: np.ndarray, threshold: float) -> str:

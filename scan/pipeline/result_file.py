@@ -153,7 +153,8 @@ def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
 
 def write_observables(handle: h5py.Group, obs: Observables) -> None:
     """Groups ``gw`` (``f`` [Hz], ``k``, ``omega_gw_h2``) and ``pbh`` (``M`` [M_sun], ``M_g``,
-    ``f_pbh`` per ln M; attribute ``f_pbh_total`` and every PBH convention)."""
+    ``f_pbh`` per ln M; attribute ``f_pbh_total`` and every PBH convention, the QCD-era
+    ones ``qcd_threshold`` and ``qcd_collapse`` included)."""
     gw = handle.create_group("gw")
     store.write_dataset(gw, "f", obs.f_hz, "Hz", "GW frequency today")
     store.write_dataset(gw, "k", cosmo.f_to_k(obs.f_hz), "Mpc^-1", "comoving wavenumber")
@@ -168,6 +169,8 @@ def write_observables(handle: h5py.Group, obs: Observables) -> None:
     store.attach_scale(pbh, "M", "M_g", "f_pbh")
     pbh.attrs["f_pbh_total"] = obs.f_pbh_total
     store.write_attrs(pbh, obs.conventions.as_attrs())
+    if obs.qcd is not None:
+        store.write_attrs(pbh, obs.qcd)
     write_zeta_map(pbh, obs)
 
 

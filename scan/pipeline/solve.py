@@ -15,6 +15,7 @@ from types import SimpleNamespace
 from scan.background import Background, solve_background
 from scan.background.pivot import Pivot, Reheating, solve_pivot
 from scan.config.schema import RunConfig
+from scan.config.width_prior import ratio_of_pole
 from scan.errors import ConfigError
 from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
@@ -156,6 +157,19 @@ def _wall(section, pole: int, background, pivot_section) -> float:
         return pivot.valid and not poles_on_cmb_scales(bg, pivot.N_star, pivot.k_star)
 
     return locate_wall(valid_at)
+
+
+def wall_width(config: RunConfig) -> float:
+    """w_w: the width [M_p] of the pole given by a wall coordinate, at its wall (λ = λ_w).
+
+    The pole's width is then w = w_w/ρ (:mod:`scan.config.width_prior`).  Free once the
+    model is solved: λ_w is cached per model.  NaN when no pole uses a wall coordinate.
+    """
+    for i, pole in enumerate(config.model.poles):
+        rho = ratio_of_pole(pole)
+        if rho is not None:
+            return model_of(config).poles[i].width * rho
+    return math.nan
 
 
 def _pivot_of(config, bg: Background) -> Pivot:

@@ -86,7 +86,8 @@ class TuneResult:
     Attributes
     ----------
     config : RunConfig
-        The config with the pole's width (and position) found (width given, no sharpness).
+        The config with the pole's width (and position) found (width given, no
+        sharpness or wall ratio).
     pole : int
         The pole's config number.
     best : Trial
@@ -108,12 +109,14 @@ class TuneResult:
 
 def with_pole(config: RunConfig, pole: int, *, width: float | None = None,
               position: float | None = None) -> RunConfig:
-    """``config`` with pole ``pole`` given by ``width`` (sharpness dropped) and/or moved."""
+    """``config`` with pole ``pole`` given by ``width`` (sharpness or wall ratio dropped)
+    and/or moved."""
     poles = list(config.model.poles)
     entry = poles[pole]
     poles[pole] = dataclasses.replace(
         entry, width=entry.width if width is None else float(width),
         sharpness=None if width is not None else entry.sharpness,
+        wall_ratio=None if width is not None else entry.wall_ratio,
         position=entry.position if position is None else float(position))
     return dataclasses.replace(config, model=dataclasses.replace(config.model,
                                                                  poles=tuple(poles)))

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
+
 from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError
@@ -113,3 +115,24 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
                              term_names=tuple(t.name for t in terms))
     target.prepare()
     return target
+
+
+def width_prior_note(target: TargetBase, draws: int = 512) -> str | None:
+    """How much of a mapped width prior the sampled box keeps (None without one).
+
+    ln w_w of ``draws`` points of the box prior (seeded by ``run.seed``) comes from the
+    target's surrogate; where the box cuts the width prior, the posterior follows the box.
+    """
+    priors = getattr(target, "priors", None)
+    mapped = None if priors is None else priors.width_prior
+    if mapped is None:
+        return None
+    theta = priors.sample(np.random.default_rng(target.config.run.seed), draws)
+    model = theta[:, :priors.n_model][:, target.loaded["order"]]
+    kept = mapped.kept_mass(target.loaded["surrogate"].predict(model).ln_wall_width)
+    lo, mid, hi = np.nanpercentile(kept, [5, 50, 95])
+    text = (f"width prior of {mapped.key}: the sampled box keeps {mid:.0%} of its mass "
+            f"(median over {draws} prior draws; 5-95 %: {lo:.0%}-{hi:.0%})")
+    if lo < 0.5:
+        text += "; where it keeps little, the box, not the width prior, shapes the posterior"
+    return text

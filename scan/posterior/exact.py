@@ -32,6 +32,7 @@ from scan.config.schema import RunConfig
 from scan.observables import Observables
 from scan.observables.settings import require_batch_conventions, settings_of
 from scan.pipeline import solve_config
+from scan.pipeline.solve import wall_width
 from scan.posterior.setup import COLLAPSE_K, THRESHOLD
 
 #: Reason of a valid spectrum whose maximum lies at the edge of its k grid.
@@ -145,6 +146,20 @@ def exact_outcome(config: RunConfig, theta: np.ndarray,
                                               P_peak=s.P_peak, n_s=s.n_s, r=s.r,
                                               N_star=s.N_star, ln_1e10_as=ln_as),
                         "", tuple(result.observables.notes))
+
+
+def exact_ln_wall_width(config: RunConfig, thetas: np.ndarray,
+                        wanted: list[bool] | None = None) -> np.ndarray:
+    """ln w_w [ln M_p] of each sampled vector from its exact wall (NaN where not wanted).
+
+    The width prior of a wall coordinate (:mod:`scan.config.width_prior`) needs w_w;
+    each model's wall is located by :func:`scan.pipeline.solve.wall_width` (exact
+    background and pivot solves, cached per model).
+    """
+    thetas = np.atleast_2d(np.asarray(thetas, float))
+    wanted = [True] * len(thetas) if wanted is None else wanted
+    return np.array([math.log(wall_width(apply_parameters(config, theta))) if want
+                     else math.nan for theta, want in zip(thetas, wanted)])
 
 
 def with_nuisance_conventions(config: RunConfig, theta: np.ndarray) -> RunConfig:

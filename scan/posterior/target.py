@@ -48,6 +48,7 @@ from scan.observables.batch import (batch_observables, parabolic_peak, plan_batc
 from scan.observables.pbh import plan_pbh_thresholds
 from scan.observables.pbh.ng_stack import plan_pbh_mapped
 from scan.observables.settings import settings_of
+from scan.posterior.exact import exact_ln_wall_width
 from scan.posterior.blobs import (empty_blobs, finish_log_posterior, mass_at_peak, peak_range,
                                   store_blobs, total_of_terms)
 from scan.posterior.reasons import REASONS, Reason
@@ -150,6 +151,10 @@ class PosteriorTarget(TargetBase):
 
         surrogate = load_surrogate(self.surrogate_path, self.config)
         keys = self.priors.names[:self.priors.n_model]
+        if self.priors.width_prior is not None and surrogate.emulator.wall is None:
+            raise ConfigError(self.config.source, "parameters", f"the surrogate "
+                              f"'{self.surrogate_path}' does not emulate ln w_w, which the "
+                              "width_prior needs", "retrain it with this version")
         if sorted(surrogate.space.keys) != sorted(keys):
             raise ConfigError(self.config.source, "parameters",
                               f"the surrogate '{self.surrogate_path}' is over "
@@ -247,11 +252,16 @@ class PosteriorTarget(TargetBase):
         if not todo.size:
             return reason, todo, None, log_prior
         pred = data["surrogate"].predict(model[todo])
+        if self.priors.width_prior is not None:  # ln w_w emulated: the width prior mapped
+            log_prior = self.priors.log_prior_mapped(thetas, _at(todo, pred.ln_wall_width,
+                                                                 len(thetas)))
+            reason[todo[~np.isfinite(log_prior[todo])]] = Reason.OUTSIDE_PRIOR
         scalars = np.column_stack([pred.ln_k_peak, pred.log10_P_peak, pred.n_s, pred.log10_r,
                                    pred.N_star])
+        in_prior = reason[todo] == 0
         ok = pred.valid & np.all(np.isfinite(scalars), axis=1) \
-            & np.all(np.isfinite(pred.shape), axis=1)
-        reason[todo[~ok]] = Reason.INVALID_MODEL
+            & np.all(np.isfinite(pred.shape), axis=1) & in_prior
+        reason[todo[~ok & in_prior]] = Reason.INVALID_MODEL
         lo, hi = data["plan"].peak_range
         in_table = (pred.ln_k_peak >= lo) & (pred.ln_k_peak <= hi)
         reason[todo[ok & ~in_table]] = Reason.PEAK_OUTSIDE_TABLE
@@ -318,8 +328,8 @@ class PosteriorTarget(TargetBase):
         blobs["reason"] = reason
         return log_p, blobs
 
-    def score(self, thetas: np.ndarray, reason: np.ndarray,
-              obs: list[Observables | None]) -> tuple[np.ndarray, np.ndarray]:
+    def score(self, thetas: np.ndarray, reason: np.ndarray, obs: list[Observables | None],
+              ln_wall_width: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """log posterior and blobs of given per-point observables (surrogate or exact).
 
         Parameters
@@ -329,6 +339,9 @@ class PosteriorTarget(TargetBase):
             Reason codes so far (0 where ``obs`` is given); not modified.
         obs : list of Observables or None, length p
             Per-point observables, each on its own frequency and mass grids.
+        ln_wall_width : ndarray, shape (p,), optional
+            ln w_w [ln M_p] for a width prior (default: the exact wall of each point
+            with observables, :func:`scan.posterior.exact.exact_ln_wall_width`).
 
         Returns
         -------
@@ -339,7 +352,9 @@ class PosteriorTarget(TargetBase):
         reason = np.array(reason, dtype=np.int16)
         blobs = empty_blobs(self.blob_dtype, len(thetas))
         log_p = np.full(len(thetas), -np.inf)
-        log_prior = self.priors.log_prior(thetas)
+        if self.priors.width_prior is not None and ln_wall_width is None:
+            ln_wall_width = exact_ln_wall_width(self.config, thetas, [o is not None for o in obs])
+        log_prior = self.priors.log_prior_mapped(thetas, ln_wall_width)
         for i, ob in enumerate(obs):
             if ob is None:
                 continue
@@ -386,3 +401,10 @@ class PosteriorTarget(TargetBase):
         per_term = {name: np.broadcast_to(np.asarray(v, float), (m,))
                     for name, v in values.items()}
         return per_term, snr
+
+
+def _at(rows: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
+    """``values`` placed at ``rows`` of an array of ``n`` NaNs."""
+    out = np.full(n, np.nan)
+    out[rows] = values
+    return out

@@ -10,7 +10,9 @@ Layout (every dataset has a ``units`` attribute):
   the sampler's random state (attributes ``random_state_0..4``);
 * group ``sampler`` — ours: parameter names and labels, reason names and
   ``reason_counts`` (every evaluation, accepted or not), the τ history (``tau_steps``,
-  ``tau_history``), the latest ``tau``, ``burn_in``, ``thin``, ``status``, ``initial``.
+  ``tau_history``), the latest ``tau``, ``burn_in``, ``thin``, ``status``, ``initial``,
+  and, when a ``width_prior`` is mapped onto a wall coordinate, ``width_prior_*``
+  attributes saying which prior, which map and that its Jacobian was applied.
 
 :class:`ChainBackend` buffers ``write_every`` steps in memory and writes them, together
 with the ``sampler`` group, in one open of the file; a SIGKILL loses at most the steps
@@ -28,6 +30,7 @@ import numpy as np
 from emcee.backends import HDFBackend
 
 from scan import store
+from scan.config.priors import width_prior_attributes
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
 from scan.observables.settings import pbh_convention_attrs
@@ -209,6 +212,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",
                             "initial walker positions (parameter units)")
+        store.write_attrs(handle[EXTRA], width_prior_attributes(config))
 
 
 @dataclasses.dataclass(frozen=True)

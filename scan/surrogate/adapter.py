@@ -1,6 +1,8 @@
 """The product's solve: one exact pipeline solve per parameter vector, as a TrainingRecord."""
 from __future__ import annotations
 
+import dataclasses
+import math
 from collections.abc import Sequence
 
 import numpy as np
@@ -8,6 +10,7 @@ import numpy as np
 from scan.config import load_config_text
 from scan.config.priors import apply_parameters
 from scan.pipeline import solve_config
+from scan.pipeline.solve import wall_width
 from scan.surrogate.record import TrainingRecord, invalid_record, record_from_spectrum, shape_grid
 
 
@@ -73,7 +76,10 @@ def solve_point(config, values: Sequence[float], keys: Sequence[str] | None = No
         keys = [p.key for p in getattr(config, "parameters", ())]
     if x is None:
         x = shape_grid(config.surrogate.shape_span, config.surrogate.shape_points)
-    result = solve_config(configure(config, keys, values), with_observables=False)
+    solved = configure(config, keys, values)
+    result = solve_config(solved, with_observables=False)
     if not result.valid or result.spectrum is None:
-        return invalid_record(values, result.reason, len(x))
-    return record_from_spectrum(values, result.spectrum, x)
+        record = invalid_record(values, result.reason, len(x))
+    else:
+        record = record_from_spectrum(values, result.spectrum, x)
+    return dataclasses.replace(record, ln_wall_width=math.log(wall_width(solved)))

@@ -13,7 +13,11 @@ Three kernel regressors (:mod:`scan.surrogate.gp`) on unit-cube inputs:
   the quantity f_PBH is exponentially sensitive to — was 2.4-3.5x less accurate
   (median error) on the stand-in of the tests;
 * ``cmb`` — n_s, log10 r, log10 V0, N* over the valid points; these depend mostly on
-  the potential and vary slowly, so they get their own (longer) length scales.
+  the potential and vary slowly, so they get their own (longer) length scales;
+* ``wall`` (only when a pole is given by a wall coordinate) — ln w_w, the pole's width
+  at its wall, over every point where it is known (valid or not: it does not depend on
+  the wall coordinate); a width prior stated for that coordinate needs it
+  (:mod:`scan.config.width_prior`).
 
 Each block's kernel is Matérn-5/2 or Gaussian, whichever has the lower leave-one-out
 error (``kernel = "auto"``): which kernel wins depends on the target's smoothness, so it
@@ -36,6 +40,8 @@ from scan.surrogate.shape import ShapeBasis, decode, encode, fit_basis
 
 PEAK_COLUMNS = ("ln_k_peak", "log10_P_peak")
 CMB_COLUMNS = ("n_s", "log10_r", "log10_V0", "N_star")
+#: Column of ln w_w in ``TrainingSet.scalars`` (absent from six-column sets).
+WALL_COLUMN = len(PEAK_COLUMNS) + len(CMB_COLUMNS)
 
 
 @dataclass(frozen=True)
@@ -47,8 +53,9 @@ class TrainingSet:
     u : ndarray, shape (n, d)
         Unit-cube coordinates of the points.
     valid : ndarray of bool, shape (n,)
-    scalars : ndarray, shape (n, 6)
-        ln_k_peak, log10_P_peak, n_s, log10_r, log10_V0, N_star (nan if invalid).
+    scalars : ndarray, shape (n, 7)
+        ln_k_peak, log10_P_peak, n_s, log10_r, log10_V0, N_star (nan if invalid) and
+        ln_wall_width (nan without a wall coordinate; sets of six columns have none).
     shapes : ndarray, shape (n, n_x)
         Shapes on the grid ``x`` [dex].
     x : ndarray, shape (n_x,)
@@ -79,7 +86,8 @@ class Emulator:
 
     ``classifier`` is None when all training points had the same label
     (``constant_valid`` then gives it).  ``bottleneck`` is the extra input of the blocks
-    named in ``bottleneck_blocks`` (None and () when no block gained from it).
+    named in ``bottleneck_blocks`` (None and () when no block gained from it).  ``wall``
+    emulates ln w_w (None when the training points had no wall coordinate).
     """
 
     classifier: GPFit | None
@@ -90,6 +98,7 @@ class Emulator:
     basis: ShapeBasis
     bottleneck: Bottleneck | None = None
     bottleneck_blocks: tuple[str, ...] = ()
+    wall: GPFit | None = None
 
     def inputs(self, block: str, u: np.ndarray) -> np.ndarray:
         """The inputs of regressor ``block`` at unit-cube points ``u`` (p, d)."""
@@ -113,6 +122,8 @@ class Prediction:
         ln(k/k_peak).
     n_s, log10_r, log10_V0, N_star : ndarray
         CMB quantities (log10 V0 in dex of M_p^4).
+    ln_wall_width : ndarray [ln(M_p)]
+        ln w_w of the pole given by a wall coordinate (nan without a ``wall`` block).
     """
 
     valid: np.ndarray
@@ -125,6 +136,7 @@ class Prediction:
     log10_r: np.ndarray
     log10_V0: np.ndarray
     N_star: np.ndarray
+    ln_wall_width: np.ndarray | None = None
 
     def spectrum(self) -> tuple[np.ndarray, np.ndarray]:
         """``(k, P_zeta)`` on the shape grid, each (p, n_x) [Mpc^-1], [-]."""
@@ -159,14 +171,25 @@ def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSetting
     peak, bottleneck = _fit_block(data.u[good], data.scalars[good, :2], [None, *tried], opts)
     shape, shape_bn = _fit_block(data.u[good], encode(basis, data.shapes[good]),
                                  [None, bottleneck], opts)
-    cmb_rows = data.valid & _complete(data.scalars[:, 2:])
+    cmb_cols = data.scalars[:, 2:WALL_COLUMN]
+    cmb_rows = data.valid & _complete(cmb_cols)
     cmb_rows = cmb_rows if cmb_rows.sum() >= 3 else good
-    cmb, cmb_bn = _fit_block(data.u[cmb_rows], np.nan_to_num(data.scalars[cmb_rows, 2:]),
+    cmb, cmb_bn = _fit_block(data.u[cmb_rows], np.nan_to_num(cmb_cols[cmb_rows]),
                              [None, bottleneck], opts)
     blocks = tuple(name for name, bn in (("peak", bottleneck), ("shape", shape_bn),
                                          ("cmb", cmb_bn)) if bn is not None)
     return Emulator(classifier, bool(data.valid.all()), peak, shape, cmb, basis,
-                    bottleneck if blocks else None, blocks)
+                    bottleneck if blocks else None, blocks, _fit_wall(data, opts))
+
+
+def _fit_wall(data: TrainingSet, opts: dict) -> GPFit | None:
+    """The ln w_w block over every point where it is known (None if fewer than 3)."""
+    if data.scalars.shape[1] <= WALL_COLUMN:
+        return None
+    known = np.isfinite(data.scalars[:, WALL_COLUMN])
+    if known.sum() < 3:
+        return None
+    return fit_best(data.u[known], data.scalars[known, WALL_COLUMN:WALL_COLUMN + 1], **opts)
 
 
 def _fit_block(u: np.ndarray, y: np.ndarray, inputs: list[Bottleneck | None],
@@ -195,7 +218,9 @@ def predict_unit(emulator: Emulator, u: np.ndarray) -> Prediction:
     return Prediction(valid=margin > 0, margin=margin, ln_k_peak=peak[:, 0],
                       log10_P_peak=peak[:, 1], shape=decode(emulator.basis, shape),
                       x=emulator.basis.x, n_s=cmb[:, 0], log10_r=cmb[:, 1],
-                      log10_V0=cmb[:, 2], N_star=cmb[:, 3])
+                      log10_V0=cmb[:, 2], N_star=cmb[:, 3],
+                      ln_wall_width=(predict_gp(emulator.wall, u)[:, 0] if emulator.wall
+                                     is not None else np.full(len(u), np.nan)))
 
 
 def peak_sd(emulator: Emulator, u: np.ndarray) -> np.ndarray:

@@ -14,11 +14,12 @@ from scan.pipeline.validity import FEATURE_REASON, TILT_LIMIT, tilt_off
 
 #: Scalar targets of a record, in the order of :func:`scalar_targets` columns.
 SCALARS: tuple[str, ...] = ("ln_k_peak", "log10_P_peak", "n_s", "log10_r", "log10_V0",
-                            "N_star")
+                            "N_star", "ln_wall_width")
 #: Units of the scalar targets (HDF5 ``units`` attributes).
 SCALAR_UNITS: dict[str, str] = {"ln_k_peak": "ln(Mpc^-1)", "log10_P_peak": "dex",
                                 "n_s": "1", "log10_r": "dex", "log10_V0": "dex(M_p^4)",
-                                "N_star": "1"}  # e-folds
+                                "N_star": "1",  # e-folds
+                                "ln_wall_width": "ln(M_p)"}
 
 
 def shape_grid(span: float, points: int) -> np.ndarray:
@@ -51,6 +52,10 @@ class TrainingRecord:
         log10 of the potential scale V0 [dex(M_p^4)].
     N_star : float
         E-folds from pivot exit to the end of inflation.
+    ln_wall_width : float
+        ln w_w [ln(M_p)], the width at the wall of the pole given by a wall coordinate
+        (:func:`scan.pipeline.solve.wall_width`); known for invalid models too, nan when
+        no pole uses a wall coordinate.
     """
 
     params: np.ndarray
@@ -63,12 +68,13 @@ class TrainingRecord:
     r: float = float("nan")
     log10_V0: float = float("nan")
     N_star: float = float("nan")
+    ln_wall_width: float = float("nan")
 
     def scalar_targets(self) -> np.ndarray:
         """The values of :data:`SCALARS` (log10 r from r)."""
         log_r = np.log10(self.r) if self.r > 0 else float("nan")
         return np.array([self.ln_k_peak, self.log10_P_peak, self.n_s, log_r, self.log10_V0,
-                         self.N_star], float)
+                         self.N_star, self.ln_wall_width], float)
 
 
 #: A spectrum whose tilt at the CMB pivot is far from 1 has its feature (the stall) at CMB

@@ -9,7 +9,8 @@ Layout (every dataset has a ``units`` attribute):
   :mod:`scan.surrogate.design`, number within its stage) — the point's index is its row;
 * ``points/*``: one row per finished solve, appended as solves finish: ``index`` (row
   in ``plan``), ``params``, ``valid``, ``reason``, ``scalars`` (see
-  :data:`scan.surrogate.record.SCALARS`), ``shape``.
+  :data:`scan.surrogate.record.SCALARS`; stores made before ``ln_wall_width`` have six
+  columns), ``shape``.
 
 The file is written in HDF5 single-writer/multiple-reader (SWMR) mode and flushed after
 every append, so a killed run leaves a readable file holding every finished point.
@@ -168,7 +169,8 @@ class StoreWriter(SingleWriter):
         values = {"params": np.array([r.params for r in records], float),
                   "valid": np.array([r.valid for r in records], "i1"),
                   "reason": np.array(reasons, f"S{REASON_BYTES}"),
-                  "scalars": np.array([r.scalar_targets() for r in records]),
+                  "scalars": _columns(np.array([r.scalar_targets() for r in records]),
+                                      pts["scalars"].shape[1]),
                   "shape": np.array([r.shape for r in records], float)}
         for name, rows in values.items():
             put_rows(pts[name], row, rows)
@@ -197,7 +199,17 @@ def read_points(path: str | Path) -> StoredPoints:
         return StoredPoints(index[rows], pts["params"][:n][rows],
                             pts["valid"][:n][rows].astype(bool),
                             [b.decode("utf-8", "replace") for b in pts["reason"][:n][rows]],
-                            pts["scalars"][:n][rows], pts["shape"][:n][rows])
+                            _columns(pts["scalars"][:n][rows], len(SCALARS)),
+                            pts["shape"][:n][rows])
+
+
+def _columns(scalars: np.ndarray, count: int) -> np.ndarray:
+    """``scalars`` with ``count`` columns: a store made before ``ln_wall_width`` existed
+    (six columns) reads that column as NaN and keeps six when appended to."""
+    if scalars.shape[1] >= count:
+        return scalars[:, :count]
+    pad = np.full((len(scalars), count - scalars.shape[1]), np.nan)
+    return np.hstack([scalars, pad])
 
 
 def read_shape_x(path: str | Path) -> np.ndarray:

@@ -2,9 +2,10 @@
 
 Layout: root provenance and ``identity_json``; ``config`` (text); group ``surrogate``
 with ``space`` attributes and one sub-group per kernel block (``classifier``, ``peak``,
-``shape``, ``cmb``) plus ``basis`` and, if any block uses it, ``bottleneck`` (the
-extra input of :mod:`scan.surrogate.bottleneck`; attribute ``blocks``); group ``validation`` with the report (JSON attribute
-and the printable text).  Written atomically (:func:`scan.store.atomic_h5`).
+``shape``, ``cmb``, and ``wall`` when a pole is given by a wall coordinate) plus
+``basis`` and, if any block uses it, ``bottleneck`` (the extra input of
+:mod:`scan.surrogate.bottleneck`; attribute ``blocks``); group ``validation`` with the
+report (JSON attribute and the printable text).  Written atomically (:func:`scan.store.atomic_h5`).
 """
 from __future__ import annotations
 
@@ -81,7 +82,7 @@ def write_surrogate(path: str | Path, config, space: ParameterSpace, emulator: E
         grp.attrs["parameter_high"] = np.array(space.high)
         grp.attrs["constant_valid"] = emulator.constant_valid
         grp.attrs["has_classifier"] = emulator.classifier is not None
-        for name in ("classifier", "peak", "shape", "cmb"):
+        for name in ("classifier", "peak", "shape", "cmb", "wall"):
             fit = getattr(emulator, name)
             if fit is not None:
                 _write_gp(grp.create_group(name), fit)
@@ -142,5 +143,6 @@ def read_surrogate(path: str | Path, ident: dict | None = None
         classifier = _read_gp(grp["classifier"]) if grp.attrs["has_classifier"] else None
         emulator = Emulator(classifier, bool(grp.attrs["constant_valid"]), _read_gp(grp["peak"]),
                             _read_gp(grp["shape"]), _read_gp(grp["cmb"]), basis,
-                            *_read_bottleneck(grp))
+                            *_read_bottleneck(grp),
+                            _read_gp(grp["wall"]) if "wall" in grp else None)
     return emulator, space

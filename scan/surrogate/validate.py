@@ -92,6 +92,8 @@ def validate(emulator: Emulator, train: TrainingSet, holdout: TrainingSet,
     errs["log10_r [dex]"] = error_stats((pred.log10_r - sc[:, 3])[ok])
     errs["log10_V0 [dex]"] = error_stats((pred.log10_V0 - sc[:, 4])[ok])
     errs["N_star"] = error_stats((pred.N_star - sc[:, 5])[ok])
+    if sc.shape[1] > 6 and np.isfinite(sc[:, 6]).any():  # a wall coordinate: ln w_w, all points
+        errs["ln_wall_width"] = error_stats(pred.ln_wall_width - sc[:, 6])
     if observables is not None and ok.any():
         true_obs = observables(sc[ok, 0], sc[ok, 1], holdout.shapes[ok], holdout.x)
         pred_obs = observables(pred.ln_k_peak[ok], pred.log10_P_peak[ok], pred.shape[ok],

@@ -35,6 +35,30 @@ REFERENCES: dict[str, tuple[str, int, str, str, bool]] = {
     "astro-ph/0305263": ("A. R. Liddle, S. M. Leach", 2003, "How long before the end of "
                          "inflation were observable perturbations produced?",
                          "Phys. Rev. D 68, 103503", False),
+    "gr-qc/9402041": ("C. R. Evans, J. S. Coleman", 1994, "Observation of critical phenomena "
+                      "and self-similarity in the gravitational collapse of radiation fluid",
+                      "Phys. Rev. Lett. 72, 1782", False),
+    "gr-qc/9503007": ("T. Koike, T. Hara, S. Adachi", 1995, "Critical behavior in "
+                      "gravitational collapse of radiation fluid: a renormalization group "
+                      "(linear perturbation) analysis", "Phys. Rev. Lett. 74, 5170", False),
+    "gr-qc/9504008": ("D. Maison", 1996, "Non-universality of critical behaviour in "
+                      "spherically symmetric gravitational collapse",
+                      "Phys. Lett. B 366, 82", False),
+    "gr-qc/0207096": ("P. R. Brady, M. W. Choptuik, C. Gundlach, D. W. Neilsen", 2002,
+                      "Black-hole threshold solutions in stiff fluid collapse",
+                      "Class. Quant. Grav. 19, 6359", False),
+    "gr-qc/9906124": ("C. Gundlach", 2002, "Critical gravitational collapse of a perfect "
+                      "fluid: nonspherical perturbations", "Phys. Rev. D 65, 084021", False),
+    "gr-qc/0109095": ("H. Maeda, T. Harada", 2001, "Critical phenomena in Newtonian gravity",
+                      "Phys. Rev. D 64, 124024", True),
+    "gr-qc/0210027": ("T. Harada, H. Maeda, B. Semelin", 2003, "Criticality and convergence "
+                      "in Newtonian collapse", "Phys. Rev. D 67, 084003", True),
+    "0811.1452": ("I. Musco, J. C. Miller, A. G. Polnarev", 2009, "Primordial black hole "
+                  "formation in the radiative era: investigation of the critical nature of "
+                  "the collapse", "Class. Quant. Grav. 26, 235001", True),
+    "1201.2379": ("I. Musco, J. C. Miller", 2013, "Primordial black hole formation in the "
+                  "early universe: critical behaviour and self-similarity",
+                  "Class. Quant. Grav. 30, 145009", True),
     "0911.1955": ("D. J. Fixsen", 2009, "The temperature of the cosmic microwave background",
                   "Astrophys. J. 707, 916", False),
     "0912.5297": ("B. J. Carr, K. Kohri, Y. Sendouda, J. Yokoyama", 2010, "New cosmological "

@@ -109,17 +109,20 @@ def beta_weighted(sigma2, kR2, conv: PBHConventions):
     return (conv.K * excess**conv.gamma_c * p * dy) @ _GL_W
 
 
-def critical_kernel(M_msun, M_H_msun, conv: PBHConventions, thresholds=None):
+def critical_kernel(M_msun, M_H_msun, conv: PBHConventions, thresholds=None,
+                    exponents=None):
     """Geometry of critical collapse on an (M, M_H) grid: (y, weight, valid).
 
     weight = (M/M_H) (dy/dC) x / gamma_c, so dbeta/dlnM = weight * p(y).
-    ``thresholds`` [1]: one threshold per epoch M_H (default: ``conv.threshold``).
+    ``thresholds`` [1]: one threshold per epoch M_H (default: ``conv.threshold``);
+    ``exponents`` [1]: one gamma_c per epoch (default: ``conv.gamma_c``).
     """
     thr = conv.threshold if thresholds is None else np.asarray(thresholds)[None, :]
+    gam = conv.gamma_c if exponents is None else np.asarray(exponents)[None, :]
     y_th = compaction_linear(thr) if conv.criterion == "compaction" else thr
     ratio = np.asarray(M_msun)[:, None] / np.asarray(M_H_msun)[None, :]
     with np.errstate(over="ignore"):  # M >> K M_H: x -> inf, outside the valid branch
-        x = (ratio / conv.K)**(1 / conv.gamma_c)
+        x = (ratio / conv.K)**(1 / gam)
     c = thr + x
     if conv.criterion == "compaction":
         valid = c < C_MAX
@@ -129,5 +132,5 @@ def critical_kernel(M_msun, M_H_msun, conv: PBHConventions, thresholds=None):
         valid = np.ones_like(c, dtype=bool)
         y, dy_dc = c, np.ones_like(c)
     with np.errstate(over="ignore", invalid="ignore"):
-        weight = np.where(valid, ratio * dy_dc * x / conv.gamma_c, 0.0)
+        weight = np.where(valid, ratio * dy_dc * x / gam, 0.0)
     return np.where(valid, y, y_th), weight, valid

@@ -157,9 +157,9 @@ def _graded(x0, x1, u, w, to_end, to_start):
     return x0[..., None] + width * frac, width * jac * w
 
 
-def _y_nodes(y_th: np.ndarray, sigma: np.ndarray, gamma_c: float):
-    """Nodes and weights in y = C_l per epoch (``y_th`` shape (n, 1)): beta_weighted's,
-    then the tail panels."""
+def _y_nodes(y_th: np.ndarray, sigma: np.ndarray, gamma_c):
+    """Nodes and weights in y = C_l per epoch (``y_th`` and ``gamma_c`` shape (n, 1) or a
+    number): beta_weighted's, then the tail panels."""
     span = np.minimum(C_L_MAX - y_th, 14 * sigma[:, None] + 1e-300)
     z = _GL_Z[None, :]
     y = y_th + span * z**(1 / gamma_c)
@@ -181,10 +181,11 @@ class NonGaussianPlan:
     v_cr: np.ndarray
     v_r: np.ndarray
 
-    def evaluate(self, P_zeta, zmap: ZetaMap, thresholds=None) -> PBHResult:
+    def evaluate(self, P_zeta, zmap: ZetaMap, thresholds=None, exponents=None) -> PBHResult:
         """f_PBH(M) per ln M [1] and the total for one spectrum ``P_zeta`` [1] on ``k_in``.
 
-        ``thresholds`` [1]: C_th per formation epoch (default: the conventions' one).
+        ``thresholds`` [1]: C_th per formation epoch (default: the conventions' one);
+        ``exponents`` [1]: gamma_c per formation epoch (default: the conventions' one).
         """
         plan, conv = self.base, self.base.conventions
         P = np.asarray(P_zeta, dtype=float)
@@ -193,7 +194,9 @@ class NonGaussianPlan:
         s_cr, s_r2 = self.v_cr @ P, self.v_r @ P
         c_th = np.full(plan.M_H.size, conv.threshold) if thresholds is None \
             else np.asarray(thresholds, dtype=float)
-        y, weight, _ = critical_kernel(plan.M, plan.M_H, conv, c_th)
+        gam = np.full(plan.M_H.size, conv.gamma_c) if exponents is None \
+            else np.asarray(exponents, dtype=float)
+        y, weight, _ = critical_kernel(plan.M, plan.M_H, conv, c_th, gam)
         y_th = compaction_linear(c_th)
         on = live_epochs(y_th, s_c2, s_r2, zmap)
         epoch = np.where(on, plan._wln * plan._coef, 0.0)
@@ -206,11 +209,11 @@ class NonGaussianPlan:
             f = np.where(live, weight * dens, 0.0) @ epoch
         beta = np.zeros_like(s_c2)
         if on.any():
-            yn, dyn = _y_nodes(y_th[on, None], np.sqrt(s_c2[on]), conv.gamma_c)
+            yn, dyn = _y_nodes(y_th[on, None], np.sqrt(s_c2[on]), gam[on, None])
             excess = np.clip(yn - 0.375 * yn * yn - c_th[on, None], 0.0, None)
             g = compaction_density(yn, s_c2[on, None], s_cr[on, None], s_r2[on, None],
                                    zmap, conv.ps_factor)
-            beta[on] = np.sum(conv.K * excess**conv.gamma_c * g * dyn, axis=1)
+            beta[on] = np.sum(conv.K * excess**gam[on, None] * g * dyn, axis=1)
         return PBHResult(plan.M, f, float(epoch @ beta), plan.M_H, s_c2, conv)
 
 
