@@ -145,3 +145,16 @@ def test_interpolation_converged_by_doubling(plans, zmap):
     against 33 nodes: <= 1.1e-6 (local f_NL = -1), 7e-8 (logarithmic) per mass."""
     _, ng, stacked, P = plans
     _close(stacked.evaluate(P, zmap), plan_stacked(ng, 17).evaluate(P, zmap), 1e-5)
+
+
+def test_non_finite_spectrum_gives_nan_not_zero(plans):
+    """A NaN in one spectrum makes its f_PBH NaN (as the Gaussian path), the others are
+    untouched."""
+    _, _, stacked, P = plans
+    bad = P.copy()
+    bad[1, 150] = np.nan
+    zmap = zeta_map_of("logarithmic", log_lambda=3.0)
+    got, ref = stacked.evaluate(bad, zmap), stacked.evaluate(P, zmap)
+    assert np.isnan(got.f_pbh_total[1]) and np.all(np.isnan(got.f_pbh[1]))
+    keep = [0, 2, 3]
+    np.testing.assert_array_equal(got.f_pbh_total[keep], ref.f_pbh_total[keep])

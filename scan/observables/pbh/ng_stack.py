@@ -121,6 +121,8 @@ class StackedNGPlan:
         beta = np.exp(lng @ self.beta_matrix.T) @ self.beta_weight
         total = np.bincount(i, weights=(base._wln * base._coef)[h] * beta,
                             minlength=P2.shape[0])
+        bad = ~np.all(np.isfinite(P2), axis=1)              # propagate, as the Gaussian path
+        f[bad], total[bad] = np.nan, np.nan
         if P.ndim == 1:
             return PBHResult(base.M, f[0], float(total[0]), base.M_H, s_c2[0],
                              base.conventions)
