@@ -44,6 +44,8 @@ N_GH: int = 16
 #: The far branch of a quadratic map is skipped where its bound is below e^{-40} times the
 #: near branch (relative contribution < 4e-18, below rounding).
 FAR_MARGIN: float = 40.0
+#: A second ridge this far below the first in ln integrand is not integrated separately.
+RIDGE_GAP: float = 50.0
 #: Newton steps towards the ridge of each branch.
 N_NEWTON: int = 6
 #: Above this z, 1 - sqrt(pi) z erfcx(z) is taken from its asymptotic series (the direct
@@ -213,6 +215,8 @@ def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
     integrand is split by a partition of unity, omega_i = e^{q_i} / (e^{q_1} + e^{q_2})
     with q_i the Laplace (quadratic) approximation at ridge i, and each part gets the
     rule centred on its ridge: the parts sum to the integrand exactly and stay smooth.
+    A ridge lower than the other by RIDGE_GAP in psi is left to the higher one's rule (its
+    mass is below e^{-50} times the width ratio, <= 4 s over the Newton width).
     """
     inset = 1e-9 * (1 + min(abs(lo), abs(hi))) if math.isfinite(lo) or math.isfinite(hi) \
         else 0.0
@@ -224,14 +228,16 @@ def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
         x = np.clip(x0, lo + (away if math.isfinite(lo) else 0.0),
                     hi - (away if math.isfinite(hi) else 0.0))
         ridges.append(_ridge(zmap, np.clip(x, lo_in, hi_in), lo_in, hi_in, s, args))
-    (x1, w1, p1), (x2, w2, p2) = ridges
-    apart = np.abs(x2 - x1) > 0.1 * np.minimum(w1, w2)
-    quad = ((x1, w1, p1), (x2, w2, p2))
-    one = _rule(zmap, x1, w1, lo, hi, gx, glw, args, quad, apart, 0)
+    first = ridges[0][2] >= ridges[1][2]                # order: the higher ridge first
+    quad = tuple(tuple(np.where(first, u, v) for u, v in zip(ridges[k], ridges[1 - k]))
+                 for k in (0, 1))
+    (xa, wa, pa), (xb, wb, pb) = quad
+    apart = (np.abs(xb - xa) > 0.1 * np.minimum(wa, wb)) & (pa - pb < RIDGE_GAP)
+    one = _rule(zmap, xa, wa, lo, hi, gx, glw, args, quad, apart, 0)
     two = np.full(one.shape, -np.inf)
     if apart.any():
-        sub = [v[apart] for v in (x2, w2)]
-        two[apart] = _rule(zmap, *sub, lo, hi, gx, glw, tuple(v[apart] for v in args),
+        two[apart] = _rule(zmap, xb[apart], wb[apart], lo, hi, gx, glw,
+                           tuple(v[apart] for v in args),
                            tuple(tuple(v[apart] for v in r) for r in quad),
                            apart[apart], 1)
     return log_sum_exp(np.stack([one, two], axis=-1))
@@ -255,11 +261,18 @@ def _rule(zmap, x, width, lo, hi, gx, glw, args, quad, apart, which):
     integrand weighted by ridge ``which``'s share of the partition of unity."""
     nodes = x[..., None] + math.sqrt(2) * width[..., None] * gx
     psi, _, _ = _psi(zmap, nodes, *(v[..., None] for v in args), 0)
-    q = [p[..., None] - 0.5 * ((nodes - xr[..., None]) / wr[..., None])**2
-         for xr, wr, p in quad]
-    share = np.where(apart[..., None], q[which] - np.logaddexp(q[0], q[1]), 0.0)
-    inside = (nodes > lo) & (nodes < hi) & np.isfinite(psi)
-    terms = np.where(inside, psi + share + glw, -np.inf)
+    terms = psi + glw
+    if apart.any():                  # the partition of unity, where there are two ridges
+        sub = nodes[apart]
+        q = [p[apart, None] - 0.5 * ((sub - xr[apart, None]) / wr[apart, None])**2
+             for xr, wr, p in quad]
+        terms[apart] += q[which] - np.logaddexp(q[0], q[1])
+    inside = np.isfinite(terms)
+    if math.isfinite(lo):
+        inside &= nodes > lo
+    if math.isfinite(hi):
+        inside &= nodes < hi
+    terms[~inside] = -np.inf
     return np.log(math.sqrt(2) * width) + log_sum_exp(terms)
 
 
