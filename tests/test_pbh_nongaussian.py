@@ -164,6 +164,7 @@ def test_no_live_epoch_gives_exactly_zero():
 
 @pytest.mark.parametrize("changes, key", [
     ({"non_gaussianity": "model"}, "observables.non_gaussianity"),
+    ({"non_gaussianity": "local", "f_nl": 1.0, "g_nl": 2.0}, "observables.g_nl"),
     ({"qcd_threshold": "harada-scaled"}, "observables.qcd_threshold"),
 ])
 def test_sampler_paths_refuse_conventions_they_do_not_compute(changes, key):

@@ -109,6 +109,11 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
                           "sample's delta-N map)", "use non_gaussianity = 'local' with the "
                           "f_nl that 'zetascan solve' prints for your best model (f_NL at "
                           "the peak), or 'logarithmic' with log_lambda")
+    if section.non_gaussianity == "local" and section.g_nl != 0:
+        raise ConfigError(source, "observables.g_nl", f"g_nl = {section.g_nl:g} is not "
+                          "available in sample, grid and verify (their non-Gaussian f_PBH "
+                          "covers the quadratic local map)", "set g_nl = 0 for the posterior "
+                          "and check single models with zetascan solve")
     for key in ("qcd_threshold", "qcd_collapse"):
         value = getattr(section, key)
         if value != "off":

@@ -16,7 +16,8 @@ Everything is returned as a logarithm, so that densities far below the smallest 
   int_0^inf u exp(-A (u - mu)^2 / 2) du is closed form (an erfc) -- exact, no quadrature
   (our derivation; it covers the whole domain lambda zeta_G < 1, where the per-spectrum
   path of :mod:`~scan.observables.pbh.nongaussian` cuts at 12 sigma_r).
-* ``local`` (F' = 1 + (6/5) f_NL zeta_G + (27/25) g_NL zeta_G^2): Laplace-centred
+* ``local`` with g_NL = 0 (F' = 1 + (6/5) f_NL zeta_G; with g_NL != 0 the two-start
+  ridge search was measured to miss ridges, so it is refused): Laplace-centred
   Gauss-Hermite quadrature on each monotone branch of F (between the real roots of F',
   where C_G = c/F' diverges and the integrand vanishes): Newton steps on the
   log-integrand psi from the Gaussian conditional mean, then ``n_gh`` Gauss-Hermite
@@ -76,6 +77,10 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
     elif zmap.kind == "logarithmic":
         out = _ln_log_map(c, s_c2, s_cr, s_r2, zmap.log_lambda)
     elif zmap.kind == "local":
+        if zmap.g_nl != 0:
+            raise ValueError("the stacked density covers the local map with g_NL = 0 (a "
+                             "cubic term can make ridges the two-start search misses); use "
+                             "NonGaussianPlan.evaluate")
         c, s_c2, s_cr, s_r2 = np.broadcast_arrays(c, s_c2, s_cr, s_r2)
         out = _ln_local(*(v.ravel() for v in (c, s_c2, s_cr, s_r2)), zmap).reshape(c.shape)
     else:
