@@ -17,7 +17,7 @@ from scan.observables.pbh.nongaussian import (
     plan_nongaussian,
 )
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
-from scan.observables.settings import require_gaussian_batch
+from scan.observables.settings import require_batch_conventions
 
 K = np.geomspace(1e5, 1e8, 300)
 M = np.geomspace(1e-2, 1e3, 60)
@@ -163,15 +163,20 @@ def test_no_live_epoch_gives_exactly_zero():
 
 
 @pytest.mark.parametrize("changes, key", [
-    ({"non_gaussianity": "local", "f_nl": 1.0}, "observables.non_gaussianity"),
+    ({"non_gaussianity": "model"}, "observables.non_gaussianity"),
+    ({"non_gaussianity": "local", "f_nl": 1.0, "g_nl": 2.0}, "observables.g_nl"),
     ({"qcd_threshold": "harada-scaled"}, "observables.qcd_threshold"),
 ])
 def test_sampler_paths_refuse_conventions_they_do_not_compute(changes, key):
-    # sample/grid/verify evaluate f_PBH with Gaussian zeta and one threshold: they must
-    # stop instead of silently ignoring the convention
+    # sample/grid/verify evaluate f_PBH for a stack with one threshold and the config's
+    # fixed map: a per-sample delta-N map or a per-epoch threshold must stop them instead
+    # of being silently ignored
     with pytest.raises(ConfigError, match=key):
-        require_gaussian_batch(ObservablesSection(**changes), "run.toml")
-    require_gaussian_batch(ObservablesSection(), "run.toml")
+        require_batch_conventions(ObservablesSection(**changes), "run.toml")
+    require_batch_conventions(ObservablesSection(), "run.toml")
+    require_batch_conventions(ObservablesSection(non_gaussianity="local", f_nl=1.0), "run.toml")
+    require_batch_conventions(ObservablesSection(non_gaussianity="logarithmic",
+                                                 log_lambda=3.0), "run.toml")
 
 
 @pytest.mark.parametrize("log_lambda", [3.0, -2.0])

@@ -18,7 +18,7 @@ from scan.observables.pbh.qcd import (
     epoch_thresholds,
 )
 from scan.observables.pbh.zeta_map import ZetaMap
-from scan.observables.settings import require_gaussian_batch
+from scan.observables.settings import require_batch_conventions
 
 K_FLAT = np.geomspace(cosmo.k_of_horizon_mass(1e4), cosmo.k_of_horizon_mass(1e-3), 200)
 M_OUT = np.geomspace(1e-2, 1e2, 41)
@@ -107,7 +107,7 @@ def test_bad_combinations_name_the_key(changes):
 
 def test_sampler_paths_refuse_the_qcd_exponent():
     with pytest.raises(ConfigError, match="observables.qcd_collapse"):
-        require_gaussian_batch(ObservablesSection(qcd_collapse="gamma-of-w"), "run.toml")
+        require_batch_conventions(ObservablesSection(qcd_collapse="gamma-of-w"), "run.toml")
 
 
 @pytest.fixture

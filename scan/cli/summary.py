@@ -58,6 +58,7 @@ def format_summary(info: dict) -> str:
     if info["derived"]:
         lines.append("derived:")
         lines += [_row(k, q) for k, q in info["derived"].items()]
+    lines += convention_lines(info.get("pbh_convention") or {}, info["derived"])
     if info.get("binding"):
         b = info["binding"]
         top = [f"{name} {100 * share:.0f} %" for name, share in b["fractions"].items()
@@ -70,6 +71,22 @@ def format_summary(info: dict) -> str:
     if info.get("nested"):
         lines += nested_lines(info["nested"])
     return "\n".join(lines)
+
+
+def convention_lines(conv: dict, derived: dict) -> list[str]:
+    """Which zeta statistics f_pbh_total used, and the Gaussian one beside it."""
+    kind = conv.get("non_gaussianity")
+    if kind in (None, "gaussian"):                      # Gaussian, or not recorded
+        return []
+    params = ", ".join(f"{k} = {v:g}" for k, v in conv.items() if k != "non_gaussianity")
+    lines = [f"PBH abundance: non-Gaussian zeta, non_gaussianity = '{kind}'"
+             + (f" ({params})" if params else "") + "; f_pbh_total uses it, "
+             "f_pbh_total_gaussian is the same spectra with Gaussian zeta"]
+    ng, gauss = derived.get("f_pbh_total"), derived.get("f_pbh_total_gaussian")
+    if ng and gauss:
+        lines.append(f"  f_PBH median: {gauss['median']:.3e} Gaussian -> {ng['median']:.3e} "
+                     f"non-Gaussian; 95 % upper: {gauss['q97.5']:.3e} -> {ng['q97.5']:.3e}")
+    return lines
 
 
 def nested_lines(nested: dict) -> list[str]:

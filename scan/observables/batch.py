@@ -62,8 +62,10 @@ def with_collapse_coefficient(batch: Observables, ratio: np.ndarray) -> Observab
     ratio = np.asarray(ratio, dtype=float)
     if batch.ln_mass_shift is not None:
         raise ValueError("the batch's masses are shifted already")
+    gaussian = batch.f_pbh_total_gaussian
     return batch.replace(f_pbh_per_lnm=batch.f_pbh_per_lnm * ratio[:, None],
-                         f_pbh_total=batch.f_pbh_total * ratio, ln_mass_shift=np.log(ratio))
+                         f_pbh_total=batch.f_pbh_total * ratio, ln_mass_shift=np.log(ratio),
+                         f_pbh_total_gaussian=None if gaussian is None else gaussian * ratio)
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -159,13 +161,15 @@ def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.n
     log10_p = np.asarray(log10_P_peak, float)[:, None] + np.asarray(shape, float)
     omega, ln_k_top, omega_peak = gw_on_grids(plan, ln_k_peak, log10_p)
     pbh = pbh_on_table(plan, ln_k_peak, log10_p, thresholds)
+    gaussian = getattr(pbh, "f_pbh_total_gaussian", None)
     return Observables(
         f_hz=plan.f_gw, omega_gw_h2=omega, m_msun=np.asarray(plan.pbh.M),
         f_pbh_per_lnm=np.atleast_2d(pbh.f_pbh), f_pbh_total=np.atleast_1d(pbh.f_pbh_total),
         n_s=np.asarray(n_s, float), r=np.asarray(r, float), N_star=np.asarray(N_star, float),
         ln_1e10_as=float(ln_1e10_as), k_peak=np.exp(ln_k_peak),
         P_peak=10.0 ** np.asarray(log10_P_peak, float),
-        f_gw_peak=np.asarray(cosmo.k_to_f(np.exp(ln_k_top))), omega_gw_h2_peak=omega_peak)
+        f_gw_peak=np.asarray(cosmo.k_to_f(np.exp(ln_k_top))), omega_gw_h2_peak=omega_peak,
+        f_pbh_total_gaussian=None if gaussian is None else np.atleast_1d(gaussian))
 
 
 def gw_on_grids(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray

@@ -87,12 +87,15 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
                               section.qcd_collapse)
 
 
-def require_gaussian_batch(section: ObservablesSection, source: str) -> None:
-    """Refuse conventions the vectorised (surrogate) and table paths do not compute yet.
+def require_batch_conventions(section: ObservablesSection, source: str) -> None:
+    """Refuse conventions the vectorised (surrogate) and table paths do not compute.
 
-    The sampler, the grid and verify's table path evaluate f_PBH with Gaussian zeta and one
-    threshold; a non-Gaussian map or the QCD-era threshold would silently be ignored there
-    (issue 15 step 4), so they stop with a message instead.
+    The sampler, the grid and verify evaluate f_PBH for a stack of spectra with one
+    threshold: Gaussian zeta, or the ``local`` and ``logarithmic`` maps with the config's
+    fixed parameters (:mod:`scan.observables.pbh.ng_stack`).  ``model`` needs every
+    sample's own delta-N map, which the surrogate does not emulate, and the QCD-era
+    threshold varies per epoch: both would silently be ignored there, so they stop with
+    a message instead.
 
     Raises
     ------
@@ -100,11 +103,29 @@ def require_gaussian_batch(section: ObservablesSection, source: str) -> None:
         Naming ``observables.non_gaussianity``, ``observables.qcd_threshold`` or
         ``observables.qcd_collapse``.
     """
-    for key, default in (("non_gaussianity", "gaussian"), ("qcd_threshold", "off"),
-                         ("qcd_collapse", "off")):
+    if section.non_gaussianity == "model":
+        raise ConfigError(source, "observables.non_gaussianity", "'model' is not available "
+                          "in sample, grid and verify (the surrogate does not emulate each "
+                          "sample's delta-N map)", "use non_gaussianity = 'local' with the "
+                          "f_nl that 'zetascan solve' prints for your best model (f_NL at "
+                          "the peak), or 'logarithmic' with log_lambda")
+    if section.non_gaussianity == "local" and section.g_nl != 0:
+        raise ConfigError(source, "observables.g_nl", f"g_nl = {section.g_nl:g} is not "
+                          "available in sample, grid and verify (their non-Gaussian f_PBH "
+                          "covers the quadratic local map)", "set g_nl = 0 for the posterior "
+                          "and check single models with zetascan solve")
+    for key in ("qcd_threshold", "qcd_collapse"):
         value = getattr(section, key)
-        if value != default:
+        if value != "off":
             raise ConfigError(source, f"observables.{key}", f"'{value}' is not available in "
-                              "sample, grid and verify yet (their f_PBH is Gaussian with one "
-                              "threshold and one gamma_c)", f"set {key} = '{default}' for the posterior and "
-                              "check single models with zetascan solve")
+                              "sample, grid and verify yet (their f_PBH has one threshold and "
+                              "one gamma_c for all formation epochs)", f"set {key} = 'off' "
+                              "for the posterior and check single models with zetascan solve")
+
+
+def pbh_convention_attrs(section: ObservablesSection) -> dict:
+    """The non-Gaussianity convention of a run as flat attributes (as ``pbh`` of a solve
+    result: ``non_gaussianity`` and its parameters)."""
+    if section.non_gaussianity in ("gaussian", "model"):
+        return {"non_gaussianity": section.non_gaussianity}
+    return settings_of(section).zeta_map.as_attrs()

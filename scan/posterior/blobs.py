@@ -81,3 +81,18 @@ def finish_log_posterior(log_p: np.ndarray, reason: np.ndarray, rows: np.ndarray
     excluded = total == -np.inf
     reason[rows[excluded]] = excluded_code
     log_p[rows[~excluded]] = log_prior[rows[~excluded]] + total[~excluded]
+
+
+#: Blob field of the Gaussian-zeta total beside a non-Gaussian ``f_pbh_total``.
+GAUSSIAN_TOTAL = "f_pbh_total_gaussian"
+
+
+def extra_fields(observables) -> tuple[str, ...]:
+    """Blob fields beyond the fixed ones: ``f_pbh_total_gaussian`` when the
+    ``[observables]`` section's zeta is non-Gaussian."""
+    return () if observables.non_gaussianity == "gaussian" else (GAUSSIAN_TOTAL,)
+
+
+def extra_values(fields: tuple[str, ...], obs) -> dict:
+    """The values of the extra blob ``fields`` from observables ``obs``."""
+    return {GAUSSIAN_TOTAL: obs.f_pbh_total_gaussian} if GAUSSIAN_TOTAL in fields else {}

@@ -16,9 +16,15 @@ from scan.config.schema import RunConfig
 from scan.errors import ConfigError
 from scan.likelihood import Sensitivity
 from scan.likelihood.from_config import build_terms, curve_paths_of
-from scan.observables.settings import require_gaussian_batch
-from scan.posterior.setup import (NUISANCE_NAMES, UNSUPPORTED_NUISANCE, check_collapse_k_prior,
-                                  check_threshold_prior)
+from scan.observables.settings import require_batch_conventions
+from scan.posterior.setup import (
+    NUISANCE_NAMES,
+    THRESHOLD,
+    UNSUPPORTED_NUISANCE,
+    check_collapse_k_prior,
+    check_threshold_prior,
+    threshold_range,
+)
 from scan.posterior.target import PosteriorTarget
 from scan.posterior.targets import GaussianTarget, TargetBase
 from scan.store import RunFolder
@@ -89,7 +95,13 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
                                   f"{k} ({v})" for k, v in NUISANCE_NAMES.items()))
     check_threshold_prior(config, priors)
     check_collapse_k_prior(config, priors)
-    require_gaussian_batch(config.observables, config.source)
+    require_batch_conventions(config.observables, config.source)
+    if config.observables.non_gaussianity != "gaussian" and threshold_range(priors):
+        i = list(priors.names[priors.n_model:]).index(THRESHOLD)
+        raise ConfigError(config.source, f"nuisance[{i}]", "a sampled pbh.threshold needs "
+                          "observables.non_gaussianity = 'gaussian' (the non-Gaussian stack "
+                          "has one threshold)", "remove this [[nuisance]] table and set "
+                          "observables.threshold, or sample it with Gaussian zeta")
     paths = curve_paths_of(config)
     surrogate = config.likelihood.surrogate or str(RunFolder.of(config).surrogate)
     if not Path(surrogate).is_file():

@@ -30,7 +30,7 @@ import numpy as np
 from scan.config.priors import apply_parameters
 from scan.config.schema import RunConfig
 from scan.observables import Observables
-from scan.observables.settings import require_gaussian_batch, settings_of
+from scan.observables.settings import require_batch_conventions, settings_of
 from scan.pipeline import solve_config
 from scan.pipeline.solve import wall_width
 from scan.posterior.setup import COLLAPSE_K, THRESHOLD
@@ -104,7 +104,7 @@ def observables_from_table(config: RunConfig, k: np.ndarray, P_zeta: np.ndarray,
     -------
     ExactOutcome
     """
-    require_gaussian_batch(config.observables, config.source)
+    require_batch_conventions(config.observables, config.source)
     obs = settings_of(config.observables).compute(k, P_zeta)
     return ExactOutcome(posterior_observables(obs, k_peak=k_peak, P_peak=P_peak, n_s=n_s,
                                               r=r, N_star=N_star,

@@ -5,10 +5,11 @@ The curve files and likelihood terms of a run are :mod:`scan.likelihood.from_con
 """
 from __future__ import annotations
 
-
 from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError
+from scan.observables.pbh import plan_pbh_thresholds
+from scan.observables.pbh.ng_stack import plan_pbh_mapped
 
 #: The nuisance name of the PBH collapse threshold.
 THRESHOLD = "pbh.threshold"
@@ -85,3 +86,18 @@ def check_threshold_prior(config: RunConfig, priors: PriorSet) -> None:
                           f"'{config.observables.criterion}'",
                           "give low and high inside that range (thresholds are "
                           "window-specific: C_th ~ 0.5 for the Gaussian-window compaction)")
+
+
+def pbh_plan_of(settings, span: tuple[float, float] | None):
+    """The batch path's f_PBH plan factory ``(k_table, masses) -> plan`` for observable
+    ``settings``: the stacked non-Gaussian plan for a non-Gaussian map, the threshold plan
+    over ``span`` for a sampled threshold, else None (the Gaussian default)."""
+    conventions, dof, n_eff, zmap = (settings.conventions, settings.dof, settings.n_eff,
+                                     settings.zeta_map)
+    if zmap is not None and not zmap.is_gaussian:
+        return lambda k_table, masses: plan_pbh_mapped(k_table, masses, conventions, zmap,
+                                                       dof=dof, n_eff=n_eff)
+    if span is not None:
+        return lambda k_table, masses: plan_pbh_thresholds(k_table, masses, conventions,
+                                                           span, dof=dof, n_eff=n_eff)
+    return None

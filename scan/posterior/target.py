@@ -45,14 +45,13 @@ from scan.likelihood.grid import plan_terms
 from scan.observables import Observables
 from scan.observables.batch import (batch_observables, parabolic_peak, plan_batch,
                                     with_collapse_coefficient)
-from scan.observables.pbh import plan_pbh_thresholds
 from scan.observables.settings import settings_of
 from scan.posterior.exact import exact_ln_wall_width
-from scan.posterior.blobs import (empty_blobs, finish_log_posterior, mass_at_peak, peak_range,
-                                  store_blobs, total_of_terms)
+from scan.posterior.blobs import (empty_blobs, extra_fields, extra_values, finish_log_posterior,
+                                  mass_at_peak, peak_range, store_blobs, total_of_terms)
 from scan.posterior.reasons import REASONS, Reason
 from scan.likelihood.from_config import build_terms
-from scan.posterior.setup import COLLAPSE_K, THRESHOLD, threshold_range
+from scan.posterior.setup import COLLAPSE_K, THRESHOLD, pbh_plan_of, threshold_range
 from scan.posterior.targets import TargetBase
 from scan.surrogate import load_surrogate
 
@@ -116,11 +115,16 @@ class PosteriorTarget(TargetBase):
 
     @functools.cached_property
     def blob_dtype(self) -> np.dtype:  # type: ignore[override]
-        """Derived fields, ``snr_<curve>``, ``lnL_<term>`` and ``reason``."""
-        fields = [(name, np.float64) for name in BLOB_FIELDS]
+        """Derived fields (with ``f_pbh_total_gaussian`` beside a non-Gaussian
+        ``f_pbh_total``), ``snr_<curve>``, ``lnL_<term>`` and ``reason``."""
+        fields = [(name, np.float64) for name in BLOB_FIELDS + self._extras]
         fields += [(f"snr_{name}", np.float64) for name in self.snr_curves]
         fields += [(f"lnL_{name}", np.float64) for name in self.term_names]
         return np.dtype(fields + [("reason", np.int16)])
+
+    @property
+    def _extras(self) -> tuple[str, ...]:
+        return extra_fields(self.config.observables)
 
     def __getstate__(self) -> dict[str, Any]:
         state = dict(self.__dict__)
@@ -150,12 +154,7 @@ class PosteriorTarget(TargetBase):
         settings = settings_of(self.config.observables)
         conventions, dof, n_eff = settings.conventions, settings.dof, settings.n_eff
         span = threshold_range(self.priors)
-        pbh_plan = None
-        if span is not None:
-
-            def pbh_plan(k_table, masses):
-                return plan_pbh_thresholds(k_table, masses, conventions, span, dof=dof,
-                                           n_eff=n_eff)
+        pbh_plan = pbh_plan_of(settings, span)
         plan = plan_batch(surrogate.emulator.basis.x, peak_range(surrogate), conventions,
                           n_out=self.n_out, n_mass=self.n_mass, dof=dof, n_eff=n_eff,
                           pbh_plan=pbh_plan)
@@ -303,7 +302,7 @@ class PosteriorTarget(TargetBase):
                 omega_gw_h2_peak=batch.omega_gw_h2_peak, f_pbh_total=batch.f_pbh_total,
                 M_pbh_peak=mass_at_peak(batch.m_msun, batch.f_pbh_per_lnm,
                                         batch.ln_mass_shift),
-                n_s=batch.n_s, r=batch.r, N_star=batch.N_star))
+                n_s=batch.n_s, r=batch.r, N_star=batch.N_star, **extra_values(self._extras, batch)))
             finish_log_posterior(log_p, reason, rows, total, log_prior, Reason.EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs
@@ -347,7 +346,7 @@ class PosteriorTarget(TargetBase):
                 k_peak=ob.k_peak, P_peak=ob.P_peak, f_gw_peak=math.exp(ln_f),
                 omega_gw_h2_peak=math.exp(ln_omega), f_pbh_total=ob.f_pbh_total,
                 M_pbh_peak=mass_at_peak(ob.m_msun, np.atleast_2d(ob.f_pbh_per_lnm)),
-                n_s=ob.n_s, r=ob.r, N_star=ob.N_star))
+                n_s=ob.n_s, r=ob.r, N_star=ob.N_star, **extra_values(self._extras, ob)))
             finish_log_posterior(log_p, reason, rows, total, log_prior, Reason.EXCLUDED)
         blobs["reason"] = reason
         return log_p, blobs

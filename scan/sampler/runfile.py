@@ -33,6 +33,7 @@ from scan import store
 from scan.config.priors import width_prior_attributes
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
+from scan.observables.settings import pbh_convention_attrs
 
 GROUP = "mcmc"
 EXTRA = "sampler"
@@ -186,6 +187,18 @@ def chain_path(run: str | Path) -> Path:
     return path
 
 
+#: Root attributes of a chain recording the PBH non-Gaussianity convention.
+CONVENTION_ATTRS: tuple[str, ...] = ("non_gaussianity", "f_nl", "g_nl", "log_lambda")
+
+
+def pbh_convention(path: str | Path) -> dict[str, Any]:
+    """The chain's recorded non-Gaussianity convention (empty for chains written before
+    it was recorded)."""
+    with h5py.File(path, "r") as handle:
+        return {key: (str(v) if isinstance(v, (str, bytes)) else float(v))
+                for key in CONVENTION_ATTRS if (v := handle.attrs.get(key)) is not None}
+
+
 def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
            curves: Mapping[str, str] | None = None) -> None:
     """Write a new run file (atomically): provenance, config, the digests of the curve
@@ -194,6 +207,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
         store.write_attrs(handle, store.curve_attrs(curves or {}))
         handle.attrs["run_name"] = config.run.name
+        store.write_attrs(handle, pbh_convention_attrs(config.observables))
         store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",

@@ -119,6 +119,7 @@ def summarize(run: str | Path) -> dict[str, Any]:
         "stray_walkers": post["stray_walkers"],
         "samples_used": int(len(post["samples"])),
         "parameters": parameters, "derived": derived, "binding": binding,
+        "pbh_convention": runfile.pbh_convention(path),
         "invalid_reasons": {n: int(c) for n, c in zip(extras.reasons, extras.counts)},
         "tau_history": {"steps": extras.tau_steps,
                         "tau": [list(map(float, t)) for t in extras.tau_history]},

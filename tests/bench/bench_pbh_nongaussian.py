@@ -3,9 +3,10 @@
 64 log-normal peaks (width 0.5, ln k_peak uniform in [13.5, 15.5], log10 A uniform in
 [-2.6, -2.0], top-hat window, C_th = 0.55) on one k table, 32 masses, 128 formation
 epochs.  Gaussian: one :meth:`PBHPlan.evaluate` of the (64, n_k) stack.  Non-Gaussian:
-:meth:`NonGaussianPlan.evaluate` spectrum by spectrum (no stacked path yet) with the
+:meth:`StackedNGPlan.evaluate` of the same stack (scan/observables/pbh/ng_stack.py) with the
 local map f_NL = 1 and the logarithmic map lambda = 3.  Timed side by side in
 alternating blocks (thread CPU time); the acceptance target of issue 15 is <= 3x.
+``--reference`` adds the per-spectrum :meth:`NonGaussianPlan.evaluate` (minutes).
 
 Run:  python tests/bench/bench_pbh_nongaussian.py
 """
@@ -16,11 +17,13 @@ import os
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
+import sys  # noqa: E402
 import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
 from scan.observables.pbh import PBHConventions, plan_pbh  # noqa: E402
+from scan.observables.pbh.ng_stack import plan_stacked  # noqa: E402
 from scan.observables.pbh.nongaussian import plan_nongaussian  # noqa: E402
 from scan.observables.pbh.zeta_map import zeta_map_of  # noqa: E402
 
@@ -40,12 +43,16 @@ def main() -> None:
     conv = PBHConventions(window="top-hat", threshold=0.55)
     plan = plan_pbh(k, np.geomspace(1e-2, 1e3, 32), conv, n_formation=128)
     ng = plan_nongaussian(plan, 128)
+    stacked = plan_stacked(ng)
     P = spectra(k)
     maps = {"local f_NL=1": zeta_map_of("local", f_nl=1.0),
             "logarithmic lambda=3": zeta_map_of("logarithmic", log_lambda=3.0)}
     funcs = {"gaussian stack": lambda: plan.evaluate(P)}
     for name, zmap in maps.items():
-        funcs[name] = lambda zmap=zmap: [ng.evaluate(row, zmap) for row in P]
+        funcs[f"stacked {name}"] = lambda zmap=zmap: stacked.evaluate(P, zmap)
+        if "--reference" in sys.argv:
+            funcs[f"per-spectrum {name}"] = lambda zmap=zmap: [ng.evaluate(row, zmap)
+                                                               for row in P]
     times = {name: [] for name in funcs}
     for _ in range(BLOCKS):
         for name, f in funcs.items():
@@ -54,7 +61,7 @@ def main() -> None:
             times[name].append(time.thread_time() - start)
     base = min(times["gaussian stack"])
     for name, t in times.items():
-        print(f"{name:>22}: median {np.median(t):.3f} s, ratio to Gaussian (min-based) "
+        print(f"{name:>35}: median {np.median(t):.3f} s, ratio to Gaussian (min-based) "
               f"{min(t) / base:.1f}x")
 
 

@@ -39,6 +39,9 @@ class PBHResult:
     sigma2 : ndarray [1]
         Smoothed variance at each M_H, shape (n_H,) or (m, n_H).
     conventions : PBHConventions
+    f_pbh_total_gaussian : float or ndarray or None [1]
+        The same spectra's total with Gaussian zeta, beside a non-Gaussian one
+        (:class:`scan.observables.pbh.ng_stack.MappedStackPlan`); None otherwise.
     """
 
     M: np.ndarray
@@ -47,6 +50,7 @@ class PBHResult:
     M_H: np.ndarray
     sigma2: np.ndarray
     conventions: PBHConventions
+    f_pbh_total_gaussian: float | np.ndarray | None = None
 
 
 @dataclass(frozen=True)

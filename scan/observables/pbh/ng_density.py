@@ -1,0 +1,289 @@
+"""ln g(C_l): the log-density of the linear compaction C_l = C_G F'(zeta_G), vectorised.
+
+(C_G, zeta_G) are jointly Gaussian (variances sigma_c^2, sigma_r^2, covariance sigma_cr^2,
+:mod:`scan.observables.pbh.nongaussian`); written as zeta_G ~ N(0, sigma_r^2) and
+C_G | zeta_G ~ N(a zeta_G, t^2), a = sigma_cr^2 / sigma_r^2, t^2 = sigma_c^2 - a sigma_cr^2,
+
+    g(c) = int dzeta_G p(c / F'(zeta_G), zeta_G) / |F'(zeta_G)|
+
+(Ferrante, Franciolini, Iovino & Urbano 2023, arXiv:2211.01728, their eq. for P(C_l)).
+Everything is returned as a logarithm, so that densities far below the smallest double
+(exponents of -1000 and beyond) stay finite and interpolable.
+
+* ``gaussian``: g is the Gaussian density of C_G itself.
+* ``logarithmic`` (F = -ln(1 - lambda zeta_G)/lambda): in u = 1 - lambda zeta_G > 0 the
+  map gives F' = 1/u and C_G = c u, so the exponent is a quadratic in u and the integral
+  int_0^inf u exp(-A (u - mu)^2 / 2) du is closed form (an erfc) -- exact, no quadrature
+  (our derivation; it covers the whole domain lambda zeta_G < 1, where the per-spectrum
+  path of :mod:`~scan.observables.pbh.nongaussian` cuts at 12 sigma_r).
+* ``local`` with g_NL = 0 (F' = 1 + (6/5) f_NL zeta_G; with g_NL != 0 the two-start
+  ridge search was measured to miss ridges, so it is refused): Laplace-centred
+  Gauss-Hermite quadrature on each monotone branch of F (between the real roots of F',
+  where C_G = c/F' diverges and the integrand vanishes): Newton steps on the
+  log-integrand psi from the Gaussian conditional mean, then ``n_gh`` Gauss-Hermite
+  nodes scaled by 1/sqrt(-psi'') (adaptive Gauss-Hermite: Liu & Pierce 1994, "A note on
+  Gauss-Hermite quadrature", Biometrika 81(3), 624-629).  For a Gaussian integrand (F' = 1) the rule is exact for any n_gh; the
+  error for a smooth ridge falls like the Gauss-Hermite remainder n! / (2^n (2n)!) times
+  the 2n-th derivative of the integrand over its Gaussian part.  Both branches of a
+  non-monotone map are integrated (C_G < 0 with F' < 0 also gives C_l > 0).
+
+Units: all quantities [1].
+"""
+from __future__ import annotations
+
+import itertools
+import math
+
+import numpy as np
+from scipy import special
+
+from scan.observables.pbh.zeta_map import ZetaMap
+
+#: Gauss-Hermite nodes of the local map's per-branch rule: 16 -> 32 changes ln g by
+#: <= 1.1e-5, and the 32-point rule is within 1.4e-7 of scipy quad (tests/test_pbh_ng_stack.py).
+N_GH: int = 16
+#: The far branch of a quadratic map is skipped where its bound is below e^{-40} times the
+#: near branch (relative contribution < 4e-18, below rounding).
+FAR_MARGIN: float = 40.0
+#: A second ridge this far below the first in ln integrand is not integrated separately.
+RIDGE_GAP: float = 50.0
+#: Newton steps towards the ridge of each branch.
+N_NEWTON: int = 6
+#: Above this z, 1 - sqrt(pi) z erfcx(z) is taken from its asymptotic series (the direct
+#: difference loses ~2 z^2 eps, 4e-12 at z = 100; the series' first omitted term is
+#: 945 / (32 z^10) / (1 / (2 z^2)) < 1e-14 relative there).
+_Z_SERIES: float = 100.0
+
+
+def joint(s_c2, s_cr, s_r2):
+    """(a, t^2, ln of 1/(2 pi sqrt(det))) [1] of the joint (C_G, zeta_G) Gaussian."""
+    a = s_cr / s_r2
+    t2 = np.maximum(s_c2 - a * s_cr, 1e-300)
+    return a, t2, -math.log(2 * math.pi) - 0.5 * np.log(s_r2 * t2)
+
+
+def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np.ndarray:
+    """ln g(c) [1] for C_l = ``c`` (broadcast with the variances sigma_c^2, sigma_cr^2,
+    sigma_r^2), ``ps_factor`` multiplying g; maps ``gaussian``, ``local``, ``logarithmic``.
+
+    Raises
+    ------
+    ValueError
+        For ``model`` maps (tabulated delta-N: use the per-spectrum path).
+    """
+    c, s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
+    if zmap.kind == "gaussian":
+        out = -0.5 * np.log(2 * math.pi * s_c2) - 0.5 * c * c / s_c2
+    elif zmap.kind == "logarithmic":
+        out = _ln_log_map(c, s_c2, s_cr, s_r2, zmap.log_lambda)
+    elif zmap.kind == "local":
+        if zmap.g_nl != 0:
+            raise ValueError("the stacked density covers the local map with g_NL = 0 (a "
+                             "cubic term can make ridges the two-start search misses); use "
+                             "NonGaussianPlan.evaluate")
+        c, s_c2, s_cr, s_r2 = np.broadcast_arrays(c, s_c2, s_cr, s_r2)
+        out = _ln_local(*(v.ravel() for v in (c, s_c2, s_cr, s_r2)), zmap).reshape(c.shape)
+    else:
+        raise ValueError("the stacked density covers gaussian, local and logarithmic maps; "
+                         "'model' goes through NonGaussianPlan.evaluate")
+    return out + math.log(ps_factor)
+
+
+def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:
+    """Closed form of ln g for F = -ln(1 - lambda zeta_G)/lambda (see the module doc).
+
+    With kappa = 1/(lambda^2 sigma_r^2), b = a/lambda, alpha = c + b the exponent is
+    Q(u) = kappa (u - 1)^2 + (alpha u - b)^2 / t^2 = A (u - mu)^2 + kappa c^2 / (t^2 A),
+    A = kappa + alpha^2/t^2, mu = (kappa + alpha b / t^2) / A, and
+    g = e^{-Q_min/2} / (2 pi sqrt(det) |lambda|) int_0^inf u e^{-A (u - mu)^2 / 2} du.
+    """
+    a, t2, ln_norm = joint(s_c2, s_cr, s_r2)          # per pair: broadcast below
+    kappa = 1.0 / (lam * lam * s_r2)
+    b = a / lam
+    inv_t2 = 1.0 / t2
+    alpha = c + b
+    A = kappa + alpha * alpha * inv_t2
+    mu = (kappa + alpha * (b * inv_t2)) / A
+    q_min = (kappa * inv_t2) * (c * c) / A
+    return (ln_norm - math.log(abs(lam))) - 0.5 * q_min + _ln_half_moment(A, mu)
+
+
+def _ln_half_moment(A, mu) -> np.ndarray:
+    """ln int_0^inf u exp(-A (u - mu)^2 / 2) du [1], stable for every sign of mu."""
+    out = np.empty(np.shape(A))
+    x = mu * np.sqrt(0.5 * A)
+    pos = mu >= 0
+    neg = ~pos
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        xp, ap = x[pos], A[pos]
+        out[pos] = np.log(np.exp(-xp * xp) / ap
+                          + mu[pos] * np.sqrt(0.5 * math.pi / ap) * special.erfc(-xp))
+        z = -x[neg]
+        h = 1 - math.sqrt(math.pi) * z * special.erfcx(z)
+        far = z > _Z_SERIES
+        h[far] = _series(z[far])
+        out[neg] = -z * z - np.log(A[neg]) + np.log(h)
+    return out
+
+
+def _series(z):
+    """1 - sqrt(pi) z erfcx(z) for large z: 1/(2z^2) - 3/(4z^4) + 15/(8z^6) - 105/(16z^8),
+    from the asymptotic series of erfc (Abramowitz & Stegun 1964, eq. 7.1.23; equation
+    number from memory; checked against scipy's erfcx in tests/test_pbh_ng_stack.py)."""
+    r = 1.0 / (z * z)
+    return r * (0.5 + r * (-0.75 + r * (1.875 - r * 6.5625)))
+
+
+def _slopes(zmap: ZetaMap, x):
+    """F', F'', F''' [1] of the local map at zeta_G = ``x``."""
+    p, q = 1.2 * zmap.f_nl, 1.08 * zmap.g_nl
+    return 1 + x * (p + q * x), p + 2 * q * x, 2 * q
+
+
+def branches(zmap: ZetaMap) -> list[tuple[float, float]]:
+    """Intervals of zeta_G between the real roots of F' (the map's monotone branches)."""
+    p, q = 1.2 * zmap.f_nl, 1.08 * zmap.g_nl
+    if q == 0:
+        roots = [] if p == 0 else [-1 / p]
+    else:
+        disc = p * p - 4 * q
+        roots = [] if disc <= 0 else sorted(((-p - math.sqrt(disc)) / (2 * q),
+                                             (-p + math.sqrt(disc)) / (2 * q)))
+    edges = [-math.inf, *roots, math.inf]
+    return list(itertools.pairwise(edges))
+
+
+def _psi(zmap: ZetaMap, x, c, a, t2, s_r2, order: int):
+    """ln integrand psi(zeta_G) and (order >= 1) psi', psi''."""
+    f1, f2, f3 = _slopes(zmap, x)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        h = c / f1 - a * x
+        psi = -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - np.log(np.abs(f1))
+        if order == 0:
+            return psi, None, None
+        h1 = -c * f2 / (f1 * f1) - a
+        h2 = -c * f3 / (f1 * f1) + 2 * c * f2 * f2 / f1**3
+        d1 = -x / s_r2 - h * h1 / t2 - f2 / f1
+        d2 = -1 / s_r2 - (h1 * h1 + h * h2) / t2 - (f3 * f1 - f2 * f2) / (f1 * f1)
+    return psi, d1, d2
+
+
+_GH_X, _GH_W = np.polynomial.hermite.hermgauss(N_GH)
+_GH_LNW = np.log(_GH_W) + _GH_X**2
+
+
+def _ln_local(c, s_c2, s_cr, s_r2, zmap: ZetaMap, n_gh: int = N_GH) -> np.ndarray:
+    """ln g for the local map: adaptive Gauss-Hermite on every branch, summed."""
+    a, t2, ln_norm = joint(s_c2, s_cr, s_r2)
+    s = np.sqrt(s_r2 * t2 / s_c2)                     # sd of zeta_G given C_G
+    start = (s_cr / s_c2) * c                         # mean of zeta_G given C_G = c
+    gx, gw = np.polynomial.hermite.hermgauss(n_gh) if n_gh != N_GH else (_GH_X, _GH_W)
+    glw = np.log(gw) + gx * gx
+    spans = branches(zmap)
+    if len(spans) != 2 or zmap.g_nl != 0:
+        parts = [_branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw) for lo, hi in spans]
+        return ln_norm + log_sum_exp(np.stack(parts, axis=-1))
+    near, far = spans if spans[0][1] > 0 else spans[::-1]     # near: the one holding 0
+    total = ln_norm + _branch(zmap, *near, start, s, c, a, t2, s_r2, gx, glw)
+    root = near[0] if math.isfinite(near[0]) else near[1]
+    need = ~(_ln_far_bound(abs(root), a, t2, s_r2, c) < total - FAR_MARGIN)
+    if need.any():
+        sub = tuple(v[need] for v in (start, s, c, a, t2, s_r2))
+        total[need] = np.logaddexp(total[need],
+                                   ln_norm[need] + _branch(zmap, *far, *sub, gx, glw))
+    return total
+
+
+def _ln_far_bound(z0: float, a, t2, s_r2, c):
+    """ln of an upper bound [1] on the far branch (|zeta_G| > z0 beyond the root z0 of
+    F', g_NL = 0) of g(c).
+
+    With u = 1/|F'| and m = a zeta_G, the conditional density of C_G = -c u times u is
+    u e^{-(c u + m)^2 / 2t^2} / (sqrt(2 pi) t) <= (|m| + t) / (sqrt(2 pi) c t); integrated
+    over zeta_G ~ N(0, sigma_r^2) beyond z0 this is
+    (|a| sigma_r e^{-z0^2 / 2 sigma_r^2} / sqrt(2 pi) + t erfc(z0 / sqrt(2) sigma_r) / 2)
+    / (sqrt(2 pi) c t)  (our derivation).
+    """
+    t = np.sqrt(t2)
+    x = z0 / np.sqrt(2 * s_r2)
+    with np.errstate(divide="ignore"):
+        first = np.log(np.abs(a) * np.sqrt(s_r2) / math.sqrt(2 * math.pi) + 1e-300) - x * x
+        second = np.log(0.5 * t * special.erfcx(x)) - x * x
+    return np.logaddexp(first, second) - np.log(math.sqrt(2 * math.pi) * c * t)
+
+
+def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
+    """ln int over one branch (lo, hi) of exp(psi).
+
+    Two Newton searches (from the conditional mean and from its mirror image, each a
+    sigma_r inside a finite end) find up to two ridges.  Where they differ, the
+    integrand is split by a partition of unity, omega_i = e^{q_i} / (e^{q_1} + e^{q_2})
+    with q_i the Laplace (quadratic) approximation at ridge i, and each part gets the
+    rule centred on its ridge: the parts sum to the integrand exactly and stay smooth.
+    A ridge lower than the other by RIDGE_GAP in psi is left to the higher one's rule (its
+    mass is below e^{-50} times the width ratio, <= 4 s over the Newton width).
+    """
+    inset = 1e-9 * (1 + min(abs(lo), abs(hi))) if math.isfinite(lo) or math.isfinite(hi) \
+        else 0.0
+    away = np.sqrt(s_r2)
+    lo_in, hi_in = lo + inset, hi - inset
+    args = (c, a, t2, s_r2)
+    ridges = []
+    for x0 in (start, -start):
+        x = np.clip(x0, lo + (away if math.isfinite(lo) else 0.0),
+                    hi - (away if math.isfinite(hi) else 0.0))
+        ridges.append(_ridge(zmap, np.clip(x, lo_in, hi_in), lo_in, hi_in, s, args))
+    first = ridges[0][2] >= ridges[1][2]                # order: the higher ridge first
+    quad = tuple(tuple(np.where(first, u, v) for u, v in zip(ridges[k], ridges[1 - k]))
+                 for k in (0, 1))
+    (xa, wa, pa), (xb, wb, pb) = quad
+    apart = (np.abs(xb - xa) > 0.1 * np.minimum(wa, wb)) & (pa - pb < RIDGE_GAP)
+    one = _rule(zmap, xa, wa, lo, hi, gx, glw, args, quad, apart, 0)
+    two = np.full(one.shape, -np.inf)
+    if apart.any():
+        two[apart] = _rule(zmap, xb[apart], wb[apart], lo, hi, gx, glw,
+                           tuple(v[apart] for v in args),
+                           tuple(tuple(v[apart] for v in r) for r in quad),
+                           apart[apart], 1)
+    return log_sum_exp(np.stack([one, two], axis=-1))
+
+
+def _ridge(zmap, x, lo, hi, s, args):
+    """Newton steps on psi from ``x`` within [lo, hi]: the ridge, its width
+    1/sqrt(-psi'') and psi there."""
+    for _ in range(N_NEWTON):
+        _, d1, d2 = _psi(zmap, x, *args, 2)
+        ok = np.isfinite(d1) & np.isfinite(d2) & (d2 < 0)
+        step = np.where(ok, -d1 / np.where(ok, d2, -1.0), np.sign(np.nan_to_num(d1)) * s)
+        x = np.clip(x + step, lo, hi)
+    psi, _, d2 = _psi(zmap, x, *args, 2)
+    width = np.where(np.isfinite(d2) & (d2 < 0), 1 / np.sqrt(np.abs(d2)), s)
+    return x, np.minimum(width, 4 * s), np.where(np.isfinite(psi), psi, -1e300)
+
+
+def _rule(zmap, x, width, lo, hi, gx, glw, args, quad, apart, which):
+    """ln of the Gauss-Hermite rule centred on ``x`` with ``width`` over (lo, hi), the
+    integrand weighted by ridge ``which``'s share of the partition of unity."""
+    nodes = x[..., None] + math.sqrt(2) * width[..., None] * gx
+    psi, _, _ = _psi(zmap, nodes, *(v[..., None] for v in args), 0)
+    terms = psi + glw
+    if apart.any():                  # the partition of unity, where there are two ridges
+        sub = nodes[apart]
+        q = [p[apart, None] - 0.5 * ((sub - xr[apart, None]) / wr[apart, None])**2
+             for xr, wr, p in quad]
+        terms[apart] += q[which] - np.logaddexp(q[0], q[1])
+    inside = np.isfinite(terms)
+    if math.isfinite(lo):
+        inside &= nodes > lo
+    if math.isfinite(hi):
+        inside &= nodes < hi
+    terms[~inside] = -np.inf
+    return np.log(math.sqrt(2) * width) + log_sum_exp(terms)
+
+
+def log_sum_exp(terms: np.ndarray) -> np.ndarray:
+    """ln sum exp(terms) over the last axis [1] (-inf where every term is -inf)."""
+    top = np.max(terms, axis=-1)
+    safe = np.where(np.isfinite(top), top, 0.0)
+    with np.errstate(divide="ignore"):
+        return safe + np.log(np.sum(np.exp(terms - safe[..., None]), axis=-1))

@@ -1,0 +1,209 @@
+"""Non-Gaussian f_PBH for a stack of spectra at once: the sampler's and the grid's path.
+
+For every (spectrum, formation epoch) pair the log-density ln g(C_l) of the linear
+compaction (:mod:`scan.observables.pbh.ng_density`) is evaluated at ``n_y`` Chebyshev-Lobatto
+nodes on the type-I interval [y_th, 4/3] (y_th = C_l at C = C_th) and interpolated as a
+polynomial (barycentric form, Berrut & Trefethen 2004, "Barycentric Lagrange
+interpolation", SIAM Review 46(3), 501-517) to
+
+* the critical-collapse masses y(M, M_H) of the mass function (one fixed matrix per
+  epoch), and
+* the nodes of beta = int_{y_th}^{4/3} dy K (C - C_th)^gamma_c g(y): a geometric mesh
+  towards y_th (panels [y_th + L 2^{-k-1}, y_th + L 2^{-k}], k < ``N_PANELS``,
+  L = 4/3 - y_th, 8-point Gauss-Legendre each; the innermost panel graded as z^{1/gamma_c}
+  for the (C - C_th)^gamma_c edge), which resolves an exponential fall-off of g on any
+  scale from L down to L 2^{-N_PANELS} (4e-5 for C_th = 0.55, against sigma^2 / y_th
+  >= 5e-4 for every epoch whose density is not 0 in double precision).
+
+For the identity map ln g is a quadratic in y and the interpolation is exact to rounding.
+For the others the interpolation error falls geometrically with ``n_y`` (ln g is
+analytic on the interval); doubling ``n_y`` measures it (tests/test_pbh_ng_stack.py).
+Array operations run over (pairs x nodes); the only Python loop is over formation epochs
+(to apply each epoch's mass matrix).  One threshold for all epochs (the QCD-era
+epoch-dependent threshold stays on the per-spectrum path).
+
+Units: masses [M_sun]; everything else [1].
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from scan.observables.pbh.ng_density import ln_density
+from scan.observables.pbh.nongaussian import (
+    NonGaussianPlan,
+    live_epochs,
+    plan_nongaussian,
+)
+from scan.observables.pbh.plan import PBHResult, plan_pbh
+from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
+from scan.observables.pbh.zeta_map import ZetaMap
+
+#: Chebyshev-Lobatto nodes of ln g per pair.
+N_Y: int = 9
+#: Geometric panels of the beta integral towards y_th.
+N_PANELS: int = 14
+#: A pair whose ln g stays below this at every node contributes exactly 0 (e^{-800} is
+#: below the smallest double, and the epoch weights are < 1e30).
+LN_DEAD: float = -800.0
+_PANEL_Z, _PANEL_W = np.polynomial.legendre.leggauss(8)
+_PANEL_Z, _PANEL_W = 0.5 * (_PANEL_Z + 1), 0.5 * _PANEL_W
+
+
+def lobatto(n: int) -> np.ndarray:
+    """n Chebyshev-Lobatto points on [-1, 1], increasing."""
+    return -np.cos(np.pi * np.arange(n) / (n - 1))
+
+
+def barycentric_matrix(x: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """Matrix B with p(t) = B @ p(x) for the polynomial through Chebyshev-Lobatto
+    points ``x`` (shape (n,)), at targets ``t`` (any shape; result t.shape + (n,))."""
+    w = (-1.0) ** np.arange(x.size)
+    w[[0, -1]] *= 0.5
+    d = np.asarray(t, dtype=float)[..., None] - x
+    exact = d == 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = w / d
+        b = r / np.sum(r, axis=-1, keepdims=True)
+    return np.where(np.any(exact, axis=-1, keepdims=True), exact.astype(float), b)
+
+
+def beta_nodes(y_th: float, threshold: float, gamma_c: float, K: float):
+    """Nodes y [1] and weights K (C - C_th)^gamma_c dy [1] of the beta integral."""
+    span = C_L_MAX - y_th
+    ys, ws = [], []
+    for k in range(N_PANELS):
+        a, b = span * 2.0 ** -(k + 1), span * 2.0 ** -k
+        ys.append(a + (b - a) * _PANEL_Z)
+        ws.append((b - a) * _PANEL_W)
+    h = span * 2.0 ** -N_PANELS
+    ys.append(h * _PANEL_Z ** (1 / gamma_c))
+    ws.append(h * _PANEL_Z ** (1 / gamma_c - 1) / gamma_c * _PANEL_W)
+    y = y_th + np.concatenate(ys)
+    excess = np.clip(y - 0.375 * y * y - threshold, 0.0, None)
+    return y, K * excess ** gamma_c * np.concatenate(ws)
+
+
+@dataclass(frozen=True)
+class StackedNGPlan:
+    """A :class:`NonGaussianPlan` laid out for stacks of spectra (see the module doc).
+
+    ``mass_matrix`` (n_H, n_y, n_M) takes ln g at the nodes to the masses' y(M, M_H) per
+    epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights.
+    """
+
+    ng: NonGaussianPlan
+    y_nodes: np.ndarray
+    mass_matrix: np.ndarray
+    beta_matrix: np.ndarray
+    beta_weight: np.ndarray
+
+    def evaluate(self, P_zeta, zmap: ZetaMap) -> PBHResult:
+        """f_PBH(M) per ln M [1] and the totals for a stack of spectra (m, n_k) [1].
+
+        Returns a :class:`PBHResult` as :meth:`PBHPlan.evaluate` does (leading axis m;
+        for one spectrum of shape (n_k,), no leading axis).
+        """
+        base = self.ng.base
+        P = np.asarray(P_zeta, dtype=float)
+        P2 = np.atleast_2d(P)
+        s_c2, _ = base.sigma2(P2)
+        s_c2 = np.maximum(s_c2, 1e-300)
+        s_cr, s_r2 = P2 @ self.ng.v_cr.T, np.maximum(P2 @ self.ng.v_r.T, 1e-300)
+        live = _live(self.y_nodes[0], s_c2, s_r2, zmap)
+        i, h = np.nonzero(live)
+        lng = ln_density(self.y_nodes, s_c2[i, h, None], s_cr[i, h, None],
+                         s_r2[i, h, None], zmap, base.conventions.ps_factor)
+        keep = ~(np.max(lng, axis=1) < LN_DEAD)
+        i, h, lng = i[keep], h[keep], lng[keep]
+        f = self._mass_function(lng, i, h, P2.shape[0])
+        beta = np.exp(lng @ self.beta_matrix.T) @ self.beta_weight
+        total = np.bincount(i, weights=(base._wln * base._coef)[h] * beta,
+                            minlength=P2.shape[0])
+        bad = ~np.all(np.isfinite(P2), axis=1)              # propagate, as the Gaussian path
+        f[bad], total[bad] = np.nan, np.nan
+        if P.ndim == 1:
+            return PBHResult(base.M, f[0], float(total[0]), base.M_H, s_c2[0],
+                             base.conventions)
+        return PBHResult(base.M, f, total, base.M_H, s_c2, base.conventions)
+
+    def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
+        """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H)).
+
+        The pairs' ln g is laid out densely per (epoch, spectrum), dead pairs at
+        ``LN_DEAD`` (a constant interpolates to itself; e^{-800} is 0), and every
+        epoch's mass matrix applied in one batched product."""
+        weight = self.ng.base._kernel.weight                 # (n_H, n_M), epoch-major
+        dense = np.full((weight.shape[0], m, lng.shape[1]), LN_DEAD)
+        dense[h, i] = lng
+        ln_f = np.matmul(dense, self.mass_matrix)            # (n_H, m, n_M)
+        np.exp(ln_f, out=ln_f)
+        ln_f *= weight[:, None, :]
+        return ln_f.sum(axis=0)
+
+
+def _live(y_th: float, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
+    """(spectrum, epoch) pairs whose density above ``y_th`` can be non-zero in double
+    precision.  Variances below 1e-250 (columns the spectrum does not reach) are dead.
+    Logarithmic map: on the curve C_G = y u, u = 1 - lambda zeta_G, the exponent q of
+    the joint density is at least max(C_G^2/sigma_c^2, zeta_G^2/sigma_r^2) (each marginal
+    bounds it), whose minimum over u is y^2 / (sigma_c + |lambda| y sigma_r)^2; dead where
+    q/2 > 1500 (e^{-1500} times a prefactor below 1e250 underflows); other maps:
+    :func:`live_epochs`."""
+    on = (s_c2 > 1e-250) & (s_r2 > 1e-250)
+    if zmap.kind == "logarithmic":
+        q = y_th**2 / (np.sqrt(s_c2) + abs(zmap.log_lambda) * y_th * np.sqrt(s_r2))**2
+        return on & (0.5 * q < 1500.0)
+    return on & live_epochs(y_th, s_c2.ravel(), s_r2.ravel(), zmap).reshape(s_c2.shape)
+
+
+def _to_unit(y, y_th: float):
+    """Map y in [y_th, 4/3] to [-1, 1]."""
+    return 2 * (y - y_th) / (C_L_MAX - y_th) - 1
+
+
+def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y) -> StackedNGPlan:
+    """Lay out ``ng`` (one threshold for all epochs) for stacks; ``n_y`` nodes of ln g."""
+    conv = ng.base.conventions
+    y_th = float(compaction_linear(conv.threshold))
+    x = lobatto(n_y)
+    y_mass = ng.base._y.T                                    # (n_H, n_M)
+    yb, wb = beta_nodes(y_th, conv.threshold, conv.gamma_c, conv.K)
+    return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
+                         np.ascontiguousarray(barycentric_matrix(
+                             x, np.clip(_to_unit(y_mass, y_th), -1, 1)).transpose(0, 2, 1)),
+                         barycentric_matrix(x, _to_unit(yb, y_th)), wb)
+
+
+@dataclass(frozen=True)
+class MappedStackPlan:
+    """A :class:`StackedNGPlan` bound to one map: the ``evaluate(P_stack)`` protocol of
+    the batch path (:func:`scan.observables.batch.plan_batch`'s ``pbh_plan``)."""
+
+    stacked: StackedNGPlan
+    zmap: ZetaMap
+
+    @property
+    def M(self) -> np.ndarray:
+        """Output masses [M_sun]."""
+        return self.stacked.ng.base.M
+
+    def evaluate(self, P_zeta, thresholds=None) -> PBHResult:
+        """f_PBH of a stack (m, n_k) [1] with the Gaussian total beside it
+        (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported."""
+        if thresholds is not None:
+            raise ValueError("the stacked non-Gaussian plan has one threshold for all "
+                             "spectra")
+        gaussian = self.stacked.ng.base.evaluate(P_zeta).f_pbh_total
+        return replace(self.stacked.evaluate(P_zeta, self.zmap),
+                       f_pbh_total_gaussian=gaussian)
+
+
+def plan_pbh_mapped(k_table, masses, conventions, zmap: ZetaMap, *, dof=None,
+                    n_eff: float | None = None, n_formation: int = 256) -> MappedStackPlan:
+    """The batch path's f_PBH plan for spectra on ``k_table`` [Mpc^-1] at ``masses``
+    [M_sun] with zeta = F(zeta_G) given by ``zmap`` (gaussian, local or logarithmic)."""
+    kw = {} if n_eff is None else {"n_eff": n_eff}
+    base = plan_pbh(k_table, masses, conventions, n_formation=n_formation, dof=dof, **kw)
+    return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation)), zmap)
