@@ -1,0 +1,139 @@
+"""The local map's per-branch ridge integral, compiled (numba): the hot loop of
+:func:`scan.observables.pbh.ng_density._ln_local`.
+
+The algorithm is :func:`~scan.observables.pbh.ng_density._branch` (two Newton searches for
+up to two ridges of psi, a partition of unity between them, a Gauss-Hermite rule centred on
+each), written as one scalar loop per element.  As array code it made ~30 passes over
+(elements x rule nodes) with a dozen temporaries each; compiled, every element's ridges and
+rules stay in registers (ratio measured side by side in tests/bench/bench_pbh_nongaussian.py).
+Newton stops once a step no longer moves x (further steps would repeat it to rounding).
+
+Why numba: the loop has data-dependent exits (Newton convergence, one or two ridges) that
+array code pays for on every element; numba ships wheels (no compiler at install) and
+``cache=True`` keeps the machine code on disk (see :mod:`scan.ode`).
+
+Units: all quantities [1].
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+
+#: Newton steps towards a ridge (at most; see the module doc).
+N_NEWTON: int = 6
+#: A second ridge this far below the first in ln integrand is not integrated separately.
+RIDGE_GAP: float = 50.0
+
+
+@njit(cache=True, error_model="numpy")
+def _psi(x, p, q, c, a, t2, s_r2):
+    """psi (the ln integrand), psi' and psi'' at zeta_G = x; F' = 1 + x (p + q x)."""
+    f1 = 1.0 + x * (p + q * x)
+    f2 = p + 2.0 * q * x
+    f3 = 2.0 * q
+    h = c / f1 - a * x
+    psi = -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - math.log(abs(f1))
+    h1 = -c * f2 / (f1 * f1) - a
+    h2 = -c * f3 / (f1 * f1) + 2.0 * c * f2 * f2 / (f1 * f1 * f1)
+    d1 = -x / s_r2 - h * h1 / t2 - f2 / f1
+    d2 = -1.0 / s_r2 - (h1 * h1 + h * h2) / t2 - (f3 * f1 - f2 * f2) / (f1 * f1)
+    return psi, d1, d2
+
+
+@njit(cache=True, error_model="numpy")
+def _psi0(x, p, q, c, a, t2, s_r2):
+    """psi alone (see :func:`_psi`)."""
+    f1 = 1.0 + x * (p + q * x)
+    h = c / f1 - a * x
+    return -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - math.log(abs(f1))
+
+
+@njit(cache=True, error_model="numpy")
+def _clip(x, lo, hi):
+    return min(max(x, lo), hi)
+
+
+@njit(cache=True, error_model="numpy")
+def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2):
+    """Newton steps on psi from x within [lo, hi]: (ridge, width 1/sqrt(-psi''), psi)."""
+    for _ in range(N_NEWTON):
+        _, d1, d2 = _psi(x, p, q, c, a, t2, s_r2)
+        if math.isfinite(d1) and math.isfinite(d2) and d2 < 0:
+            step = -d1 / d2
+        elif math.isnan(d1) or d1 == 0:
+            step = 0.0
+        else:
+            step = math.copysign(s, d1)
+        new = _clip(x + step, lo, hi)
+        if new == x:
+            break
+        x = new
+    psi, _, d2 = _psi(x, p, q, c, a, t2, s_r2)
+    width = 1.0 / math.sqrt(abs(d2)) if (math.isfinite(d2) and d2 < 0) else s
+    return x, min(width, 4.0 * s), psi if math.isfinite(psi) else -1e300
+
+
+@njit(cache=True, error_model="numpy")
+def _logaddexp(u, v):
+    top = max(u, v)
+    if top == -math.inf:
+        return -math.inf
+    return top + math.log(math.exp(u - top) + math.exp(v - top))
+
+
+@njit(cache=True, error_model="numpy")
+def _rule(which, ridges, apart, lo, hi, gx, glw, p, q, c, a, t2, s_r2):
+    """ln of the Gauss-Hermite rule centred on ridge ``which`` over (lo, hi), weighted by
+    that ridge's share of the partition of unity where there are two."""
+    x, width = ridges[which, 0], ridges[which, 1]
+    scale = math.sqrt(2.0) * width
+    terms = np.empty(gx.size)
+    top = -math.inf
+    for j in range(gx.size):
+        node = x + scale * gx[j]
+        t = _psi0(node, p, q, c, a, t2, s_r2) + glw[j]
+        if apart:
+            q0 = ridges[0, 2] - 0.5 * ((node - ridges[0, 0]) / ridges[0, 1]) ** 2
+            q1 = ridges[1, 2] - 0.5 * ((node - ridges[1, 0]) / ridges[1, 1]) ** 2
+            t += (q0 if which == 0 else q1) - _logaddexp(q0, q1)
+        if not (math.isfinite(t) and node > lo and node < hi):
+            t = -math.inf
+        terms[j] = t
+        top = max(top, t)
+    safe = top if math.isfinite(top) else 0.0
+    total = 0.0
+    for j in range(gx.size):
+        total += math.exp(terms[j] - safe)
+    return math.log(scale) + safe + math.log(total)
+
+
+@njit(cache=True, error_model="numpy")
+def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
+    """ln int_lo^hi exp(psi) dzeta_G [1] per element (arrays of equal length): the
+    algorithm of :func:`scan.observables.pbh.ng_density._branch`."""
+    n = c.size
+    out = np.empty(n)
+    lo_f, hi_f = math.isfinite(lo), math.isfinite(hi)
+    inset = 1e-9 * (1 + min(abs(lo), abs(hi))) if (lo_f or hi_f) else 0.0
+    lo_in, hi_in = lo + inset, hi - inset
+    ridges = np.empty((2, 3))
+    found = np.empty((2, 3))
+    for i in range(n):
+        away = math.sqrt(s_r2[i])
+        args = (p, q, c[i], a[i], t2[i], s_r2[i])
+        for k in range(2):
+            x0 = start[i] if k == 0 else -start[i]
+            x = _clip(x0, lo + away if lo_f else lo, hi - away if hi_f else hi)
+            found[k, 0], found[k, 1], found[k, 2] = _ridge(_clip(x, lo_in, hi_in), lo_in,
+                                                           hi_in, s[i], *args)
+        first = 0 if found[0, 2] >= found[1, 2] else 1
+        ridges[0, :] = found[first, :]
+        ridges[1, :] = found[1 - first, :]
+        apart = (abs(ridges[1, 0] - ridges[0, 0]) > 0.1 * min(ridges[0, 1], ridges[1, 1])
+                 and ridges[0, 2] - ridges[1, 2] < RIDGE_GAP)
+        one = _rule(0, ridges, apart, lo, hi, gx, glw, *args)
+        out[i] = _logaddexp(one, _rule(1, ridges, apart, lo, hi, gx, glw, *args)) \
+            if apart else one
+    return out
