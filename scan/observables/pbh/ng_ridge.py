@@ -28,23 +28,23 @@ RIDGE_GAP: float = 50.0
 
 
 @njit(cache=True, error_model="numpy")
-def _psi(x, p, q, c, a, t2, s_r2):
-    """psi (the ln integrand), psi' and psi'' at zeta_G = x; F' = 1 + x (p + q x)."""
+def _slopes(x, p, q, c, a, t2, s_r2):
+    """psi' and psi'' at zeta_G = x (psi: :func:`_psi0`); F' = 1 + x (p + q x)."""
     f1 = 1.0 + x * (p + q * x)
     f2 = p + 2.0 * q * x
     f3 = 2.0 * q
-    h = c / f1 - a * x
-    psi = -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - math.log(abs(f1))
-    h1 = -c * f2 / (f1 * f1) - a
-    h2 = -c * f3 / (f1 * f1) + 2.0 * c * f2 * f2 / (f1 * f1 * f1)
-    d1 = -x / s_r2 - h * h1 / t2 - f2 / f1
-    d2 = -1.0 / s_r2 - (h1 * h1 + h * h2) / t2 - (f3 * f1 - f2 * f2) / (f1 * f1)
-    return psi, d1, d2
+    r = 1.0 / f1
+    h = c * r - a * x
+    h1 = -c * f2 * r * r - a
+    h2 = -c * f3 * r * r + 2.0 * c * f2 * f2 * r * r * r
+    d1 = -x / s_r2 - h * h1 / t2 - f2 * r
+    d2 = -1.0 / s_r2 - (h1 * h1 + h * h2) / t2 - (f3 * f1 - f2 * f2) * r * r
+    return d1, d2
 
 
 @njit(cache=True, error_model="numpy")
 def _psi0(x, p, q, c, a, t2, s_r2):
-    """psi alone (see :func:`_psi`)."""
+    """psi, the ln integrand over zeta_G = x (F' = 1 + x (p + q x))."""
     f1 = 1.0 + x * (p + q * x)
     h = c / f1 - a * x
     return -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - math.log(abs(f1))
@@ -59,7 +59,7 @@ def _clip(x, lo, hi):
 def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2):
     """Newton steps on psi from x within [lo, hi]: (ridge, width 1/sqrt(-psi''), psi)."""
     for _ in range(N_NEWTON):
-        _, d1, d2 = _psi(x, p, q, c, a, t2, s_r2)
+        d1, d2 = _slopes(x, p, q, c, a, t2, s_r2)
         if math.isfinite(d1) and math.isfinite(d2) and d2 < 0:
             step = -d1 / d2
         elif math.isnan(d1) or d1 == 0:
@@ -70,7 +70,8 @@ def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2):
         if new == x:
             break
         x = new
-    psi, _, d2 = _psi(x, p, q, c, a, t2, s_r2)
+    d2 = _slopes(x, p, q, c, a, t2, s_r2)[1]
+    psi = _psi0(x, p, q, c, a, t2, s_r2)
     width = 1.0 / math.sqrt(abs(d2)) if (math.isfinite(d2) and d2 < 0) else s
     return x, min(width, 4.0 * s), psi if math.isfinite(psi) else -1e300
 
@@ -89,8 +90,7 @@ def _rule(which, ridges, apart, lo, hi, gx, glw, p, q, c, a, t2, s_r2):
     that ridge's share of the partition of unity where there are two."""
     x, width = ridges[which, 0], ridges[which, 1]
     scale = math.sqrt(2.0) * width
-    terms = np.empty(gx.size)
-    top = -math.inf
+    top, total = -math.inf, 0.0          # running log-sum-exp: total = sum exp(t - top)
     for j in range(gx.size):
         node = x + scale * gx[j]
         t = _psi0(node, p, q, c, a, t2, s_r2) + glw[j]
@@ -99,14 +99,15 @@ def _rule(which, ridges, apart, lo, hi, gx, glw, p, q, c, a, t2, s_r2):
             q1 = ridges[1, 2] - 0.5 * ((node - ridges[1, 0]) / ridges[1, 1]) ** 2
             t += (q0 if which == 0 else q1) - _logaddexp(q0, q1)
         if not (math.isfinite(t) and node > lo and node < hi):
-            t = -math.inf
-        terms[j] = t
-        top = max(top, t)
-    safe = top if math.isfinite(top) else 0.0
-    total = 0.0
-    for j in range(gx.size):
-        total += math.exp(terms[j] - safe)
-    return math.log(scale) + safe + math.log(total)
+            continue
+        if t > top:
+            total = total * math.exp(top - t) + 1.0
+            top = t
+        else:
+            total += math.exp(t - top)
+    if top == -math.inf:
+        return -math.inf
+    return math.log(scale) + top + math.log(total)
 
 
 @njit(cache=True, error_model="numpy")
