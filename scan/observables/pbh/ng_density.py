@@ -37,7 +37,7 @@ import math
 import numpy as np
 from scipy import special
 
-from scan.observables.pbh.ng_ridge import branch_integrals
+from scan.observables.pbh.ng_ridge import branch_integrals, far_curve_bound
 from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Gauss-Hermite nodes of the local map's per-branch rule: 16 -> 32 changes ln g by
@@ -163,6 +163,10 @@ def _ln_local(c, s_c2, s_cr, s_r2, zmap: ZetaMap, n_gh: int = N_GH) -> np.ndarra
     total = ln_norm + _branch(zmap, *near, start, s, c, a, t2, s_r2, gx, glw)
     root = near[0] if math.isfinite(near[0]) else near[1]
     need = ~(_ln_far_bound(abs(root), a, t2, s_r2, c) < total - FAR_MARGIN)
+    if need.any():                   # the sharper bound along the curve, where it is needed
+        idx = np.flatnonzero(need)
+        need[idx] = ~(_ln_far_curve_bound(1.2 * zmap.f_nl, a[idx], t2[idx], s_r2[idx], c[idx])
+                      < total[idx] - FAR_MARGIN)
     if need.any():
         sub = tuple(v[need] for v in (start, s, c, a, t2, s_r2))
         total[need] = np.logaddexp(total[need],
@@ -186,6 +190,32 @@ def _ln_far_bound(z0: float, a, t2, s_r2, c):
         first = np.log(np.abs(a) * np.sqrt(s_r2) / math.sqrt(2 * math.pi) + 1e-300) - x * x
         second = np.log(0.5 * t * special.erfcx(x)) - x * x
     return np.logaddexp(first, second) - np.log(math.sqrt(2 * math.pi) * c * t)
+
+
+#: Grid of r / r_0 - 1 (r = |zeta_G|, r_0 = 1/|p| the root of F') for the far-branch bound.
+_FAR_GRID = np.concatenate([[0.0], np.geomspace(1e-3, 1e2, 15)])
+
+
+def _ln_far_curve_bound(p: float, a, t2, s_r2, c):
+    """ln of an upper bound [1] on the far branch of g(c) (local map, g_NL = 0, F' = 1 +
+    p zeta_G, the branch |F'| = p |zeta_G| - 1 = v > 0 with C_G = -c/v), along the curve.
+
+    With r = |zeta_G| and D = C_G - a zeta_G = a' r - c/(|p| r - 1), a' = a sign(p), the
+    integrand (1/v) phi_2(C_G, zeta_G) = (|C_G|/c) phi_2 is split as
+    |C_G| e^{-D^2/4t^2} <= a r + sqrt(2/e) t (the sup of x e^{-x^2/4t^2} is sqrt(2/e) t)
+    times e^{-D^2/4t^2} e^{-r^2/2 sigma_r^2} / (2 pi sqrt(sigma_r^2 t^2) c).  On each
+    interval [r_j, r_{j+1}] of a grid, D lies between min(a' r_j, a' r_{j+1}) -
+    c/(|p| r_j - 1) and max(a' r_j, a' r_{j+1}) - c/(|p| r_{j+1} - 1) (each part is
+    monotone), which bounds D^2 from below; the rest integrates in closed form
+    (int_{r_j} r e^{-r^2/2s} <= s e^{-r_j^2/2s}, int_{r_j} e^{-r^2/2s} = sqrt(pi s/2)
+    erfc(r_j/sqrt(2s)), with erfcx(x) <= 2 / (sqrt(pi) (x + sqrt(x^2 + 4/pi))), Abramowitz &
+    Stegun 1964, eq. 7.1.13, from memory; cheaper than erfcx itself).  Our derivation;
+    tests/test_pbh_ng_stack.py checks it against the far branch's quadrature.  The sum
+    over the intervals is bounded by their count times the largest term.  Compiled
+    (:func:`scan.observables.pbh.ng_ridge.far_curve_bound`).
+    """
+    arrays = (np.ascontiguousarray(v, dtype=float) for v in (a, t2, s_r2, c))
+    return far_curve_bound(float(p), _FAR_GRID, *arrays)
 
 
 def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):

@@ -144,3 +144,41 @@ def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
         out[i] = _logaddexp(one, _rule(1, ridges, apart, lo, hi, gx, glw, *args)) \
             if apart else one
     return out
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def far_curve_bound(p, grid, a, t2, s_r2, c):
+    """ln of the far branch's bound along the curve [1] per element (the derivation is in
+    :func:`scan.observables.pbh.ng_density._ln_far_curve_bound`); ``grid`` holds
+    r / r_0 - 1 for r = |zeta_G| >= r_0 = 1/|p|, increasing from 0."""
+    out = np.empty(c.size)
+    ap_sign = 1.0 if p > 0 else -1.0
+    q = abs(p)
+    kappa = math.sqrt(2.0 / math.e)
+    for i in range(c.size):
+        ap = ap_sign * a[i]
+        t = math.sqrt(t2[i])
+        top = -math.inf
+        for j in range(grid.size):
+            lo = (1.0 + grid[j]) / q
+            inv_lo = c[i] / (q * lo - 1.0) if grid[j] > 0 else math.inf
+            if j + 1 < grid.size:
+                hi = (1.0 + grid[j + 1]) / q
+                lin_lo, lin_hi = min(ap * lo, ap * hi), max(ap * lo, ap * hi)
+                inv_hi = c[i] / (q * hi - 1.0)
+            else:                                   # [r_last, inf)
+                lin_lo = ap * lo if ap >= 0 else -math.inf
+                lin_hi = math.inf if ap > 0 else ap * lo
+                inv_hi = 0.0
+            d_lo, d_hi = lin_lo - inv_lo, lin_hi - inv_hi
+            d2 = 0.0 if (d_lo <= 0 <= d_hi) else min(d_lo * d_lo, d_hi * d_hi)
+            x = lo / math.sqrt(2.0 * s_r2[i])
+            erfcx_max = 2.0 / (math.sqrt(math.pi) * (x + math.sqrt(x * x + 4.0 / math.pi)))
+            mass = math.log(abs(a[i]) * s_r2[i] + kappa * t * math.sqrt(0.5 * math.pi * s_r2[i])
+                            * erfcx_max) - x * x
+            if mass <= top:       # mass falls with r: no later interval can exceed top
+                break
+            top = max(top, mass - d2 / (4.0 * t2[i]))
+        out[i] = top + math.log(grid.size) \
+            - math.log(2.0 * math.pi * math.sqrt(s_r2[i] * t2[i]) * c[i])
+    return out
