@@ -210,5 +210,5 @@ def test_sharpness_and_width_together_are_refused():
 
     text = ('[model]\npotential = "t_model"\nkinetic = "poles"\n[[model.poles]]\n'
             'position = 5.2\nsharpness = 0.9\nwidth = 0.02\npower = 1.0\n')
-    with pytest.raises(ConfigError, match="exactly one of width, sharpness and wall_ratio"):
+    with pytest.raises(ConfigError, match="exactly one of width, sharpness, wall_ratio and"):
         load_config_text(text, source="s.toml")

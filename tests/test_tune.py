@@ -51,20 +51,23 @@ def test_the_tuned_config_keeps_everything_else():
     assert out.count("\n") == text.count("\n")
 
 
-def test_a_pole_given_by_its_wall_ratio_is_tuned_into_a_width():
-    """A pole stated as ``wall_ratio`` leaves the search as a width: the wall ratio is
-    dropped from the model the solver runs and from the written TOML (one of width,
-    sharpness and wall_ratio per pole).  No solve: the trial is made up."""
+@pytest.mark.parametrize("key", ["wall_ratio", "wall_distance"])
+def test_a_pole_given_by_its_wall_coordinate_is_tuned_into_a_width(key):
+    """A pole stated as ``wall_ratio`` (or ``wall_distance``) leaves the search as a width:
+    the wall coordinate is dropped from the model the solver runs and from the written TOML
+    (one of width, sharpness, wall_ratio and wall_distance per pole).  No solve: the trial
+    is made up."""
     text = ("[run]\nname = 't'\n\n[model]\npotential = 't_model'\nkinetic = 'poles'\n\n"
-            "[[model.poles]]\nposition = 5.0\nwall_ratio = 1.2\npower = 1.0\n")
+            f"[[model.poles]]\nposition = 5.0\n{key} = 0.2\npower = 1.0\n")
     config = load_config_text(text)
     moved = with_pole(config, 0, width=0.031).model.poles[0]
-    assert (moved.width, moved.wall_ratio, moved.sharpness) == (0.031, None, None)
+    assert (moved.width, moved.wall_ratio, moved.wall_distance, moved.sharpness) == (
+        0.031, None, None, None)
     trial = Trial(0.031, 5.0, True, "", -2.0, 1.3e8)
     out = tuned_text(config, TuneResult(with_pole(config, 0, width=0.031), 0, trial,
                                         (trial,)))
     pole = load_config_text(out).model.poles[0]
-    assert (pole.width, pole.wall_ratio) == (0.031, None) and "wall_ratio" not in out
+    assert (pole.width, getattr(pole, key)) == (0.031, None) and key not in out
 
 
 @pytest.mark.parametrize("power, width", [(1.0, 0.0254), (1.9, 0.000462)])

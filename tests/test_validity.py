@@ -141,5 +141,5 @@ def test_the_p1_wall_lies_above_the_linear_overdamping_bound():
 def test_width_sharpness_and_wall_ratio_are_exclusive():
     text = load_config("configs/tmodel_pole.toml").text.replace(
         "width = 0.026", "width = 0.026\nwall_ratio = 1.2")
-    with pytest.raises(ConfigError, match="exactly one of width, sharpness and wall_ratio"):
+    with pytest.raises(ConfigError, match="exactly one of width, sharpness, wall_ratio and"):
         load_config_text(text)

@@ -10,6 +10,7 @@ from scan.cli import with_plugin_note
 from scan.cli.output import Output, add_output_options
 from scan.config import load_config, load_config_text
 from scan.config.edit import set_pole_keys
+from scan.config.model import WIDTH_KEYS
 from scan.errors import ZetascanError
 from scan.observables.cosmo import f_to_k
 from scan.pipeline.tune import TuneError, TuneResult, tune_pole
@@ -89,8 +90,8 @@ def tuned_text(config, result: TuneResult) -> str:
     if best.position != config.model.poles[result.pole].position:
         values["position"] = best.position
     note = f"zetascan tune: log10 P_peak = {best.log10_P_peak:.4f}, k_peak = {best.k_peak:.4g}"
-    text = set_pole_keys(config.text, result.pole, values, drop=("sharpness", "wall_ratio"),
-                         note=note, source=config.source)
+    text = set_pole_keys(config.text, result.pole, values, drop=WIDTH_KEYS[1:], note=note,
+                         source=config.source)
     check = load_config_text(text, source=config.source).model.poles[result.pole]
     if check.width != best.width or check.position != best.position:
         raise ZetascanError(f"{config.source}: could not rewrite pole {result.pole} "

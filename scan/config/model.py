@@ -37,6 +37,10 @@ class RunSection:
                               "with run.output_dir")
 
 
+#: The keys that each fix a pole's width; a pole gives exactly one of them.
+WIDTH_KEYS = ("width", "sharpness", "wall_ratio", "wall_distance")
+
+
 @dataclass(frozen=True, kw_only=True)
 class PoleSection:
     """One ``[[model.poles]]`` entry: K gains (width/|phi - position|)^power."""
@@ -51,6 +55,10 @@ class PoleSection:
         minimum=0.0, exclusive_minimum=True)
     wall_ratio: float | None = spec("lambda_i / lambda_w instead of width or sharpness", None,
                                     minimum=0.0, exclusive_minimum=True)
+    wall_distance: float | None = spec(
+        "instead of width or sharpness: lambda_i / lambda_w - 1, the distance to the pole's "
+        "wall (a log-uniform prior on it resolves the region next to the wall, where the "
+        "enhancement changes fastest)", None, minimum=0.0, exclusive_minimum=True)
     power: float = spec("pole power p_i; 0 < p < 2 is integrable (p >= 2 gives an invalid "
                         "model: infinite field distance)", minimum=0.0, exclusive_minimum=True)
 
@@ -98,11 +106,12 @@ class ModelSection:
                               "kinetic = 'plugin' needs kinetic_function",
                               "give 'package.module:function', e.g. \"mypackage.models:K\"")
         for i, pole in enumerate(self.poles):
-            if sum(getattr(pole, k) is not None for k in ("width", "sharpness", "wall_ratio")) != 1:
+            if sum(getattr(pole, k) is not None for k in WIDTH_KEYS) != 1:
                 raise ConfigError(source, f"{where}.poles[{i}]",
-                                  "give exactly one of width, sharpness and wall_ratio",
-                                  "set width (M_p), sharpness or wall_ratio (dimensionless), "
-                                  "not two of them")
+                                  "give exactly one of width, sharpness, wall_ratio and "
+                                  "wall_distance",
+                                  "set width (M_p), sharpness, wall_ratio or wall_distance "
+                                  "(dimensionless), not two of them")
         for key in ("potential_function", "potential_derivative", "kinetic_function"):
             value = getattr(self, key)
             if value and (":" not in value or value.startswith(":") or value.endswith(":")):

@@ -93,6 +93,12 @@ class SurrogateSection:
     points: int = spec("training points of the space-filling (scrambled Sobol) design",
                        256, minimum=4)
     holdout: int = spec("held-out validation points, never used for training", 64, minimum=0)
+    peak_holdout: int = spec("extra held-out points, placed after training where the emulator "
+                             "predicts a valid model with log10 P_peak >= peak_holdout_min "
+                             "(where f_PBH matters; a uniform hold-out set rarely lands there)",
+                             0, minimum=0)
+    peak_holdout_min: float = spec("lowest predicted log10 P_peak of the peak_holdout points",
+                                   -2.5, units="dex")
     refine_rounds: int = spec("adaptive refinement rounds after the design", 2, minimum=0)
     refine_points: int = spec("points added per refinement round", 32, minimum=1)
     boundary_fraction: float = spec("share of each refinement round placed along the "

@@ -105,25 +105,26 @@ def model_of(config: RunConfig) -> Model:
 
 
 def resolve_walls(config: RunConfig) -> RunConfig:
-    """``config`` with a pole given by ``wall_ratio`` ρ given by its sharpness ρ λ_w.
+    """``config`` with a pole given by ``wall_ratio`` ρ (or ``wall_distance`` ρ − 1) given
+    by its sharpness ρ λ_w.
 
     Raises
     ------
     ConfigError
-        If more than one pole uses ``wall_ratio``, or the pole has no wall.
+        If more than one pole uses the wall, or the pole has no wall.
     """
     poles = config.model.poles
-    walled = [i for i, p in enumerate(poles) if getattr(p, "wall_ratio", None) is not None]
+    walled = [i for i, p in enumerate(poles) if ratio_of_pole(p) is not None]
     if not walled:
         return config
     if len(walled) > 1:
-        raise ConfigError(config.source, f"model.poles[{walled[1]}].wall_ratio",
-                          "only one pole may be given by wall_ratio",
+        raise ConfigError(config.source, f"model.poles[{walled[1]}]",
+                          "only one pole may be given by wall_ratio or wall_distance",
                           "give the others a width or a sharpness")
     i = walled[0]
     lam_w = wall_sharpness(config, i)
-    pole = dataclasses.replace(poles[i], wall_ratio=None,
-                               sharpness=poles[i].wall_ratio * lam_w)
+    pole = dataclasses.replace(poles[i], wall_ratio=None, wall_distance=None,
+                               sharpness=ratio_of_pole(poles[i]) * lam_w)
     return dataclasses.replace(config, model=dataclasses.replace(
         config.model, poles=poles[:i] + (pole,) + poles[i + 1:]))
 
@@ -131,12 +132,14 @@ def resolve_walls(config: RunConfig) -> RunConfig:
 def wall_sharpness(config: RunConfig, pole: int) -> float:
     """λ_w of pole ``pole`` (:mod:`scan.pipeline.wall`), cached per model and settings."""
     poles = config.model.poles
-    blank = dataclasses.replace(poles[pole], wall_ratio=1.0, width=None, sharpness=None)
+    blank = dataclasses.replace(poles[pole], wall_ratio=1.0, wall_distance=None, width=None,
+                                sharpness=None)
     section = dataclasses.replace(config.model, poles=poles[:pole] + (blank,) + poles[pole + 1:])
     try:  # one wall per model whatever the ratio asked for (the cache key has rho = 1)
         return _wall(section, pole, config.background, config.pivot)
     except NoWall as err:
-        raise ConfigError(config.source, f"model.poles[{pole}].wall_ratio",
+        key = "wall_ratio" if poles[pole].wall_ratio is not None else "wall_distance"
+        raise ConfigError(config.source, f"model.poles[{pole}].{key}",
                           f"this pole has no wall ({err})",
                           "give its width or sharpness instead") from None
 
@@ -146,8 +149,8 @@ def _wall(section, pole: int, background, pivot_section) -> float:
     shim = SimpleNamespace(background=background, pivot=pivot_section)
 
     def valid_at(sharpness: float) -> bool:
-        entry = dataclasses.replace(section.poles[pole], wall_ratio=None, width=None,
-                                    sharpness=sharpness)
+        entry = dataclasses.replace(section.poles[pole], wall_ratio=None, wall_distance=None,
+                                    width=None, sharpness=sharpness)
         model = model_from_section(dataclasses.replace(
             section, poles=section.poles[:pole] + (entry,) + section.poles[pole + 1:]))
         bg = solve_background_of(shim, model)

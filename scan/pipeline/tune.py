@@ -109,7 +109,7 @@ class TuneResult:
 
 def with_pole(config: RunConfig, pole: int, *, width: float | None = None,
               position: float | None = None) -> RunConfig:
-    """``config`` with pole ``pole`` given by ``width`` (sharpness or wall ratio dropped)
+    """``config`` with pole ``pole`` given by ``width`` (sharpness or wall coordinate dropped)
     and/or moved."""
     poles = list(config.model.poles)
     entry = poles[pole]
@@ -117,6 +117,7 @@ def with_pole(config: RunConfig, pole: int, *, width: float | None = None,
         entry, width=entry.width if width is None else float(width),
         sharpness=None if width is not None else entry.sharpness,
         wall_ratio=None if width is not None else entry.wall_ratio,
+        wall_distance=None if width is not None else entry.wall_distance,
         position=entry.position if position is None else float(position))
     return dataclasses.replace(config, model=dataclasses.replace(config.model,
                                                                  poles=tuple(poles)))

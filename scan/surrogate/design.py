@@ -1,7 +1,8 @@
 """Where to solve: the space-filling design, the held-out set, adaptive refinement.
 
 All points live in the unit cube (see :mod:`scan.surrogate.space`).  Every point has a
-*stage* (``STAGE_DESIGN``, ``STAGE_HOLDOUT`` or ``STAGE_REFINE + round``) and a
+*stage* (``STAGE_DESIGN``, ``STAGE_HOLDOUT``, ``STAGE_HOLDOUT_PEAK`` or
+``STAGE_REFINE + round``) and a
 sequence number within it; all choices are deterministic given ``run.seed`` and the
 solved points, so a resumed run plans exactly what the interrupted one planned (the
 store also records every plan before it is solved).
@@ -16,6 +17,11 @@ from scipy.stats import qmc
 STAGE_DESIGN = 0
 STAGE_HOLDOUT = 1
 STAGE_REFINE = 2  # + round number
+#: Held-out points placed after training where the emulator predicts a high peak (where
+#: f_PBH is not negligible): a uniform hold-out set almost never lands there.
+STAGE_HOLDOUT_PEAK = -1
+#: Every stage whose points are never used for training.
+HOLDOUT_STAGES = (STAGE_HOLDOUT, STAGE_HOLDOUT_PEAK)
 
 
 def _rng(seed: int, *stream: int) -> np.random.Generator:
@@ -43,6 +49,25 @@ def holdout_points(dim: int, count: int, seed: int) -> np.ndarray:
     at a typical point of the prior, the way a sampler will query the surrogate.
     """
     return _rng(seed, STAGE_HOLDOUT).random((count, dim))
+
+
+def peak_holdout_points(candidates: np.ndarray, predicted_log10_p: np.ndarray,
+                        margin: np.ndarray, threshold: float, count: int,
+                        seed: int) -> np.ndarray:
+    """Held-out points where the emulator predicts a valid model with a high peak.
+
+    Random draws (uniform) among the ``candidates`` predicted valid (``margin > 0``) with
+    log10 P_peak >= ``threshold``: the errors there estimate the surrogate's error where
+    f_PBH matters, and the emulator only chooses *where* to look (the exact solves judge).
+
+    Returns
+    -------
+    ndarray, shape (m, d)
+        ``m = min(count, number of such candidates)`` points.
+    """
+    eligible = np.flatnonzero((margin > 0) & (predicted_log10_p >= threshold))
+    pick = _rng(seed, STAGE_HOLDOUT, 2).permutation(eligible)[:count]
+    return candidates[np.sort(pick)]
 
 
 def min_distances(points: np.ndarray, reference: np.ndarray) -> np.ndarray:
@@ -109,6 +134,11 @@ def refine_points(train_u: np.ndarray, error_score: np.ndarray, margin: np.ndarr
     picks_e = greedy_spread(error_score[rest] + 1e-300, candidates[rest], taken,
                             count - len(picks_b), scale)
     return np.vstack([candidates[picks_b], candidates[rest][picks_e]])
+
+
+def peak_candidates(dim: int, count: int, seed: int) -> np.ndarray:
+    """Random candidates for :func:`peak_holdout_points` (deterministic)."""
+    return _rng(seed, STAGE_HOLDOUT, 1).random((count, dim))
 
 
 def candidate_points(dim: int, count: int, seed: int, round_index: int) -> np.ndarray:

@@ -15,7 +15,7 @@ import numpy as np
 from scan.errors import InputFileError
 from scan.surrogate import design
 from scan.surrogate.emulator import (Emulator, EmulatorSettings, TrainingSet, classify,
-                                     fit_emulator, loo_error_score, peak_sd)
+                                     fit_emulator, loo_error_score, peak_sd, predict_unit)
 from scan.surrogate.identity import identity
 from scan.surrogate.record import SCALARS, TrainingRecord, cmb_feature, shape_grid
 from scan.surrogate.space import ParameterSpace
@@ -29,6 +29,9 @@ MapFunction = Callable[[Callable, Iterable], Iterable]
 #: ``progress(done, total, label)``: called after every appended batch.
 Progress = Callable[[int, int, str], None]
 CANDIDATES_PER_POINT = 64
+#: Candidates per peak hold-out point: a high peak is a thin sliver of a wide box (in the
+#: wide pole box f_PBH > 1e-10 needs log10 P_peak >~ -1.1, ~1 % of the box).
+PEAK_CANDIDATES_PER_POINT = 256
 
 
 @dataclass(frozen=True)
@@ -37,6 +40,8 @@ class TrainingPlan:
 
     points: int
     holdout: int
+    peak_holdout: int
+    peak_holdout_min: float
     refine_rounds: int
     refine_points: int
     boundary_fraction: float
@@ -46,8 +51,9 @@ class TrainingPlan:
     def from_config(cls, config, points: int | None = None) -> "TrainingPlan":
         """The plan of a run config."""
         s = config.surrogate
-        return cls(points if points is not None else s.points, s.holdout, s.refine_rounds,
-                   s.refine_points, s.boundary_fraction, config.run.seed)
+        return cls(points if points is not None else s.points, s.holdout, s.peak_holdout,
+                   s.peak_holdout_min, s.refine_rounds, s.refine_points, s.boundary_fraction,
+                   config.run.seed)
 
 
 def settings_of(config) -> EmulatorSettings:
@@ -121,7 +127,7 @@ def training_set(path: Path, space: ParameterSpace, x: np.ndarray,
     """Finished points as arrays: training stages (default) or the hold-out set."""
     u, stage, _ = read_plan(path)
     pts = read_points(path)
-    is_holdout = stage[pts.index] == design.STAGE_HOLDOUT
+    is_holdout = np.isin(stage[pts.index], design.HOLDOUT_STAGES)
     keep = is_holdout if holdout else ~is_holdout
     if stages is not None:
         keep &= np.isin(stage[pts.index], stages)
@@ -144,6 +150,22 @@ def propose_refinement(emulator: Emulator, data: TrainingSet, plan: TrainingPlan
     score = np.where(margin > -0.5, score, 0.0)  # errors only matter where valid
     return design.refine_points(data.u, score, margin, cand, plan.refine_points,
                                 plan.boundary_fraction)
+
+
+def plan_peak_holdout(path: Path, writer: StoreWriter, space: ParameterSpace,
+                      emulator: Emulator, plan: TrainingPlan) -> None:
+    """Plan the peak hold-out points once (:func:`design.peak_holdout_points`), where the
+    final ``emulator`` predicts a valid model with a high peak."""
+    _, stages, _ = read_plan(path)
+    if plan.peak_holdout == 0 or np.any(stages == design.STAGE_HOLDOUT_PEAK):
+        return
+    cand = design.peak_candidates(space.dim, PEAK_CANDIDATES_PER_POINT * plan.peak_holdout,
+                                  plan.seed)
+    new = design.peak_holdout_points(cand, predict_unit(emulator, cand).log10_P_peak,
+                                     classify(emulator, cand), plan.peak_holdout_min,
+                                     plan.peak_holdout, plan.seed)
+    if len(new):
+        writer.add_plan(new, design.STAGE_HOLDOUT_PEAK, np.arange(len(new)))
 
 
 def run_training(path: Path, config, space: ParameterSpace, solve: Solve, map_fn: MapFunction,
@@ -197,9 +219,12 @@ def _train_locked(path, lock, config, space, solve, map_fn, plan, resume, chunk,
                 writer.add_plan(new, design.STAGE_REFINE + r, np.arange(len(new)))
             solve_pending(path, writer, space, solve, map_fn, chunk, progress,
                           f"refine {r + 1}/{plan.refine_rounds}")
-    data = training_set(path, space, x)
-    _check_enough_valid(path, data)
-    return fit_emulator(data, settings), data, training_set(path, space, x, holdout=True)
+        data = training_set(path, space, x)
+        _check_enough_valid(path, data)
+        emulator = fit_emulator(data, settings)  # the final fit also places the peak hold-out
+        plan_peak_holdout(path, writer, space, emulator, plan)
+        solve_pending(path, writer, space, solve, map_fn, chunk, progress, "held-out peaks")
+    return emulator, data, training_set(path, space, x, holdout=True)
 
 
 def _check_enough_valid(path: Path, data: TrainingSet) -> None:

@@ -13,6 +13,9 @@ from scan.observables.pbh.conventions import NEGLIGIBLE_FPBH
 from scan.surrogate import design
 from scan.surrogate.emulator import Emulator, Prediction, TrainingSet, predict_unit
 
+#: f_PBH,total above which a held-out model counts as "PBHs matter" in the report (the
+#: accuracy goal of issue 14: 0.3 dex at the 95th percentile over such models).
+FPBH_RELEVANT = 1e-10
 #: The shape error is taken where the true spectrum is within this of its peak [dex].
 PEAK_REGION_DEX = 1.0
 #: Observables hook: (ln_k_peak (p,), log10_P_peak (p,), shape (p, n_x), x) ->
@@ -104,6 +107,9 @@ def validate(emulator: Emulator, train: TrainingSet, holdout: TrainingSet,
                 floor = np.log10(NEGLIGIBLE_FPBH)
                 some = (true_obs[key] > floor) | (pred_obs[key] > floor)
                 errs[f"{key} where f_PBH > {NEGLIGIBLE_FPBH:.0e} [dex]"] = error_stats(diff[some])
+                relevant = true_obs[key] > np.log10(FPBH_RELEVANT)
+                errs[f"{key}, exact f_PBH > {FPBH_RELEVANT:.0e} [dex]"] = error_stats(
+                    diff[relevant])
             else:
                 errs[f"{key} [dex]"] = error_stats(diff)
     report["classifier"] = classifier_report(pred.valid, holdout, train)
