@@ -8,6 +8,23 @@ local map f_NL = 1 and the logarithmic map lambda = 3.  Timed side by side in
 alternating blocks (thread CPU time); the acceptance target of issue 15 is <= 3x.
 ``--reference`` adds the per-spectrum :meth:`NonGaussianPlan.evaluate` (minutes).
 
+Measured (2-core machine shared with other jobs, nice 15; ratios min-based, the Gaussian
+stack 2-4 ms; ranges over runs, the machine is noisy):
+
+* main 3d95cf0 (array-code ridge search): local f_NL = 1 63-64x, logarithmic 5.3-5.5x.
+* compiled ridge integral + closed-form live bound (ng_ridge.py): local 21-27x.
+* + sharper far-branch bound (2.3k instead of 12k far-branch integrals): local 17.6-23x
+  over 6 runs; logarithmic 5.7-7.5x (path unchanged).
+
+What limits it (measured by parts): the local map evaluates ln g at 9 nodes for 3.6k
+live pairs (32k densities); each needs two Newton ridge searches and a 16-point
+Gauss-Hermite rule (~1.1 us compiled, ~half each), ~35-45 ms in all against the
+Gaussian's ~3 ms.  The logarithmic map's closed form costs ~90 ns per density (67k:
+~6 ms; compiling it with numba measured no faster), the 120-node beta integral and the
+mass function ~2-3 ms each.  Reaching 3x needs fewer densities (fewer nodes per pair,
+or a cheaper dead-pair bound), not faster ones: 9 -> 7 nodes moves f(M) by up to 5e-5
+(local f_NL = -1), above the doubling test's 1e-5.
+
 Run:  python tests/bench/bench_pbh_nongaussian.py
 """
 from __future__ import annotations

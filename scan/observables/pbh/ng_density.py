@@ -37,6 +37,7 @@ import math
 import numpy as np
 from scipy import special
 
+from scan.observables.pbh.ng_ridge import branch_integrals, far_curve_bound
 from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Gauss-Hermite nodes of the local map's per-branch rule: 16 -> 32 changes ln g by
@@ -45,10 +46,6 @@ N_GH: int = 16
 #: The far branch of a quadratic map is skipped where its bound is below e^{-40} times the
 #: near branch (relative contribution < 4e-18, below rounding).
 FAR_MARGIN: float = 40.0
-#: A second ridge this far below the first in ln integrand is not integrated separately.
-RIDGE_GAP: float = 50.0
-#: Newton steps towards the ridge of each branch.
-N_NEWTON: int = 6
 #: Above this z, 1 - sqrt(pi) z erfcx(z) is taken from its asymptotic series (the direct
 #: difference loses ~2 z^2 eps, 4e-12 at z = 100; the series' first omitted term is
 #: 945 / (32 z^10) / (1 / (2 z^2)) < 1e-14 relative there).
@@ -134,12 +131,6 @@ def _series(z):
     return r * (0.5 + r * (-0.75 + r * (1.875 - r * 6.5625)))
 
 
-def _slopes(zmap: ZetaMap, x):
-    """F', F'', F''' [1] of the local map at zeta_G = ``x``."""
-    p, q = 1.2 * zmap.f_nl, 1.08 * zmap.g_nl
-    return 1 + x * (p + q * x), p + 2 * q * x, 2 * q
-
-
 def branches(zmap: ZetaMap) -> list[tuple[float, float]]:
     """Intervals of zeta_G between the real roots of F' (the map's monotone branches)."""
     p, q = 1.2 * zmap.f_nl, 1.08 * zmap.g_nl
@@ -151,21 +142,6 @@ def branches(zmap: ZetaMap) -> list[tuple[float, float]]:
                                              (-p + math.sqrt(disc)) / (2 * q)))
     edges = [-math.inf, *roots, math.inf]
     return list(itertools.pairwise(edges))
-
-
-def _psi(zmap: ZetaMap, x, c, a, t2, s_r2, order: int):
-    """ln integrand psi(zeta_G) and (order >= 1) psi', psi''."""
-    f1, f2, f3 = _slopes(zmap, x)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        h = c / f1 - a * x
-        psi = -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - np.log(np.abs(f1))
-        if order == 0:
-            return psi, None, None
-        h1 = -c * f2 / (f1 * f1) - a
-        h2 = -c * f3 / (f1 * f1) + 2 * c * f2 * f2 / f1**3
-        d1 = -x / s_r2 - h * h1 / t2 - f2 / f1
-        d2 = -1 / s_r2 - (h1 * h1 + h * h2) / t2 - (f3 * f1 - f2 * f2) / (f1 * f1)
-    return psi, d1, d2
 
 
 _GH_X, _GH_W = np.polynomial.hermite.hermgauss(N_GH)
@@ -187,6 +163,10 @@ def _ln_local(c, s_c2, s_cr, s_r2, zmap: ZetaMap, n_gh: int = N_GH) -> np.ndarra
     total = ln_norm + _branch(zmap, *near, start, s, c, a, t2, s_r2, gx, glw)
     root = near[0] if math.isfinite(near[0]) else near[1]
     need = ~(_ln_far_bound(abs(root), a, t2, s_r2, c) < total - FAR_MARGIN)
+    if need.any():                   # the sharper bound along the curve, where it is needed
+        idx = np.flatnonzero(need)
+        need[idx] = ~(_ln_far_curve_bound(1.2 * zmap.f_nl, a[idx], t2[idx], s_r2[idx], c[idx])
+                      < total[idx] - FAR_MARGIN)
     if need.any():
         sub = tuple(v[need] for v in (start, s, c, a, t2, s_r2))
         total[need] = np.logaddexp(total[need],
@@ -212,8 +192,35 @@ def _ln_far_bound(z0: float, a, t2, s_r2, c):
     return np.logaddexp(first, second) - np.log(math.sqrt(2 * math.pi) * c * t)
 
 
+#: Grid of r / r_0 - 1 (r = |zeta_G|, r_0 = 1/|p| the root of F') for the far-branch bound.
+_FAR_GRID = np.concatenate([[0.0], np.geomspace(1e-3, 1e2, 15)])
+
+
+def _ln_far_curve_bound(p: float, a, t2, s_r2, c):
+    """ln of an upper bound [1] on the far branch of g(c) (local map, g_NL = 0, F' = 1 +
+    p zeta_G, the branch |F'| = p |zeta_G| - 1 = v > 0 with C_G = -c/v), along the curve.
+
+    With r = |zeta_G| and D = C_G - a zeta_G = a' r - c/(|p| r - 1), a' = a sign(p), the
+    integrand (1/v) phi_2(C_G, zeta_G) = (|C_G|/c) phi_2 is split as
+    |C_G| e^{-D^2/4t^2} <= a r + sqrt(2/e) t (the sup of x e^{-x^2/4t^2} is sqrt(2/e) t)
+    times e^{-D^2/4t^2} e^{-r^2/2 sigma_r^2} / (2 pi sqrt(sigma_r^2 t^2) c).  On each
+    interval [r_j, r_{j+1}] of a grid, D lies between min(a' r_j, a' r_{j+1}) -
+    c/(|p| r_j - 1) and max(a' r_j, a' r_{j+1}) - c/(|p| r_{j+1} - 1) (each part is
+    monotone), which bounds D^2 from below; the rest integrates in closed form
+    (int_{r_j} r e^{-r^2/2s} <= s e^{-r_j^2/2s}, int_{r_j} e^{-r^2/2s} = sqrt(pi s/2)
+    erfc(r_j/sqrt(2s)), with erfcx(x) <= 2 / (sqrt(pi) (x + sqrt(x^2 + 4/pi))), Abramowitz &
+    Stegun 1964, eq. 7.1.13, from memory; cheaper than erfcx itself).  Our derivation;
+    tests/test_pbh_ng_stack.py checks it against the far branch's quadrature.  The sum
+    over the intervals is bounded by their count times the largest term.  Compiled
+    (:func:`scan.observables.pbh.ng_ridge.far_curve_bound`).
+    """
+    arrays = (np.ascontiguousarray(v, dtype=float) for v in (a, t2, s_r2, c))
+    return far_curve_bound(float(p), _FAR_GRID, *arrays)
+
+
 def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
-    """ln int over one branch (lo, hi) of exp(psi).
+    """ln int over one branch (lo, hi) of exp(psi), compiled
+    (:func:`scan.observables.pbh.ng_ridge.branch_integrals`).
 
     Two Newton searches (from the conditional mean and from its mirror image, each a
     sigma_r inside a finite end) find up to two ridges.  Where they differ, the
@@ -223,62 +230,9 @@ def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
     A ridge lower than the other by RIDGE_GAP in psi is left to the higher one's rule (its
     mass is below e^{-50} times the width ratio, <= 4 s over the Newton width).
     """
-    inset = 1e-9 * (1 + min(abs(lo), abs(hi))) if math.isfinite(lo) or math.isfinite(hi) \
-        else 0.0
-    away = np.sqrt(s_r2)
-    lo_in, hi_in = lo + inset, hi - inset
-    args = (c, a, t2, s_r2)
-    ridges = []
-    for x0 in (start, -start):
-        x = np.clip(x0, lo + (away if math.isfinite(lo) else 0.0),
-                    hi - (away if math.isfinite(hi) else 0.0))
-        ridges.append(_ridge(zmap, np.clip(x, lo_in, hi_in), lo_in, hi_in, s, args))
-    first = ridges[0][2] >= ridges[1][2]                # order: the higher ridge first
-    quad = tuple(tuple(np.where(first, u, v) for u, v in zip(ridges[k], ridges[1 - k]))
-                 for k in (0, 1))
-    (xa, wa, pa), (xb, wb, pb) = quad
-    apart = (np.abs(xb - xa) > 0.1 * np.minimum(wa, wb)) & (pa - pb < RIDGE_GAP)
-    one = _rule(zmap, xa, wa, lo, hi, gx, glw, args, quad, apart, 0)
-    two = np.full(one.shape, -np.inf)
-    if apart.any():
-        two[apart] = _rule(zmap, xb[apart], wb[apart], lo, hi, gx, glw,
-                           tuple(v[apart] for v in args),
-                           tuple(tuple(v[apart] for v in r) for r in quad),
-                           apart[apart], 1)
-    return log_sum_exp(np.stack([one, two], axis=-1))
-
-
-def _ridge(zmap, x, lo, hi, s, args):
-    """Newton steps on psi from ``x`` within [lo, hi]: the ridge, its width
-    1/sqrt(-psi'') and psi there."""
-    for _ in range(N_NEWTON):
-        _, d1, d2 = _psi(zmap, x, *args, 2)
-        ok = np.isfinite(d1) & np.isfinite(d2) & (d2 < 0)
-        step = np.where(ok, -d1 / np.where(ok, d2, -1.0), np.sign(np.nan_to_num(d1)) * s)
-        x = np.clip(x + step, lo, hi)
-    psi, _, d2 = _psi(zmap, x, *args, 2)
-    width = np.where(np.isfinite(d2) & (d2 < 0), 1 / np.sqrt(np.abs(d2)), s)
-    return x, np.minimum(width, 4 * s), np.where(np.isfinite(psi), psi, -1e300)
-
-
-def _rule(zmap, x, width, lo, hi, gx, glw, args, quad, apart, which):
-    """ln of the Gauss-Hermite rule centred on ``x`` with ``width`` over (lo, hi), the
-    integrand weighted by ridge ``which``'s share of the partition of unity."""
-    nodes = x[..., None] + math.sqrt(2) * width[..., None] * gx
-    psi, _, _ = _psi(zmap, nodes, *(v[..., None] for v in args), 0)
-    terms = psi + glw
-    if apart.any():                  # the partition of unity, where there are two ridges
-        sub = nodes[apart]
-        q = [p[apart, None] - 0.5 * ((sub - xr[apart, None]) / wr[apart, None])**2
-             for xr, wr, p in quad]
-        terms[apart] += q[which] - np.logaddexp(q[0], q[1])
-    inside = np.isfinite(terms)
-    if math.isfinite(lo):
-        inside &= nodes > lo
-    if math.isfinite(hi):
-        inside &= nodes < hi
-    terms[~inside] = -np.inf
-    return np.log(math.sqrt(2) * width) + log_sum_exp(terms)
+    arrays = (np.ascontiguousarray(v, dtype=float) for v in (start, s, c, a, t2, s_r2))
+    return branch_integrals(float(lo), float(hi), 1.2 * zmap.f_nl, 1.08 * zmap.g_nl,
+                            *arrays, gx, glw)
 
 
 def log_sum_exp(terms: np.ndarray) -> np.ndarray:

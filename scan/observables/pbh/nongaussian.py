@@ -223,9 +223,14 @@ def live_epochs(y_th, s_c2: np.ndarray, s_r2: np.ndarray, zmap: ZetaMap) -> np.n
     Within |zeta_G| <= 12 sigma_r (the integration range) C_l = C_G F' exceeds y_th only
     if C_G > y_th / max|F'|; beyond 39 sigma_c that costs exp(-760), which is 0 in double
     precision (as :func:`scan.observables.pbh.plan._live_epochs`).  NaN stays live.
+    For the local map with g_NL = 0, max|F'| = 1 + (6/5)|f_NL| 12 sigma_r in closed form
+    (at least the maximum over the quadrature's nodes, so no epoch is lost).
     """
-    slope = np.abs(zmap.slope(np.sqrt(s_r2)[:, None] * _WIDE))
-    top = np.max(np.where(np.isfinite(slope), slope, np.inf), axis=1)
+    if zmap.kind == "local" and zmap.g_nl == 0:
+        top = 1 + 1.2 * abs(zmap.f_nl) * _T_SPAN * np.sqrt(s_r2)
+    else:
+        slope = np.abs(zmap.slope(np.sqrt(s_r2)[:, None] * _WIDE))
+        top = np.max(np.where(np.isfinite(slope), slope, np.inf), axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
         nu = y_th / (np.sqrt(s_c2) * top)
     return ~(nu >= 39.0)

@@ -1,0 +1,184 @@
+"""The local map's per-branch ridge integral, compiled (numba): the hot loop of
+:func:`scan.observables.pbh.ng_density._ln_local`.
+
+The algorithm is :func:`~scan.observables.pbh.ng_density._branch` (two Newton searches for
+up to two ridges of psi, a partition of unity between them, a Gauss-Hermite rule centred on
+each), written as one scalar loop per element.  As array code it made ~30 passes over
+(elements x rule nodes) with a dozen temporaries each; compiled, every element's ridges and
+rules stay in registers (ratio measured side by side in tests/bench/bench_pbh_nongaussian.py).
+Newton stops once a step moves x by less than 1e-13 (|x| + s) (s the conditional width;
+further steps would change x at rounding level; f_PBH moved by <= 3e-13 relative, measured).
+
+Why numba: the loop has data-dependent exits (Newton convergence, one or two ridges) that
+array code pays for on every element; numba ships wheels (no compiler at install) and
+``cache=True`` keeps the machine code on disk (see :mod:`scan.ode`).
+
+Units: all quantities [1].
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+
+#: Floating-point freedoms given to LLVM: contraction into fused multiply-adds, reciprocal
+#: multiplication for division and re-association (rounding-level changes); not the
+#: no-NaN/no-inf assumptions, which the finiteness checks rely on.
+_FAST = {"contract", "arcp", "reassoc"}
+#: Newton steps towards a ridge (at most; see the module doc).
+N_NEWTON: int = 6
+#: A second ridge this far below the first in ln integrand is not integrated separately.
+RIDGE_GAP: float = 50.0
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _slopes(x, p, q, c, a, t2, s_r2):
+    """psi' and psi'' at zeta_G = x (psi: :func:`_psi0`); F' = 1 + x (p + q x)."""
+    f1 = 1.0 + x * (p + q * x)
+    f2 = p + 2.0 * q * x
+    f3 = 2.0 * q
+    r = 1.0 / f1
+    h = c * r - a * x
+    h1 = -c * f2 * r * r - a
+    h2 = -c * f3 * r * r + 2.0 * c * f2 * f2 * r * r * r
+    d1 = -x / s_r2 - h * h1 / t2 - f2 * r
+    d2 = -1.0 / s_r2 - (h1 * h1 + h * h2) / t2 - (f3 * f1 - f2 * f2) * r * r
+    return d1, d2
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _psi0(x, p, q, c, a, t2, s_r2):
+    """psi, the ln integrand over zeta_G = x (F' = 1 + x (p + q x))."""
+    f1 = 1.0 + x * (p + q * x)
+    h = c / f1 - a * x
+    return -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - math.log(abs(f1))
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _clip(x, lo, hi):
+    return min(max(x, lo), hi)
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2):
+    """Newton steps on psi from x within [lo, hi]: (ridge, width 1/sqrt(-psi''), psi)."""
+    for _ in range(N_NEWTON):
+        d1, d2 = _slopes(x, p, q, c, a, t2, s_r2)
+        if math.isfinite(d1) and math.isfinite(d2) and d2 < 0:
+            step = -d1 / d2
+        elif math.isnan(d1) or d1 == 0:
+            step = 0.0
+        else:
+            step = math.copysign(s, d1)
+        new = _clip(x + step, lo, hi)
+        if abs(new - x) <= 1e-13 * (abs(x) + s):
+            x = new
+            break
+        x = new
+    d2 = _slopes(x, p, q, c, a, t2, s_r2)[1]
+    psi = _psi0(x, p, q, c, a, t2, s_r2)
+    width = 1.0 / math.sqrt(abs(d2)) if (math.isfinite(d2) and d2 < 0) else s
+    return x, min(width, 4.0 * s), psi if math.isfinite(psi) else -1e300
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _logaddexp(u, v):
+    top = max(u, v)
+    if top == -math.inf:
+        return -math.inf
+    return top + math.log(math.exp(u - top) + math.exp(v - top))
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _rule(which, ridges, apart, lo, hi, gx, glw, p, q, c, a, t2, s_r2):
+    """ln of the Gauss-Hermite rule centred on ridge ``which`` over (lo, hi), weighted by
+    that ridge's share of the partition of unity where there are two."""
+    x, width = ridges[which, 0], ridges[which, 1]
+    scale = math.sqrt(2.0) * width
+    top, total = -math.inf, 0.0          # running log-sum-exp: total = sum exp(t - top)
+    for j in range(gx.size):
+        node = x + scale * gx[j]
+        t = _psi0(node, p, q, c, a, t2, s_r2) + glw[j]
+        if apart:
+            q0 = ridges[0, 2] - 0.5 * ((node - ridges[0, 0]) / ridges[0, 1]) ** 2
+            q1 = ridges[1, 2] - 0.5 * ((node - ridges[1, 0]) / ridges[1, 1]) ** 2
+            t += (q0 if which == 0 else q1) - _logaddexp(q0, q1)
+        if not (math.isfinite(t) and node > lo and node < hi):
+            continue
+        if t > top:
+            total = total * math.exp(top - t) + 1.0
+            top = t
+        else:
+            total += math.exp(t - top)
+    if top == -math.inf:
+        return -math.inf
+    return math.log(scale) + top + math.log(total)
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
+    """ln int_lo^hi exp(psi) dzeta_G [1] per element (arrays of equal length): the
+    algorithm of :func:`scan.observables.pbh.ng_density._branch`."""
+    n = c.size
+    out = np.empty(n)
+    lo_f, hi_f = math.isfinite(lo), math.isfinite(hi)
+    inset = 1e-9 * (1 + min(abs(lo), abs(hi))) if (lo_f or hi_f) else 0.0
+    lo_in, hi_in = lo + inset, hi - inset
+    ridges = np.empty((2, 3))
+    found = np.empty((2, 3))
+    for i in range(n):
+        away = math.sqrt(s_r2[i])
+        args = (p, q, c[i], a[i], t2[i], s_r2[i])
+        for k in range(2):
+            x0 = start[i] if k == 0 else -start[i]
+            x = _clip(x0, lo + away if lo_f else lo, hi - away if hi_f else hi)
+            found[k, 0], found[k, 1], found[k, 2] = _ridge(_clip(x, lo_in, hi_in), lo_in,
+                                                           hi_in, s[i], *args)
+        first = 0 if found[0, 2] >= found[1, 2] else 1
+        ridges[0, :] = found[first, :]
+        ridges[1, :] = found[1 - first, :]
+        apart = (abs(ridges[1, 0] - ridges[0, 0]) > 0.1 * min(ridges[0, 1], ridges[1, 1])
+                 and ridges[0, 2] - ridges[1, 2] < RIDGE_GAP)
+        one = _rule(0, ridges, apart, lo, hi, gx, glw, *args)
+        out[i] = _logaddexp(one, _rule(1, ridges, apart, lo, hi, gx, glw, *args)) \
+            if apart else one
+    return out
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def far_curve_bound(p, grid, a, t2, s_r2, c):
+    """ln of the far branch's bound along the curve [1] per element (the derivation is in
+    :func:`scan.observables.pbh.ng_density._ln_far_curve_bound`); ``grid`` holds
+    r / r_0 - 1 for r = |zeta_G| >= r_0 = 1/|p|, increasing from 0."""
+    out = np.empty(c.size)
+    ap_sign = 1.0 if p > 0 else -1.0
+    q = abs(p)
+    kappa = math.sqrt(2.0 / math.e)
+    for i in range(c.size):
+        ap = ap_sign * a[i]
+        t = math.sqrt(t2[i])
+        top = -math.inf
+        for j in range(grid.size):
+            lo = (1.0 + grid[j]) / q
+            inv_lo = c[i] / (q * lo - 1.0) if grid[j] > 0 else math.inf
+            if j + 1 < grid.size:
+                hi = (1.0 + grid[j + 1]) / q
+                lin_lo, lin_hi = min(ap * lo, ap * hi), max(ap * lo, ap * hi)
+                inv_hi = c[i] / (q * hi - 1.0)
+            else:                                   # [r_last, inf)
+                lin_lo = ap * lo if ap >= 0 else -math.inf
+                lin_hi = math.inf if ap > 0 else ap * lo
+                inv_hi = 0.0
+            d_lo, d_hi = lin_lo - inv_lo, lin_hi - inv_hi
+            d2 = 0.0 if (d_lo <= 0 <= d_hi) else min(d_lo * d_lo, d_hi * d_hi)
+            x = lo / math.sqrt(2.0 * s_r2[i])
+            erfcx_max = 2.0 / (math.sqrt(math.pi) * (x + math.sqrt(x * x + 4.0 / math.pi)))
+            mass = math.log(abs(a[i]) * s_r2[i] + kappa * t * math.sqrt(0.5 * math.pi * s_r2[i])
+                            * erfcx_max) - x * x
+            if mass <= top:       # mass falls with r: no later interval can exceed top
+                break
+            top = max(top, mass - d2 / (4.0 * t2[i]))
+        out[i] = top + math.log(grid.size) \
+            - math.log(2.0 * math.pi * math.sqrt(s_r2[i] * t2[i]) * c[i])
+    return out
