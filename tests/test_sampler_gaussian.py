@@ -52,17 +52,24 @@ def independent_samples(path) -> tuple[np.ndarray, np.ndarray, float]:
     return chain.reshape(-1, chain.shape[-1]), blobs.reshape(-1), tau_max
 
 
+def check_means_and_widths(samples: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Assert means and widths of ~independent samples of MEANS, SIGMAS; return both."""
+    n = len(samples)
+    mean, sigma = np.array(MEANS), np.array(SIGMAS)
+    # Means within 4 standard errors (independent samples after thinning by tau).
+    np.testing.assert_array_less(np.abs(samples.mean(axis=0) - mean), 4 * sigma / np.sqrt(n))
+    # Widths: the standard error of a sample standard deviation is sigma / sqrt(2 n).
+    np.testing.assert_array_less(np.abs(samples.std(axis=0) / sigma - 1), 4 / np.sqrt(2 * n))
+    return mean, sigma
+
+
 def test_correlated_4d_gaussian_is_recovered(tmp_path):
     plan, outcome = run(gaussian_config(tmp_path))
     assert outcome.steps == 3000 and outcome.status in ("converged", "max_steps")
     samples, blobs, tau_max = independent_samples(outcome.path)
     n = len(samples)
     assert n > 1000
-    mean, sigma = np.array(MEANS), np.array(SIGMAS)
-    # Means within 4 standard errors (independent samples after thinning by tau).
-    np.testing.assert_array_less(np.abs(samples.mean(axis=0) - mean), 4 * sigma / np.sqrt(n))
-    # Widths: the standard error of a sample standard deviation is sigma / sqrt(2 n).
-    np.testing.assert_array_less(np.abs(samples.std(axis=0) / sigma - 1), 4 / np.sqrt(2 * n))
+    mean, sigma = check_means_and_widths(samples)
     corr = np.corrcoef(samples.T)[np.triu_indices(4, 1)]
     np.testing.assert_array_less(np.abs(corr - 0.5), 4 * (1 - 0.25) / np.sqrt(n))
     for i in range(4):

@@ -232,6 +232,10 @@ class SamplerSection:
                              "unit-cube width", 0.01, minimum=0.0, exclusive_minimum=True,
                              maximum=0.5)
     vectorize: bool = spec("evaluate all walkers in one call (surrogate likelihoods)", False)
+    moves: str = spec("emcee proposal moves: the stretch move, or a mixture of differential-"
+                      "evolution (0.8) and snooker (0.2) moves for curved or ridge-like "
+                      "posteriors (scan/sampler/moves.py)", "stretch",
+                      choices=("stretch", "differential_evolution"))
     test_correlation: float = spec("correlation coefficient between every pair of "
                                    "parameters of the gaussian_test target", 0.0,
                                    minimum=-0.99, maximum=0.99)

@@ -35,6 +35,7 @@ from scan.posterior.targets import TargetBase
 from scan.sampler import runfile
 from scan.sampler.convergence import Policy, assess, burn_in, estimate_tau, thinning
 from scan.sampler.evaluate import Evaluator
+from scan.sampler.moves import move_mixture
 
 #: Rounds of redrawing initial walkers whose log-probability is -inf.
 START_ATTEMPTS = 100
@@ -221,7 +222,8 @@ def _run_locked(plan: RunPlan, pool: BasePool, restart: bool,
     backend = runfile.ChainBackend(plan.path, section.write_every, on_flush=extras.write)
     sampler = emcee.EnsembleSampler(section.walkers, plan.priors.dim, evaluator,
                                     vectorize=True, backend=backend,
-                                    blobs_dtype=plan.target.blob_dtype)
+                                    blobs_dtype=plan.target.blob_dtype,
+                                    moves=move_mixture(section.moves))
     if stored is not None:
         initial = backend.get_last_sample()
     loop = _Loop(plan, policy, backend, extras, stored is not None)

@@ -12,7 +12,8 @@ Layout (every dataset has a ``units`` attribute):
   ``reason_counts`` (every evaluation, accepted or not), the τ history (``tau_steps``,
   ``tau_history``), the latest ``tau``, ``burn_in``, ``thin``, ``status``, ``initial``,
   and, when a ``width_prior`` is mapped onto a wall coordinate, ``width_prior_*``
-  attributes saying which prior, which map and that its Jacobian was applied.
+  attributes saying which prior, which map and that its Jacobian was applied; ``moves``
+  (``sampler.moves``) and ``moves_detail`` (the emcee moves and their weights).
 
 :class:`ChainBackend` buffers ``write_every`` steps in memory and writes them, together
 with the ``sampler`` group, in one open of the file; a SIGKILL loses at most the steps
@@ -34,6 +35,7 @@ from scan.config.priors import width_prior_attributes
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
 from scan.observables.settings import pbh_convention_attrs
+from scan.sampler.moves import describe as describe_moves
 
 GROUP = "mcmc"
 EXTRA = "sampler"
@@ -213,6 +215,8 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         store.write_dataset(handle[EXTRA], "initial", initial, "1",
                             "initial walker positions (parameter units)")
         store.write_attrs(handle[EXTRA], width_prior_attributes(config))
+        store.write_attrs(handle[EXTRA], {"moves": config.sampler.moves,
+                                          "moves_detail": describe_moves(config.sampler.moves)})
 
 
 @dataclasses.dataclass(frozen=True)
