@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 
 from scan.cli import with_plugin_note
 from scan.cli.output import Output, add_output_options
@@ -16,6 +17,8 @@ EXAMPLE = """example:
   zetascan train configs/tmodel_pole.toml --processes 2
   zetascan train configs/tmodel_pole.toml --resume            # continue after an interruption
   zetascan train --report results/tmodel_pole/surrogate.h5    # reprint the validation report
+  zetascan train configs/wide_scan.toml --refine-from results/wide_scan --points 120
+                                     # solve where the posterior lies, refit (then sample again)
 """
 LOG_EVERY_S = 30.0
 
@@ -31,9 +34,15 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         epilog=with_plugin_note(EXAMPLE), formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("config", nargs="?", help="run configuration (TOML)")
     parser.add_argument("--points", type=int, default=None, metavar="N",
-                        help="design points (default: surrogate.points)")
-    parser.add_argument("--resume", action="store_true",
-                        help="continue an existing training store of the same model")
+                        help="design points (default: surrogate.points); with --refine-from, "
+                             "posterior points to add (default: surrogate.refine_points)")
+    mode = parser.add_mutually_exclusive_group()
+    mode.add_argument("--resume", action="store_true",
+                      help="continue an existing training store of the same model")
+    mode.add_argument("--refine-from", metavar="CHAIN", default=None,
+                      help="add exact solves at up to --points well-spread posterior samples "
+                           "of CHAIN (a chain.h5 or run folder sampled on this surrogate) to "
+                           "the existing training store, refit and re-validate")
     group = parser.add_mutually_exclusive_group()
     group.add_argument("--processes", type=int, default=None, metavar="N",
                        help="worker processes (default: all cores)")
@@ -79,11 +88,28 @@ def _train(args: argparse.Namespace) -> int:
         output.detail(f"training on {workers} worker(s)")
         outcome = train_surrogate(
             config, pool.map, workers=workers, points=args.points, resume=args.resume,
-            progress=lambda done, total, label: line.update(done, total, f"train [{label}]"))
+            progress=lambda done, total, label: line.update(done, total, f"train [{label}]"),
+            refine_from=args.refine_from)
     line.close()
+    extra = _chain_round_lines(outcome.chain_round)
     output.result({"training_store": outcome.training, "surrogate": outcome.surrogate,
-                   "report": outcome.report},
-                  "\n".join(format_report(outcome.report)
+                   "report": outcome.report,
+                   "chain_round": None if outcome.chain_round is None
+                   else dataclasses.asdict(outcome.chain_round)},
+                  "\n".join(format_report(outcome.report) + extra
                             + [f"training store: {outcome.training}",
                                f"surrogate: {outcome.surrogate}"]))
     return 0
+
+
+def _chain_round_lines(chain_round) -> list[str]:
+    """What --refine-from added, in words."""
+    if chain_round is None:
+        return []
+    if chain_round.stage is None:
+        return [f"--refine-from: {chain_round.pending} points planned earlier were solved "
+                "first and no new round was planned; run the command again to add one"]
+    return [f"--refine-from: {chain_round.planned} posterior points added (stage "
+            f"{chain_round.stage}, chosen from {chain_round.samples} samples; samples closer "
+            "than half the local spacing to a planned point are skipped); the surrogate "
+            "changed: sample again (zetascan sample CONFIG --restart) and verify"]

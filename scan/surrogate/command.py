@@ -13,6 +13,7 @@ from typing import Any
 
 from scan.store import RunFolder, RunLock, check_output_file
 from scan.surrogate.adapter import SolvePoint
+from scan.surrogate.from_chain import ChainRound, refine_from_chain
 from scan.surrogate.identity import identity
 from scan.surrogate.peak_observables import observables_for
 from scan.surrogate.space import from_config
@@ -36,16 +37,20 @@ class TrainOutcome:
         The training store.
     surrogate : Path
         The surrogate file.
+    chain_round : ChainRound or None
+        What ``refine_from`` added (None without it).
     """
 
     report: dict[str, Any]
     training: Path
     surrogate: Path
+    chain_round: ChainRound | None = None
 
 
 def train_surrogate(config, map_fn: MapFunction, *, workers: int = 1,
                     points: int | None = None, resume: bool = False,
-                    progress: Progress | None = None) -> TrainOutcome:
+                    progress: Progress | None = None,
+                    refine_from: str | Path | None = None) -> TrainOutcome:
     """Train, validate and write the surrogate of ``config`` in its run folder.
 
     Parameters
@@ -56,11 +61,15 @@ def train_surrogate(config, map_fn: MapFunction, *, workers: int = 1,
     workers : int
         The pool's workers (points per batch: ``max(4, 2 * workers)``).
     points : int, optional
-        Design points (default: ``surrogate.points``).
+        Design points (default: ``surrogate.points``); with ``refine_from``, the posterior
+        points to add (default: ``surrogate.refine_points``).
     resume : bool
         Continue an existing training store of the same model.
     progress : callable, optional
         ``progress(done, total, label)``.
+    refine_from : str or Path, optional
+        A chain sampled on this surrogate: add one round of exact solves at its posterior
+        samples to the existing store and refit (:mod:`scan.surrogate.from_chain`).
 
     Raises
     ------
@@ -72,11 +81,18 @@ def train_surrogate(config, map_fn: MapFunction, *, workers: int = 1,
     check_output_file(folder.training, "training store")
     space = from_config(config)
     plan = TrainingPlan.from_config(config, points)
+    solve, chunk, chain_round = SolvePoint(config, space.keys), max(4, 2 * workers), None
     with RunLock(folder.surrogate, BUSY):
-        emulator, train, holdout = run_training(
-            folder.training, config, space, SolvePoint(config, space.keys), map_fn, plan,
-            resume=resume, chunk=max(4, 2 * workers), progress=progress)
+        if refine_from is None:
+            emulator, train, holdout = run_training(
+                folder.training, config, space, solve, map_fn, plan, resume=resume,
+                chunk=chunk, progress=progress)
+        else:
+            chain_round, emulator, train, holdout = refine_from_chain(
+                folder.training, config, space, refine_from,
+                points if points is not None else config.surrogate.refine_points, solve,
+                map_fn, chunk=chunk, progress=progress)
         report = validate(emulator, train, holdout, observables_for(config, space))
         write_surrogate(folder.surrogate, config, space, emulator, report,
                         identity(config, space))
-    return TrainOutcome(report, folder.training, folder.surrogate)
+    return TrainOutcome(report, folder.training, folder.surrogate, chain_round)

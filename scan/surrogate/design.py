@@ -1,8 +1,8 @@
 """Where to solve: the space-filling design, the held-out set, adaptive refinement.
 
 All points live in the unit cube (see :mod:`scan.surrogate.space`).  Every point has a
-*stage* (``STAGE_DESIGN``, ``STAGE_HOLDOUT``, ``STAGE_HOLDOUT_PEAK`` or
-``STAGE_REFINE + round``) and a
+*stage* (``STAGE_DESIGN``, ``STAGE_HOLDOUT``, ``STAGE_HOLDOUT_PEAK``,
+``STAGE_REFINE + round`` or ``STAGE_POSTERIOR + round``) and a
 sequence number within it; all choices are deterministic given ``run.seed`` and the
 solved points, so a resumed run plans exactly what the interrupted one planned (the
 store also records every plan before it is solved).
@@ -12,6 +12,7 @@ from __future__ import annotations
 import warnings
 
 import numpy as np
+from scipy.spatial import cKDTree
 from scipy.stats import qmc
 
 STAGE_DESIGN = 0
@@ -22,6 +23,9 @@ STAGE_REFINE = 2  # + round number
 STAGE_HOLDOUT_PEAK = -1
 #: Every stage whose points are never used for training.
 HOLDOUT_STAGES = (STAGE_HOLDOUT, STAGE_HOLDOUT_PEAK)
+#: Training points drawn from a posterior chain (``zetascan train --refine-from``), + the
+#: round number (far above the ``STAGE_REFINE + round`` of any plausible refine_rounds).
+STAGE_POSTERIOR = 1000
 
 
 def _rng(seed: int, *stream: int) -> np.random.Generator:
@@ -144,3 +148,54 @@ def peak_candidates(dim: int, count: int, seed: int) -> np.ndarray:
 def candidate_points(dim: int, count: int, seed: int, round_index: int) -> np.ndarray:
     """Random candidates for refinement round ``round_index`` (deterministic)."""
     return _rng(seed, STAGE_REFINE, round_index).random((count, dim))
+
+
+def posterior_spacing(samples: np.ndarray, existing: np.ndarray, count: int) -> float:
+    """Typical distance between training points inside the posterior once ``count`` are
+    added: ``(V / (n_in + count))^(1/d)``, with V the volume of the box holding the central
+    98 % of ``samples`` in every coordinate and n_in the ``existing`` points inside it
+    (unit cube).  The design's own :func:`spacing` would be far larger than a narrow
+    posterior and would let no sample through."""
+    lo, hi = np.quantile(samples, [0.01, 0.99], axis=0)
+    volume = float(np.prod(np.maximum(hi - lo, 1e-6)))
+    inside = int(np.all((existing >= lo) & (existing <= hi), axis=1).sum()) if len(existing) \
+        else 0
+    return (volume / max(inside + count, 1)) ** (1.0 / samples.shape[1])
+
+
+def spread_posterior_points(samples: np.ndarray, existing: np.ndarray, count: int,
+                            seed: int, round_index: int) -> np.ndarray:
+    """Up to ``count`` posterior samples, in random order, that keep apart from the data.
+
+    Samples are visited in a random order (so the picks follow the posterior density) and
+    kept when no existing or already kept point lies within half of
+    :func:`posterior_spacing`.
+
+    Parameters
+    ----------
+    samples : ndarray, shape (s, d)
+        Posterior samples in the unit cube (after burn-in and thinning).
+    existing : ndarray, shape (n, d)
+        Every point already planned in the store (training and hold-out).
+    count : int
+    seed, round_index : int
+        Make the choice deterministic.
+
+    Returns
+    -------
+    ndarray, shape (m, d)
+        ``m <= count`` points (fewer when the posterior is already densely covered).
+    """
+    min_distance = 0.5 * posterior_spacing(samples, existing, count)
+    to_existing = cKDTree(existing).query(samples)[0] if len(existing) else \
+        np.full(len(samples), np.inf)
+    kept: list[int] = []
+    for i in _rng(seed, STAGE_POSTERIOR, round_index).permutation(len(samples)):
+        if len(kept) == count:
+            break
+        if to_existing[i] < min_distance:
+            continue
+        if kept and np.min(np.linalg.norm(samples[kept] - samples[i], axis=1)) < min_distance:
+            continue
+        kept.append(int(i))
+    return samples[kept]
