@@ -72,6 +72,25 @@ def test_burn_in_and_thinning_follow_the_factors():
     assert thinning(np.array([40.0, 60.0]), policy) == 20
 
 
+def test_tau_discard_leaves_the_initial_transient_out():
+    # An AR(1) chain (tau = 9) whose walkers start 10 sigma off and drift in over 2000
+    # steps (like walkers drawn from a wide prior creeping along a ridge): on the whole
+    # chain the transient inflates tau; on the second half tau is the stationary one (the
+    # tolerance of the AR(1) test above).
+    rho, steps = 0.8, 12000
+    chain = ar1_chain(np.array([rho]), steps=steps, walkers=32, seed=7)
+    chain += 10.0 * np.clip(1.0 - np.arange(steps) / 2000.0, 0.0, None)[:, None, None]
+    whole = assess(chain, None, Policy(tau_factor=50.0))
+    half_policy = Policy(tau_factor=50.0, tau_discard=0.5)
+    half = assess(chain, None, half_policy)
+    assert whole.tau[0] > 1.2 * 9.0
+    np.testing.assert_allclose(half.tau, (1 + rho) / (1 - rho), rtol=0.06)
+    assert half.length_ok  # 6000 counted steps > 50 * 9
+    assert not assess(chain[:800], None, half_policy).length_ok  # 400 < 50 * 9
+    assert burn_in(half.tau, half_policy, steps) == steps // 2  # at least the left-out part
+    assert burn_in(half.tau, Policy(), steps) == 18  # ceil(2 * ~9), as before
+
+
 def gaussian_log_prob(chain: np.ndarray) -> np.ndarray:
     """ln p of a unit Gaussian (max 0) at every position of a (steps, walkers, dim) chain."""
     return -0.5 * np.sum(chain**2, axis=-1)

@@ -219,6 +219,10 @@ class SamplerSection:
     tau_rtol: float = spec("... and tau changed by less than this (relative) since the last "
                            "check", 0.01, minimum=0.0, exclusive_minimum=True)
     burn_factor: float = spec("burn-in = burn_factor x max tau steps", 2.0, minimum=0.0)
+    tau_discard: float = spec("share of the chain's first steps (the initial transient) left "
+                              "out of the tau estimate and the stopping rule's length, and "
+                              "burnt in at least; 0 = the whole chain", 0.0, minimum=0.0,
+                              maximum=0.9)
     thin_factor: float = spec("thinning = thin_factor x min tau steps (at least 1)", 0.5,
                               minimum=0.0, exclusive_minimum=True)
     write_every: int = spec("write the chain to the run file every this many steps (a "

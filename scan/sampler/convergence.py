@@ -5,7 +5,12 @@ walker-averaged autocorrelation function summed up to Sokal's automatic window, 
 Foreman-Mackey et al. 2013, arXiv:1202.3665, and the emcee autocorrelation tutorial).
 The rule — chain longer than ``tau_factor``·τ for every parameter and τ stable to
 ``tau_rtol`` between checks — is the one emcee's documentation recommends (common
-practice).
+practice).  With ``tau_discard`` > 0 the first share of the chain (the initial transient,
+e.g. walkers drawn from a wide prior still finding a narrow ridge) is left out of the τ
+estimate, the length rule counts only the rest, and the burn-in is at least that share:
+an autocorrelation time is defined for a stationary chain (Sokal 1997, "Monte Carlo
+methods in statistical mechanics", discards the initial transient first; emcee's
+``get_autocorr_time(discard=...)``).
 
 Burn-in looks at ln p too (:func:`settle`): after the ``burn_factor``·τ steps, a walker
 whose median ln p lies below the typical set — ln p_max − χ²_d(1 − α)/2, the level a
@@ -36,12 +41,19 @@ class Policy:
     tau_rtol: float = 0.01
     burn_factor: float = 2.0
     thin_factor: float = 0.5
+    tau_discard: float = 0.0
 
     @classmethod
     def from_section(cls, section: SamplerSection) -> Policy:
         """From the ``[sampler]`` table."""
         return cls(section.tau_factor, section.tau_rtol, section.burn_factor,
-                   section.thin_factor)
+                   section.thin_factor, section.tau_discard)
+
+    def judged_from(self, steps: int) -> int:
+        """First step of the part of a ``steps``-long chain that τ is estimated on (and
+        that the stopping rule's length counts): the first ``tau_discard`` share is the
+        initial transient, left out."""
+        return int(self.tau_discard * steps)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -73,18 +85,25 @@ def estimate_tau(chain: np.ndarray) -> np.ndarray:
 
 
 def assess(chain: np.ndarray, previous_tau: np.ndarray | None, policy: Policy) -> Assessment:
-    """Apply the stopping rule to a chain, given the τ of the previous check (or None)."""
-    tau = estimate_tau(chain)
+    """Apply the stopping rule to a chain, given the τ of the previous check (or None).
+
+    τ is estimated on the chain after :meth:`Policy.judged_from` (all of it by default),
+    and that part must be longer than ``tau_factor`` x τ.
+    """
     steps = int(np.shape(chain)[0])
-    length_ok = bool(np.all(steps > policy.tau_factor * tau))
+    start = policy.judged_from(steps)
+    tau = estimate_tau(np.asarray(chain)[start:])
+    length_ok = bool(np.all(steps - start > policy.tau_factor * tau))
     stable = previous_tau is not None and bool(
         np.all(np.abs(np.asarray(previous_tau) - tau) < policy.tau_rtol * tau))
     return Assessment(steps, tau, length_ok, stable)
 
 
-def burn_in(tau: np.ndarray, policy: Policy) -> int:
-    """Steps to discard: ``burn_factor`` x the largest τ (rounded up)."""
-    return int(math.ceil(policy.burn_factor * float(np.max(tau))))
+def burn_in(tau: np.ndarray, policy: Policy, steps: int = 0) -> int:
+    """Steps to discard: ``burn_factor`` x the largest τ (rounded up), and at least the
+    transient left out of the τ estimate (:meth:`Policy.judged_from` of ``steps``)."""
+    return max(int(math.ceil(policy.burn_factor * float(np.max(tau)))),
+               policy.judged_from(steps))
 
 
 def thinning(tau: np.ndarray, policy: Policy) -> int:

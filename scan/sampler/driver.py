@@ -288,7 +288,8 @@ class _Loop:
         return Progress(self.step, self.plan.config.sampler.max_steps,
                         float(np.mean(accepted)) / max(self.step, 1),
                         None if tau is None else float(np.max(tau)),
-                        None if tau is None else self.step / float(np.max(tau)),
+                        None if tau is None else
+                        (self.step - self.policy.judged_from(self.step)) / float(np.max(tau)),
                         self.step - self.start_step, time.monotonic() - self.t0)
 
     def _finish(self, status: str) -> None:
@@ -297,9 +298,11 @@ class _Loop:
         extras.status = status
         self.backend.flush()
         if self.step >= 2:
-            tau = estimate_tau(self.backend.get_chain())
+            chain = self.backend.get_chain()
+            tau = estimate_tau(chain[self.policy.judged_from(len(chain)):])
             extras.tau = tau
-            extras.burn_in, extras.thin = burn_in(tau, self.policy), thinning(tau, self.policy)
+            extras.burn_in = burn_in(tau, self.policy, len(chain))
+            extras.thin = thinning(tau, self.policy)
         self.backend.flush()
 
     def outcome(self, status: str, stopped_by: str | None) -> RunOutcome:
