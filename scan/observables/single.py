@@ -18,6 +18,7 @@ from scan.observables.pbh.qcd import (
     collapse_note,
     epoch_exponents,
     epoch_thresholds,
+    qcd_note,
 )
 from scan.observables.pbh.zeta_map import ZetaMap
 from scan.observables.record import Observables, peak_of
@@ -185,14 +186,6 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                        notes=notes + ((resampled,) if resampled else ()) + warnings_,
                        zeta_map=zeta_map, f_pbh_total_gaussian=gaussian_total,
                        qcd={"qcd_threshold": qcd_threshold, "qcd_collapse": qcd_collapse})
-
-
-def qcd_note(M_H: np.ndarray, thresholds: np.ndarray, threshold: float) -> str:
-    """One line on the QCD-era threshold (printed with the result)."""
-    i = int(np.argmin(thresholds))
-    return (f"QCD-era threshold (harada-scaled): C_th falls from {threshold:g} to "
-            f"{thresholds[i]:.4g} at M_H = {M_H[i]:.3g} M_sun (w from the g_* table); "
-            f"a lower threshold raises f_PBH there by orders of magnitude")
 
 
 def nongaussian_note(zmap: ZetaMap, gaussian: float, nongaussian: float, window: str) -> str:
