@@ -125,3 +125,71 @@ def test_walkers_use_the_qcd_conventions(trained, sampled):  # noqa: F811
     _, off_blobs = off.target.log_and_blobs(THETAS)
     if not sampled:   # the stand-in's peaks form at M_H << M_sun: w below 1/3 only slightly
         assert np.all(blobs["f_pbh_total"] != off_blobs["f_pbh_total"])
+
+
+def test_chain_records_the_conventions_and_summary_prints_the_notes(trained):  # noqa: F811
+    """A 30-step chain with both QCD-era conventions: the file's attributes name them and
+    carry the notes the single path prints; the summary shows both."""
+    _, plan = _target(trained, QCD)
+    with choose_pool(None, False, vectorized=True) as pool:
+        run_chain(plan, pool, restart=True)
+    conv = runfile.pbh_convention(plan.path)
+    assert (conv["qcd_threshold"], conv["qcd_collapse"]) == ("harada-scaled", "gamma-of-w")
+    assert "raises f_PBH there" in conv["qcd_notes"] and \
+        "not a published table" in conv["qcd_notes"]
+    text = format_summary(summarize(plan.path))
+    assert "qcd_threshold = 'harada-scaled', qcd_collapse = 'gamma-of-w'" in text
+    assert "QCD-era threshold (harada-scaled): C_th falls from 0.5 to" in text
+    assert "K stays 3.3 (no published K(w) found)" in text
+
+
+def test_grid_records_and_prints_the_conventions(trained, tmp_path, capsys):  # noqa: F811
+    small = GRID.replace("x_points = 6", "x_points = 2").replace("y_points = 5",
+                                                                 "y_points = 2")
+    cfg = str(write_config(tmp_path, trained[0] / "standin" / "surrogate.h5",
+                           small + QCD.replace("qcd_collapse", "# qcd_collapse")))
+    assert main(["grid", cfg, "--set", SETS[0]]) == 0
+    out = capsys.readouterr().out
+    with h5py.File(tmp_path / "results" / "standin" / "grid.h5", "r") as handle:
+        assert handle.attrs["qcd_threshold"] == "harada-scaled"
+        assert handle.attrs["qcd_collapse"] == "off"
+        assert "C_th falls from 0.5" in handle.attrs["qcd_notes"]
+    assert "qcd_threshold = 'harada-scaled'" in out and "C_th falls from 0.5" in out
+
+
+@pytest.mark.parametrize("sets, key", [
+    (('observables.non_gaussianity="local"', "observables.f_nl=1.0",
+      'observables.qcd_threshold="harada-scaled"'), "observables.qcd_threshold"),
+    (('observables.qcd_collapse="gamma-of-w"', 'observables.mass_function="monochromatic"'),
+     "observables.qcd_collapse")])
+def test_bad_combinations_exit_2_naming_the_key(trained, tmp_path, capsys, sets,  # noqa: F811
+                                                key):
+    cfg = tmp_path / "run.toml"
+    cfg.write_text(make_config(tmp_path, surrogate=trained[0] / "standin" / "surrogate.h5"
+                               ).text)
+    assert main(["sample", str(cfg), *[a for s in sets for a in ("--set", s)]]) == 2
+    err = capsys.readouterr().err
+    assert key in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "standin" / "chain.h5").exists()
+
+
+def test_exact_side_uses_the_same_conventions(trained):  # noqa: F811
+    """verify's exact observables (the per-spectrum path with the config's QCD-era
+    conventions) carry the notes and agree with the walker's value.  The two
+    formation-epoch tables discretise sigma^2 differently: log10 f_PBH agrees to 1e-3
+    relative, as in tests/test_sampler_posterior.py and tests/test_sampler_nongaussian.py
+    (the tolerance derived there)."""
+    cfg, plan = _target(trained, QCD)
+    _, blobs = plan.target.log_and_blobs(THETAS[:1])
+    pred = plan.target.loaded["surrogate"].predict(THETAS[:1, :3])
+    lnkp, x = pred.ln_k_peak[0], pred.x
+    lnk = np.arange(lnkp + x[0] - 2.0, lnkp + x[-1] + 2.0, 0.02)
+    log10_p = np.interp(lnk, lnkp + x, pred.log10_P_peak[0] + pred.shape[0],
+                        left=-np.inf, right=-np.inf)
+    out = observables_from_table(cfg, np.exp(lnk), 10.0**log10_p, k_peak=np.exp(lnkp),
+                                 P_peak=10.0**pred.log10_P_peak[0], n_s=0.96, r=0.01,
+                                 N_star=55.0)
+    assert any("harada-scaled" in n for n in out.notes)
+    assert any("gamma-of-w" in n for n in out.notes)
+    assert np.log10(out.observables.f_pbh_total) == pytest.approx(
+        np.log10(blobs["f_pbh_total"][0]), rel=1e-3)
