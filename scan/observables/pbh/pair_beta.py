@@ -51,8 +51,8 @@ def beta_mono_rows(s2: np.ndarray, k2: np.ndarray, y_th: np.ndarray,
 
 
 def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
-                        conv: PBHConventions, gamma_c: np.ndarray | None = None
-                        ) -> np.ndarray:
+                        conv: PBHConventions, gamma_c: np.ndarray | None = None,
+                        powers: np.ndarray | None = None) -> np.ndarray:
     """int dy K (C - C_th)^gamma_c p(y) [1] per pair, thresholds per pair, shape (n,).
 
     The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: 48-point
@@ -72,6 +72,9 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
     conv : PBHConventions
     gamma_c : ndarray [1], optional
         Critical-collapse exponent per pair, shape (n,) (default ``conv.gamma_c``).
+    powers : ndarray [1], optional
+        z^{1/gamma_c} at the rule's nodes per pair, shape (n, 48) (:func:`node_powers`
+        of the pairs' exponents, gathered; default: computed here).
 
     Returns
     -------
@@ -79,7 +82,7 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
         Shape (n,).
     """
     gam = conv.gamma_c if gamma_c is None else np.asarray(gamma_c, dtype=float)[:, None]
-    a = _GL_Z**(1 / gam)                                   # e / span at the nodes
+    a = node_powers(gam) if powers is None else powers     # e / span at the nodes
     wq = _GL_W * a / gam            # w z z^{1/gamma_c - 1}/gamma_c: (e/span)^gamma_c dy/dz
     sc, y0 = s[:, None], y_th[:, None]
     span = np.minimum(y_max(conv) - y0, 14 * np.sqrt(sc) + 1e-300)
@@ -94,3 +97,9 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
         g *= np.clip(nu * (nu * nu - 3), 0.0, None)
     row = conv.K * (span**(1 + gam))[:, 0] * prefactor(s, k, conv)
     return row * (g @ wq if wq.ndim == 1 else np.einsum("ij,ij->i", g, wq))
+
+
+def node_powers(gamma_c) -> np.ndarray:
+    """z^{1/gamma_c} [1] at the 48 Gauss-Legendre nodes of :func:`beta_weighted_pairs`,
+    shape (48,) for a number or (n, 48) for exponents of shape (n, 1)."""
+    return _GL_Z**(1 / np.asarray(gamma_c, dtype=float))

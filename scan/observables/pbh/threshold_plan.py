@@ -42,7 +42,7 @@ from scan.observables import cosmo
 from scan.observables.pbh.abundance import prefactor
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.kernel import half_exp
-from scan.observables.pbh.pair_beta import beta_mono_rows, beta_weighted_pairs
+from scan.observables.pbh.pair_beta import beta_mono_rows, beta_weighted_pairs, node_powers
 from scan.observables.pbh.plan import UNDERFLOW_HALF_NU2, PBHPlan, _log_interp, plan_pbh
 from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
 from scan.observables.pbh.tables import beta_tabulated
@@ -112,6 +112,7 @@ class ThresholdPlan:
     _force: np.ndarray | None     # epochs kept live because a kernel weight is not finite
     epoch_scale: np.ndarray | None = None
     epoch_gamma: np.ndarray | None = None
+    _epoch_powers: np.ndarray | None = None  # node_powers of epoch_gamma, shape (n_H, 48)
 
     @property
     def k_in(self) -> np.ndarray:
@@ -226,8 +227,11 @@ class ThresholdPlan:
                 # linear criteria: the table of ln S does not depend on delta_c
                 beta[i, h] = beta_tabulated(table, s2[i, h], k2[i, h], y_th[i, h])
             else:
-                gam = None if self.epoch_gamma is None else self.epoch_gamma[h]
-                beta[i, h] = beta_weighted_pairs(s2[i, h], k2[i, h], y_th[i, h], conv, gam)
+                gam = powers = None
+                if self.epoch_gamma is not None:
+                    gam, powers = self.epoch_gamma[h], self._epoch_powers[h]
+                beta[i, h] = beta_weighted_pairs(s2[i, h], k2[i, h], y_th[i, h], conv, gam,
+                                                 powers)
             total = np.sum(self.base._wln * self.base._coef * beta, axis=-1)
         if s0.ndim == 1:
             return ThresholdResult(self.M, f[0], float(total[0]), self.M_H, s0,
@@ -359,4 +363,4 @@ def plan_pbh_thresholds(k_in, M_msun, conventions: PBHConventions | None = None,
         force = np.zeros(base.M_H.size, bool) if conv.criterion == "compaction" \
             else ~np.isfinite(rxcT).all(1)
     return ThresholdPlan(base, (lo, hi), threshold_range is not None, xT, rxcT, force,
-                         scale, gam)
+                         scale, gam, None if gam is None else node_powers(gam[:, None]))
