@@ -165,21 +165,19 @@ def test_no_live_epoch_gives_exactly_zero():
 @pytest.mark.parametrize("changes, key", [
     ({"non_gaussianity": "model"}, "observables.non_gaussianity"),
     ({"non_gaussianity": "local", "f_nl": 1.0, "g_nl": 2.0}, "observables.g_nl"),
-    ({"qcd_threshold": "harada-scaled", "non_gaussianity": "local", "f_nl": 1.0},
-     "observables.qcd_threshold"),
-    ({"qcd_collapse": "gamma-of-w", "non_gaussianity": "logarithmic", "log_lambda": 3.0},
-     "observables.qcd_collapse"),
 ])
 def test_sampler_paths_refuse_conventions_they_do_not_compute(changes, key):
-    # sample/grid/verify evaluate f_PBH for a stack with the config's fixed map, and the
-    # non-Gaussian stack has one threshold for all epochs: a per-sample delta-N map or a
-    # per-epoch threshold with a non-Gaussian map must stop them instead of being
-    # silently ignored (the Gaussian stack takes the QCD-era conventions)
+    # sample/grid/verify evaluate f_PBH for a stack with the config's fixed map: a
+    # per-sample delta-N map must stop them instead of being silently ignored (the
+    # stacks take the QCD-era conventions, tests/test_sampler_qcd.py)
     with pytest.raises(ConfigError, match=key):
         require_batch_conventions(ObservablesSection(**changes), "run.toml")
     require_batch_conventions(ObservablesSection(), "run.toml")
     require_batch_conventions(ObservablesSection(qcd_threshold="harada-scaled",
                                                  qcd_collapse="gamma-of-w"), "run.toml")
+    require_batch_conventions(ObservablesSection(qcd_threshold="harada-scaled",
+                                                 non_gaussianity="local", f_nl=1.0),
+                              "run.toml")
     require_batch_conventions(ObservablesSection(non_gaussianity="local", f_nl=1.0), "run.toml")
     require_batch_conventions(ObservablesSection(non_gaussianity="logarithmic",
                                                  log_lambda=3.0), "run.toml")

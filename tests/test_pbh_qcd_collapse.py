@@ -105,14 +105,13 @@ def test_bad_combinations_name_the_key(changes):
     ObservablesSection(qcd_collapse="gamma-of-w").validate("observables", "run.toml")
 
 
-def test_sampler_paths_refuse_the_qcd_exponent_with_a_non_gaussian_map():
-    # the Gaussian stack takes per-epoch exponents (tests/test_sampler_qcd.py), the
-    # non-Gaussian stack has one gamma_c for all epochs
+def test_sampler_paths_take_the_qcd_exponent():
+    # the Gaussian and non-Gaussian stacks take per-epoch exponents
+    # (tests/test_sampler_qcd.py)
     require_batch_conventions(ObservablesSection(qcd_collapse="gamma-of-w"), "run.toml")
-    with pytest.raises(ConfigError, match="observables.qcd_collapse"):
-        require_batch_conventions(ObservablesSection(qcd_collapse="gamma-of-w",
-                                                     non_gaussianity="local", f_nl=1.0),
-                                  "run.toml")
+    require_batch_conventions(ObservablesSection(qcd_collapse="gamma-of-w",
+                                                 non_gaussianity="local", f_nl=1.0),
+                              "run.toml")
 
 
 @pytest.fixture

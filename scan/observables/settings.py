@@ -92,19 +92,17 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
     """Refuse conventions the vectorised (surrogate) and table paths do not compute.
 
     The sampler, the grid and verify evaluate f_PBH for a stack of spectra: Gaussian zeta
-    (with the QCD-era threshold and exponent per formation epoch,
-    :mod:`scan.observables.pbh.threshold_plan`), or the ``local`` and ``logarithmic``
-    maps with the config's fixed parameters and one threshold and gamma_c for all epochs
-    (:mod:`scan.observables.pbh.ng_stack`).  ``model`` needs every sample's own delta-N
-    map, which the surrogate does not emulate, and the non-Gaussian stack has no
-    per-epoch threshold: both would silently be ignored there, so they stop with a
-    message instead.
+    (:mod:`scan.observables.pbh.threshold_plan`), or the ``local`` (g_NL = 0) and
+    ``logarithmic`` maps with the config's fixed parameters
+    (:mod:`scan.observables.pbh.ng_stack`), each with the QCD-era threshold and exponent
+    per formation epoch.  ``model`` needs every sample's own delta-N map, which the
+    surrogate does not emulate, and the stack covers the quadratic local map only: both
+    would silently be ignored there, so they stop with a message instead.
 
     Raises
     ------
     ConfigError
-        Naming ``observables.non_gaussianity``, ``observables.g_nl``,
-        ``observables.qcd_threshold`` or ``observables.qcd_collapse``.
+        Naming ``observables.non_gaussianity`` or ``observables.g_nl``.
     """
     if section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' is not available "
@@ -117,18 +115,6 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
                           "available in sample, grid and verify (their non-Gaussian f_PBH "
                           "covers the quadratic local map)", "set g_nl = 0 for the posterior "
                           "and check single models with zetascan solve")
-    if section.non_gaussianity == "gaussian":
-        return
-    for key in ("qcd_threshold", "qcd_collapse"):
-        value = getattr(section, key)
-        if value != "off":
-            raise ConfigError(source, f"observables.{key}", f"'{value}' with non_gaussianity "
-                              f"= '{section.non_gaussianity}' is not available in sample, "
-                              "grid and verify yet (their non-Gaussian f_PBH has one "
-                              "threshold and one gamma_c for all formation epochs)",
-                              f"set {key} = 'off' for a non-Gaussian posterior, or "
-                              "non_gaussianity = 'gaussian' to keep the QCD-era convention; "
-                              "check single models with both in zetascan solve")
 
 
 def pbh_convention_attrs(section: ObservablesSection) -> dict:

@@ -77,7 +77,8 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
     ------
     ConfigError
         No model parameters, an unknown or unsupported nuisance name, a PBH convention the
-        vectorised path does not compute (non-Gaussian zeta, QCD-era threshold), missing
+        vectorised path does not compute (the delta-N map, g_NL, a sampled threshold with
+        non-Gaussian zeta), missing
         curve files or surrogate, or a surrogate over other parameters.
     """
     if priors.n_model == 0:

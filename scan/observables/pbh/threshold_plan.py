@@ -42,7 +42,11 @@ from scan.observables import cosmo
 from scan.observables.pbh.abundance import prefactor
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.kernel import half_exp
-from scan.observables.pbh.pair_beta import beta_mono_rows, beta_weighted_pairs, node_powers
+from scan.observables.pbh.pair_beta import (
+    beta_mono_rows,
+    beta_weighted_pairs,
+    node_powers,
+)
 from scan.observables.pbh.plan import UNDERFLOW_HALF_NU2, PBHPlan, _log_interp, plan_pbh
 from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
 from scan.observables.pbh.tables import beta_tabulated
