@@ -5,6 +5,11 @@ as the sampler's), 32 output masses, amplitudes tuned so f_PBH,total runs from 1
 1 at the middle threshold; per-row thresholds uniform in the range.  Both evaluations
 are timed alternately in one run; medians of the repeats and their ratio are printed.
 
+The last case has the QCD-era conventions (harada-scaled threshold, gamma-of-w exponent:
+a threshold factor and an exponent per formation epoch).  Measured (qcdsample branch, 3
+runs, 2-core machine shared, nice 15): compaction critical per-row / fixed 1.85-2.06,
+with the QCD-era conventions 1.98-2.55.
+
 Run: python tests/bench/bench_pbh_thresholds.py
 """
 from __future__ import annotations
