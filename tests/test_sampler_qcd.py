@@ -177,6 +177,30 @@ def test_walkers_use_the_qcd_conventions(trained, sampled):  # noqa: F811
         assert np.all(blobs["f_pbh_total"] != off_blobs["f_pbh_total"])
 
 
+def test_non_gaussian_walkers_use_the_qcd_conventions(trained):  # noqa: F811
+    """local f_NL = 1 with both QCD-era conventions: the walkers' f_PBH equals the
+    per-spectrum path with the same per-epoch thresholds and exponents (rtol 1e-4, the
+    stack's Gauss-Hermite error as in tests/test_sampler_nongaussian.py), and the Gaussian
+    total beside it the per-spectrum Gaussian one (rtol 1e-12, module doc)."""
+    cfg, plan = _target(trained, QCD + 'non_gaussianity = "local"\nf_nl = 1.0\n')
+    target, dof = plan.target, settings_of(cfg.observables).dof
+    _, blobs = target.log_and_blobs(THETAS)
+    batch, pbh = target.loaded["plan"], target.loaded["plan"].pbh
+    pred = target.loaded["surrogate"].predict(THETAS[:, :3])
+    table = spectra_on_table(batch.lnk_table, pred.ln_k_peak, batch.x,
+                             pred.log10_P_peak[:, None] + pred.shape)
+    single = pbh.stacked.ng
+    conv, M_H = single.base.conventions, single.base.M_H
+    epochs = (epoch_thresholds(M_H, conv.threshold, dof),
+              epoch_exponents(M_H, conv.gamma_c, dof))
+    for i, row in enumerate(table):
+        ref = single.evaluate(row, pbh.zmap, *epochs).f_pbh_total
+        assert blobs["f_pbh_total"][i] == pytest.approx(ref, rel=1e-4)
+        ref = single.evaluate(row, ZetaMap(), *epochs).f_pbh_total
+        assert blobs["f_pbh_total_gaussian"][i] == pytest.approx(ref, rel=RTOL)
+        assert blobs["f_pbh_total"][i] > 10 * blobs["f_pbh_total_gaussian"][i]
+
+
 def test_chain_records_the_conventions_and_summary_prints_the_notes(trained):  # noqa: F811
     """A 30-step chain with both QCD-era conventions: the file's attributes name them and
     carry the notes the single path prints; the summary shows both."""
