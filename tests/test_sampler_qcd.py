@@ -37,9 +37,8 @@ from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 from scan.observables.settings import settings_of
 from scan.observables.window import spectra_on_table
-from scan.pool import choose_pool
 from scan.posterior.exact import observables_from_table
-from scan.sampler import plan_run, run_chain, runfile
+from scan.sampler import plan_run, runfile
 from scan.sampler.summary import summarize
 
 sys.path.insert(0, str(Path(__file__).parent / "bench"))
@@ -201,17 +200,23 @@ def test_non_gaussian_walkers_use_the_qcd_conventions(trained):  # noqa: F811
         assert blobs["f_pbh_total"][i] > 10 * blobs["f_pbh_total_gaussian"][i]
 
 
-def test_chain_records_the_conventions_and_summary_prints_the_notes(trained):  # noqa: F811
-    """A 30-step chain with both QCD-era conventions: the file's attributes name them and
-    carry the notes the single path prints; the summary shows both."""
-    _, plan = _target(trained, QCD)
-    with choose_pool(None, False, vectorized=True) as pool:
-        run_chain(plan, pool, restart=True)
-    conv = runfile.pbh_convention(plan.path)
+def test_chain_records_the_conventions_and_sample_and_summary_print_the_notes(
+        trained, tmp_path, capsys):  # noqa: F811
+    """``zetascan sample`` with both QCD-era conventions: the notes are printed at the
+    start, the chain's attributes name the conventions and carry the notes the single path
+    prints, and ``zetascan summary`` shows both."""
+    cfg = tmp_path / "run.toml"
+    cfg.write_text(make_config(tmp_path, surrogate=trained[0] / "standin" / "surrogate.h5",
+                               extra=QCD).text)
+    assert main(["sample", str(cfg)]) == 0
+    started = capsys.readouterr().out
+    assert "qcd_threshold = 'harada-scaled'" in started and "C_th falls from 0.5" in started
+    chain = tmp_path / "standin" / "chain.h5"
+    conv = runfile.pbh_convention(chain)
     assert (conv["qcd_threshold"], conv["qcd_collapse"]) == ("harada-scaled", "gamma-of-w")
     assert "raises f_PBH there" in conv["qcd_notes"] and \
         "not a published table" in conv["qcd_notes"]
-    text = format_summary(summarize(plan.path))
+    text = format_summary(summarize(chain))
     assert "qcd_threshold = 'harada-scaled', qcd_collapse = 'gamma-of-w'" in text
     assert "QCD-era threshold (harada-scaled): C_th falls from 0.5 to" in text
     assert "K stays 3.3 (no published K(w) found)" in text
