@@ -26,9 +26,12 @@ import numpy as np
 import pytest
 from test_grid import GRID, SETS, write_config
 from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
+from test_verify import OBSERVABLES, StandinExact
 
 from scan.cli import main
 from scan.cli.summary import format_summary
+from scan.cli.verify import format_report
+from scan.config import load_config_text
 from scan.observables import cosmo, gstar
 from scan.observables.pbh import PBHConventions, plan_pbh, plan_pbh_thresholds
 from scan.observables.pbh.ng_stack import plan_pbh_mapped
@@ -37,9 +40,11 @@ from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 from scan.observables.settings import settings_of
 from scan.observables.window import spectra_on_table
+from scan.pool import SerialPool, choose_pool
 from scan.posterior.exact import observables_from_table
-from scan.sampler import plan_run, runfile
+from scan.sampler import plan_run, run_chain, runfile
 from scan.sampler.summary import summarize
+from scan.verify.run import open_run, verify_run
 
 sys.path.insert(0, str(Path(__file__).parent / "bench"))
 from bench_pbh_nongaussian import spectra
@@ -272,3 +277,27 @@ def test_exact_side_uses_the_same_conventions(trained):  # noqa: F811
     assert any("gamma-of-w" in n for n in out.notes)
     assert np.log10(out.observables.f_pbh_total) == pytest.approx(
         np.log10(blobs["f_pbh_total"][0]), rel=1e-3)
+
+
+def test_verify_recomputes_with_the_conventions_and_prints_them(trained):  # noqa: F811
+    """``verify`` of a QCD-era chain: the exact side (the stand-in truth through the
+    per-spectrum observables, tests/test_verify.py) computes with the stored config's
+    conventions, the report names them with the notes, and f_PBH's error is the
+    surrogate's own, as without them: the verdict is ok (tests/test_verify.py asserts the
+    same for the plain chain)."""
+    tmp = trained[0]
+    cfg = make_config(tmp, extra=QCD.replace("[observables]", OBSERVABLES))
+    cfg = load_config_text(cfg.text, cfg.source, overrides=("sampler.max_steps=40",))
+    plan = plan_run(cfg, tmp / "qcd_vrun" / "chain.h5")
+    with choose_pool(None, False, vectorized=True) as pool:
+        run_chain(plan, pool, restart=True)
+    run = open_run(plan.path)
+    with SerialPool() as pool:
+        result = verify_run(run, 16, pool, exact=StandinExact(run.config), write=False)
+    r = result.report
+    assert r["pbh_convention"]["qcd_threshold"] == "harada-scaled"
+    assert r["exact_notes"] == r["valid_exact"] > 0          # every exact solve says so
+    text = format_report(r)
+    assert "qcd_threshold = 'harada-scaled', qcd_collapse = 'gamma-of-w'" in text
+    assert "C_th falls from 0.5" in text and "not a published table" in text
+    assert r["ess_fraction"] >= 0.8 and not r["biased"], r["flags"]
