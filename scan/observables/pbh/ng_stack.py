@@ -100,6 +100,8 @@ class StackedNGPlan:
 
     ``mass_matrix`` (n_H, n_y, n_M) takes ln g at the nodes to the masses' y(M, M_H) per
     epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights.
+    ``y_nodes`` (n_y,) and ``beta_weight`` (n_beta,) carry a leading epoch axis (n_H, ...)
+    with the QCD-era per-epoch thresholds and exponents.
     """
 
     ng: NonGaussianPlan
@@ -123,8 +125,8 @@ class StackedNGPlan:
         per_epoch = self.y_nodes.ndim == 2                  # QCD-era thresholds
         live = _live(self.y_nodes[..., 0], s_c2, s_r2, zmap)
         i, h = np.nonzero(live)
-        lng = ln_density(self.y_nodes[h] if per_epoch else self.y_nodes, s_c2[i, h, None],
-                         s_cr[i, h, None],
+        nodes = self.y_nodes[h] if per_epoch else self.y_nodes
+        lng = ln_density(nodes, s_c2[i, h, None], s_cr[i, h, None],
                          s_r2[i, h, None], zmap, base.conventions.ps_factor)
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
         i, h, lng = i[keep], h[keep], lng[keep]
@@ -156,9 +158,9 @@ class StackedNGPlan:
         return ln_f.sum(axis=0)
 
 
-def _live(y_th: float, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
-    """(spectrum, epoch) pairs whose density above ``y_th`` can be non-zero in double
-    precision.  Variances below 1e-250 (columns the spectrum does not reach) are dead.
+def _live(y_th, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
+    """(spectrum, epoch) pairs whose density above ``y_th`` (a number, or one per epoch)
+    can be non-zero in double precision.  Variances below 1e-250 (columns the spectrum does not reach) are dead.
     Logarithmic map: on the curve C_G = y u, u = 1 - lambda zeta_G, the exponent q of
     the joint density is at least max(C_G^2/sigma_c^2, zeta_G^2/sigma_r^2) (each marginal
     bounds it), whose minimum over u is y^2 / (sigma_c + |lambda| y sigma_r)^2; dead where
