@@ -230,7 +230,7 @@ class MappedStackPlan:
         """f_PBH of a stack (m, n_k) [1] with the Gaussian total beside it
         (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported."""
         if thresholds is not None:
-            raise ValueError("the stacked non-Gaussian plan has one threshold for all "
+            raise ValueError("the stacked non-Gaussian plan has the same thresholds for all "
                              "spectra")
         gaussian = (self.gaussian or self.stacked.ng.base).evaluate(P_zeta).f_pbh_total
         return replace(self.stacked.evaluate(P_zeta, self.zmap),
