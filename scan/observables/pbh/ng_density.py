@@ -222,8 +222,10 @@ def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
     """ln int over one branch (lo, hi) of exp(psi), compiled
     (:func:`scan.observables.pbh.ng_ridge.branch_integrals`).
 
-    Two Newton searches (from the conditional mean and from its mirror image, each a
-    sigma_r inside a finite end) find up to two ridges.  Where they differ, the
+    Three damped Newton searches (from the conditional mean and from its mirror image,
+    each a sigma_r inside a finite end, and from where C_G = c / F' meets its conditional
+    mean a zeta_G -- where the ridge lies when sigma_c^2 << sigma_r^2) find up to two
+    ridges; the two highest are kept.  Where they differ, the
     integrand is split by a partition of unity, omega_i = e^{q_i} / (e^{q_1} + e^{q_2})
     with q_i the Laplace (quadratic) approximation at ridge i, and each part gets the
     rule centred on its ridge: the parts sum to the integrand exactly and stay smooth.
