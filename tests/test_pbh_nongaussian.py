@@ -18,6 +18,7 @@ from scan.observables.pbh.nongaussian import (
 )
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 from scan.observables.settings import require_batch_conventions
+from scan.observables.single import nongaussian_note
 
 K = np.geomspace(1e5, 1e8, 300)
 M = np.geomspace(1e-2, 1e3, 60)
@@ -209,3 +210,14 @@ def test_density_resolves_the_ridge_at_the_logarithmic_edge(log_lambda):
                   for a, b in itertools.pairwise(cuts))
         ours = float(compaction_density(np.array(c), s_c2, s_cr, s_r2, zmap))
         assert ours == pytest.approx(ref, rel=1e-9)
+
+
+def test_negative_log_lambda_is_flagged_in_the_note():
+    """The logarithmic map with lambda < 0 has an edge where zeta -> -inf and F' diverges;
+    its f_PBH comes from there (measured ~1e52 above Gaussian at lambda = -2, against
+    ~1e-67 for the local map with the same f_NL = -5/3): the printed note must say so,
+    and must not for lambda > 0."""
+    down = nongaussian_note(zeta_map_of("logarithmic", log_lambda=-2.0), 1e-60, 1e-8, "top-hat")
+    up = nongaussian_note(zeta_map_of("logarithmic", log_lambda=3.0), 1e-60, 1e-8, "top-hat")
+    assert "map's edge" in down and "'model'" in down
+    assert "map's edge" not in up
