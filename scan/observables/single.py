@@ -194,6 +194,12 @@ def nongaussian_note(zmap: ZetaMap, gaussian: float, nongaussian: float, window:
     text = (f"non-Gaussian zeta ({zmap.kind}, f_NL at the peak {zmap.f_nl_equivalent():.3g}) "
             f"moves f_PBH from {gaussian:.3e} (Gaussian) to {nongaussian:.3e} "
             f"(x {ratio:.3g}): the tail of zeta, not P_zeta alone, sets the verdict")
+    if zmap.kind == "logarithmic" and zmap.log_lambda < 0:
+        text += ("; log_lambda < 0: zeta -> -inf at the map's edge zeta_G = 1/log_lambda, "
+                 "where F' diverges and a small C_G gives a large C_l, so PBHs form near "
+                 "the edge and f_PBH rises where the local map with the same f_NL lowers "
+                 "it; the map is not trustworthy that far: check with the model's own "
+                 "delta-N map (non_gaussianity = 'model')")
     if window == "gaussian":
         text += ("; zeta_G is smoothed with the Gaussian window itself (our convention; the "
                  "top-hat window uses the shell value sin(kR)/kR of Ferrante et al. 2023)")
