@@ -91,6 +91,21 @@ def test_tau_discard_leaves_the_initial_transient_out():
     assert burn_in(half.tau, Policy(), steps) == 18  # ceil(2 * ~9), as before
 
 
+def test_a_walker_that_never_moved_is_left_out_of_tau():
+    # emcee's estimator divides by the lag-0 autocovariance: a frozen walker gives 0/0.
+    chain = ar1_chain(np.array([0.8, 0.5]), steps=4000, walkers=16, seed=9)
+    frozen = chain.copy()
+    frozen[:, 3, 0] = 0.7  # walker 3 never moves in parameter 0
+    tau = estimate_tau(frozen)
+    assert np.all(np.isfinite(tau))
+    assert tau[0] == pytest.approx(estimate_tau(np.delete(chain, 3, axis=1))[0], rel=1e-12)
+    assert tau[1] == pytest.approx(estimate_tau(chain)[1], rel=1e-12)
+    still = np.zeros((10, 4, 2))
+    assert np.all(np.isinf(estimate_tau(still)))
+    assert burn_in(estimate_tau(still), Policy(), 10) == 10 and thinning(
+        estimate_tau(still), Policy()) == 1
+
+
 def gaussian_log_prob(chain: np.ndarray) -> np.ndarray:
     """ln p of a unit Gaussian (max 0) at every position of a (steps, walkers, dim) chain."""
     return -0.5 * np.sum(chain**2, axis=-1)

@@ -77,11 +77,23 @@ class Assessment:
 
 
 def estimate_tau(chain: np.ndarray) -> np.ndarray:
-    """Integrated autocorrelation time per parameter of a (steps, walkers, dim) chain."""
+    """Integrated autocorrelation time per parameter of a (steps, walkers, dim) chain.
+
+    A walker that never moved in a parameter over the chain (possible over the short
+    judged part of an early check when almost every proposal is rejected) has no
+    autocorrelation function (0/0) and is left out of that parameter's average; with
+    no walker moving, τ is inf (never converged).  Otherwise this is emcee's estimator.
+    """
     chain = np.asarray(chain, dtype=float)
     if chain.ndim != 3:
         raise ValueError(f"expected a (steps, walkers, dim) chain, got shape {chain.shape}")
-    return np.atleast_1d(emcee.autocorr.integrated_time(chain, c=5, tol=0, quiet=True))
+    tau = np.full(chain.shape[2], np.inf)
+    for j in range(chain.shape[2]):
+        moved = np.ptp(chain[:, :, j], axis=0) > 0
+        if moved.any():
+            tau[j] = emcee.autocorr.integrated_time(chain[:, moved, j][:, :, None], c=5,
+                                                    tol=0, quiet=True)[0]
+    return tau
 
 
 def assess(chain: np.ndarray, previous_tau: np.ndarray | None, policy: Policy) -> Assessment:
@@ -102,13 +114,16 @@ def assess(chain: np.ndarray, previous_tau: np.ndarray | None, policy: Policy) -
 def burn_in(tau: np.ndarray, policy: Policy, steps: int = 0) -> int:
     """Steps to discard: ``burn_factor`` x the largest τ (rounded up), and at least the
     transient left out of the τ estimate (:meth:`Policy.judged_from` of ``steps``)."""
+    if not np.all(np.isfinite(tau)):
+        return max(int(steps), policy.judged_from(steps))  # τ unknown: trust no step
     return max(int(math.ceil(policy.burn_factor * float(np.max(tau)))),
                policy.judged_from(steps))
 
 
 def thinning(tau: np.ndarray, policy: Policy) -> int:
-    """Keep every n-th step: ``thin_factor`` x the smallest τ (at least 1)."""
-    return max(1, int(policy.thin_factor * float(np.min(tau))))
+    """Keep every n-th step: ``thin_factor`` x the smallest finite τ (at least 1)."""
+    finite = np.asarray(tau, float)[np.isfinite(tau)]
+    return max(1, int(policy.thin_factor * float(np.min(finite)))) if finite.size else 1
 
 
 #: Probability α of the typical-set floor below which a walker's median ln p marks it a
