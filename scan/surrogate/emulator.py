@@ -17,7 +17,10 @@ Three kernel regressors (:mod:`scan.surrogate.gp`) on unit-cube inputs:
 * ``wall`` (only when a pole is given by a wall coordinate) — ln w_w, the pole's width
   at its wall, over every point where it is known (valid or not: it does not depend on
   the wall coordinate); a width prior stated for that coordinate needs it
-  (:mod:`scan.config.width_prior`).
+  (:mod:`scan.config.width_prior`);
+* ``high_peak`` (when it beats the global blocks there) — peak and shape regressors fitted
+  only on the models with the highest peaks, blended in where the global block predicts
+  one (:mod:`scan.surrogate.highpeak`: that is where f_PBH is decided).
 
 Each block's kernel is Matérn-5/2 or Gaussian, whichever has the lower leave-one-out
 error (``kernel = "auto"``): which kernel wins depends on the target's smoothness, so it
@@ -36,6 +39,7 @@ import numpy as np
 
 from scan.surrogate.bottleneck import Bottleneck, augment, candidates
 from scan.surrogate.gp import KERNELS, GPFit, fit_best, predict_gp, predictive_sd
+from scan.surrogate.highpeak import HighPeak, blend, fit_high_peak
 from scan.surrogate.shape import ShapeBasis, decode, encode, fit_basis
 
 PEAK_COLUMNS = ("ln_k_peak", "log10_P_peak")
@@ -88,6 +92,7 @@ class Emulator:
     (``constant_valid`` then gives it).  ``bottleneck`` is the extra input of the blocks
     named in ``bottleneck_blocks`` (None and () when no block gained from it).  ``wall``
     emulates ln w_w (None when the training points had no wall coordinate).
+    ``high_peak`` refines peak and shape where the peak is high (None: not fitted).
     """
 
     classifier: GPFit | None
@@ -99,6 +104,7 @@ class Emulator:
     bottleneck: Bottleneck | None = None
     bottleneck_blocks: tuple[str, ...] = ()
     wall: GPFit | None = None
+    high_peak: HighPeak | None = None
 
     def inputs(self, block: str, u: np.ndarray) -> np.ndarray:
         """The inputs of regressor ``block`` at unit-cube points ``u`` (p, d)."""
@@ -169,8 +175,8 @@ def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSetting
                       settings.shape_tolerance)
     tried = candidates(data.u, data.valid)
     peak, bottleneck = _fit_block(data.u[good], data.scalars[good, :2], [None, *tried], opts)
-    shape, shape_bn = _fit_block(data.u[good], encode(basis, data.shapes[good]),
-                                 [None, bottleneck], opts)
+    coefs = encode(basis, data.shapes[good])
+    shape, shape_bn = _fit_block(data.u[good], coefs, [None, bottleneck], opts)
     cmb_cols = data.scalars[:, 2:WALL_COLUMN]
     cmb_rows = data.valid & _complete(cmb_cols)
     cmb_rows = cmb_rows if cmb_rows.sum() >= 3 else good
@@ -178,8 +184,9 @@ def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSetting
                              [None, bottleneck], opts)
     blocks = tuple(name for name, bn in (("peak", bottleneck), ("shape", shape_bn),
                                          ("cmb", cmb_bn)) if bn is not None)
+    high_peak = fit_high_peak(data.u[good], data.scalars[good, :2], coefs, peak, shape, opts)
     return Emulator(classifier, bool(data.valid.all()), peak, shape, cmb, basis,
-                    bottleneck if blocks else None, blocks, _fit_wall(data, opts))
+                    bottleneck if blocks else None, blocks, _fit_wall(data, opts), high_peak)
 
 
 def _fit_wall(data: TrainingSet, opts: dict) -> GPFit | None:
@@ -215,6 +222,7 @@ def predict_unit(emulator: Emulator, u: np.ndarray) -> Prediction:
     peak = predict_gp(emulator.peak, emulator.inputs("peak", u))
     cmb = predict_gp(emulator.cmb, emulator.inputs("cmb", u))
     shape = predict_gp(emulator.shape, emulator.inputs("shape", u))
+    peak, shape = blend(emulator.high_peak, u, peak, shape)
     return Prediction(valid=margin > 0, margin=margin, ln_k_peak=peak[:, 0],
                       log10_P_peak=peak[:, 1], shape=decode(emulator.basis, shape),
                       x=emulator.basis.x, n_s=cmb[:, 0], log10_r=cmb[:, 1],
