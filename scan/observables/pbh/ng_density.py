@@ -14,8 +14,10 @@ Everything is returned as a logarithm, so that densities far below the smallest 
 * ``logarithmic`` (F = -ln(1 - lambda zeta_G)/lambda): in u = 1 - lambda zeta_G > 0 the
   map gives F' = 1/u and C_G = c u, so the exponent is a quadratic in u and the integral
   int_0^inf u exp(-A (u - mu)^2 / 2) du is closed form (an erfc) -- exact, no quadrature
-  (our derivation; it covers the whole domain lambda zeta_G < 1, where the per-spectrum
-  path of :mod:`~scan.observables.pbh.nongaussian` cuts at 12 sigma_r).
+  (our derivation; it covers the whole domain lambda zeta_G < 1, and the per-spectrum
+  path of :mod:`~scan.observables.pbh.nongaussian` uses it too; it equals Hinkley's 1969
+  density of a ratio of correlated normals on that branch,
+  tests/test_pbh_nongaussian_published.py).
 * ``local`` with g_NL = 0 (F' = 1 + (6/5) f_NL zeta_G; with g_NL != 0 the two-start
   ridge search was measured to miss ridges, so it is refused): Laplace-centred
   Gauss-Hermite quadrature on each monotone branch of F (between the real roots of F',
@@ -222,8 +224,10 @@ def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
     """ln int over one branch (lo, hi) of exp(psi), compiled
     (:func:`scan.observables.pbh.ng_ridge.branch_integrals`).
 
-    Two Newton searches (from the conditional mean and from its mirror image, each a
-    sigma_r inside a finite end) find up to two ridges.  Where they differ, the
+    Three damped Newton searches (from the conditional mean and from its mirror image,
+    each a sigma_r inside a finite end, and from where C_G = c / F' meets its conditional
+    mean a zeta_G -- where the ridge lies when sigma_c^2 << sigma_r^2) find up to two
+    ridges; the two highest are kept.  Where they differ, the
     integrand is split by a partition of unity, omega_i = e^{q_i} / (e^{q_1} + e^{q_2})
     with q_i the Laplace (quadratic) approximation at ridge i, and each part gets the
     rule centred on its ridge: the parts sum to the integrand exactly and stay smooth.
