@@ -18,9 +18,9 @@ Three kernel regressors (:mod:`scan.surrogate.gp`) on unit-cube inputs:
   at its wall, over every point where it is known (valid or not: it does not depend on
   the wall coordinate); a width prior stated for that coordinate needs it
   (:mod:`scan.config.width_prior`);
-* ``high_peak`` (when it beats the global blocks there) — peak and shape regressors fitted
-  only on the models with the highest peaks, blended in where the global block predicts
-  one (:mod:`scan.surrogate.highpeak`: that is where f_PBH is decided).
+* ``high_peak`` (when it beats the global shape block there) — a shape regressor fitted
+  only on the models with the highest peaks, blended in where the peak block predicts one
+  (:mod:`scan.surrogate.highpeak`: plateaus and other shapes the bulk does not have).
 
 Each block's kernel is Matérn-5/2 or Gaussian, whichever has the lower leave-one-out
 error (``kernel = "auto"``): which kernel wins depends on the target's smoothness, so it
@@ -92,7 +92,7 @@ class Emulator:
     (``constant_valid`` then gives it).  ``bottleneck`` is the extra input of the blocks
     named in ``bottleneck_blocks`` (None and () when no block gained from it).  ``wall``
     emulates ln w_w (None when the training points had no wall coordinate).
-    ``high_peak`` refines peak and shape where the peak is high (None: not fitted).
+    ``high_peak`` refines the shape where the peak is high (None: not fitted).
     """
 
     classifier: GPFit | None
@@ -184,7 +184,7 @@ def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSetting
                              [None, bottleneck], opts)
     blocks = tuple(name for name, bn in (("peak", bottleneck), ("shape", shape_bn),
                                          ("cmb", cmb_bn)) if bn is not None)
-    high_peak = fit_high_peak(data.u[good], data.scalars[good, :2], coefs, peak, shape, opts)
+    high_peak = fit_high_peak(data.u[good], data.scalars[good, 1], coefs, shape, opts)
     return Emulator(classifier, bool(data.valid.all()), peak, shape, cmb, basis,
                     bottleneck if blocks else None, blocks, _fit_wall(data, opts), high_peak)
 
@@ -222,7 +222,7 @@ def predict_unit(emulator: Emulator, u: np.ndarray) -> Prediction:
     peak = predict_gp(emulator.peak, emulator.inputs("peak", u))
     cmb = predict_gp(emulator.cmb, emulator.inputs("cmb", u))
     shape = predict_gp(emulator.shape, emulator.inputs("shape", u))
-    peak, shape = blend(emulator.high_peak, u, peak, shape)
+    shape = blend(emulator.high_peak, u, peak[:, 1], shape)
     return Prediction(valid=margin > 0, margin=margin, ln_k_peak=peak[:, 0],
                       log10_P_peak=peak[:, 1], shape=decode(emulator.basis, shape),
                       x=emulator.basis.x, n_s=cmb[:, 0], log10_r=cmb[:, 1],

@@ -5,8 +5,7 @@ with ``space`` attributes and one sub-group per kernel block (``classifier``, ``
 ``shape``, ``cmb``, and ``wall`` when a pole is given by a wall coordinate) plus
 ``basis`` and, if any block uses it, ``bottleneck`` (the extra input of
 :mod:`scan.surrogate.bottleneck`; attribute ``blocks``) and, if fitted, ``high_peak``
-(:mod:`scan.surrogate.highpeak`: sub-groups ``peak`` and/or ``shape``, attribute
-``floor``); group ``validation`` with the
+(:mod:`scan.surrogate.highpeak`: sub-group ``shape``, attribute ``floor``); group ``validation`` with the
 report (JSON attribute and the printable text).  Written atomically (:func:`scan.store.atomic_h5`).
 """
 from __future__ import annotations
@@ -63,17 +62,14 @@ def _read_bottleneck(grp: h5py.Group) -> tuple[Bottleneck | None, tuple[str, ...
 
 def _write_high_peak(group: h5py.Group, block: HighPeak) -> None:
     group.attrs["floor"] = float(block.floor)
-    for name in ("peak", "shape"):
-        if getattr(block, name) is not None:
-            _write_gp(group.create_group(name), getattr(block, name))
+    _write_gp(group.create_group("shape"), block.shape)
 
 
 def _read_high_peak(grp: h5py.Group) -> HighPeak | None:
     if "high_peak" not in grp:  # none fitted, or a file written before the block existed
         return None
     g = grp["high_peak"]
-    fits = {name: _read_gp(g[name]) if name in g else None for name in ("peak", "shape")}
-    return HighPeak(fits["peak"], fits["shape"], float(g.attrs["floor"]))
+    return HighPeak(_read_gp(g["shape"]), float(g.attrs["floor"]))
 
 
 def _json_default(value):
