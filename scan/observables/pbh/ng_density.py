@@ -50,6 +50,8 @@ FAR_MARGIN: float = 40.0
 #: difference loses ~2 z^2 eps, 4e-12 at z = 100; the series' first omitted term is
 #: 945 / (32 z^10) / (1 / (2 z^2)) < 1e-14 relative there).
 _Z_SERIES: float = 100.0
+#: Above this x = mu sqrt(A/2) >= 0, erfc(-x) is 2 and e^{-x^2} negligible to rounding.
+_X_FLAT: float = 6.0
 
 
 def joint(s_c2, s_cr, s_r2):
@@ -106,15 +108,22 @@ def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:
 
 
 def _ln_half_moment(A, mu) -> np.ndarray:
-    """ln int_0^inf u exp(-A (u - mu)^2 / 2) du [1], stable for every sign of mu."""
+    """ln int_0^inf u exp(-A (u - mu)^2 / 2) du [1], stable for every sign of mu.
+
+    With x = mu sqrt(A/2): for mu >= 0 it is ln(e^{-x^2} + sqrt(pi) x erfc(-x)) - ln A;
+    above x = ``_X_FLAT`` = 6, erfc(-x) = 2 and e^{-x^2} / (2 sqrt(pi) x) < 1.1e-17 both
+    round away, so x is clipped there inside exp and erfc (whose underflowing arguments
+    take libm's slow path, ~20-300 ns each).  For mu < 0 it is
+    -x^2 - ln A + ln(1 - sqrt(pi) z erfcx(z)), z = -x."""
     out = np.empty(np.shape(A))
     x = mu * np.sqrt(0.5 * A)
     pos = mu >= 0
     neg = ~pos
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-        xp, ap = x[pos], A[pos]
-        out[pos] = np.log(np.exp(-xp * xp) / ap
-                          + mu[pos] * np.sqrt(0.5 * math.pi / ap) * special.erfc(-xp))
+        xp = x[pos]
+        xc = np.minimum(xp, _X_FLAT)           # exp and erfc on their fast paths
+        out[pos] = np.log(np.exp(-xc * xc) + math.sqrt(math.pi) * xp * special.erfc(-xc)) \
+            - np.log(A[pos])
         z = -x[neg]
         h = 1 - math.sqrt(math.pi) * z * special.erfcx(z)
         far = z > _Z_SERIES

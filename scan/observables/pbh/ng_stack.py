@@ -47,8 +47,22 @@ N_PANELS: int = 14
 #: A pair whose ln g stays below this at every node contributes exactly 0 (e^{-800} is
 #: below the smallest double, and the epoch weights are < 1e30).
 LN_DEAD: float = -800.0
+#: exp(x) is taken as exactly 0 below this: e^{-700} = 1e-304, and libm's exp (and
+#: arithmetic on its subnormal results) leaves the fast path just below (measured: ~1 ns
+#: per element at -700, 35-375 ns between -708 and -745, 19 ns at -800).
+LN_ZERO: float = -700.0
 _PANEL_Z, _PANEL_W = np.polynomial.legendre.leggauss(8)
 _PANEL_Z, _PANEL_W = 0.5 * (_PANEL_Z + 1), 0.5 * _PANEL_W
+
+
+def exp_or_zero(x: np.ndarray) -> np.ndarray:
+    """exp(x) [1] in place of ``x`` (a float array it owns), exactly 0 where x <= ``LN_ZERO``
+    (NaN propagates); every exp stays on libm's fast path."""
+    zero = x <= LN_ZERO
+    np.maximum(x, LN_ZERO, out=x, where=~np.isnan(x))
+    np.exp(x, out=x)
+    x[zero] = 0.0
+    return x
 
 
 def lobatto(n: int) -> np.ndarray:
@@ -118,7 +132,7 @@ class StackedNGPlan:
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
         i, h, lng = i[keep], h[keep], lng[keep]
         f = self._mass_function(lng, i, h, P2.shape[0])
-        beta = np.exp(lng @ self.beta_matrix.T) @ self.beta_weight
+        beta = exp_or_zero(lng @ self.beta_matrix.T) @ self.beta_weight
         total = np.bincount(i, weights=(base._wln * base._coef)[h] * beta,
                             minlength=P2.shape[0])
         bad = ~np.all(np.isfinite(P2), axis=1)              # propagate, as the Gaussian path
@@ -138,7 +152,7 @@ class StackedNGPlan:
         dense = np.full((weight.shape[0], m, lng.shape[1]), LN_DEAD)
         dense[h, i] = lng
         ln_f = np.matmul(dense, self.mass_matrix)            # (n_H, m, n_M)
-        np.exp(ln_f, out=ln_f)
+        exp_or_zero(ln_f)
         ln_f *= weight[:, None, :]
         return ln_f.sum(axis=0)
 
