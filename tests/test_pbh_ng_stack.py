@@ -23,6 +23,7 @@ from scan.observables.pbh.ng_density import (
     _ln_local,
     _series,
     ln_density,
+    ln_density_pairs,
 )
 from scan.observables.pbh.ng_stack import plan_stacked
 from scan.observables.pbh.nongaussian import plan_nongaussian
@@ -65,6 +66,25 @@ def test_logarithmic_closed_form_matches_quad(lam):
         for c in (0.78, 1.05, 1.33):
             got = float(ln_density(c, s_c**2, cor * s_c * s_r, s_r**2, zmap))
             assert got == pytest.approx(_quad_ln_density(c, s_c, cor, s_r, zmap), abs=1e-8)
+
+
+@pytest.mark.parametrize("lam", [3.0, -2.0, 0.5])
+def test_compiled_logarithmic_form_matches_array_code(lam):
+    """The compiled closed form per pair (ng_ridge.log_map_density) is the array code's
+    formula in another order (and the array code itself where mu < 0, which these
+    random variances reach for every lambda): equal to a few rounding errors of the
+    largest term, |d ln g| <= 16 eps (|ln g| + 10) (our bound, common practice: about
+    a dozen operations of <= 1 ulp each)."""
+    rng = np.random.default_rng(2)
+    s_c, cor, s_r = rng.uniform(0.005, 0.4, 500), rng.uniform(-0.3, 0.95, 500), \
+        rng.uniform(0.005, 0.5, 500)
+    c = np.linspace(0.7756, 4 / 3, 9)
+    zmap = zeta_map_of("logarithmic", log_lambda=lam)
+    v = (s_c**2, cor * s_c * s_r, s_r**2)
+    got = ln_density_pairs(c, *v, zmap, 0.9)
+    ref = ln_density(c, *(x[:, None] for x in v), zmap, 0.9)
+    assert np.all(np.isfinite(got))
+    assert np.all(np.abs(got - ref) <= 16 * np.finfo(float).eps * (np.abs(ref) + 10))
 
 
 def test_erfc_tail_series_matches_scipy():

@@ -37,7 +37,11 @@ import math
 import numpy as np
 from scipy import special
 
-from scan.observables.pbh.ng_ridge import branch_integrals, far_curve_bound
+from scan.observables.pbh.ng_ridge import (
+    branch_integrals,
+    far_curve_bound,
+    log_map_density,
+)
 from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Gauss-Hermite nodes of the local map's per-branch rule: 16 -> 32 changes ln g by
@@ -86,6 +90,23 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
         raise ValueError("the stacked density covers gaussian, local and logarithmic maps; "
                          "'model' goes through NonGaussianPlan.evaluate")
     return out + math.log(ps_factor)
+
+
+def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0):
+    """ln g [1] at the nodes ``c`` (n_y,) for every pair of variances (n,): shape (n, n_y).
+
+    As :func:`ln_density` on (c, s[:, None]); the logarithmic map goes through its
+    compiled closed form (:func:`scan.observables.pbh.ng_ridge.log_map_density`, the
+    array code only for elements with mu < 0)."""
+    if zmap.kind != "logarithmic":
+        return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
+    arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
+    out, todo = log_map_density(*arrays, float(zmap.log_lambda), math.log(ps_factor))
+    if todo.any():
+        i, j = np.nonzero(todo)
+        out[i, j] = _ln_log_map(c[j], s_c2[i], s_cr[i], s_r2[i], zmap.log_lambda) \
+            + math.log(ps_factor)
+    return out
 
 
 def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:

@@ -182,3 +182,47 @@ def far_curve_bound(p, grid, a, t2, s_r2, c):
         out[i] = top + math.log(grid.size) \
             - math.log(2.0 * math.pi * math.sqrt(s_r2[i] * t2[i]) * c[i])
     return out
+
+
+#: Above this x = mu sqrt(A/2) >= 0, erfc(-x) = 2 and e^{-x^2} round away (as
+#: :func:`scan.observables.pbh.ng_density._ln_half_moment`).
+_X_FLAT: float = 6.0
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def log_map_density(c, s_c2, s_cr, s_r2, lam, shift):
+    """ln g [1] of the logarithmic map at the nodes ``c`` (n_y,) for every pair of variances
+    (n,), shape (n, n_y), plus ``shift``: the closed form of
+    :func:`scan.observables.pbh.ng_density._ln_log_map`, the per-pair parts computed once.
+
+    Elements with mu < 0 (erfcx needed, which numba lacks) are returned as NaN with a
+    True in the second output, for the caller to fill from the array code."""
+    n, m = s_c2.size, c.size
+    out = np.empty((n, m))
+    todo = np.zeros((n, m), dtype=np.bool_)
+    ln_rt_pi2 = math.log(2.0 * math.sqrt(math.pi))
+    for i in range(n):
+        a = s_cr[i] / s_r2[i]
+        t2 = max(s_c2[i] - a * s_cr[i], 1e-300)
+        base = shift - math.log(2.0 * math.pi) - 0.5 * math.log(s_r2[i] * t2) \
+            - math.log(abs(lam))
+        kappa = 1.0 / (lam * lam * s_r2[i])
+        b = a / lam
+        inv_t2 = 1.0 / t2
+        for j in range(m):
+            alpha = c[j] + b
+            A = kappa + alpha * alpha * inv_t2
+            mu = (kappa + alpha * (b * inv_t2)) / A
+            q_min = (kappa * inv_t2) * (c[j] * c[j]) / A
+            x = mu * math.sqrt(0.5 * A)
+            if not x >= 0.0:
+                out[i, j] = math.nan
+                todo[i, j] = True
+                continue
+            if x >= _X_FLAT:
+                moment = ln_rt_pi2 + math.log(x) - math.log(A)
+            else:
+                moment = math.log(math.exp(-x * x) + math.sqrt(math.pi) * x
+                                  * math.erfc(-x)) - math.log(A)
+            out[i, j] = base - 0.5 * q_min + moment
+    return out, todo

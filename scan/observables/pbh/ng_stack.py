@@ -30,7 +30,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from scan.observables.pbh.ng_density import ln_density
+from scan.observables.pbh.ng_density import ln_density_pairs
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
     live_epochs,
@@ -127,8 +127,8 @@ class StackedNGPlan:
         s_cr, s_r2 = P2 @ self.ng.v_cr.T, np.maximum(P2 @ self.ng.v_r.T, 1e-300)
         live = _live(self.y_nodes[0], s_c2, s_r2, zmap)
         i, h = np.nonzero(live)
-        lng = ln_density(self.y_nodes, s_c2[i, h, None], s_cr[i, h, None],
-                         s_r2[i, h, None], zmap, base.conventions.ps_factor)
+        lng = ln_density_pairs(self.y_nodes, s_c2[i, h], s_cr[i, h], s_r2[i, h], zmap,
+                               base.conventions.ps_factor)
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
         i, h, lng = i[keep], h[keep], lng[keep]
         f = self._mass_function(lng, i, h, P2.shape[0])
