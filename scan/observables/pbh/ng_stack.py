@@ -109,7 +109,9 @@ class StackedNGPlan:
     """A :class:`NonGaussianPlan` laid out for stacks of spectra (see the module doc).
 
     ``mass_matrix`` (n_H, n_y, n_M) takes ln g at the nodes to the masses' y(M, M_H) per
-    epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights.
+    epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights;
+    ``variance_matrix`` (3 n_H, n_k) stacks the plan's sigma_c^2, sigma_cr^2 and
+    sigma_r^2 matrices.
     """
 
     ng: NonGaussianPlan
@@ -117,6 +119,7 @@ class StackedNGPlan:
     mass_matrix: np.ndarray
     beta_matrix: np.ndarray
     beta_weight: np.ndarray
+    variance_matrix: np.ndarray
 
     def evaluate(self, P_zeta, zmap: ZetaMap) -> PBHResult:
         """f_PBH(M) per ln M [1] and the totals for a stack of spectra (m, n_k) [1].
@@ -127,9 +130,7 @@ class StackedNGPlan:
         base = self.ng.base
         P = np.asarray(P_zeta, dtype=float)
         P2 = np.atleast_2d(P)
-        s_c2, _ = base.sigma2(P2)
-        s_c2 = np.maximum(s_c2, 1e-300)
-        s_cr, s_r2 = P2 @ self.ng.v_cr.T, np.maximum(P2 @ self.ng.v_r.T, 1e-300)
+        s_c2, s_cr, s_r2 = self._variances(P2)
         live = _live(self.y_nodes[0], s_c2, s_r2, zmap)
         i, h = np.nonzero(live)
         lng = ln_density_pairs(self.y_nodes, s_c2[i, h], s_cr[i, h], s_r2[i, h], zmap,
@@ -146,6 +147,20 @@ class StackedNGPlan:
             return PBHResult(base.M, f[0], float(total[0]), base.M_H, s_c2[0],
                              base.conventions)
         return PBHResult(base.M, f, total, base.M_H, s_c2, base.conventions)
+
+    def _variances(self, P2: np.ndarray):
+        """sigma_c^2 (> 0), sigma_cr^2 and sigma_r^2 (> 0) [1], each (m, n_H), of a stack
+        (m, n_k): one product with ``variance_matrix`` over the columns where some
+        spectrum is non-zero (the others add exactly 0, as in :meth:`PBHPlan.sigma2`)."""
+        n_k = self.variance_matrix.shape[1]
+        if P2.ndim != 2 or P2.shape[1] != n_k:
+            raise ValueError(f"P_zeta must have shape ({n_k},) or (m, {n_k}), got "
+                             f"{P2.shape}")
+        cols = np.flatnonzero(np.any(P2 != 0, axis=0))
+        lo, hi = (int(cols[0]), int(cols[-1]) + 1) if cols.size else (0, 0)
+        s_c2, s_cr, s_r2 = np.split(P2[:, lo:hi] @ self.variance_matrix[:, lo:hi].T, 3,
+                                    axis=1)
+        return np.maximum(s_c2, 1e-300), s_cr, np.maximum(s_r2, 1e-300)
 
     def _beta(self, lng) -> np.ndarray:
         """beta [1] per pair from ln g at the nodes, in blocks of ``BLOCK`` pairs (so that
@@ -194,6 +209,9 @@ def _to_unit(y, y_th: float):
 def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y) -> StackedNGPlan:
     """Lay out ``ng`` (one threshold for all epochs) for stacks; ``n_y`` nodes of ln g."""
     conv = ng.base.conventions
+    if ng.v_cr.shape != ng.base._v0.shape:
+        raise ValueError(f"the joint variance matrices {ng.v_cr.shape} do not match the "
+                         f"plan's {ng.base._v0.shape}: build them with the plan's n_formation")
     y_th = float(compaction_linear(conv.threshold))
     x = lobatto(n_y)
     y_mass = ng.base._y.T                                    # (n_H, n_M)
@@ -201,7 +219,8 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y) -> StackedNGPlan:
     return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
                          np.ascontiguousarray(barycentric_matrix(
                              x, np.clip(_to_unit(y_mass, y_th), -1, 1)).transpose(0, 2, 1)),
-                         barycentric_matrix(x, _to_unit(yb, y_th)), wb)
+                         barycentric_matrix(x, _to_unit(yb, y_th)), wb,
+                         np.vstack([ng.base._v0, ng.v_cr, ng.v_r]))
 
 
 @dataclass(frozen=True)
