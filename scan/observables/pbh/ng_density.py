@@ -40,6 +40,7 @@ from scipy import special
 from scan.observables.pbh.ng_ridge import (
     branch_integrals,
     far_curve_bound,
+    half_moment_table,
     log_map_density,
 )
 from scan.observables.pbh.zeta_map import ZetaMap
@@ -101,7 +102,8 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     if zmap.kind != "logarithmic":
         return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
     arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
-    out, todo = log_map_density(*arrays, float(zmap.log_lambda), math.log(ps_factor))
+    out, todo = log_map_density(*arrays, float(zmap.log_lambda), math.log(ps_factor),
+                                _LN_H_TABLE)
     if todo.any():
         i, j = np.nonzero(todo)
         out[i, j] = _ln_log_map(c[j], s_c2[i], s_cr[i], s_r2[i], zmap.log_lambda) \
@@ -175,6 +177,7 @@ def branches(zmap: ZetaMap) -> list[tuple[float, float]]:
 
 
 _GH_X, _GH_W = np.polynomial.hermite.hermgauss(N_GH)
+_LN_H_TABLE = half_moment_table()
 _GH_LNW = np.log(_GH_W) + _GH_X**2
 
 
