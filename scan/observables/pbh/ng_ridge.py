@@ -118,6 +118,32 @@ def _rule(which, ridges, apart, lo, hi, gx, glw, p, q, c, a, t2, s_r2):
 
 
 @njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _single_rule(x, width, lo, hi, gx, gw_e, p, q, c, a, t2, s_r2):
+    """ln of the Gauss-Hermite rule centred on the one ridge x (width ``width``) over
+    (lo, hi): :func:`_rule` without the partition of unity, summed as
+    sum_j w_j e^{x_j^2} e^{E_j - E_0} / |F'_j| with E the Gaussian exponent and E_0 its value
+    at the ridge (``gw_e`` = w_j e^{x_j^2}), i.e. no logarithm per node.  NaN where an
+    exponent difference exceeds 700 or the sum is 0 (the caller then uses :func:`_rule`)."""
+    scale = math.sqrt(2.0) * width
+    h0 = c / (1.0 + x * (p + q * x)) - a * x
+    e0 = -0.5 * x * x / s_r2 - 0.5 * h0 * h0 / t2
+    total = 0.0
+    for j in range(gx.size):
+        node = x + scale * gx[j]
+        f1 = 1.0 + node * (p + q * node)
+        h = c / f1 - a * node
+        e = -0.5 * node * node / s_r2 - 0.5 * h * h / t2 - e0
+        if not (math.isfinite(e) and node > lo and node < hi and f1 != 0.0):
+            continue
+        if e > 700.0:
+            return math.nan
+        total += gw_e[j] * math.exp(e) / abs(f1)
+    if not (total > 0.0 and math.isfinite(e0)):
+        return math.nan
+    return math.log(scale) + e0 + math.log(total)
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
 def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
     """ln int_lo^hi exp(psi) dzeta_G [1] per element (arrays of equal length): the
     algorithm of :func:`scan.observables.pbh.ng_density._branch`."""
@@ -128,6 +154,7 @@ def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
     lo_in, hi_in = lo + inset, hi - inset
     ridges = np.empty((2, 3))
     found = np.empty((2, 3))
+    gw_e = np.exp(glw)
     for i in range(n):
         away = math.sqrt(s_r2[i])
         args = (p, q, c[i], a[i], t2[i], s_r2[i])
@@ -141,9 +168,13 @@ def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
         ridges[1, :] = found[1 - first, :]
         apart = (abs(ridges[1, 0] - ridges[0, 0]) > 0.1 * min(ridges[0, 1], ridges[1, 1])
                  and ridges[0, 2] - ridges[1, 2] < RIDGE_GAP)
-        one = _rule(0, ridges, apart, lo, hi, gx, glw, *args)
-        out[i] = _logaddexp(one, _rule(1, ridges, apart, lo, hi, gx, glw, *args)) \
-            if apart else one
+        if apart:
+            out[i] = _logaddexp(_rule(0, ridges, apart, lo, hi, gx, glw, *args),
+                                _rule(1, ridges, apart, lo, hi, gx, glw, *args))
+            continue
+        one = _single_rule(ridges[0, 0], ridges[0, 1], lo, hi, gx, gw_e, *args)
+        out[i] = one if math.isfinite(one) else _rule(0, ridges, apart, lo, hi, gx, glw,
+                                                      *args)
     return out
 
 
