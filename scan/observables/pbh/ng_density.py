@@ -51,6 +51,8 @@ N_GH: int = 16
 #: The far branch of a quadratic map is skipped where its bound is below e^{-40} times the
 #: near branch (relative contribution < 4e-18, below rounding).
 FAR_MARGIN: float = 40.0
+#: Share of the exponent given up for the prefactor in :func:`ln_density_bound`.
+BOUND_SPLIT: float = 0.1
 #: Above this z, 1 - sqrt(pi) z erfcx(z) is taken from its asymptotic series (the direct
 #: difference loses ~2 z^2 eps, 4e-12 at z = 100; the series' first omitted term is
 #: 945 / (32 z^10) / (1 / (2 z^2)) < 1e-14 relative there).
@@ -109,6 +111,37 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
         out[i, j] = _ln_log_map(c[j], s_c2[i], s_cr[i], s_r2[i], zmap.log_lambda) \
             + math.log(ps_factor)
     return out
+
+
+def ln_density_bound(y_th: float, s_c2, s_cr, s_r2, zmap: ZetaMap,
+                     ps_factor: float = 1.0) -> np.ndarray:
+    """An upper bound [1] on ln g(c) over c >= ``y_th`` per pair of variances (arrays of
+    equal shape); +inf (no bound) unless the map is local with g_NL = 0.
+
+    Local map, F' = 1 + p zeta_G (our derivation): on the curve C_G F' = c the joint
+    exponent Q = zeta_G^2/sigma_r^2 + (C_G - a zeta_G)^2/t^2 is at least each marginal's,
+    max(C_G^2/sigma_c^2, zeta_G^2/sigma_r^2); with u = |F'|, C_G = c/u and |zeta_G| >=
+    |u - 1|/|p| its minimum over u is nu^2, nu = c / (sigma_c u*), u* = (1 + sqrt(1 + 4 c
+    |p| sigma_r/sigma_c))/2 (where the two cross).  Writing e^{-Q/2} <= e^{-(1-e) nu^2/2}
+    e^{-e Q/2} (e = ``BOUND_SPLIT``), 1/|F'| = |C_G|/c, |C_G| e^{-e (C_G - a zeta_G)^2/2t^2}
+    <= |a zeta_G| + t/sqrt(e e_1) (e_1 = Euler's e) and integrating over zeta_G,
+
+        g(c) <= e^{-(1-e) nu^2/2} (2 |a| sigma_r^2/e + t sigma_r sqrt(2 pi/(e^2 e_1)))
+                / (2 pi sigma_r t c).
+
+    nu rises and 1/c falls with c, so the value at c = y_th bounds every c >= y_th.
+    tests/test_pbh_ng_stack.py checks it against the computed ln g."""
+    s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (s_c2, s_cr, s_r2))
+    if zmap.kind != "local" or zmap.g_nl != 0:
+        return np.full(s_c2.shape, np.inf)
+    e = BOUND_SPLIT
+    a, t2, _ = joint(s_c2, s_cr, s_r2)
+    s_c, s_r, t = np.sqrt(s_c2), np.sqrt(s_r2), np.sqrt(t2)
+    u = 0.5 * (1 + np.sqrt(1 + 4 * y_th * abs(1.2 * zmap.f_nl) * s_r / s_c))
+    nu = y_th / (s_c * u)
+    pref = (2 * np.abs(a) * s_r2 / e + t * s_r * math.sqrt(2 * math.pi / (e * e * math.e))) \
+        / (2 * math.pi * s_r * t * y_th)
+    return -(1 - e) * 0.5 * nu * nu + np.log(pref) + math.log(ps_factor)
 
 
 def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:
