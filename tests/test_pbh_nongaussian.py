@@ -18,6 +18,7 @@ from scan.observables.pbh.nongaussian import (
 )
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 from scan.observables.settings import require_batch_conventions
+from scan.observables.single import nongaussian_note
 
 K = np.geomspace(1e5, 1e8, 300)
 M = np.geomspace(1e-2, 1e3, 60)
@@ -70,7 +71,8 @@ def _brute_density(c, s_c2, s_cr, s_r2, zmap):
 def test_density_of_the_compaction_against_adaptive_quadrature(zmap):
     # Reference: scipy's adaptive quad of the same definition (Ferrante et al. 2023,
     # arXiv:2211.01728: C_l = C_G F'(zeta_G), (C_G, zeta_G) jointly Gaussian).  quad runs
-    # at epsrel 1e-11; our fixed rules resolve the integrand to better than 1e-7 here.
+    # at epsrel 1e-11; our fixed rules resolve the local maps' integrand to better than
+    # 1e-7 here (the logarithmic map's closed form agrees to 1.2e-14).
     s_c2, s_cr, s_r2 = 0.01, 0.006, 0.008
     for c in (0.3, 0.6, 0.9, 1.2):
         ours = float(compaction_density(np.array(c), s_c2, s_cr, s_r2, zmap))
@@ -165,15 +167,19 @@ def test_no_live_epoch_gives_exactly_zero():
 @pytest.mark.parametrize("changes, key", [
     ({"non_gaussianity": "model"}, "observables.non_gaussianity"),
     ({"non_gaussianity": "local", "f_nl": 1.0, "g_nl": 2.0}, "observables.g_nl"),
-    ({"qcd_threshold": "harada-scaled"}, "observables.qcd_threshold"),
 ])
 def test_sampler_paths_refuse_conventions_they_do_not_compute(changes, key):
-    # sample/grid/verify evaluate f_PBH for a stack with one threshold and the config's
-    # fixed map: a per-sample delta-N map or a per-epoch threshold must stop them instead
-    # of being silently ignored
+    # sample/grid/verify evaluate f_PBH for a stack with the config's fixed map: a
+    # per-sample delta-N map must stop them instead of being silently ignored (the
+    # stacks take the QCD-era conventions, tests/test_sampler_qcd.py)
     with pytest.raises(ConfigError, match=key):
         require_batch_conventions(ObservablesSection(**changes), "run.toml")
     require_batch_conventions(ObservablesSection(), "run.toml")
+    require_batch_conventions(ObservablesSection(qcd_threshold="harada-scaled",
+                                                 qcd_collapse="gamma-of-w"), "run.toml")
+    require_batch_conventions(ObservablesSection(qcd_threshold="harada-scaled",
+                                                 non_gaussianity="local", f_nl=1.0),
+                              "run.toml")
     require_batch_conventions(ObservablesSection(non_gaussianity="local", f_nl=1.0), "run.toml")
     require_batch_conventions(ObservablesSection(non_gaussianity="logarithmic",
                                                  log_lambda=3.0), "run.toml")
@@ -184,8 +190,9 @@ def test_density_resolves_the_ridge_at_the_logarithmic_edge(log_lambda):
     # Far from the peak sigma_c^2 << sigma_r^2 (zeta_G keeps the long modes, C_G does
     # not): then C_l is large only next to lambda zeta_G = 1, on a ridge of width
     # ~ sigma_c/(C_l |lambda|) ~ 1e-3 (values from a log-normal spectrum's epoch).
-    # Reference: scipy quad on 60 geometric sub-intervals towards the edge, epsrel 1e-10;
-    # our fixed graded rule agrees to <= 7e-6 (measured), asserted at 1e-4.
+    # Reference: scipy quad on 60 geometric sub-intervals towards the edge, epsrel 1e-10,
+    # asserted 1e-9.  The tool's density is the closed form of ng_density (it agrees to
+    # 3e-14); the fixed graded quadrature it replaced agreed to <= 7e-6 here.
     s_c2, s_cr, s_r2 = 3.03e-6, 8.19e-5, 5.93e-3
     zmap = zeta_map_of("logarithmic", log_lambda=log_lambda)
     edge = 1 / log_lambda
@@ -206,4 +213,15 @@ def test_density_resolves_the_ridge_at_the_logarithmic_edge(log_lambda):
         ref = sum(integrate.quad(f, a, b, args=(c,), epsabs=0, epsrel=1e-10, limit=200)[0]
                   for a, b in itertools.pairwise(cuts))
         ours = float(compaction_density(np.array(c), s_c2, s_cr, s_r2, zmap))
-        assert ours == pytest.approx(ref, rel=1e-4)
+        assert ours == pytest.approx(ref, rel=1e-9)
+
+
+def test_negative_log_lambda_is_flagged_in_the_note():
+    """The logarithmic map with lambda < 0 has an edge where zeta -> -inf and F' diverges;
+    its f_PBH comes from there (measured ~1e52 above Gaussian at lambda = -2, against
+    ~1e-67 for the local map with the same f_NL = -5/3): the printed note must say so,
+    and must not for lambda > 0."""
+    down = nongaussian_note(zeta_map_of("logarithmic", log_lambda=-2.0), 1e-60, 1e-8, "top-hat")
+    up = nongaussian_note(zeta_map_of("logarithmic", log_lambda=3.0), 1e-60, 1e-8, "top-hat")
+    assert "map's edge" in down and "'model'" in down
+    assert "map's edge" not in up

@@ -105,9 +105,13 @@ def test_bad_combinations_name_the_key(changes):
     ObservablesSection(qcd_collapse="gamma-of-w").validate("observables", "run.toml")
 
 
-def test_sampler_paths_refuse_the_qcd_exponent():
-    with pytest.raises(ConfigError, match="observables.qcd_collapse"):
-        require_batch_conventions(ObservablesSection(qcd_collapse="gamma-of-w"), "run.toml")
+def test_sampler_paths_take_the_qcd_exponent():
+    # the Gaussian and non-Gaussian stacks take per-epoch exponents
+    # (tests/test_sampler_qcd.py)
+    require_batch_conventions(ObservablesSection(qcd_collapse="gamma-of-w"), "run.toml")
+    require_batch_conventions(ObservablesSection(qcd_collapse="gamma-of-w",
+                                                 non_gaussianity="local", f_nl=1.0),
+                              "run.toml")
 
 
 @pytest.fixture

@@ -68,10 +68,11 @@ def test_model_map_and_sampled_threshold_are_refused_naming_the_key(trained):  #
 
 def test_runs_record_the_convention(trained):  # noqa: F811
     cfg, _ = _target(trained, LOCAL)
+    off = {"qcd_threshold": "off", "qcd_collapse": "off"}
     assert pbh_convention_attrs(cfg.observables) == {"non_gaussianity": "local",
-                                                     "f_nl": 1.0, "g_nl": 0.0}
+                                                     "f_nl": 1.0, "g_nl": 0.0, **off}
     gauss, _ = _target(trained, "")
-    assert pbh_convention_attrs(gauss.observables) == {"non_gaussianity": "gaussian"}
+    assert pbh_convention_attrs(gauss.observables) == {"non_gaussianity": "gaussian", **off}
 
 
 def test_chain_records_the_convention_and_summary_shows_both_totals(trained):  # noqa: F811
@@ -81,7 +82,8 @@ def test_chain_records_the_convention_and_summary_shows_both_totals(trained):  #
     with choose_pool(None, False, vectorized=True) as pool:
         run_chain(plan, pool, restart=True)
     assert runfile.pbh_convention(plan.path) == {"non_gaussianity": "local", "f_nl": 1.0,
-                                                 "g_nl": 0.0}
+                                                 "g_nl": 0.0, "qcd_threshold": "off",
+                                                 "qcd_collapse": "off"}
     blobs = load_chain(plan.path)["blobs"].reshape(-1)
     ok = blobs["reason"] == 0
     assert ok.any() and np.all(blobs["f_pbh_total"][ok] >= blobs["f_pbh_total_gaussian"][ok])

@@ -6,6 +6,8 @@ from collections.abc import Callable
 
 from scan.cli.output import Output, ProgressLine, add_output_options
 from scan.config import load_config
+from scan.observables.pbh.qcd import qcd_lines
+from scan.observables.settings import pbh_convention_attrs
 from scan.pool import BasePool
 from scan.posterior.build import width_prior_note
 from scan.sampler.command import sample_run
@@ -75,6 +77,8 @@ def run(args: argparse.Namespace) -> int:
         note = width_prior_note(plan.target)
         if note:
             output.note(f"note: {note}")
+        for line_ in qcd_lines(pbh_convention_attrs(config.observables)):
+            output.note(f"note: {line_.strip()}")
     try:
         outcome = sample_run(config, out=args.out, restart=args.restart,
                              processes=args.processes, mpi=args.mpi, on_start=started,

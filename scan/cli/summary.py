@@ -6,6 +6,7 @@ from pathlib import Path
 
 from scan.cli.output import Output, add_output_options
 from scan.evidence.compare import nested_summary
+from scan.observables.pbh.qcd import qcd_lines
 from scan.sampler.summary import posterior_samples, summarize
 
 EXAMPLE = """examples:
@@ -73,15 +74,22 @@ def format_summary(info: dict) -> str:
     return "\n".join(lines)
 
 
+#: Recorded convention attributes that are not parameters of the zeta map.
+QCD_KEYS: tuple[str, ...] = ("qcd_threshold", "qcd_collapse", "qcd_notes")
+
+
 def convention_lines(conv: dict, derived: dict) -> list[str]:
-    """Which zeta statistics f_pbh_total used, and the Gaussian one beside it."""
+    """Which zeta statistics and QCD-era conventions f_pbh_total used (with their
+    limitation notes), and the Gaussian total beside a non-Gaussian one."""
+    lines = qcd_lines(conv)
     kind = conv.get("non_gaussianity")
     if kind in (None, "gaussian"):                      # Gaussian, or not recorded
-        return []
-    params = ", ".join(f"{k} = {v:g}" for k, v in conv.items() if k != "non_gaussianity")
-    lines = [f"PBH abundance: non-Gaussian zeta, non_gaussianity = '{kind}'"
-             + (f" ({params})" if params else "") + "; f_pbh_total uses it, "
-             "f_pbh_total_gaussian is the same spectra with Gaussian zeta"]
+        return lines
+    params = ", ".join(f"{k} = {v:g}" for k, v in conv.items()
+                       if k != "non_gaussianity" and k not in QCD_KEYS)
+    lines += [f"PBH abundance: non-Gaussian zeta, non_gaussianity = '{kind}'"
+              + (f" ({params})" if params else "") + "; f_pbh_total uses it, "
+              "f_pbh_total_gaussian is the same spectra with Gaussian zeta"]
     ng, gauss = derived.get("f_pbh_total"), derived.get("f_pbh_total_gaussian")
     if ng and gauss:
         lines.append(f"  f_PBH median: {gauss['median']:.3e} Gaussian -> {ng['median']:.3e} "

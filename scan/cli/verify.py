@@ -8,6 +8,7 @@ from scan.cli.output import Output, add_output_options
 from scan.errors import ZetascanError
 from scan.evidence.file import write_shift
 from scan.evidence.reweight import evidence_shift, ln_z_of, open_nested, shift_lines
+from scan.observables.pbh.qcd import qcd_lines
 from scan.pool import BasePool
 from scan.verify.compare import DEFAULT_SAMPLES, Thresholds
 from scan.verify.run import Run, verify_command
@@ -132,6 +133,7 @@ def format_report(r: dict) -> str:
              f"(flag below {r['thresholds']['ess_fraction']:g}); {r['positive_weight']} "
              f"samples with weight > 0, {r['valid_exact']} exact models valid"]
     lines += [f"  flag: {f}" for f in r["flags"]]
+    lines += qcd_lines(r.get("pbh_convention") or {})
     if r["zero_weight"]:
         lines.append("weight 0: " + "; ".join(f"{k} ({v})" for k, v in r["zero_weight"].items()))
     d = r["log_like_difference"]

@@ -14,6 +14,7 @@ from scan.config.schema import ObservablesSection
 from scan.errors import ConfigError
 from scan.observables import gstar
 from scan.observables.pbh import PBHConventions
+from scan.observables.pbh.qcd import qcd_notes
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 from scan.observables.record import Observables
 from scan.observables.single import compute_observables
@@ -90,18 +91,18 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
 def require_batch_conventions(section: ObservablesSection, source: str) -> None:
     """Refuse conventions the vectorised (surrogate) and table paths do not compute.
 
-    The sampler, the grid and verify evaluate f_PBH for a stack of spectra with one
-    threshold: Gaussian zeta, or the ``local`` and ``logarithmic`` maps with the config's
-    fixed parameters (:mod:`scan.observables.pbh.ng_stack`).  ``model`` needs every
-    sample's own delta-N map, which the surrogate does not emulate, and the QCD-era
-    threshold varies per epoch: both would silently be ignored there, so they stop with
-    a message instead.
+    The sampler, the grid and verify evaluate f_PBH for a stack of spectra: Gaussian zeta
+    (:mod:`scan.observables.pbh.threshold_plan`), or the ``local`` (g_NL = 0) and
+    ``logarithmic`` maps with the config's fixed parameters
+    (:mod:`scan.observables.pbh.ng_stack`), each with the QCD-era threshold and exponent
+    per formation epoch.  ``model`` needs every sample's own delta-N map, which the
+    surrogate does not emulate, and the stack covers the quadratic local map only: both
+    would silently be ignored there, so they stop with a message instead.
 
     Raises
     ------
     ConfigError
-        Naming ``observables.non_gaussianity``, ``observables.qcd_threshold`` or
-        ``observables.qcd_collapse``.
+        Naming ``observables.non_gaussianity`` or ``observables.g_nl``.
     """
     if section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' is not available "
@@ -114,18 +115,17 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
                           "available in sample, grid and verify (their non-Gaussian f_PBH "
                           "covers the quadratic local map)", "set g_nl = 0 for the posterior "
                           "and check single models with zetascan solve")
-    for key in ("qcd_threshold", "qcd_collapse"):
-        value = getattr(section, key)
-        if value != "off":
-            raise ConfigError(source, f"observables.{key}", f"'{value}' is not available in "
-                              "sample, grid and verify yet (their f_PBH has one threshold and "
-                              "one gamma_c for all formation epochs)", f"set {key} = 'off' "
-                              "for the posterior and check single models with zetascan solve")
 
 
 def pbh_convention_attrs(section: ObservablesSection) -> dict:
-    """The non-Gaussianity convention of a run as flat attributes (as ``pbh`` of a solve
-    result: ``non_gaussianity`` and its parameters)."""
-    if section.non_gaussianity in ("gaussian", "model"):
-        return {"non_gaussianity": section.non_gaussianity}
-    return settings_of(section).zeta_map.as_attrs()
+    """The PBH statistics conventions of a run as flat attributes (as ``pbh`` of a solve
+    result): ``non_gaussianity`` and its parameters, ``qcd_threshold``, ``qcd_collapse``
+    and, with either on, ``qcd_notes`` (the limitation lines the single path prints,
+    newline-separated, :func:`scan.observables.pbh.qcd.qcd_notes`)."""
+    settings = settings_of(section)
+    attrs = {"non_gaussianity": section.non_gaussianity} \
+        if section.non_gaussianity in ("gaussian", "model") else settings.zeta_map.as_attrs()
+    attrs.update(qcd_threshold=section.qcd_threshold, qcd_collapse=section.qcd_collapse)
+    notes = qcd_notes(settings.conventions, section.qcd_threshold, section.qcd_collapse,
+                      settings.dof)
+    return {**attrs, "qcd_notes": "\n".join(notes)} if notes else attrs

@@ -18,6 +18,7 @@ from scan.observables.pbh.qcd import (
     collapse_note,
     epoch_exponents,
     epoch_thresholds,
+    qcd_note,
 )
 from scan.observables.pbh.zeta_map import ZetaMap
 from scan.observables.record import Observables, peak_of
@@ -187,20 +188,18 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                        qcd={"qcd_threshold": qcd_threshold, "qcd_collapse": qcd_collapse})
 
 
-def qcd_note(M_H: np.ndarray, thresholds: np.ndarray, threshold: float) -> str:
-    """One line on the QCD-era threshold (printed with the result)."""
-    i = int(np.argmin(thresholds))
-    return (f"QCD-era threshold (harada-scaled): C_th falls from {threshold:g} to "
-            f"{thresholds[i]:.4g} at M_H = {M_H[i]:.3g} M_sun (w from the g_* table); "
-            f"a lower threshold raises f_PBH there by orders of magnitude")
-
-
 def nongaussian_note(zmap: ZetaMap, gaussian: float, nongaussian: float, window: str) -> str:
     """One line saying how far non-Gaussian zeta moves f_PBH (printed with the result)."""
     ratio = nongaussian / gaussian if gaussian > 0 else float("inf")
     text = (f"non-Gaussian zeta ({zmap.kind}, f_NL at the peak {zmap.f_nl_equivalent():.3g}) "
             f"moves f_PBH from {gaussian:.3e} (Gaussian) to {nongaussian:.3e} "
             f"(x {ratio:.3g}): the tail of zeta, not P_zeta alone, sets the verdict")
+    if zmap.kind == "logarithmic" and zmap.log_lambda < 0:
+        text += ("; log_lambda < 0: zeta -> -inf at the map's edge zeta_G = 1/log_lambda, "
+                 "where F' diverges and a small C_G gives a large C_l, so PBHs form near "
+                 "the edge and f_PBH rises where the local map with the same f_NL lowers "
+                 "it; the map is not trustworthy that far: check with the model's own "
+                 "delta-N map (non_gaussianity = 'model')")
     if window == "gaussian":
         text += ("; zeta_G is smoothed with the Gaussian window itself (our convention; the "
                  "top-hat window uses the shell value sin(kR)/kR of Ferrante et al. 2023)")

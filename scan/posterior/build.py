@@ -77,7 +77,8 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
     ------
     ConfigError
         No model parameters, an unknown or unsupported nuisance name, a PBH convention the
-        vectorised path does not compute (non-Gaussian zeta, QCD-era threshold), missing
+        vectorised path does not compute (the delta-N map, g_NL, a sampled threshold with
+        non-Gaussian zeta), missing
         curve files or surrogate, or a surrogate over other parameters.
     """
     if priors.n_model == 0:
@@ -100,7 +101,7 @@ def posterior_target(config: RunConfig, priors: PriorSet) -> PosteriorTarget:
         i = list(priors.names[priors.n_model:]).index(THRESHOLD)
         raise ConfigError(config.source, f"nuisance[{i}]", "a sampled pbh.threshold needs "
                           "observables.non_gaussianity = 'gaussian' (the non-Gaussian stack "
-                          "has one threshold)", "remove this [[nuisance]] table and set "
+                          "fixes its thresholds when it is planned, not per walker)", "remove this [[nuisance]] table and set "
                           "observables.threshold, or sample it with Gaussian zeta")
     paths = curve_paths_of(config)
     surrogate = config.likelihood.surrogate or str(RunFolder.of(config).surrogate)

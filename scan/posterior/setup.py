@@ -90,14 +90,18 @@ def check_threshold_prior(config: RunConfig, priors: PriorSet) -> None:
 
 def pbh_plan_of(settings, span: tuple[float, float] | None):
     """The batch path's f_PBH plan factory ``(k_table, masses) -> plan`` for observable
-    ``settings``: the stacked non-Gaussian plan for a non-Gaussian map, the threshold plan
-    over ``span`` for a sampled threshold, else None (the Gaussian default)."""
+    ``settings``: the stacked non-Gaussian plan for a non-Gaussian map (with the QCD-era
+    conventions, if any), the threshold plan
+    over ``span`` for a sampled threshold or a QCD-era convention (per-epoch thresholds
+    and exponents; a sampled threshold is the radiation-era value they scale), else None
+    (the Gaussian default)."""
     conventions, dof, n_eff, zmap = (settings.conventions, settings.dof, settings.n_eff,
                                      settings.zeta_map)
+    qcd = {"qcd_threshold": settings.qcd_threshold, "qcd_collapse": settings.qcd_collapse}
     if zmap is not None and not zmap.is_gaussian:
         return lambda k_table, masses: plan_pbh_mapped(k_table, masses, conventions, zmap,
-                                                       dof=dof, n_eff=n_eff)
-    if span is not None:
+                                                       dof=dof, n_eff=n_eff, **qcd)
+    if span is not None or set(qcd.values()) != {"off"}:
         return lambda k_table, masses: plan_pbh_thresholds(k_table, masses, conventions,
-                                                           span, dof=dof, n_eff=n_eff)
+                                                           span, dof=dof, n_eff=n_eff, **qcd)
     return None

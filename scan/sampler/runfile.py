@@ -187,13 +187,14 @@ def chain_path(run: str | Path) -> Path:
     return path
 
 
-#: Root attributes of a chain recording the PBH non-Gaussianity convention.
-CONVENTION_ATTRS: tuple[str, ...] = ("non_gaussianity", "f_nl", "g_nl", "log_lambda")
+#: Root attributes of a chain recording the PBH non-Gaussianity and QCD-era conventions.
+CONVENTION_ATTRS: tuple[str, ...] = ("non_gaussianity", "f_nl", "g_nl", "log_lambda",
+                                     "qcd_threshold", "qcd_collapse", "qcd_notes")
 
 
 def pbh_convention(path: str | Path) -> dict[str, Any]:
-    """The chain's recorded non-Gaussianity convention (empty for chains written before
-    it was recorded)."""
+    """The chain's recorded non-Gaussianity and QCD-era conventions (those written
+    before they were recorded are absent)."""
     with h5py.File(path, "r") as handle:
         return {key: (str(v) if isinstance(v, (str, bytes)) else float(v))
                 for key in CONVENTION_ATTRS if (v := handle.attrs.get(key)) is not None}

@@ -68,8 +68,9 @@ ARRAYS: dict[str, str] = {"f_hz": "Hz", "omega_gw_h2": "1", "m_msun": "M_sun",
 #: Fields not stored: the PBH conventions follow from the run's stored config, the notes
 #: are kept in the text column, and an exact solve's masses are never shifted; the
 #: non-Gaussian map and the Gaussian comparison total are not (yet) part of the
-#: verification (issue 15 step 4); the QCD-era conventions follow from the config (and
-#: verify refuses any but 'off').
+#: verification (issue 15 step 4); the QCD-era conventions follow from the stored config
+#: (both sides compute with them: the exact side per spectrum, the surrogate side with the
+#: threshold plan's per-epoch thresholds and exponents).
 NOT_STORED: tuple[str, ...] = ("conventions", "notes", "ln_mass_shift", "zeta_map",
                                "f_pbh_total_gaussian", "qcd")
 BUSY = ("another 'zetascan verify' of this chain is running (it holds these partial "

@@ -270,5 +270,6 @@ def assemble(run: Run, index: np.ndarray, outcomes: list[Any], solver: str,
                               stored_log_prob=run.log_prob[index])
     report = {"file": str(run.path), "available": int(len(run.samples)),
               "seed": int(run.config.run.seed), "burn_in": run.burn_in, "thin": run.thin,
-              "chain_status": run.status, "exact_solver": solver, **report}
+              "chain_status": run.status, "exact_solver": solver,
+              "pbh_convention": runfile.pbh_convention(run.path), **report}
     return Verification(jsonable(report), ev, weights, index)

@@ -6,7 +6,9 @@ epochs.  Gaussian: one :meth:`PBHPlan.evaluate` of the (64, n_k) stack.  Non-Gau
 :meth:`StackedNGPlan.evaluate` of the same stack (scan/observables/pbh/ng_stack.py) with the
 local map f_NL = 1 and the logarithmic map lambda = 3.  Timed side by side in
 alternating blocks (thread CPU time); the acceptance target of issue 15 is <= 3x.
-``--reference`` adds the per-spectrum :meth:`NonGaussianPlan.evaluate` (minutes).
+``--reference`` adds the per-spectrum :meth:`NonGaussianPlan.evaluate` (minutes);
+``--qcd`` the stacks with both QCD-era conventions (per-epoch thresholds and exponents,
+:func:`plan_pbh_mapped`).
 
 Measured (2-core machine shared with other jobs, nice 15; ratios min-based, the Gaussian
 stack 2-4 ms; ranges over runs, the machine is noisy):
@@ -15,6 +17,12 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
 * compiled ridge integral + closed-form live bound (ng_ridge.py): local 21-27x.
 * + sharper far-branch bound (2.3k instead of 12k far-branch integrals): local 17.6-23x
   over 6 runs; logarithmic 5.7-7.5x (path unchanged).
+
+* ``--qcd`` (qcdsample branch, 2 runs, same run as the rows above): the Gaussian stack
+  with the QCD-era conventions (the threshold plan: direct 48-point beta quadrature per
+  live pair instead of the table) 3.4-4.6x the tabulated Gaussian stack, the same cost
+  as the threshold plan with one threshold (scan/observables/pbh/threshold_plan.py);
+  local 18.0-19.2x (17.3x without), logarithmic 6.2-6.3x (5.7-6.1x without).
 
 What limits it (measured by parts): the local map evaluates ln g at 9 nodes for 3.6k
 live pairs (32k densities); each needs two Newton ridge searches and a 16-point
@@ -40,7 +48,7 @@ import time  # noqa: E402
 import numpy as np  # noqa: E402
 
 from scan.observables.pbh import PBHConventions, plan_pbh  # noqa: E402
-from scan.observables.pbh.ng_stack import plan_stacked  # noqa: E402
+from scan.observables.pbh.ng_stack import plan_pbh_mapped, plan_stacked  # noqa: E402
 from scan.observables.pbh.nongaussian import plan_nongaussian  # noqa: E402
 from scan.observables.pbh.zeta_map import zeta_map_of  # noqa: E402
 
@@ -70,6 +78,12 @@ def main() -> None:
         if "--reference" in sys.argv:
             funcs[f"per-spectrum {name}"] = lambda zmap=zmap: [ng.evaluate(row, zmap)
                                                                for row in P]
+    if "--qcd" in sys.argv:
+        qcd = plan_pbh_mapped(k, plan.M, conv, maps["local f_NL=1"], n_formation=128,
+                              qcd_threshold="harada-scaled", qcd_collapse="gamma-of-w")
+        funcs["gaussian stack QCD"] = lambda: qcd.gaussian.evaluate(P)
+        for name, zmap in maps.items():
+            funcs[f"stacked QCD {name}"] = lambda zmap=zmap: qcd.stacked.evaluate(P, zmap)
     times = {name: [] for name in funcs}
     for _ in range(BLOCKS):
         for name, f in funcs.items():

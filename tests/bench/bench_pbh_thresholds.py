@@ -5,6 +5,11 @@ as the sampler's), 32 output masses, amplitudes tuned so f_PBH,total runs from 1
 1 at the middle threshold; per-row thresholds uniform in the range.  Both evaluations
 are timed alternately in one run; medians of the repeats and their ratio are printed.
 
+The last case has the QCD-era conventions (harada-scaled threshold, gamma-of-w exponent:
+a threshold factor and an exponent per formation epoch).  Measured (qcdsample branch, 3
+runs, 2-core machine shared, nice 15): compaction critical per-row / fixed 1.85-2.06,
+with the QCD-era conventions 1.98-2.55.
+
 Run: python tests/bench/bench_pbh_thresholds.py
 """
 from __future__ import annotations
@@ -25,6 +30,8 @@ from scan.observables.pbh import PBHConventions, plan_pbh, plan_pbh_thresholds  
 LNK = np.log(1e6) + 0.05 * np.arange(600)
 K_IN = np.exp(LNK)
 N_ROWS, N_MASS, REPEATS = 64, 32, 40
+#: The QCD-era conventions of the last case (per-epoch thresholds and exponents).
+QCD = {"qcd_threshold": "harada-scaled", "qcd_collapse": "gamma-of-w"}
 
 
 def _spectra(plan, rng: np.random.Generator) -> np.ndarray:
@@ -47,14 +54,16 @@ def main() -> None:
     masses = np.geomspace(float(cosmo.horizon_mass_msun(K_IN[-1])) * 1e-3,
                           float(cosmo.horizon_mass_msun(K_IN[0])), N_MASS)
     print(f"{N_ROWS} spectra x {K_IN.size} k, {N_MASS} masses; medians of {REPEATS}")
-    for conv, rng_t in [(PBHConventions(), (0.4, 0.6)),
-                        (PBHConventions(criterion="press-schechter", threshold=0.5),
-                         (0.41, 0.6)),
-                        (PBHConventions(criterion="peaks", threshold=0.5), (0.41, 0.6)),
-                        (PBHConventions(mass_function="monochromatic"), (0.4, 0.6))]:
+    for conv, rng_t, qcd in [(PBHConventions(), (0.4, 0.6), {}),
+                             (PBHConventions(criterion="press-schechter", threshold=0.5),
+                              (0.41, 0.6), {}),
+                             (PBHConventions(criterion="peaks", threshold=0.5), (0.41, 0.6),
+                              {}),
+                             (PBHConventions(mass_function="monochromatic"), (0.4, 0.6), {}),
+                             (PBHConventions(), (0.4, 0.6), QCD)]:
         conv = dataclasses.replace(conv, threshold=0.5 * sum(rng_t))
         fixed = plan_pbh(K_IN, masses, conv)
-        per_row = plan_pbh_thresholds(K_IN, masses, conv, rng_t)
+        per_row = plan_pbh_thresholds(K_IN, masses, conv, rng_t, **qcd)
         P = _spectra(fixed, rng)
         t = rng.uniform(*rng_t, N_ROWS)
         t_fix, t_row, t_var = [], [], []
@@ -71,11 +80,14 @@ def main() -> None:
         same = per_row.evaluate(P, conv.threshold).f_pbh_total
         dev = np.max(np.abs(same / res_fix.f_pbh_total - 1))
         fix, row, var = (1e3 * np.median(v) for v in (t_fix, t_row, t_var))
-        print(f"{conv.criterion:15s} {conv.mass_function:13s} fixed {fix:6.2f} ms  per-row "
+        label = f"{conv.criterion:15s} {conv.mass_function:13s}" if not qcd else \
+            "compaction+QCD  critical     "
+        print(f"{label} fixed {fix:6.2f} ms  per-row "
               f"{row:6.2f} ms  ratio {row / fix:4.2f}  (sigma^2 {var:4.2f} ms; f_tot "
               f"{res_fix.f_pbh_total.min():.0e}..{res_fix.f_pbh_total.max():.0e} fixed, "
               f"{res_row.f_pbh_total.min():.0e}..{res_row.f_pbh_total.max():.0e} per-row; "
-              f"max |rel dev| at a common threshold {dev:.1e})")
+              + (f"max |rel dev| at a common threshold {dev:.1e})" if not qcd else
+                 "per-epoch QCD thresholds and exponents: f_tot differs by design)"))
 
 
 if __name__ == "__main__":

@@ -14,8 +14,10 @@ Everything is returned as a logarithm, so that densities far below the smallest 
 * ``logarithmic`` (F = -ln(1 - lambda zeta_G)/lambda): in u = 1 - lambda zeta_G > 0 the
   map gives F' = 1/u and C_G = c u, so the exponent is a quadratic in u and the integral
   int_0^inf u exp(-A (u - mu)^2 / 2) du is closed form (an erfc) -- exact, no quadrature
-  (our derivation; it covers the whole domain lambda zeta_G < 1, where the per-spectrum
-  path of :mod:`~scan.observables.pbh.nongaussian` cuts at 12 sigma_r).
+  (our derivation; it covers the whole domain lambda zeta_G < 1, and the per-spectrum
+  path of :mod:`~scan.observables.pbh.nongaussian` uses it too; it equals Hinkley's 1969
+  density of a ratio of correlated normals on that branch,
+  tests/test_pbh_nongaussian_published.py).
 * ``local`` with g_NL = 0 (F' = 1 + (6/5) f_NL zeta_G; with g_NL != 0 the two-start
   ridge search was measured to miss ridges, so it is refused): Laplace-centred
   Gauss-Hermite quadrature on each monotone branch of F (between the real roots of F',
@@ -96,11 +98,13 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
 
 
 def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0):
-    """ln g [1] at the nodes ``c`` (n_y,) for every pair of variances (n,): shape (n, n_y).
+    """ln g [1] at the nodes ``c`` ((n_y,) shared, or (n, n_y) per pair) for every pair of
+    variances (n,): shape (n, n_y).
 
     As :func:`ln_density` on (c, s[:, None]); the logarithmic map goes through its
     compiled closed form (:func:`scan.observables.pbh.ng_ridge.log_map_density`, the
     array code only for elements with mu < 0)."""
+    c = np.atleast_2d(np.asarray(c, dtype=float))
     if zmap.kind != "logarithmic":
         return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
     arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
@@ -108,15 +112,16 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
                                 _LN_H_TABLE)
     if todo.any():
         i, j = np.nonzero(todo)
-        out[i, j] = _ln_log_map(c[j], s_c2[i], s_cr[i], s_r2[i], zmap.log_lambda) \
-            + math.log(ps_factor)
+        out[i, j] = _ln_log_map(c[i if c.shape[0] > 1 else 0, j], s_c2[i], s_cr[i], s_r2[i],
+                                zmap.log_lambda) + math.log(ps_factor)
     return out
 
 
-def ln_density_bound(y_th: float, s_c2, s_cr, s_r2, zmap: ZetaMap,
+def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
                      ps_factor: float = 1.0) -> np.ndarray:
-    """An upper bound [1] on ln g(c) over c >= ``y_th`` per pair of variances (arrays of
-    equal shape); +inf (no bound) unless the map is local with g_NL = 0.
+    """An upper bound [1] on ln g(c) over c >= ``y_th`` (a number, or one per pair) per pair
+    of variances (arrays of equal shape); +inf (no bound) unless the map is local with
+    g_NL = 0.
 
     Local map, F' = 1 + p zeta_G (our derivation): on the curve C_G F' = c the joint
     exponent Q = zeta_G^2/sigma_r^2 + (C_G - a zeta_G)^2/t^2 is at least each marginal's,
@@ -288,8 +293,10 @@ def _branch(zmap, lo, hi, start, s, c, a, t2, s_r2, gx, glw):
     """ln int over one branch (lo, hi) of exp(psi), compiled
     (:func:`scan.observables.pbh.ng_ridge.branch_integrals`).
 
-    Two Newton searches (from the conditional mean and from its mirror image, each a
-    sigma_r inside a finite end) find up to two ridges.  Where they differ, the
+    Three damped Newton searches (from the conditional mean and from its mirror image,
+    each a sigma_r inside a finite end, and from where C_G = c / F' meets its conditional
+    mean a zeta_G -- where the ridge lies when sigma_c^2 << sigma_r^2) find up to two
+    ridges; the two highest are kept.  Where they differ, the
     integrand is split by a partition of unity, omega_i = e^{q_i} / (e^{q_1} + e^{q_2})
     with q_i the Laplace (quadratic) approximation at ridge i, and each part gets the
     rule centred on its ridge: the parts sum to the integrand exactly and stay smooth.

@@ -1,9 +1,10 @@
 """The local map's per-branch ridge integral, compiled (numba): the hot loop of
 :func:`scan.observables.pbh.ng_density._ln_local`.
 
-The algorithm is :func:`~scan.observables.pbh.ng_density._branch` (two Newton searches for
-up to two ridges of psi, a partition of unity between them, a Gauss-Hermite rule centred on
-each), written as one scalar loop per element.  As array code it made ~30 passes over
+The algorithm is :func:`~scan.observables.pbh.ng_density._branch` (three damped Newton
+searches for up to two ridges of psi -- from the conditional mean, its mirror image and
+the curve C_G = c / F' = a zeta_G -- a partition of unity between the two highest, a
+Gauss-Hermite rule centred on each), written as one scalar loop per element.  As array code it made ~30 passes over
 (elements x rule nodes) with a dozen temporaries each; compiled, every element's ridges and
 rules stay in registers (ratio measured side by side in tests/bench/bench_pbh_nongaussian.py).
 Newton stops once a step moves x by less than 1e-13 (|x| + s) (s the conditional width;
@@ -27,8 +28,12 @@ from scipy import special
 #: multiplication for division and re-association (rounding-level changes); not the
 #: no-NaN/no-inf assumptions, which the finiteness checks rely on.
 _FAST = {"contract", "arcp", "reassoc"}
-#: Newton steps towards a ridge (at most; see the module doc).
+#: Newton steps towards a ridge from the conditional-mean seeds (at most; module doc).
 N_NEWTON: int = 6
+#: ... and from the curve seed (:func:`_curve_root`), which can start several widths away.
+N_NEWTON_CURVE: int = 16
+#: Step halvings when a Newton step would lower psi (2^-30: below any ridge width).
+N_HALVINGS: int = 30
 #: A second ridge this far below the first in ln integrand is not integrated separately.
 RIDGE_GAP: float = 50.0
 
@@ -62,25 +67,50 @@ def _clip(x, lo, hi):
 
 
 @njit(cache=True, error_model="numpy", fastmath=_FAST)
-def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2):
-    """Newton steps on psi from x within [lo, hi]: (ridge, width 1/sqrt(-psi''), psi)."""
-    for _ in range(N_NEWTON):
+def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2, steps=6):
+    """Newton steps on psi from x within [lo, hi]: (ridge, width 1/sqrt(-psi''), psi).
+
+    A step longer than one Laplace width 1/sqrt(-psi'') that lowers psi is halved until
+    it does not (at most ``N_HALVINGS`` times, :func:`_no_descent`):
+    psi falls to -inf at a root of F', and an undamped step from a concave but
+    non-quadratic stretch was measured to jump onto the root (ln g off by ~1e15 for
+    f_NL = 10, sigma_r^2 = 0.27)."""
+    for _ in range(steps):
         d1, d2 = _slopes(x, p, q, c, a, t2, s_r2)
         if math.isfinite(d1) and math.isfinite(d2) and d2 < 0:
             step = -d1 / d2
+            local = step * step * -d2 <= 1.0       # within one Laplace width: no check
+            if step * step * -d2 <= 1e-16:         # 1e-8 widths: the rule cannot tell
+                x = _clip(x + step, lo, hi)
+                break
         elif math.isnan(d1) or d1 == 0:
-            step = 0.0
+            step, local = 0.0, True
         else:
-            step = math.copysign(s, d1)
+            step, local = math.copysign(s, d1), False
         new = _clip(x + step, lo, hi)
+        if not local:
+            new = _no_descent(x, new, p, q, c, a, t2, s_r2)
         if abs(new - x) <= 1e-13 * (abs(x) + s):
             x = new
             break
         x = new
     d2 = _slopes(x, p, q, c, a, t2, s_r2)[1]
-    psi = _psi0(x, p, q, c, a, t2, s_r2)
     width = 1.0 / math.sqrt(abs(d2)) if (math.isfinite(d2) and d2 < 0) else s
+    psi = _psi0(x, p, q, c, a, t2, s_r2)
     return x, min(width, 4.0 * s), psi if math.isfinite(psi) else -1e300
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _no_descent(x, new, p, q, c, a, t2, s_r2):
+    """``new``, moved halfway back towards ``x`` until psi there is not below psi(x)."""
+    psi = _psi0(x, p, q, c, a, t2, s_r2)
+    if not math.isfinite(psi):
+        return new
+    for _ in range(N_HALVINGS):
+        if _psi0(new, p, q, c, a, t2, s_r2) >= psi:
+            break
+        new = 0.5 * (x + new)
+    return new
 
 
 @njit(cache=True, error_model="numpy", fastmath=_FAST)
@@ -144,6 +174,53 @@ def _single_rule(x, width, lo, hi, gx, gw_e, p, q, c, a, t2, s_r2):
 
 
 @njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _curve_root(lo, hi, p, q, c, a, fallback):
+    """The zeta_G in (lo, hi) where C_G = c / F'(zeta_G) meets its conditional mean a zeta_G
+    (a root of a zeta_G (1 + p zeta_G) = c for g_NL = 0), or where they come closest
+    (F'^2 = -c p / a) if they never meet in the branch, else ``fallback``.
+
+    Where C_G is much better determined than zeta_G (t^2 << a^2 sigma_r^2) the ridge of
+    psi hugs this curve, far from the linear conditional mean the other seeds start from;
+    Newton from there was measured to stop on the wrong side of it (ln g low by up to
+    ~4e3 for f_NL = 5, sigma_c^2 / sigma_r^2 ~ 1e-2)."""
+    if q != 0.0 or a == 0.0:
+        return fallback
+    if p == 0.0:
+        return c / a
+    disc = 1.0 + 4.0 * p * c / a
+    if disc >= 0.0:
+        root = math.sqrt(disc)
+        for x in ((-1.0 + root) / (2.0 * p), (-1.0 - root) / (2.0 * p)):
+            if lo < x < hi:
+                return x
+    closest = -c * p / a                 # F'^2 where |c / F' - a zeta_G| is least
+    if closest > 0.0:
+        for f1 in (math.sqrt(closest), -math.sqrt(closest)):
+            x = (f1 - 1.0) / p
+            if lo < x < hi:
+                return x
+    return fallback
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _two_highest(found, ridges):
+    """The two highest of the found ridges (rows: ridge, width, psi) into ``ridges``,
+    highest first; a seed converging to an already found ridge does not count twice."""
+    first = 0
+    for k in range(1, found.shape[0]):
+        if found[k, 2] > found[first, 2]:
+            first = k
+    second = -1
+    for k in range(found.shape[0]):
+        if k == first or abs(found[k, 0] - found[first, 0]) <= 0.1 * found[first, 1]:
+            continue
+        if second < 0 or found[k, 2] > found[second, 2]:
+            second = k
+    ridges[0, :] = found[first, :]
+    ridges[1, :] = found[first if second < 0 else second, :]
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
 def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
     """ln int_lo^hi exp(psi) dzeta_G [1] per element (arrays of equal length): the
     algorithm of :func:`scan.observables.pbh.ng_density._branch`."""
@@ -153,7 +230,7 @@ def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
     inset = 1e-9 * (1 + min(abs(lo), abs(hi))) if (lo_f or hi_f) else 0.0
     lo_in, hi_in = lo + inset, hi - inset
     ridges = np.empty((2, 3))
-    found = np.empty((2, 3))
+    found = np.empty((3, 3))
     gw_e = np.exp(glw)
     for i in range(n):
         away = math.sqrt(s_r2[i])
@@ -162,10 +239,12 @@ def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
             x0 = start[i] if k == 0 else -start[i]
             x = _clip(x0, lo + away if lo_f else lo, hi - away if hi_f else hi)
             found[k, 0], found[k, 1], found[k, 2] = _ridge(_clip(x, lo_in, hi_in), lo_in,
-                                                           hi_in, s[i], *args)
-        first = 0 if found[0, 2] >= found[1, 2] else 1
-        ridges[0, :] = found[first, :]
-        ridges[1, :] = found[1 - first, :]
+                                                           hi_in, s[i], *args, N_NEWTON)
+        found[2, :] = found[0, :]
+        x = _clip(_curve_root(lo, hi, p, q, c[i], a[i], start[i]), lo_in, hi_in)
+        found[2, 0], found[2, 1], found[2, 2] = _ridge(x, lo_in, hi_in, s[i], *args,
+                                                       N_NEWTON_CURVE)
+        _two_highest(found, ridges)
         apart = (abs(ridges[1, 0] - ridges[0, 0]) > 0.1 * min(ridges[0, 1], ridges[1, 1])
                  and ridges[0, 2] - ridges[1, 2] < RIDGE_GAP)
         if apart:
@@ -256,8 +335,8 @@ def ln_half_moment_table(x, table):
 
 @njit(cache=True, error_model="numpy", fastmath=_FAST)
 def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
-    """ln g [1] of the logarithmic map at the nodes ``c`` (n_y,) for every pair of variances
-    (n,), shape (n, n_y), plus ``shift``: the closed form of
+    """ln g [1] of the logarithmic map at the nodes ``c`` (1 or n, n_y: shared or per pair)
+    for every pair of variances (n,), shape (n, n_y), plus ``shift``: the closed form of
     :func:`scan.observables.pbh.ng_density._ln_log_map`, the per-pair parts computed once,
     with ln int_0^inf u e^{-A (u - mu)^2/2} du = ln H(x) - ln A, x = mu sqrt(A/2) =
     (kappa + alpha b / t^2) / sqrt(2 A): ln H from ``table``
@@ -266,7 +345,8 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
 
     Elements with mu < 0 (erfcx needed, which numba lacks) are returned as NaN with a
     True in the second output, for the caller to fill from the array code."""
-    n, m = s_c2.size, c.size
+    n, m = s_c2.size, c.shape[1]
+    per_pair = c.shape[0] > 1
     out = np.empty((n, m))
     todo = np.zeros((n, m), dtype=np.bool_)
     two_rt_pi = 2.0 * math.sqrt(math.pi)
@@ -278,8 +358,10 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
         kappa = 1.0 / (lam * lam * s_r2[i])
         b = a / lam
         inv_t2 = 1.0 / t2
+        row = i if per_pair else 0
         for j in range(m):
-            alpha = c[j] + b
+            cj = c[row, j]
+            alpha = cj + b
             A = kappa + alpha * alpha * inv_t2
             inv_A = 1.0 / A
             num = kappa + alpha * (b * inv_t2)
@@ -288,7 +370,7 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
                 out[i, j] = math.nan
                 todo[i, j] = True
                 continue
-            q_min = (kappa * inv_t2) * (c[j] * c[j]) * inv_A
+            q_min = (kappa * inv_t2) * (cj * cj) * inv_A
             if x >= _X_FLAT:
                 moment = math.log(two_rt_pi * x * inv_A)
             else:

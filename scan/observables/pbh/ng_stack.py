@@ -19,8 +19,9 @@ For the identity map ln g is a quadratic in y and the interpolation is exact to 
 For the others the interpolation error falls geometrically with ``n_y`` (ln g is
 analytic on the interval); doubling ``n_y`` measures it (tests/test_pbh_ng_stack.py).
 Array operations run over (pairs x nodes); the only Python loop is over formation epochs
-(to apply each epoch's mass matrix).  One threshold for all epochs (the QCD-era
-epoch-dependent threshold stays on the per-spectrum path).
+(to apply each epoch's mass matrix).  The QCD-era conventions give every epoch its own
+threshold and exponent: then the nodes of ln g and the beta weights are per epoch
+(:func:`plan_stacked`).
 
 Units: masses [M_sun]; everything else [1].
 """
@@ -28,9 +29,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
 
+from scan.observables.pbh.abundance import critical_kernel
+from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
@@ -38,6 +42,8 @@ from scan.observables.pbh.nongaussian import (
     plan_nongaussian,
 )
 from scan.observables.pbh.plan import PBHResult, plan_pbh
+from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
+from scan.observables.pbh.threshold_plan import plan_pbh_thresholds
 from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
 from scan.observables.pbh.zeta_map import ZetaMap
 
@@ -101,8 +107,11 @@ def barycentric_matrix(x: np.ndarray, t: np.ndarray) -> np.ndarray:
     return np.where(np.any(exact, axis=-1, keepdims=True), exact.astype(float), b)
 
 
-def beta_nodes(y_th: float, threshold: float, gamma_c: float, K: float):
-    """Nodes y [1] and weights K (C - C_th)^gamma_c dy [1] of the beta integral."""
+def beta_nodes(y_th: float, threshold: float, gamma_c: float, K: float,
+               grading: float | None = None):
+    """Nodes y [1] and weights K (C - C_th)^gamma_c dy [1] of the beta integral; the
+    innermost panel graded as z^{1/grading} (default ``gamma_c``: exact for the edge)."""
+    grade = gamma_c if grading is None else grading
     span = C_L_MAX - y_th
     ys, ws = [], []
     for k in range(N_PANELS):
@@ -110,8 +119,8 @@ def beta_nodes(y_th: float, threshold: float, gamma_c: float, K: float):
         ys.append(a + (b - a) * _PANEL_Z)
         ws.append((b - a) * _PANEL_W)
     h = span * 2.0 ** -N_PANELS
-    ys.append(h * _PANEL_Z ** (1 / gamma_c))
-    ws.append(h * _PANEL_Z ** (1 / gamma_c - 1) / gamma_c * _PANEL_W)
+    ys.append(h * _PANEL_Z ** (1 / grade))
+    ws.append(h * _PANEL_Z ** (1 / grade - 1) / grade * _PANEL_W)
     y = y_th + np.concatenate(ys)
     excess = np.clip(y - 0.375 * y * y - threshold, 0.0, None)
     return y, K * excess ** gamma_c * np.concatenate(ws)
@@ -122,9 +131,10 @@ class StackedNGPlan:
     """A :class:`NonGaussianPlan` laid out for stacks of spectra (see the module doc).
 
     ``mass_matrix`` (n_H, n_y, n_M) takes ln g at the nodes to the masses' y(M, M_H) per
-    epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights;
-    ``variance_matrix`` (3 n_H, n_k) stacks the plan's sigma_c^2, sigma_cr^2 and
-    sigma_r^2 matrices.
+    epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights.
+    ``y_nodes`` (n_y,) and ``beta_weight`` (n_beta,) carry a leading epoch axis (n_H, ...)
+    with the QCD-era per-epoch thresholds and exponents.  ``variance_matrix`` (3 n_H, n_k)
+    stacks the plan's sigma_c^2, sigma_cr^2 and sigma_r^2 matrices.
     """
 
     ng: NonGaussianPlan
@@ -144,16 +154,19 @@ class StackedNGPlan:
         P = np.asarray(P_zeta, dtype=float)
         P2 = np.atleast_2d(P)
         s_c2, s_cr, s_r2 = self._variances(P2)
-        i, h = np.nonzero(_live(self.y_nodes[0], s_c2, s_r2, zmap))
+        y_th = self.y_nodes[..., 0]                          # a number, or one per epoch
+        i, h = np.nonzero(_live(y_th, s_c2, s_r2, zmap))
         var = (s_c2[i, h], s_cr[i, h], s_r2[i, h])
-        ln_g = ln_density_bound(self.y_nodes[0], *var, zmap, base.conventions.ps_factor)
+        ln_g = ln_density_bound(y_th[h] if y_th.ndim else y_th, *var, zmap,
+                                base.conventions.ps_factor)
         if np.all(np.isposinf(ln_g)):                        # no bound: every pair
             f, total = self._pairs(np.ones(i.size, dtype=bool), i, h, var, zmap,
                                    P2.shape[0])
             return self._result(P, P2, f, total, s_c2)
         with np.errstate(divide="ignore"):                   # epochs of weight 0: -inf
+            beta_max = base._wln * base._coef * self.beta_weight.sum(axis=-1)
             bounds = (np.log(base._kernel.weight.max(axis=1))[h] + ln_g,
-                      np.log(base._wln * base._coef * self.beta_weight.sum())[h] + ln_g)
+                      np.log(beta_max)[h] + ln_g)
         first = _near_top(bounds, i, P2.shape[0])
         f, total = self._pairs(first, i, h, var, zmap, P2.shape[0])
         with np.errstate(divide="ignore"):
@@ -180,12 +193,13 @@ class StackedNGPlan:
         """f(M) [1], (m, n_M), and the totals [1], (m,), of the ``chosen`` (spectrum i,
         epoch h) pairs with variances ``var``."""
         i, h = i[chosen], h[chosen]
-        lng = ln_density_pairs(self.y_nodes, *(v[chosen] for v in var), zmap,
+        nodes = self.y_nodes[h] if self.y_nodes.ndim == 2 else self.y_nodes
+        lng = ln_density_pairs(nodes, *(v[chosen] for v in var), zmap,
                                self.ng.base.conventions.ps_factor)
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
         i, h, lng = i[keep], h[keep], lng[keep]
         base = self.ng.base
-        total = np.bincount(i, weights=(base._wln * base._coef)[h] * self._beta(lng),
+        total = np.bincount(i, weights=(base._wln * base._coef)[h] * self._beta(lng, h),
                             minlength=m)
         return self._mass_function(lng, i, h, m), total
 
@@ -203,13 +217,16 @@ class StackedNGPlan:
                                     axis=1)
         return np.maximum(s_c2, 1e-300), s_cr, np.maximum(s_r2, 1e-300)
 
-    def _beta(self, lng) -> np.ndarray:
-        """beta [1] per pair from ln g at the nodes, in blocks of ``BLOCK`` pairs (so that
-        the (pairs x beta nodes) exponents stay in cache)."""
+    def _beta(self, lng, h) -> np.ndarray:
+        """beta [1] per pair (epochs ``h``) from ln g at the nodes, in blocks of ``BLOCK``
+        pairs (so that the (pairs x beta nodes) exponents stay in cache)."""
         beta = np.empty(lng.shape[0])
+        per_epoch = self.beta_weight.ndim == 2               # QCD-era weights
         for start in range(0, lng.shape[0], BLOCK):
-            block = lng[start:start + BLOCK] @ self.beta_matrix.T
-            beta[start:start + BLOCK] = exp_or_zero(block) @ self.beta_weight
+            rows = slice(start, start + BLOCK)
+            block = exp_or_zero(lng[rows] @ self.beta_matrix.T)
+            beta[rows] = np.einsum("pb,pb->p", block, self.beta_weight[h[rows]]) \
+                if per_epoch else block @ self.beta_weight
         return beta
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
@@ -229,7 +246,8 @@ class StackedNGPlan:
 
 def _near_top(bounds, i, m: int) -> np.ndarray:
     """Pairs whose bound (either of ``bounds``, ln [1]) is within ``LN_FIRST`` of the
-    largest of its spectrum (NaN included): the first pass of :meth:`StackedNGPlan.evaluate`."""
+    largest of its spectrum (NaN included): the first pass of
+    :meth:`StackedNGPlan.evaluate`."""
     out = np.zeros(i.size, dtype=bool)
     for b in bounds:
         top = np.full(m, -np.inf)
@@ -238,9 +256,9 @@ def _near_top(bounds, i, m: int) -> np.ndarray:
     return out
 
 
-def _live(y_th: float, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
-    """(spectrum, epoch) pairs whose density above ``y_th`` can be non-zero in double
-    precision.  Variances below 1e-250 (columns the spectrum does not reach) are dead.
+def _live(y_th, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
+    """(spectrum, epoch) pairs whose density above ``y_th`` (a number, or one per epoch)
+    can be non-zero in double precision.  Variances below 1e-250 (columns the spectrum does not reach) are dead.
     Logarithmic map: on the curve C_G = y u, u = 1 - lambda zeta_G, the exponent q of
     the joint density is at least max(C_G^2/sigma_c^2, zeta_G^2/sigma_r^2) (each marginal
     bounds it), whose minimum over u is y^2 / (sigma_c + |lambda| y sigma_r)^2; dead where
@@ -250,7 +268,8 @@ def _live(y_th: float, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
     if zmap.kind == "logarithmic":
         q = y_th**2 / (np.sqrt(s_c2) + abs(zmap.log_lambda) * y_th * np.sqrt(s_r2))**2
         return on & (0.5 * q < 1500.0)
-    return on & live_epochs(y_th, s_c2.ravel(), s_r2.ravel(), zmap).reshape(s_c2.shape)
+    return on & live_epochs(np.broadcast_to(y_th, s_c2.shape).ravel(), s_c2.ravel(),
+                            s_r2.ravel(), zmap).reshape(s_c2.shape)
 
 
 def _to_unit(y, y_th: float):
@@ -258,20 +277,40 @@ def _to_unit(y, y_th: float):
     return 2 * (y - y_th) / (C_L_MAX - y_th) - 1
 
 
-def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y) -> StackedNGPlan:
-    """Lay out ``ng`` (one threshold for all epochs) for stacks; ``n_y`` nodes of ln g."""
+def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
+                 exponents=None) -> StackedNGPlan:
+    """Lay out ``ng`` for stacks; ``n_y`` nodes of ln g.
+
+    ``thresholds``, ``exponents`` [1]: C_th and gamma_c per formation epoch (the QCD-era
+    conventions, with ``ng.base`` planned with them: :func:`plan_pbh_mapped`); default one
+    for all epochs.  In the unit variable of each epoch's interval [y_th, 4/3] the beta
+    nodes do not depend on the threshold, so one ``beta_matrix`` serves every epoch and
+    only the weights are per epoch; the innermost panel keeps the grading of the
+    configured gamma_c (exact for it; for an epoch's other gamma_c the panel integrates
+    z^{gamma/gamma_c} with 8 Gauss-Legendre points, measured in tests/test_sampler_qcd.py).
+    """
     conv = ng.base.conventions
     if ng.v_cr.shape != ng.base._v0.shape:
         raise ValueError(f"the joint variance matrices {ng.v_cr.shape} do not match the "
                          f"plan's {ng.base._v0.shape}: build them with the plan's n_formation")
-    y_th = float(compaction_linear(conv.threshold))
     x = lobatto(n_y)
     y_mass = ng.base._y.T                                    # (n_H, n_M)
-    yb, wb = beta_nodes(y_th, conv.threshold, conv.gamma_c, conv.K)
+    if thresholds is None and exponents is None:
+        y_th = float(compaction_linear(conv.threshold))
+        yb, wb = beta_nodes(y_th, conv.threshold, conv.gamma_c, conv.K)
+        y0 = y_th
+    else:
+        n_h = ng.base.M_H.size
+        thr = np.broadcast_to(conv.threshold if thresholds is None else thresholds, (n_h,))
+        gam = np.broadcast_to(conv.gamma_c if exponents is None else exponents, (n_h,))
+        y_th = compaction_linear(thr)[:, None]               # (n_H, 1)
+        per = [beta_nodes(float(y), float(t), float(g), conv.K, conv.gamma_c)
+               for y, t, g in zip(y_th[:, 0], thr, gam)]
+        yb, wb, y0 = per[0][0], np.array([w for _, w in per]), float(y_th[0, 0])
     return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
                          np.ascontiguousarray(barycentric_matrix(
                              x, np.clip(_to_unit(y_mass, y_th), -1, 1)).transpose(0, 2, 1)),
-                         barycentric_matrix(x, _to_unit(yb, y_th)), wb,
+                         barycentric_matrix(x, _to_unit(yb, y0)), wb,
                          np.vstack([ng.base._v0, ng.v_cr, ng.v_r]))
 
 
@@ -282,6 +321,7 @@ class MappedStackPlan:
 
     stacked: StackedNGPlan
     zmap: ZetaMap
+    gaussian: Any = None        # plan of the Gaussian total (default ``stacked.ng.base``)
 
     @property
     def M(self) -> np.ndarray:
@@ -292,17 +332,33 @@ class MappedStackPlan:
         """f_PBH of a stack (m, n_k) [1] with the Gaussian total beside it
         (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported."""
         if thresholds is not None:
-            raise ValueError("the stacked non-Gaussian plan has one threshold for all "
+            raise ValueError("the stacked non-Gaussian plan has the same thresholds for all "
                              "spectra")
-        gaussian = self.stacked.ng.base.evaluate(P_zeta).f_pbh_total
+        gaussian = (self.gaussian or self.stacked.ng.base).evaluate(P_zeta).f_pbh_total
         return replace(self.stacked.evaluate(P_zeta, self.zmap),
                        f_pbh_total_gaussian=gaussian)
 
 
 def plan_pbh_mapped(k_table, masses, conventions, zmap: ZetaMap, *, dof=None,
-                    n_eff: float | None = None, n_formation: int = 256) -> MappedStackPlan:
+                    n_eff: float | None = None, n_formation: int = 256,
+                    qcd_threshold: str = "off", qcd_collapse: str = "off") -> MappedStackPlan:
     """The batch path's f_PBH plan for spectra on ``k_table`` [Mpc^-1] at ``masses``
-    [M_sun] with zeta = F(zeta_G) given by ``zmap`` (gaussian, local or logarithmic)."""
+    [M_sun] with zeta = F(zeta_G) given by ``zmap`` (gaussian, local or logarithmic) and
+    the QCD-era conventions (:mod:`scan.observables.pbh.qcd`): per-epoch thresholds and
+    exponents, the Gaussian total beside it from the threshold plan with the same ones."""
     kw = {} if n_eff is None else {"n_eff": n_eff}
     base = plan_pbh(k_table, masses, conventions, n_formation=n_formation, dof=dof, **kw)
-    return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation)), zmap)
+    if qcd_threshold == "off" and qcd_collapse == "off":
+        return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation)), zmap)
+    thr = epoch_thresholds(base.M_H, conventions.threshold, dof) \
+        if qcd_threshold != "off" else None
+    gam = epoch_exponents(base.M_H, conventions.gamma_c, dof) if qcd_collapse != "off" \
+        else None
+    y, weight, _ = critical_kernel(base.M, base.M_H, conventions, thr, gam)
+    base = replace(base, _y=y, _weight=weight, _beta_table=None,
+                   _kernel=mass_kernel(y, weight, base._wln * base._coef, conventions))
+    gaussian = plan_pbh_thresholds(k_table, masses, conventions, n_formation=n_formation,
+                                   dof=dof, qcd_threshold=qcd_threshold,
+                                   qcd_collapse=qcd_collapse, **kw)
+    return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation), N_Y, thr, gam),
+                           zmap, gaussian)

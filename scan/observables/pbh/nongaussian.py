@@ -21,16 +21,25 @@ around the conditional mean m(c) = (sigma_cr^2/sigma_c^2) c of zeta_G given C_G 
 64-point Gauss-Legendre whose weights are divided by the rule's own integral of the
 standard normal density (1 - 1.8e-15): for F' = 1 every node carries p_C(c) phi(t)
 exactly, so g = p_C to rounding and the Gaussian abundance is a special case of this
-integral.  (ii) Where F' is large the integrand has a second ridge far from m(c) (e.g.
-the logarithmic map near zeta_G = 1/lambda, where a small C_G gives a large C_l): the
+integral.  (ii) Where F' is large the integrand has a second ridge far from m(c) (a
+small C_G already gives a large C_l there, e.g. on a local map's far branch): the
 rest of [-12, 12] sigma_r on either side of part (i) is covered by 16 panels of 8-point
 Gauss-Legendre per side (for F' = 1 it adds < e^{-72} relative); every interval is cut
-to the map's domain (lambda zeta_G < 1 for the logarithmic map), and an interval that
+to the map's domain, and an interval that
 ends at a finite domain edge has its nodes graded towards it (x - edge ~ u^6): there a
 small C_G already gives a large C_l, and the integrand has a narrow ridge.  The y = C_l
 integral of the total uses the nodes of :func:`scan.observables.pbh.abundance.beta_weighted`
 (span min(4/3 - y_th, 14 sigma_c)) plus, for the heavier non-Gaussian tails, four 16-point
 panels on the rest of [y_th, 4/3] (contributing < e^{-98} relative for F' = 1).
+
+The logarithmic map does not use this quadrature: its density is the exact closed form
+of :func:`scan.observables.pbh.ng_density.ln_density` (the ratio of two correlated
+normals, Hinkley 1969, on the branch lambda zeta_G < 1; checked in
+tests/test_pbh_nongaussian_published.py).  The quadrature cuts zeta_G at 12 sigma_r, and
+with the edge 1/lambda beyond that cut the ridge next to it, which at a large C_l
+outweighs the Gaussian core by hundreds of e-folds, was missed: f_PBH came out 1/250 of
+the closed form's for an edge at 15 sigma_r (an abundance of 6e-41); on the far ridge
+(sigma_c^2/sigma_r^2 ~ 1e-6) the graded rule's beta was up to 1.5e-3 off.
 
 Units: k [Mpc^-1], masses [M_sun], everything else [1].
 """
@@ -44,6 +53,7 @@ import numpy as np
 from scan.errors import ConfigError
 from scan.observables.pbh.abundance import _GL_W, _GL_Z, critical_kernel
 from scan.observables.pbh.conventions import PBHConventions
+from scan.observables.pbh.ng_density import ln_density
 from scan.observables.pbh.plan import PBHPlan, PBHResult
 from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
 from scan.observables.pbh.variance import lnk_weights, transfer_rd, window
@@ -62,6 +72,10 @@ _SIDE = ((_edges[:-1] + _half)[:, None] + _half[:, None] * _g).ravel()
 _SIDE_W = (_half[:, None] * _gw).ravel()
 _WIDE = 2 * _T_SPAN * _SIDE - _T_SPAN
 _TAIL_PANELS: int = 4
+#: zeta_G / sigma_r beyond which the Gaussian factor exp(-x^2/2) is 0 in double precision
+#: (e^{-760}; exp underflows to 0 below -745.2): a finite domain edge nearer than this
+#: keeps an epoch live (:func:`live_epochs`).
+_REACH: float = 39.0
 #: Power of the grading towards a finite domain edge (:func:`_graded`).
 _GRADING: int = 6
 #: Gauss-Legendre nodes per tail panel of the y = C_l integral, on [0, 1].
@@ -108,6 +122,8 @@ def compaction_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.
     ndarray [1]
         Shape of ``c`` broadcast with the variances.
     """
+    if zmap.kind == "logarithmic":
+        return np.exp(ln_density(c, s_c2, s_cr, s_r2, zmap, ps_factor))
     c, s_c2, s_cr, s_r2 = np.broadcast_arrays(*(np.asarray(a, dtype=float)
                                                 for a in (c, s_c2, s_cr, s_r2)))
     rho = s_cr / s_c2
@@ -224,13 +240,18 @@ def live_epochs(y_th, s_c2: np.ndarray, s_r2: np.ndarray, zmap: ZetaMap) -> np.n
     if C_G > y_th / max|F'|; beyond 39 sigma_c that costs exp(-760), which is 0 in double
     precision (as :func:`scan.observables.pbh.plan._live_epochs`).  NaN stays live.
     For the local map with g_NL = 0, max|F'| = 1 + (6/5)|f_NL| 12 sigma_r in closed form
-    (at least the maximum over the quadrature's nodes, so no epoch is lost).
+    (at least the maximum over the quadrature's nodes, so no epoch is lost).  F' diverges
+    at a finite domain edge (the logarithmic map, whose closed-form density covers the
+    whole domain): an edge within 39 sigma_r keeps the epoch live.
     """
     if zmap.kind == "local" and zmap.g_nl == 0:
         top = 1 + 1.2 * abs(zmap.f_nl) * _T_SPAN * np.sqrt(s_r2)
     else:
         slope = np.abs(zmap.slope(np.sqrt(s_r2)[:, None] * _WIDE))
         top = np.max(np.where(np.isfinite(slope), slope, np.inf), axis=1)
+    for edge in zmap.domain():
+        if math.isfinite(edge):
+            top = np.where(abs(edge) <= _REACH * np.sqrt(s_r2), np.inf, top)
     with np.errstate(divide="ignore", invalid="ignore"):
         nu = y_th / (np.sqrt(s_c2) * top)
     return ~(nu >= 39.0)

@@ -111,3 +111,45 @@ def collapse_note(M_H: np.ndarray, exponents: np.ndarray, conv: PBHConventions) 
             f"{exponents[i]:.4g} at M_H = {M_H[i]:.3g} M_sun; gamma(w) is interpolated "
             "linearly between published perfect-fluid exponents (w -> 0 and w = 1/3), not "
             f"a published table, and K stays {conv.K:g} (no published K(w) found)")
+
+
+def qcd_note(M_H: np.ndarray, thresholds: np.ndarray, threshold: float) -> str:
+    """One line on the QCD-era threshold (printed with the result)."""
+    i = int(np.argmin(thresholds))
+    return (f"QCD-era threshold (harada-scaled): C_th falls from {threshold:g} to "
+            f"{thresholds[i]:.4g} at M_H = {M_H[i]:.3g} M_sun (w from the g_* table); "
+            f"a lower threshold raises f_PBH there by orders of magnitude")
+
+
+#: Horizon masses [M_sun] on which a run's QCD-era notes are evaluated (0.01 dex; the
+#: crossover's w < 1/3 lies at 0.1-1 GeV, M_H ~ 0.1-30 M_sun).
+NOTE_MASSES: np.ndarray = np.geomspace(1e-4, 1e4, 801)
+
+
+def qcd_notes(conv: PBHConventions, qcd_threshold: str, qcd_collapse: str,
+              dof: cosmo.Dof = None) -> tuple[str, ...]:
+    """The lines :func:`qcd_note` and :func:`collapse_note` print for a single spectrum,
+    over the horizon masses ``NOTE_MASSES`` (for runs: sample, grid, verify)."""
+    notes = ()
+    if qcd_threshold != "off":
+        notes += (qcd_note(NOTE_MASSES, epoch_thresholds(NOTE_MASSES, conv.threshold, dof),
+                           conv.threshold),)
+    if qcd_collapse != "off":
+        notes += (collapse_note(NOTE_MASSES, epoch_exponents(NOTE_MASSES, conv.gamma_c, dof),
+                                conv),)
+    return notes
+
+
+def qcd_lines(attrs: dict) -> list[str]:
+    """The QCD-era conventions recorded in a run file's attributes (``qcd_threshold``,
+    ``qcd_collapse``, ``qcd_notes``), with their notes, as summary lines (none when both
+    are 'off' or not recorded)."""
+    on = {k: str(attrs[k]) for k in ("qcd_threshold", "qcd_collapse")
+          if str(attrs.get(k, "off")) != "off"}
+    if not on:
+        return []
+    sampled = ("; a sampled pbh.threshold is the radiation-era C_th the epochs scale"
+               if "qcd_threshold" in on else "")
+    lines = ["PBH abundance across the QCD crossover: " + ", ".join(
+        f"{k} = '{v}'" for k, v in on.items()) + f" (per formation epoch{sampled})"]
+    return lines + [f"  {note}" for note in str(attrs.get("qcd_notes", "")).splitlines()]

@@ -21,6 +21,14 @@ tests pin this to 1e-12 relative) at about the cost of one fixed-threshold evalu
 Interpolating ln f between a few threshold nodes would cost one such evaluation per
 node, and still be approximate.
 
+The QCD-era conventions (:mod:`scan.observables.pbh.qcd`) fit the same layout: the
+threshold of a (spectrum, epoch) pair is the row's (radiation-era) threshold times the
+epoch's fixed delta_c(w)/delta_c(1/3) (``harada-scaled``), and gamma-of-w's exponent
+enters x and the beta quadrature per epoch; both depend only on the epoch's horizon mass,
+so they are planned once.  Each row then equals the per-spectrum path
+(:meth:`scan.observables.pbh.nongaussian.NonGaussianPlan.evaluate` with Gaussian zeta and
+those per-epoch thresholds and exponents) to its quadrature's rounding.
+
 Units: k [Mpc^-1], masses [M_sun], P_zeta, sigma^2, thresholds and f [1].
 """
 from __future__ import annotations
@@ -29,15 +37,20 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
 from scan.observables import cosmo
-from scan.observables.pbh.abundance import _GL_W, _GL_Z
+from scan.observables.pbh.abundance import prefactor
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.kernel import half_exp
+from scan.observables.pbh.pair_beta import (
+    beta_mono_rows,
+    beta_weighted_pairs,
+    node_powers,
+)
 from scan.observables.pbh.plan import UNDERFLOW_HALF_NU2, PBHPlan, _log_interp, plan_pbh
+from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
 from scan.observables.pbh.tables import beta_tabulated
-from scan.observables.pbh.thresholds import C_L_MAX, C_MAX, compaction_linear
+from scan.observables.pbh.thresholds import C_MAX, compaction_linear
 
 
 @dataclass(frozen=True)
@@ -87,6 +100,12 @@ class ThresholdPlan:
         Accepted thresholds: the closed interval [lo, hi] if ``closed``, else the
         criterion's open domain (lo, hi).
     closed : bool
+    epoch_scale : ndarray or None [1]
+        Per formation epoch, the factor multiplying a row's threshold (the QCD-era
+        ``harada-scaled`` delta_c(w)/delta_c(1/3), :mod:`scan.observables.pbh.qcd`), shape
+        (n_H,); None: 1.
+    epoch_gamma : ndarray or None [1]
+        Per formation epoch, gamma_c (``gamma-of-w``), shape (n_H,); None: the conventions'.
     """
 
     base: PBHPlan
@@ -95,6 +114,9 @@ class ThresholdPlan:
     _xT: np.ndarray | None        # x = (M/(K M_H))^{1/gamma_c}, shape (n_H, n_M)
     _rxcT: np.ndarray | None      # (M/M_H) x / gamma_c w_H F(M_H), shape (n_H, n_M)
     _force: np.ndarray | None     # epochs kept live because a kernel weight is not finite
+    epoch_scale: np.ndarray | None = None
+    epoch_gamma: np.ndarray | None = None
+    _epoch_powers: np.ndarray | None = None  # node_powers of epoch_gamma, shape (n_H, 48)
 
     @property
     def k_in(self) -> np.ndarray:
@@ -192,29 +214,39 @@ class ThresholdPlan:
         s2, k2 = np.atleast_2d(s0), np.atleast_2d(kR2)
         t = self.check_thresholds(conv.threshold if threshold is None else threshold,
                                   s2.shape[0])
-        y_th = compaction_linear(t) if conv.criterion == "compaction" else t
+        tp = self.pair_thresholds(t, s2.shape)                  # (m, n_H)
+        y_th = compaction_linear(tp) if conv.criterion == "compaction" else tp
         if conv.mass_function == "monochromatic":
-            f_h = self.base._coef * _beta_mono(s2, k2, y_th, conv)
+            f_h = self.base._coef * beta_mono_rows(s2, k2, y_th, conv)
             f = _log_interp(self.M, conv.gamma * self.M_H, f_h)
             total = np.sum(self.base._wln * f_h, axis=-1)
         else:
             # nu^2/2 >= 760  <=>  sigma^2 <= y_th^2 / 1520 (NaN stays live)
-            live = ~(s2 <= (y_th * y_th / (2 * UNDERFLOW_HALF_NU2))[:, None]) \
-                | ~np.isfinite(k2)
-            f = self._critical_mass_function(s2, k2, t, y_th, live | self._force)
+            live = ~(s2 <= y_th * y_th / (2 * UNDERFLOW_HALF_NU2)) | ~np.isfinite(k2)
+            f = self._critical_mass_function(s2, k2, tp, y_th, live | self._force)
             i, h = np.nonzero(live)
             beta = np.zeros(s2.shape)
             table = self.base._beta_table
             if table is not None and conv.criterion != "compaction":
                 # linear criteria: the table of ln S does not depend on delta_c
-                beta[i, h] = beta_tabulated(table, s2[i, h], k2[i, h], y_th[i])
+                beta[i, h] = beta_tabulated(table, s2[i, h], k2[i, h], y_th[i, h])
             else:
-                beta[i, h] = _beta_weighted(s2[i, h], k2[i, h], y_th[i], conv)
+                gam = powers = None
+                if self.epoch_gamma is not None:
+                    gam, powers = self.epoch_gamma[h], self._epoch_powers[h]
+                beta[i, h] = beta_weighted_pairs(s2[i, h], k2[i, h], y_th[i, h], conv, gam,
+                                                 powers)
             total = np.sum(self.base._wln * self.base._coef * beta, axis=-1)
         if s0.ndim == 1:
             return ThresholdResult(self.M, f[0], float(total[0]), self.M_H, s0,
                                    float(t[0]), conv)
         return ThresholdResult(self.M, f, total, self.M_H, s0, t, conv)
+
+    def pair_thresholds(self, t: np.ndarray, shape: tuple[int, int]) -> np.ndarray:
+        """The threshold [1] of every (row, epoch) pair, shape ``shape`` = (m, n_H): the
+        row's ``t`` (shape (m,)) times the epoch's ``epoch_scale``."""
+        scale = 1.0 if self.epoch_scale is None else self.epoch_scale[None, :]
+        return np.broadcast_to(t[:, None] * scale, shape)
 
     def _critical_mass_function(self, s2: np.ndarray, k2: np.ndarray, t: np.ndarray,
                                 y_th: np.ndarray, live: np.ndarray) -> np.ndarray:
@@ -229,7 +261,7 @@ class ThresholdPlan:
         s2, k2 : ndarray [1]
             sigma^2 and <k^2> R^2, shape (m, n_H).
         t, y_th : ndarray [1]
-            Threshold and its Gaussian-variable value per row, shape (m,).
+            Threshold and its Gaussian-variable value per pair, shape (m, n_H).
         live : ndarray of bool
             Shape (m, n_H).
 
@@ -240,11 +272,11 @@ class ThresholdPlan:
         """
         conv = self.conventions
         i, h = np.nonzero(live)                               # grouped by row i
-        c = t[i][:, None] + self._xT[h]
+        c = t[i, h][:, None] + self._xT[h]
         if conv.criterion == "compaction":
             valid = c < C_MAX
             root = np.sqrt(np.maximum(1 - 1.5 * c, 1e-300))   # 1/(dy/dC) where valid
-            y = np.where(valid, (4 / 3) * (1 - root), y_th[i][:, None])
+            y = np.where(valid, (4 / 3) * (1 - root), y_th[i, h][:, None])
             with np.errstate(over="ignore", invalid="ignore"):
                 weight = np.where(valid, self._rxcT[h] / root, 0.0)
         else:
@@ -254,7 +286,7 @@ class ThresholdPlan:
         if conv.criterion == "peaks":
             nu = y / np.sqrt(s)
             g *= np.clip(nu * (nu * nu - 3), 0.0, None)
-        terms = weight * g * _prefactor(s, k, conv)
+        terms = weight * g * prefactor(s, k, conv)
         counts = np.bincount(i, minlength=s2.shape[0])
         f = np.zeros((s2.shape[0], self.M.size))
         if i.size:
@@ -263,82 +295,9 @@ class ThresholdPlan:
         return f
 
 
-def _y_max(conv: PBHConventions) -> float:
-    """Upper limit of the Gaussian variable: 4/3 (type I compaction) or infinity."""
-    return C_L_MAX if conv.criterion == "compaction" else math.inf
-
-
 def _name(conv: PBHConventions) -> str:
     """What the threshold is called for ``conv``'s criterion."""
     return "C_th" if conv.criterion == "compaction" else "delta_c"
-
-
-def _beta_mono(s2: np.ndarray, k2: np.ndarray, y_th: np.ndarray,
-               conv: PBHConventions) -> np.ndarray:
-    """Mass fraction above threshold [1], shape (m, n_H), threshold ``y_th`` per row.
-
-    The formulas of :func:`scan.observables.pbh.abundance.beta_monochromatic` (Press-Schechter or
-    the BBKS high-peak number density), with y_th of shape (m,).
-    """
-    sigma = np.sqrt(s2)
-    nu = y_th[:, None] / sigma
-    if conv.criterion == "peaks":
-        return (k2 / 3)**1.5 * (nu * nu - 1) * np.exp(-0.5 * nu * nu) / (3 * math.pi)
-    y_max = _y_max(conv)
-    upper = 0.0 if math.isinf(y_max) else special.erfc(y_max / (math.sqrt(2) * sigma))
-    return 0.5 * conv.ps_factor * (special.erfc(nu / math.sqrt(2)) - upper)
-
-
-def _prefactor(s: np.ndarray, k: np.ndarray, conv: PBHConventions) -> np.ndarray:
-    """The y-independent factor of the density p(y) [1] (:func:`abundance.density`).
-
-    p = factor * exp(-nu^2/2), times (nu^3 - 3 nu)_+ for peaks, with nu = y/sigma.
-    """
-    if conv.criterion == "peaks":
-        return (k / 3)**1.5 / (3 * math.pi * np.sqrt(s))
-    return conv.ps_factor / (math.sqrt(2 * math.pi) * np.sqrt(s))
-
-
-def _beta_weighted(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
-                   conv: PBHConventions) -> np.ndarray:
-    """int dy K (C - C_th)^gamma_c p(y) [1] per pair, thresholds per pair, shape (n,).
-
-    The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: 48-point Gauss-Legendre
-    in z on (0, 1) with y = y_th + span z^{1/gamma_c}, span = min(y_max - y_th,
-    14 sigma).  With e = y - y_th = span z^{1/gamma_c} the excess is C - C_th = e for
-    the linear criteria and e (1 - (3/8)(y + y_th)) for the compaction function, so
-    (C - C_th)^gamma_c = span^gamma_c z [(1 - (3/8)(y + y_th))^gamma_c]: the power of
-    the grid is taken once per pair (and, for compaction, folded into the exponential).
-
-    Parameters
-    ----------
-    s, k : ndarray [1]
-        sigma^2 and <k^2> R^2 per pair, shape (n,).
-    y_th : ndarray [1]
-        Threshold of the Gaussian variable per pair, shape (n,).
-    conv : PBHConventions
-
-    Returns
-    -------
-    ndarray [1]
-        Shape (n,).
-    """
-    gam = conv.gamma_c
-    a = _GL_Z**(1 / gam)                                   # e / span at the nodes
-    wq = _GL_W * a / gam            # w z z^{1/gamma_c - 1}/gamma_c: (e/span)^gamma_c dy/dz
-    sc, y0 = s[:, None], y_th[:, None]
-    span = np.minimum(_y_max(conv) - y0, 14 * np.sqrt(sc) + 1e-300)
-    y = y0 + span * a
-    arg = y * y * (-0.5 / sc)
-    if conv.criterion == "compaction":
-        with np.errstate(divide="ignore"):
-            arg += gam * np.log(np.maximum(1 - 0.375 * (y + y0), 0.0))
-    g = half_exp(0.5 * arg)
-    if conv.criterion == "peaks":
-        nu = y / np.sqrt(sc)
-        g *= np.clip(nu * (nu * nu - 3), 0.0, None)
-    row = conv.K * span[:, 0]**(1 + gam) * _prefactor(s, k, conv)
-    return row * (g @ wq)
 
 
 def threshold_domain(conv: PBHConventions) -> tuple[float, float]:
@@ -350,7 +309,8 @@ def threshold_domain(conv: PBHConventions) -> tuple[float, float]:
 def plan_pbh_thresholds(k_in, M_msun, conventions: PBHConventions | None = None,
                         threshold_range: tuple[float, float] | None = None, *,
                         n_formation: int = 256, dof: cosmo.Dof = None,
-                        n_eff: float = cosmo.N_EFF_DEFAULT) -> ThresholdPlan:
+                        n_eff: float = cosmo.N_EFF_DEFAULT, qcd_threshold: str = "off",
+                        qcd_collapse: str = "off") -> ThresholdPlan:
     """Plan f_PBH(M) with a threshold per spectrum, for spectra on ``k_in`` [Mpc^-1].
 
     Parameters
@@ -370,12 +330,21 @@ def plan_pbh_thresholds(k_in, M_msun, conventions: PBHConventions | None = None,
         Number of formation epochs (as :func:`scan.observables.pbh.plan_pbh`).
     dof, n_eff
         g_*(T) and N_eff (as :func:`scan.observables.pbh.plan_pbh`).
+    qcd_threshold, qcd_collapse : str
+        The QCD-era conventions (:mod:`scan.observables.pbh.qcd`; compaction criterion and
+        critical collapse only): ``"harada-scaled"`` multiplies every row's threshold by
+        delta_c(w)/delta_c(1/3) of each formation epoch (the row's threshold is the
+        radiation-era value), ``"gamma-of-w"`` gives each epoch its gamma_c(w); ``"off"``.
 
     Returns
     -------
     ThresholdPlan
     """
     conv = conventions or PBHConventions()
+    qcd_on = qcd_threshold != "off" or qcd_collapse != "off"
+    if qcd_on and (conv.criterion, conv.mass_function) != ("compaction", "critical"):
+        raise ValueError("the QCD-era conventions need the compaction criterion and "
+                         f"critical collapse, got {conv.criterion}, {conv.mass_function}")
     lo_d, hi_d = threshold_domain(conv)
     if threshold_range is None:
         lo, hi = lo_d, hi_d
@@ -386,12 +355,16 @@ def plan_pbh_thresholds(k_in, M_msun, conventions: PBHConventions | None = None,
                              f"{lo_d} < lo <= hi < {hi_d} ({conv.criterion} criterion)")
     base = plan_pbh(k_in, M_msun, conv, n_formation=n_formation, dof=dof, n_eff=n_eff,
                     tabulate=conv.criterion != "compaction")   # the table serves any delta_c
+    scale = epoch_thresholds(base.M_H, 1.0, dof) if qcd_threshold != "off" else None
+    gam = epoch_exponents(base.M_H, conv.gamma_c, dof) if qcd_collapse != "off" else None
     xT = rxcT = force = None
     if conv.mass_function == "critical":
         ratio = base.M[None, :] / base.M_H[:, None]
+        g_h = conv.gamma_c if gam is None else gam[:, None]
         with np.errstate(over="ignore", invalid="ignore"):
-            xT = (ratio / conv.K)**(1 / conv.gamma_c)
-            rxcT = ratio * xT / conv.gamma_c * (base._wln * base._coef)[:, None]
+            xT = (ratio / conv.K)**(1 / g_h)
+            rxcT = ratio * xT / g_h * (base._wln * base._coef)[:, None]
         force = np.zeros(base.M_H.size, bool) if conv.criterion == "compaction" \
             else ~np.isfinite(rxcT).all(1)
-    return ThresholdPlan(base, (lo, hi), threshold_range is not None, xT, rxcT, force)
+    return ThresholdPlan(base, (lo, hi), threshold_range is not None, xT, rxcT, force,
+                         scale, gam, None if gam is None else node_powers(gam[:, None]))
