@@ -24,14 +24,33 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   as the threshold plan with one threshold (scan/observables/pbh/threshold_plan.py);
   local 18.0-19.2x (17.3x without), logarithmic 6.2-6.3x (5.7-6.1x without).
 
-What limits it (measured by parts): the local map evaluates ln g at 9 nodes for 3.6k
-live pairs (32k densities); each needs two Newton ridge searches and a 16-point
-Gauss-Hermite rule (~1.1 us compiled, ~half each), ~35-45 ms in all against the
-Gaussian's ~3 ms.  The logarithmic map's closed form costs ~90 ns per density (67k:
-~6 ms; compiling it with numba measured no faster), the 120-node beta integral and the
-mass function ~2-3 ms each.  Reaching 3x needs fewer densities (fewer nodes per pair,
-or a cheaper dead-pair bound), not faster ones: 9 -> 7 nodes moves f(M) by up to 5e-5
-(local f_NL = -1), above the doubling test's 1e-5.
+* main 6defc95 (third, damped ridge-search seed) against this branch (ngspeed3), side
+  by side, 3 runs of 8 blocks each: local 25.3-25.7x -> 18.6-19.7x, logarithmic
+  6.3-6.7x -> 3.8-4.0x.  This file on ngspeed3, 3 runs (--qcd): local 17.5-18.4x,
+  logarithmic 3.5-3.8x; QCD-era local 18.3-18.6x, logarithmic 4.0-4.2x (Gaussian QCD
+  stack 4.8-4.9x).  The steps, each measured side by side before/after: exponentials
+  clipped at e^-700 onto libm's fast path (mass function and beta; e^-800 cost 19 ns,
+  e^-720 260 ns, against ~1 ns): local 23.6 -> 18.8x, logarithmic 7.9 -> 6.4x; the
+  logarithmic closed form compiled per pair with ln(e^-x^2 + sqrt(pi) x erfc(-x)) from a
+  table (erfc ~30 ns): 6.4 -> 3.6x with blocked beta; one product for the three
+  variances; the one-ridge Gauss-Hermite sum without a log per node: local ~10 %; the
+  local map's dead-pair cut (2736 of 3597 pairs computed at f_NL = 1, 3228 at -1):
+  local 17 -> 13x before the merge of the third seed.
+
+What limits it (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
+the ridge integrals (three Newton searches, ~5 steps each from the conditional-mean
+seeds, and a 16-node rule per density; ~1 us per density) for ~2.7k of 3.6k live pairs
+x 9 nodes; the bound that selects the pairs is 6-190 above ln g (47-1460 for f_NL = -1),
+so a tighter bound would leave out more (an oracle with the exact values: 1.8k pairs).
+Logarithmic map: 7.1k live pairs (its heavy tail keeps 2.4x as many as the Gaussian's
+3k, and ~6.3k of them move some f(M) >= 1e-30 max by > 1e-16) at 9 nodes: the closed
+form ~2 ms, beta ~2.3 ms (a 120-node rule: matmul of 7.1k x 9 by 9 x 120 plus 860k
+exponentials), the mass function ~1.3 ms, the variances ~0.4 ms.  A Gauss-Jacobi inner
+panel for beta (weight (y - y_th)^gamma_c) needs 88 nodes and is within 1.2e-12 of scipy
+quad (QAWS), but the Gaussian path's own beta (48-point Gauss-Legendre in z = ((y -
+y_th)/span)^gamma_c) is 1.2e-10 high at sigma = 0.044 (QAWS), so the identity test (1e-10
+against the Gaussian path) fails by 1.25e-10 with the more accurate rule; it is left as
+is.  Fewer nodes of ln g: 9 -> 8 moves f(M) by 1e-6 (lambda = 3), 9 -> 7 by 7e-6.
 
 Run:  python tests/bench/bench_pbh_nongaussian.py
 """

@@ -1,5 +1,5 @@
 """The local map's per-branch ridge integral, compiled (numba): the hot loop of
-:func:`scan.observables.pbh.ng_density._ln_local`.
+:func:`scan.observables.pbh.ng_density._ln_local`; and the logarithmic map's closed form.
 
 The algorithm is :func:`~scan.observables.pbh.ng_density._branch` (three damped Newton
 searches for up to two ridges of psi -- from the conditional mean, its mirror image and
@@ -9,6 +9,11 @@ Gauss-Hermite rule centred on each), written as one scalar loop per element.  As
 rules stay in registers (ratio measured side by side in tests/bench/bench_pbh_nongaussian.py).
 Newton stops once a step moves x by less than 1e-13 (|x| + s) (s the conditional width;
 further steps would change x at rounding level; f_PBH moved by <= 3e-13 relative, measured).
+
+Where one ridge carries the integral the rule is summed without a logarithm per node
+(:func:`_single_rule`).  The logarithmic map's closed form per pair
+(:func:`log_map_density`) takes ln(e^{-x^2} + sqrt(pi) x erfc(-x)) from a piecewise
+polynomial table below x = 6 (erfc costs ~30 ns, the table ~5).
 
 Why numba: the loop has data-dependent exits (Newton convergence, one or two ridges) that
 array code pays for on every element; numba ships wheels (no compiler at install) and
