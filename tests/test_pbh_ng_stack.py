@@ -216,6 +216,17 @@ def test_interpolation_converged_by_doubling(plans, zmap):
     _close(stacked.evaluate(P, zmap), plan_stacked(ng, 17).evaluate(P, zmap), 1e-5)
 
 
+@pytest.mark.parametrize("zmap", [zeta_map_of("local", f_nl=1.0),
+                                  zeta_map_of("logarithmic", log_lambda=3.0)])
+def test_stack_without_live_pairs_gives_zero(plans, zmap):
+    """Spectra that vanish everywhere have no live pair: f_PBH and the totals are 0
+    (floats; no pair once made the totals integers and the NaN check fail)."""
+    _, _, stacked, P = plans
+    got = stacked.evaluate(np.zeros_like(P[:2]), zmap)
+    assert got.f_pbh_total.dtype == float and np.all(got.f_pbh_total == 0)
+    assert np.all(got.f_pbh == 0)
+
+
 def test_non_finite_spectrum_gives_nan_not_zero(plans):
     """A NaN in one spectrum makes its f_PBH NaN (as the Gaussian path), the others are
     untouched."""

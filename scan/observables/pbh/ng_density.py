@@ -105,6 +105,8 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     compiled closed form (:func:`scan.observables.pbh.ng_ridge.log_map_density`, the
     array code only for elements with mu < 0)."""
     c = np.atleast_2d(np.asarray(c, dtype=float))
+    if np.size(s_c2) == 0:
+        return np.empty((0, c.shape[1]))
     if zmap.kind != "logarithmic":
         return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
     arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))

@@ -209,7 +209,7 @@ class StackedNGPlan:
         i, h, lng = i[keep], h[keep], lng[keep]
         base = self.ng.base
         total = np.bincount(i, weights=(base._wln * base._coef)[h] * self._beta(lng, h),
-                            minlength=m)
+                            minlength=m).astype(float)    # int64 when no pair is left
         return self._mass_function(lng, i, h, m), total
 
     def _variances(self, P2: np.ndarray):
