@@ -256,6 +256,20 @@ def test_density_bound_is_above_the_density(plans, f_nl):
     assert np.all(ln_density_bound(c[0], *var, zmap) >= ln_g.max(axis=1) - 5e-5)
 
 
+@pytest.mark.parametrize("f_nl", [0.3, -1.0, 5.0, -10.0])
+def test_density_bound_holds_for_random_variances(f_nl):
+    """The same over 400 random (sigma_c, correlation, sigma_r) with sigma_c, sigma_r in
+    [0.003, 0.5] and correlation in [-0.2, 0.99] (measured slack >= 1.1)."""
+    rng = np.random.default_rng(5)
+    s_c, cor, s_r = 10 ** rng.uniform(-2.5, -0.3, 400), rng.uniform(-0.2, 0.99, 400), \
+        10 ** rng.uniform(-2.5, -0.3, 400)
+    var = (s_c**2, cor * s_c * s_r, s_r**2)
+    c = np.linspace(0.7756, 4 / 3, 17)
+    zmap = zeta_map_of("local", f_nl=f_nl)
+    assert np.all(ln_density_bound(c[0], *var, zmap) >= ln_density_pairs(c, *var, zmap).max(1)
+                  - 5e-5)
+
+
 @pytest.mark.parametrize("f_nl", [1.0, -1.0])
 def test_left_out_pairs_move_f_by_less_than_their_bound(plans, f_nl):
     """Leaving out the pairs below e^{-LN_NEGLIGIBLE} of their spectrum's largest f(M)

@@ -44,6 +44,7 @@ from scan.observables.pbh.ng_ridge import (
     far_curve_bound,
     half_moment_table,
     log_map_density,
+    near_exponent_bound,
 )
 from scan.observables.pbh.zeta_map import ZetaMap
 
@@ -136,16 +137,33 @@ def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
         g(c) <= e^{-(1-e) nu^2/2} (2 |a| sigma_r^2/e + t sigma_r sqrt(2 pi/(e^2 e_1)))
                 / (2 pi sigma_r t c).
 
-    nu rises and 1/c falls with c, so the value at c = y_th bounds every c >= y_th.
-    tests/test_pbh_ng_stack.py checks it against the computed ln g."""
+    nu^2 may be replaced by any lower bound on Q along the curve; a sharper one keeps the
+    correlation: on the near branch (u = F' > 0, zeta_G = (u - 1)/p, b = a/p)
+    Q = (u - 1)^2/(p^2 sigma_r^2) + (c/u - b (u - 1))^2/t^2 >= h(u), the second term's
+    base clipped at 0; h is convex in u (c/u - b(u - 1) is convex, its positive part too),
+    so its minimum is bounded from below by the crossing of two tangents
+    (:func:`scan.observables.pbh.ng_ridge.near_exponent_bound`); on the far branch (F' =
+    -u < 0, |zeta_G| = (u + 1)/|p|) the marginals cross at u = (sqrt(1 + 4 c |p|
+    sigma_r/sigma_c) - 1)/2.  nu^2 is the larger of the two bounds.
+
+    Every bound rises and 1/c falls with c, so the value at c = y_th bounds every
+    c >= y_th.  tests/test_pbh_ng_stack.py checks it against the computed ln g."""
     s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (s_c2, s_cr, s_r2))
     if zmap.kind != "local" or zmap.g_nl != 0:
         return np.full(s_c2.shape, np.inf)
-    e = BOUND_SPLIT
+    e, p = BOUND_SPLIT, 1.2 * zmap.f_nl
     a, t2, _ = joint(s_c2, s_cr, s_r2)
     s_c, s_r, t = np.sqrt(s_c2), np.sqrt(s_r2), np.sqrt(t2)
-    u = 0.5 * (1 + np.sqrt(1 + 4 * y_th * abs(1.2 * zmap.f_nl) * s_r / s_c))
-    nu = y_th / (s_c * u)
+    root = np.sqrt(1 + 4 * y_th * abs(p) * s_r / s_c)
+    nu2 = (y_th / (s_c * 0.5 * (1 + root)))**2
+    if p != 0 and s_c2.size:
+        c = np.broadcast_to(y_th, s_c2.shape)
+        near = near_exponent_bound(p, *(np.ascontiguousarray(v, dtype=float).ravel()
+                                        for v in (c, a, t2, s_r2))).reshape(s_c2.shape)
+        with np.errstate(divide="ignore"):
+            far = (y_th / (s_c * 0.5 * (root - 1)))**2
+        nu2 = np.maximum(nu2, np.minimum(near, far))
+    nu = np.sqrt(nu2)
     pref = (2 * np.abs(a) * s_r2 / e + t * s_r * math.sqrt(2 * math.pi / (e * e * math.e))) \
         / (2 * math.pi * s_r * t * y_th)
     return -(1 - e) * 0.5 * nu * nu + np.log(pref) + math.log(ps_factor)

@@ -382,3 +382,51 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
                 moment = ln_half_moment_table(x, table) - math.log(A)
             out[i, j] = base - 0.5 * q_min + moment
     return out, todo
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def _near_slope(u, inv_p2s, c, b, inv_t2):
+    """(h, h') of h(u) = (u - 1)^2 / (p^2 sigma_r^2) + max(c/u - b (u - 1), 0)^2 / t^2."""
+    phi = c / u - b * (u - 1.0)
+    plus = max(phi, 0.0)
+    h = (u - 1.0) * (u - 1.0) * inv_p2s + plus * plus * inv_t2
+    dh = 2.0 * (u - 1.0) * inv_p2s + 2.0 * plus * (-c / (u * u) - b) * inv_t2
+    return h, dh
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FAST)
+def near_exponent_bound(p, c, a, t2, s_r2):
+    """A lower bound [1] on min over u > 0 of the convex h(u) (:func:`_near_slope`) per
+    element, p = (6/5) f_NL != 0, b = a/p: the near branch's joint exponent on the curve
+    C_G F' = c, with u = F' (derivation in
+    :func:`scan.observables.pbh.ng_density.ln_density_bound`).  The minimum is bracketed
+    (h' < 0 as u -> 0, > 0 for large u), the bracket halved 40 times in ln u, and the
+    bound taken where the tangents at its ends cross (h is convex: it lies above both)."""
+    out = np.empty(c.size)
+    for i in range(c.size):
+        inv_p2s = 1.0 / (p * p * s_r2[i])
+        b, inv_t2 = a[i] / p, 1.0 / t2[i]
+        lo, hi = 0.5, 2.0
+        for _ in range(200):
+            if _near_slope(lo, inv_p2s, c[i], b, inv_t2)[1] <= 0.0:
+                break
+            lo *= 0.5
+        for _ in range(200):
+            if _near_slope(hi, inv_p2s, c[i], b, inv_t2)[1] >= 0.0:
+                break
+            hi *= 2.0
+        for _ in range(40):
+            mid = math.sqrt(lo * hi)
+            if _near_slope(mid, inv_p2s, c[i], b, inv_t2)[1] <= 0.0:
+                lo = mid
+            else:
+                hi = mid
+        h_lo, d_lo = _near_slope(lo, inv_p2s, c[i], b, inv_t2)
+        h_hi, d_hi = _near_slope(hi, inv_p2s, c[i], b, inv_t2)
+        if d_lo < d_hi:
+            x = (h_hi - h_lo + d_lo * lo - d_hi * hi) / (d_lo - d_hi)
+            bound = h_lo + d_lo * (min(max(x, lo), hi) - lo)
+        else:
+            bound = min(h_lo, h_hi)
+        out[i] = max(bound, 0.0) * (1.0 - 1e-12)
+    return out

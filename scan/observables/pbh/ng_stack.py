@@ -69,9 +69,10 @@ N_PANELS: int = 14
 LN_NEGLIGIBLE: float = 100.0
 #: First pass: pairs whose bound is within this of their spectrum's best bound; the
 #: second pass adds those the first pass's f(M) and totals do not rule out.  On the
-#: benchmark's 64 spectra (3597 live pairs): f_NL = 1 computes 2614 + 122 pairs, f_NL =
-#: -1 2614 + 614 (the bound exceeds ln g by 6-190 and 47-1460 there); 20-150 give the
-#: same sum, a wider first pass just leaves less to the second.
+#: benchmark's 64 spectra (3597 live pairs): f_NL = 1 computes 2473 + 69 pairs, f_NL =
+#: -1 1699 + 141 (3228 with the marginals-only bound; with the exact ln g, ~1.8k and
+#: ~1.9k would be needed); 40 gives the same sums, a wider first pass just leaves less to
+#: the second.
 LN_FIRST: float = 100.0
 #: A pair whose ln g stays below this at every node contributes exactly 0 (e^{-800} is
 #: below the smallest double, and the epoch weights are < 1e30).
