@@ -18,6 +18,7 @@ import pytest
 from scipy import integrate, special
 
 from scan.observables.pbh import PBHConventions, plan_pbh
+from scan.observables.pbh.ng_closed import half_moment_table, ln_half_moment_table
 from scan.observables.pbh.ng_density import (
     _ln_far_curve_bound,
     _ln_local,
@@ -26,7 +27,6 @@ from scan.observables.pbh.ng_density import (
     ln_density_bound,
     ln_density_pairs,
 )
-from scan.observables.pbh.ng_ridge import half_moment_table, ln_half_moment_table
 from scan.observables.pbh.ng_stack import LN_NEGLIGIBLE, _live, plan_stacked
 from scan.observables.pbh.nongaussian import plan_nongaussian
 from scan.observables.pbh.zeta_map import zeta_map_of
@@ -72,7 +72,7 @@ def test_logarithmic_closed_form_matches_quad(lam):
 
 @pytest.mark.parametrize("lam", [3.0, -2.0, 0.5])
 def test_compiled_logarithmic_form_matches_array_code(lam):
-    """The compiled closed form per pair (ng_ridge.log_map_density) is the array code's
+    """The compiled closed form per pair (ng_closed.log_map_density) is the array code's
     formula in another order (and the array code itself where mu < 0, which these
     random variances reach for every lambda): equal to a few rounding errors of the
     largest term, |d ln g| <= 16 eps (|ln g| + 10) (our bound, common practice: about

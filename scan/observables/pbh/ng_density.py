@@ -39,13 +39,12 @@ import math
 import numpy as np
 from scipy import special
 
-from scan.observables.pbh.ng_ridge import (
-    branch_integrals,
-    far_curve_bound,
+from scan.observables.pbh.ng_closed import (
     half_moment_table,
     log_map_density,
     near_exponent_bound,
 )
+from scan.observables.pbh.ng_ridge import branch_integrals, far_curve_bound
 from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Gauss-Hermite nodes of the local map's per-branch rule: 16 -> 32 changes ln g by
@@ -103,7 +102,7 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     variances (n,): shape (n, n_y).
 
     As :func:`ln_density` on (c, s[:, None]); the logarithmic map goes through its
-    compiled closed form (:func:`scan.observables.pbh.ng_ridge.log_map_density`, the
+    compiled closed form (:func:`scan.observables.pbh.ng_closed.log_map_density`, the
     array code only for elements with mu < 0)."""
     c = np.atleast_2d(np.asarray(c, dtype=float))
     if np.size(s_c2) == 0:
@@ -142,7 +141,7 @@ def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
     Q = (u - 1)^2/(p^2 sigma_r^2) + (c/u - b (u - 1))^2/t^2 >= h(u), the second term's
     base clipped at 0; h is convex in u (c/u - b(u - 1) is convex, its positive part too),
     so its minimum is bounded from below by the crossing of two tangents
-    (:func:`scan.observables.pbh.ng_ridge.near_exponent_bound`); on the far branch (F' =
+    (:func:`scan.observables.pbh.ng_closed.near_exponent_bound`); on the far branch (F' =
     -u < 0, |zeta_G| = (u + 1)/|p|) the marginals cross at u = (sqrt(1 + 4 c |p|
     sigma_r/sigma_c) - 1)/2.  nu^2 is the larger of the two bounds.
 
