@@ -104,6 +104,12 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
     return out, todo
 
 
+#: Halvings of the bracket around the minimum of h in ln u: the bracket is then 2^-16 of
+#: its start (ln 4 typically), and the tangents' crossing lies below the minimum by
+#: ~h'' u^2 (4e-5)^2 / 8, negligible against the exponents of hundreds it bounds.
+N_HALVE: int = 16
+
+
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _near_slope(u, inv_p2s, c, b, inv_t2):
     """(h, h') of h(u) = (u - 1)^2 / (p^2 sigma_r^2) + max(c/u - b (u - 1), 0)^2 / t^2."""
@@ -120,7 +126,7 @@ def near_exponent_bound(p, c, a, t2, s_r2):
     element, p = (6/5) f_NL != 0, b = a/p: the near branch's joint exponent on the curve
     C_G F' = c, with u = F' (derivation in
     :func:`scan.observables.pbh.ng_density.ln_density_bound`).  The minimum is bracketed
-    (h' < 0 as u -> 0, > 0 for large u), the bracket halved 40 times in ln u, and the
+    (h' < 0 as u -> 0, > 0 for large u), the bracket halved ``N_HALVE`` times in ln u, and the
     bound taken where the tangents at its ends cross (h is convex: it lies above both)."""
     out = np.empty(c.size)
     for i in range(c.size):
@@ -135,7 +141,7 @@ def near_exponent_bound(p, c, a, t2, s_r2):
             if _near_slope(hi, inv_p2s, c[i], b, inv_t2)[1] >= 0.0:
                 break
             hi *= 2.0
-        for _ in range(40):
+        for _ in range(N_HALVE):
             mid = math.sqrt(lo * hi)
             if _near_slope(mid, inv_p2s, c[i], b, inv_t2)[1] <= 0.0:
                 lo = mid
