@@ -7,8 +7,9 @@ to the stochastic limit) are a thin sliver of a scan box, and their spectra have
 the bulk does not: for p > 1 the largest peaks are plateaus (P within 2x of its maximum over
 >= 1 in ln k).  One stationary kernel over the whole box chooses its length scales for the
 bulk; fitted on the sliver's neighbourhood alone, the shape is far more accurate there
-(measured on the p in [1, 1.7] wide box, 25 high-peak hold-out models: 95th percentile of
-the shape error near the peak 0.23 dex with the global block, 0.039 with this block;
+(measured on ``configs/wide_scan_high.toml``, 57 high-peak hold-out models: 95th
+percentile of the shape error near the peak 0.115 dex with the global block, 0.050 with
+this block, and of |d log10 f_PBH| over the 35 models with f_PBH > 1e-10 0.42 -> 0.33 dex;
 docs/wide_scan_surrogate_report.txt).
 
 A high-peak regressor of (ln k_peak, log10 P_peak) was measured as well and is *not* used:
