@@ -185,8 +185,10 @@ def _curve_root(lo, hi, p, q, c, a, fallback):
     psi hugs this curve, far from the linear conditional mean the other seeds start from;
     Newton from there was measured to stop on the wrong side of it (ln g low by up to
     ~4e3 for f_NL = 5, sigma_c^2 / sigma_r^2 ~ 1e-2)."""
-    if q != 0.0 or a == 0.0:
+    if a == 0.0:
         return fallback
+    if q != 0.0:
+        return _cubic_curve_root(lo, hi, p, q, c, a, fallback)
     if p == 0.0:
         return c / a
     disc = 1.0 + 4.0 * p * c / a
@@ -202,6 +204,36 @@ def _curve_root(lo, hi, p, q, c, a, fallback):
             if lo < x < hi:
                 return x
     return fallback
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _cubic_curve_root(lo, hi, p, q, c, a, fallback):
+    """The real root in (lo, hi) of a zeta_G (1 + p zeta_G + q zeta_G^2) = c nearest to 0
+    (the most probable zeta_G on the curve), else ``fallback``; trigonometric or Cardano
+    form of the depressed cubic (standard closed forms)."""
+    b2, b1, b0 = p / q, 1.0 / q, -c / (a * q)          # x^3 + b2 x^2 + b1 x + b0 = 0
+    shift = b2 / 3.0
+    pp = b1 - b2 * b2 / 3.0
+    qq = 2.0 * b2 ** 3 / 27.0 - b2 * b1 / 3.0 + b0
+    disc = (qq / 2.0) ** 2 + (pp / 3.0) ** 3
+    best, found = fallback, False
+    if disc > 0.0:
+        r = math.sqrt(disc)
+        u = -qq / 2.0 + r
+        v = -qq / 2.0 - r
+        x = math.copysign(abs(u) ** (1.0 / 3.0), u) + math.copysign(abs(v) ** (1.0 / 3.0), v)
+        x -= shift
+        if lo < x < hi:
+            return x
+        return fallback
+    m = 2.0 * math.sqrt(max(-pp / 3.0, 0.0))
+    arg = 3.0 * qq / (pp * m) if pp != 0.0 else 0.0
+    theta = math.acos(min(1.0, max(-1.0, arg))) / 3.0
+    for j in range(3):
+        x = m * math.cos(theta - 2.0 * math.pi * j / 3.0) - shift
+        if lo < x < hi and (not found or abs(x) < abs(best)):
+            best, found = x, True
+    return best
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
