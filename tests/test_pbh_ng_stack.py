@@ -18,13 +18,16 @@ import pytest
 from scipy import integrate, special
 
 from scan.observables.pbh import PBHConventions, plan_pbh
+from scan.observables.pbh.ng_closed import half_moment_table, ln_half_moment_table
 from scan.observables.pbh.ng_density import (
     _ln_far_curve_bound,
     _ln_local,
     _series,
     ln_density,
+    ln_density_bound,
+    ln_density_pairs,
 )
-from scan.observables.pbh.ng_stack import plan_stacked
+from scan.observables.pbh.ng_stack import LN_NEGLIGIBLE, _live, plan_pbh_mapped, plan_stacked
 from scan.observables.pbh.nongaussian import plan_nongaussian
 from scan.observables.pbh.zeta_map import zeta_map_of
 
@@ -65,6 +68,38 @@ def test_logarithmic_closed_form_matches_quad(lam):
         for c in (0.78, 1.05, 1.33):
             got = float(ln_density(c, s_c**2, cor * s_c * s_r, s_r**2, zmap))
             assert got == pytest.approx(_quad_ln_density(c, s_c, cor, s_r, zmap), abs=1e-8)
+
+
+@pytest.mark.parametrize("lam", [3.0, -2.0, 0.5])
+def test_compiled_logarithmic_form_matches_array_code(lam):
+    """The compiled closed form per pair (ng_closed.log_map_density) is the array code's
+    formula in another order (and the array code itself where mu < 0, which these
+    random variances reach for every lambda): equal to a few rounding errors of the
+    largest term, |d ln g| <= 16 eps (|ln g| + 10) (our bound, common practice: about
+    a dozen operations of <= 1 ulp each)."""
+    rng = np.random.default_rng(2)
+    s_c, cor, s_r = rng.uniform(0.005, 0.4, 500), rng.uniform(-0.3, 0.95, 500), \
+        rng.uniform(0.005, 0.5, 500)
+    c = np.linspace(0.7756, 4 / 3, 9)
+    zmap = zeta_map_of("logarithmic", log_lambda=lam)
+    v = (s_c**2, cor * s_c * s_r, s_r**2)
+    got = ln_density_pairs(c, *v, zmap, 0.9)
+    ref = ln_density(c, *(x[:, None] for x in v), zmap, 0.9)
+    assert np.all(np.isfinite(got))
+    assert np.all(np.abs(got - ref) <= 16 * np.finfo(float).eps * (np.abs(ref) + 10))
+
+
+def test_half_moment_table_matches_scipy_erfc():
+    """ln H(x) = ln(e^{-x^2} + sqrt(pi) x erfc(-x)) on [0, 6) from the piecewise degree-9
+    table against scipy's erfc at 20001 points.  Bound 1e-14: the interpolation error of
+    an entire function at degree 9 on pieces of width 3/16 is far below rounding; ten
+    Horner steps on values <= ln(12 sqrt(pi)) = 3.06 (ulp 4.4e-16) and the reference's
+    own rounding give ~20 ulp (our bound; measured 3.6e-15)."""
+    table = half_moment_table()
+    x = np.linspace(0.0, 6.0, 20001)[:-1]
+    ref = np.log(np.exp(-x * x) + math.sqrt(math.pi) * x * special.erfc(-x))
+    got = np.array([ln_half_moment_table(v, table) for v in x])
+    assert np.max(np.abs(got - ref)) <= 1e-14
 
 
 def test_erfc_tail_series_matches_scipy():
@@ -181,6 +216,17 @@ def test_interpolation_converged_by_doubling(plans, zmap):
     _close(stacked.evaluate(P, zmap), plan_stacked(ng, 17).evaluate(P, zmap), 1e-5)
 
 
+@pytest.mark.parametrize("zmap", [zeta_map_of("local", f_nl=1.0),
+                                  zeta_map_of("logarithmic", log_lambda=3.0)])
+def test_stack_without_live_pairs_gives_zero(plans, zmap):
+    """Spectra that vanish everywhere have no live pair: f_PBH and the totals are 0
+    (floats; no pair once made the totals integers and the NaN check fail)."""
+    _, _, stacked, P = plans
+    got = stacked.evaluate(np.zeros_like(P[:2]), zmap)
+    assert got.f_pbh_total.dtype == float and np.all(got.f_pbh_total == 0)
+    assert np.all(got.f_pbh == 0)
+
+
 def test_non_finite_spectrum_gives_nan_not_zero(plans):
     """A NaN in one spectrum makes its f_PBH NaN (as the Gaussian path), the others are
     untouched."""
@@ -192,3 +238,90 @@ def test_non_finite_spectrum_gives_nan_not_zero(plans):
     assert np.isnan(got.f_pbh_total[1]) and np.all(np.isnan(got.f_pbh[1]))
     keep = [0, 2, 3]
     np.testing.assert_array_equal(got.f_pbh_total[keep], ref.f_pbh_total[keep])
+
+
+@pytest.mark.parametrize("f_nl", [1.0, -1.0, 5.0, -2.0])
+def test_density_bound_is_above_the_density(plans, f_nl):
+    """The local map's bound on ln g over c >= y_th (our derivation, ng_density) is above
+    ln g at 33 points of [y_th, 4/3] for every live pair of the four spectra, up to
+    ln g's own quadrature error (<= 5e-5, test_local_gauss_hermite_matches_quad; measured
+    slack >= 4)."""
+    _, _, stacked, P = plans
+    zmap = zeta_map_of("local", f_nl=f_nl)
+    s_c2, s_cr, s_r2 = stacked._variances(P)
+    i, h = np.nonzero(_live(stacked.y_nodes[0], s_c2, s_r2, zmap))
+    var = (s_c2[i, h], s_cr[i, h], s_r2[i, h])
+    c = np.linspace(stacked.y_nodes[0], 4 / 3, 33)
+    ln_g = ln_density_pairs(c, *var, zmap)
+    assert np.all(ln_density_bound(c[0], *var, zmap) >= ln_g.max(axis=1) - 5e-5)
+
+
+@pytest.mark.parametrize("f_nl", [0.3, -1.0, 5.0, -10.0])
+def test_density_bound_holds_for_random_variances(f_nl):
+    """The same over 400 random (sigma_c, correlation, sigma_r) with sigma_c, sigma_r in
+    [0.003, 0.5] and correlation in [-0.2, 0.99] (measured slack >= 1.1)."""
+    rng = np.random.default_rng(5)
+    s_c, cor, s_r = 10 ** rng.uniform(-2.5, -0.3, 400), rng.uniform(-0.2, 0.99, 400), \
+        10 ** rng.uniform(-2.5, -0.3, 400)
+    var = (s_c**2, cor * s_c * s_r, s_r**2)
+    c = np.linspace(0.7756, 4 / 3, 17)
+    zmap = zeta_map_of("local", f_nl=f_nl)
+    assert np.all(ln_density_bound(c[0], *var, zmap) >= ln_density_pairs(c, *var, zmap).max(1)
+                  - 5e-5)
+
+
+@pytest.mark.parametrize("f_nl", [1.0, -1.0])
+def test_left_out_pairs_move_f_by_less_than_their_bound(plans, f_nl):
+    """Leaving out the pairs below e^{-LN_NEGLIGIBLE} of their spectrum's largest f(M)
+    (or total) changes f(M) by at most n_H e^{-LN_NEGLIGIBLE} max f(M) and the total by
+    n_H e^{-LN_NEGLIGIBLE} total (the bound summed over the 128 epochs), against every
+    pair evaluated."""
+    plan, _, stacked, P = plans
+    zmap = zeta_map_of("local", f_nl=f_nl)
+    got = stacked.evaluate(P, zmap)
+    s_c2, s_cr, s_r2 = stacked._variances(P)
+    i, h = np.nonzero(_live(stacked.y_nodes[0], s_c2, s_r2, zmap))
+    f_all, total_all = stacked._pairs(np.ones(i.size, dtype=bool), i, h,
+                                      (s_c2[i, h], s_cr[i, h], s_r2[i, h]), zmap, len(P))
+    slack = plan.M_H.size * math.exp(-LN_NEGLIGIBLE)
+    assert np.all(np.abs(got.f_pbh - f_all) <= slack * f_all.max(axis=1, keepdims=True))
+    assert np.all(np.abs(got.f_pbh_total - total_all) <= slack * total_all)
+
+
+@pytest.mark.parametrize("f_nl", [-2.0, 2.5])
+def test_wide_type_one_interval_gets_more_nodes(f_nl):
+    """A low threshold (C_th = 0.18, Gaussian window: y_th = 0.19) widens [y_th, 4/3];
+    the batch plan then takes 17 nodes of ln g (nodes_for), and the stack matches the
+    per-spectrum path to the GH-16 bound of test_stack_matches_per_spectrum_path (rtol
+    1e-4; measured <= 8.5e-6 with 17 nodes, 2.9e-2 with 9)."""
+    k = np.geomspace(1e5, 1e8, 300)
+    masses = np.geomspace(1e-2, 1e3, 32)
+    conv = PBHConventions(window="gaussian", threshold=0.18)
+    zmap = zeta_map_of("local", f_nl=f_nl)
+    P = spectra(k)[:4]
+    ng = plan_nongaussian(plan_pbh(k, masses, conv, n_formation=128), 128)
+    stack = plan_pbh_mapped(k, masses, conv, zmap, n_formation=128)
+    assert stack.stacked.y_nodes.shape[-1] == 17
+    refs = [ng.evaluate(p, zmap) for p in P]
+    ref_f = np.array([r.f_pbh for r in refs])
+    got = stack.evaluate(P)
+    big = ref_f >= 1e-30 * ref_f.max(axis=-1, keepdims=True)
+    np.testing.assert_allclose(got.f_pbh[big], ref_f[big], rtol=1e-4)
+    np.testing.assert_allclose(got.f_pbh_total, [r.f_pbh_total for r in refs], rtol=1e-4)
+
+
+@pytest.mark.parametrize("f_nl, g_nl", [(0.0, 10.0), (1.0, -40.0), (2.5, 50.0)])
+def test_stack_with_g_nl_matches_per_spectrum_path(plans, f_nl, g_nl):
+    """Cubic local map (g_NL != 0): stacked vs per-spectrum.  Both take the adaptive
+    Gauss-Hermite density (checked against quad in tests/test_pbh_ng_ridges.py; the
+    per-spectrum composite rule it replaced missed ridges by ~550 in ln g here), so this
+    checks the interpolation of ln g and the assembly; rtol 1e-4 as in
+    test_stack_matches_per_spectrum_path."""
+    _, ng, stacked, P = plans
+    zmap = zeta_map_of("local", f_nl=f_nl, g_nl=g_nl)
+    refs = [ng.evaluate(p, zmap) for p in P]
+    ref_f = np.array([r.f_pbh for r in refs])
+    got = stacked.evaluate(P, zmap)
+    big = ref_f >= 1e-30 * ref_f.max(axis=-1, keepdims=True)
+    np.testing.assert_allclose(got.f_pbh[big], ref_f[big], rtol=1e-4)
+    np.testing.assert_allclose(got.f_pbh_total, [r.f_pbh_total for r in refs], rtol=1e-4)

@@ -36,7 +36,8 @@ def _target(trained, extra):  # noqa: F811
     return cfg, plan.target
 
 
-@pytest.mark.parametrize("extra", [LOCAL, ('[observables]\nnon_gaussianity = '
+@pytest.mark.parametrize("extra", [LOCAL, LOCAL + "g_nl = 10.0\n",
+                                   ('[observables]\nnon_gaussianity = '
                                     '"logarithmic"\nlog_lambda = 3.0\n')])
 def test_posterior_f_pbh_is_the_per_spectrum_non_gaussian_one(trained, extra):  # noqa: F811
     """The walkers' f_PBH total equals the per-spectrum path on the same table spectra

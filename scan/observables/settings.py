@@ -92,17 +92,17 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
     """Refuse conventions the vectorised (surrogate) and table paths do not compute.
 
     The sampler, the grid and verify evaluate f_PBH for a stack of spectra: Gaussian zeta
-    (:mod:`scan.observables.pbh.threshold_plan`), or the ``local`` (g_NL = 0) and
+    (:mod:`scan.observables.pbh.threshold_plan`), or the ``local`` and
     ``logarithmic`` maps with the config's fixed parameters
     (:mod:`scan.observables.pbh.ng_stack`), each with the QCD-era threshold and exponent
     per formation epoch.  ``model`` needs every sample's own delta-N map, which the
-    surrogate does not emulate, and the stack covers the quadratic local map only: both
-    would silently be ignored there, so they stop with a message instead.
+    surrogate does not emulate: it would silently be ignored there, so it stops with a
+    message instead.
 
     Raises
     ------
     ConfigError
-        Naming ``observables.non_gaussianity`` or ``observables.g_nl``.
+        Naming ``observables.non_gaussianity``.
     """
     if section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' is not available "
@@ -110,11 +110,6 @@ def require_batch_conventions(section: ObservablesSection, source: str) -> None:
                           "sample's delta-N map)", "use non_gaussianity = 'local' with the "
                           "f_nl that 'zetascan solve' prints for your best model (f_NL at "
                           "the peak), or 'logarithmic' with log_lambda")
-    if section.non_gaussianity == "local" and section.g_nl != 0:
-        raise ConfigError(source, "observables.g_nl", f"g_nl = {section.g_nl:g} is not "
-                          "available in sample, grid and verify (their non-Gaussian f_PBH "
-                          "covers the quadratic local map)", "set g_nl = 0 for the posterior "
-                          "and check single models with zetascan solve")
 
 
 def pbh_convention_attrs(section: ObservablesSection) -> dict:

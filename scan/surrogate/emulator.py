@@ -17,7 +17,10 @@ Three kernel regressors (:mod:`scan.surrogate.gp`) on unit-cube inputs:
 * ``wall`` (only when a pole is given by a wall coordinate) — ln w_w, the pole's width
   at its wall, over every point where it is known (valid or not: it does not depend on
   the wall coordinate); a width prior stated for that coordinate needs it
-  (:mod:`scan.config.width_prior`).
+  (:mod:`scan.config.width_prior`);
+* ``high_peak`` (when it beats the global shape block there) — a shape regressor fitted
+  only on the models with the highest peaks, blended in where the peak block predicts one
+  (:mod:`scan.surrogate.highpeak`: plateaus and other shapes the bulk does not have).
 
 Each block's kernel is Matérn-5/2 or Gaussian, whichever has the lower leave-one-out
 error (``kernel = "auto"``): which kernel wins depends on the target's smoothness, so it
@@ -36,7 +39,9 @@ import numpy as np
 
 from scan.surrogate.bottleneck import Bottleneck, augment, candidates
 from scan.surrogate.gp import KERNELS, GPFit, fit_best, predict_gp, predictive_sd
+from scan.surrogate.highpeak import HighPeak, blend, fit_high_peak
 from scan.surrogate.shape import ShapeBasis, decode, encode, fit_basis
+from scan.surrogate.threads import single_blas_thread
 
 PEAK_COLUMNS = ("ln_k_peak", "log10_P_peak")
 CMB_COLUMNS = ("n_s", "log10_r", "log10_V0", "N_star")
@@ -88,6 +93,7 @@ class Emulator:
     (``constant_valid`` then gives it).  ``bottleneck`` is the extra input of the blocks
     named in ``bottleneck_blocks`` (None and () when no block gained from it).  ``wall``
     emulates ln w_w (None when the training points had no wall coordinate).
+    ``high_peak`` refines the shape where the peak is high (None: not fitted).
     """
 
     classifier: GPFit | None
@@ -99,6 +105,7 @@ class Emulator:
     bottleneck: Bottleneck | None = None
     bottleneck_blocks: tuple[str, ...] = ()
     wall: GPFit | None = None
+    high_peak: HighPeak | None = None
 
     def inputs(self, block: str, u: np.ndarray) -> np.ndarray:
         """The inputs of regressor ``block`` at unit-cube points ``u`` (p, d)."""
@@ -149,13 +156,21 @@ def _complete(rows: np.ndarray) -> np.ndarray:
 
 
 def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSettings()) -> Emulator:
-    """Fit the classifier, the peak, shape and CMB blocks (with or without the bottleneck).
+    """Fit the classifier, the peak, shape and CMB blocks (with or without the bottleneck),
+    with one BLAS thread (:mod:`scan.surrogate.threads`: on a loaded 2-core machine the
+    small solves ran ~25x slower with the default pool, measured on the high-peak tests).
 
     Raises
     ------
     ValueError
         If fewer than 3 valid points have complete targets.
     """
+    with single_blas_thread():
+        return _fit_emulator(data, settings)
+
+
+def _fit_emulator(data: TrainingSet, settings: EmulatorSettings) -> Emulator:
+    """:func:`fit_emulator` inside its thread limit."""
     kernels = KERNELS if settings.kernel == "auto" else (settings.kernel,)
     opts = dict(kernels=kernels, noise_floor=settings.nugget, iterations=settings.iterations)
     labels = np.where(data.valid, 1.0, -1.0)
@@ -169,8 +184,8 @@ def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSetting
                       settings.shape_tolerance)
     tried = candidates(data.u, data.valid)
     peak, bottleneck = _fit_block(data.u[good], data.scalars[good, :2], [None, *tried], opts)
-    shape, shape_bn = _fit_block(data.u[good], encode(basis, data.shapes[good]),
-                                 [None, bottleneck], opts)
+    coefs = encode(basis, data.shapes[good])
+    shape, shape_bn = _fit_block(data.u[good], coefs, [None, bottleneck], opts)
     cmb_cols = data.scalars[:, 2:WALL_COLUMN]
     cmb_rows = data.valid & _complete(cmb_cols)
     cmb_rows = cmb_rows if cmb_rows.sum() >= 3 else good
@@ -178,8 +193,9 @@ def fit_emulator(data: TrainingSet, settings: EmulatorSettings = EmulatorSetting
                              [None, bottleneck], opts)
     blocks = tuple(name for name, bn in (("peak", bottleneck), ("shape", shape_bn),
                                          ("cmb", cmb_bn)) if bn is not None)
+    high_peak = fit_high_peak(data.u[good], data.scalars[good, 1], coefs, shape, opts)
     return Emulator(classifier, bool(data.valid.all()), peak, shape, cmb, basis,
-                    bottleneck if blocks else None, blocks, _fit_wall(data, opts))
+                    bottleneck if blocks else None, blocks, _fit_wall(data, opts), high_peak)
 
 
 def _fit_wall(data: TrainingSet, opts: dict) -> GPFit | None:
@@ -215,6 +231,7 @@ def predict_unit(emulator: Emulator, u: np.ndarray) -> Prediction:
     peak = predict_gp(emulator.peak, emulator.inputs("peak", u))
     cmb = predict_gp(emulator.cmb, emulator.inputs("cmb", u))
     shape = predict_gp(emulator.shape, emulator.inputs("shape", u))
+    shape = blend(emulator.high_peak, u, peak[:, 1], shape)
     return Prediction(valid=margin > 0, margin=margin, ln_k_peak=peak[:, 0],
                       log10_P_peak=peak[:, 1], shape=decode(emulator.basis, shape),
                       x=emulator.basis.x, n_s=cmb[:, 0], log10_r=cmb[:, 1],

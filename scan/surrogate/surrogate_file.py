@@ -4,7 +4,8 @@ Layout: root provenance and ``identity_json``; ``config`` (text); group ``surrog
 with ``space`` attributes and one sub-group per kernel block (``classifier``, ``peak``,
 ``shape``, ``cmb``, and ``wall`` when a pole is given by a wall coordinate) plus
 ``basis`` and, if any block uses it, ``bottleneck`` (the extra input of
-:mod:`scan.surrogate.bottleneck`; attribute ``blocks``); group ``validation`` with the
+:mod:`scan.surrogate.bottleneck`; attribute ``blocks``) and, if fitted, ``high_peak``
+(:mod:`scan.surrogate.highpeak`: sub-group ``shape``, attribute ``floor``); group ``validation`` with the
 report (JSON attribute and the printable text).  Written atomically (:func:`scan.store.atomic_h5`).
 """
 from __future__ import annotations
@@ -20,6 +21,7 @@ from scan.store import KIND_ATTRS, atomic_h5, provenance, require, write_config,
 from scan.surrogate.bottleneck import Bottleneck
 from scan.surrogate.emulator import Emulator
 from scan.surrogate.gp import GPFit
+from scan.surrogate.highpeak import HighPeak
 from scan.surrogate.identity import differences
 from scan.surrogate.shape import ShapeBasis
 from scan.surrogate.space import ParameterSpace
@@ -58,6 +60,18 @@ def _read_bottleneck(grp: h5py.Group) -> tuple[Bottleneck | None, tuple[str, ...
     return bn, tuple(str(b) for b in g.attrs["blocks"])
 
 
+def _write_high_peak(group: h5py.Group, block: HighPeak) -> None:
+    group.attrs["floor"] = float(block.floor)
+    _write_gp(group.create_group("shape"), block.shape)
+
+
+def _read_high_peak(grp: h5py.Group) -> HighPeak | None:
+    if "high_peak" not in grp:  # none fitted, or a file written before the block existed
+        return None
+    g = grp["high_peak"]
+    return HighPeak(_read_gp(g["shape"]), float(g.attrs["floor"]))
+
+
 def _json_default(value):
     if isinstance(value, (np.integer,)):
         return int(value)
@@ -93,6 +107,8 @@ def write_surrogate(path: str | Path, config, space: ParameterSpace, emulator: E
         basis.attrs["max_error"] = emulator.basis.max_error
         if emulator.bottleneck is not None:
             _write_bottleneck(grp.create_group("bottleneck"), emulator)
+        if emulator.high_peak is not None:
+            _write_high_peak(grp.create_group("high_peak"), emulator.high_peak)
         val = handle.create_group("validation")
         val.attrs["report_json"] = json.dumps(report, default=_json_default)
         val.create_dataset("text", data="\n".join(format_report(report)),
@@ -144,5 +160,6 @@ def read_surrogate(path: str | Path, ident: dict | None = None
         emulator = Emulator(classifier, bool(grp.attrs["constant_valid"]), _read_gp(grp["peak"]),
                             _read_gp(grp["shape"]), _read_gp(grp["cmb"]), basis,
                             *_read_bottleneck(grp),
-                            _read_gp(grp["wall"]) if "wall" in grp else None)
+                            _read_gp(grp["wall"]) if "wall" in grp else None,
+                            _read_high_peak(grp))
     return emulator, space

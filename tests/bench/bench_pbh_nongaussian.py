@@ -24,14 +24,37 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   as the threshold plan with one threshold (scan/observables/pbh/threshold_plan.py);
   local 18.0-19.2x (17.3x without), logarithmic 6.2-6.3x (5.7-6.1x without).
 
-What limits it (measured by parts): the local map evaluates ln g at 9 nodes for 3.6k
-live pairs (32k densities); each needs two Newton ridge searches and a 16-point
-Gauss-Hermite rule (~1.1 us compiled, ~half each), ~35-45 ms in all against the
-Gaussian's ~3 ms.  The logarithmic map's closed form costs ~90 ns per density (67k:
-~6 ms; compiling it with numba measured no faster), the 120-node beta integral and the
-mass function ~2-3 ms each.  Reaching 3x needs fewer densities (fewer nodes per pair,
-or a cheaper dead-pair bound), not faster ones: 9 -> 7 nodes moves f(M) by up to 5e-5
-(local f_NL = -1), above the doubling test's 1e-5.
+* main 6defc95 (third, damped ridge-search seed) against this branch (ngspeed3, final),
+  side by side (a copy of this benchmark with 8 blocks, 3 runs; f_NL = -1: 6 blocks,
+  2 runs): local f_NL = 1 25.6-27.2x -> 15.4-18.7x, local f_NL = -1 23.6-26.9x ->
+  12.8-13.6x, logarithmic 6.1-6.7x -> 3.5-3.9x.  This file on ngspeed3, 5 runs: local
+  15.2-18.4x, logarithmic 3.4-3.8x; with --qcd (2 runs): QCD-era local 15.7-17.2x,
+  logarithmic 3.9-4.1x (Gaussian QCD stack 4.8-5.2x).  The steps, each measured side by
+  side before/after: exponentials clipped at e^-700 onto libm's fast path (mass function
+  and beta; e^-800 cost 19 ns, e^-720 260 ns, against ~1 ns): local 23.6 -> 18.8x,
+  logarithmic 7.9 -> 6.4x; the logarithmic closed form compiled per pair with
+  ln(e^-x^2 + sqrt(pi) x erfc(-x)) from a table (erfc ~30 ns) and beta in cache-sized
+  blocks: 6.4 -> 3.6x; one product for the three variances; the one-ridge Gauss-Hermite
+  sum without a log per node: local ~10 %; the local map's dead-pair cut (marginal
+  bound: 2736 of 3597 pairs computed at f_NL = 1, 3228 at -1): local 17 -> 13x before
+  the merge of the third seed; the cut's bound with the correlation (2542 at f_NL = 1,
+  1840 at -1): f_NL = -1 22-23x -> 14-15x, f_NL = 1 about even.
+
+What limits it (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
+the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
+conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
+density; ~1 us per density) for 2.5k of 3.6k live pairs x 9 nodes; the pairs the
+cut keeps are mostly needed (with the exact values ~1.96k move some f(M) >= 1e-30 max
+or the total by > 1e-16), so 3x needs a cheaper density, not fewer pairs.
+Logarithmic map: 7.1k live pairs (its heavy tail keeps 2.4x as many as the Gaussian's
+3k, and ~6.3k of them move some f(M) >= 1e-30 max by > 1e-16) at 9 nodes: the closed
+form ~2 ms, beta ~2.3 ms (a 120-node rule: matmul of 7.1k x 9 by 9 x 120 plus 860k
+exponentials), the mass function ~1.3 ms, the variances ~0.4 ms.  A Gauss-Jacobi inner
+panel for beta (weight (y - y_th)^gamma_c) needs 88 nodes and is within 1.2e-12 of scipy
+quad (QAWS), but the Gaussian path's own beta (48-point Gauss-Legendre in z = ((y -
+y_th)/span)^gamma_c) is 1.2e-10 high at sigma = 0.044 (QAWS), so the identity test (1e-10
+against the Gaussian path) fails by 1.25e-10 with the more accurate rule (which measured
+logarithmic 3.2-3.5x against 3.8-4.0x side by side); it is left as is.  Fewer nodes of ln g: 9 -> 8 moves f(M) by 1e-6 (lambda = 3), 9 -> 7 by 7e-6.
 
 Run:  python tests/bench/bench_pbh_nongaussian.py
 """

@@ -18,11 +18,12 @@ Everything is returned as a logarithm, so that densities far below the smallest 
   path of :mod:`~scan.observables.pbh.nongaussian` uses it too; it equals Hinkley's 1969
   density of a ratio of correlated normals on that branch,
   tests/test_pbh_nongaussian_published.py).
-* ``local`` with g_NL = 0 (F' = 1 + (6/5) f_NL zeta_G; with g_NL != 0 the two-start
-  ridge search was measured to miss ridges, so it is refused): Laplace-centred
+* ``local`` (F' = 1 + (6/5) f_NL zeta_G + (27/25) g_NL zeta_G^2): Laplace-centred
   Gauss-Hermite quadrature on each monotone branch of F (between the real roots of F',
-  where C_G = c/F' diverges and the integrand vanishes): Newton steps on the
-  log-integrand psi from the Gaussian conditional mean, then ``n_gh`` Gauss-Hermite
+  where C_G = c/F' diverges and the integrand vanishes): damped Newton steps on the
+  log-integrand psi from the Gaussian conditional mean, its mirror image and the curve
+  C_G = c/F' = a zeta_G (a root of a quadratic, or for g_NL != 0 of a cubic: the seed
+  without which ridges were missed), then ``n_gh`` Gauss-Hermite
   nodes scaled by 1/sqrt(-psi'') (adaptive Gauss-Hermite: Liu & Pierce 1994, "A note on
   Gauss-Hermite quadrature", Biometrika 81(3), 624-629).  For a Gaussian integrand (F' = 1) the rule is exact for any n_gh; the
   error for a smooth ridge falls like the Gauss-Hermite remainder n! / (2^n (2n)!) times
@@ -39,19 +40,32 @@ import math
 import numpy as np
 from scipy import special
 
+from scan.observables.pbh.ng_closed import (
+    half_moment_table,
+    log_map_density,
+    near_exponent_bound,
+)
 from scan.observables.pbh.ng_ridge import branch_integrals, far_curve_bound
 from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Gauss-Hermite nodes of the local map's per-branch rule: 16 -> 32 changes ln g by
 #: <= 1.1e-5, and the 32-point rule is within 1.4e-7 of scipy quad (tests/test_pbh_ng_stack.py).
 N_GH: int = 16
+#: ... and of the cubic map (g_NL != 0), whose ridges are less Gaussian: 16 nodes were
+#: measured up to 1.7e-4 from quad in ln g (sigma_r^2 <= 0.03), 5.5e-6 relative in g at
+#: the benign variances of tests/test_pbh_nongaussian.py, where 32 meet its 1e-7.
+N_GH_CUBIC: int = 32
 #: The far branch of a quadratic map is skipped where its bound is below e^{-40} times the
 #: near branch (relative contribution < 4e-18, below rounding).
 FAR_MARGIN: float = 40.0
+#: Share of the exponent given up for the prefactor in :func:`ln_density_bound`.
+BOUND_SPLIT: float = 0.1
 #: Above this z, 1 - sqrt(pi) z erfcx(z) is taken from its asymptotic series (the direct
 #: difference loses ~2 z^2 eps, 4e-12 at z = 100; the series' first omitted term is
 #: 945 / (32 z^10) / (1 / (2 z^2)) < 1e-14 relative there).
 _Z_SERIES: float = 100.0
+#: Above this x = mu sqrt(A/2) >= 0, erfc(-x) is 2 and e^{-x^2} negligible to rounding.
+_X_FLAT: float = 6.0
 
 
 def joint(s_c2, s_cr, s_r2):
@@ -76,16 +90,83 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
     elif zmap.kind == "logarithmic":
         out = _ln_log_map(c, s_c2, s_cr, s_r2, zmap.log_lambda)
     elif zmap.kind == "local":
-        if zmap.g_nl != 0:
-            raise ValueError("the stacked density covers the local map with g_NL = 0 (a "
-                             "cubic term can make ridges the two-start search misses); use "
-                             "NonGaussianPlan.evaluate")
         c, s_c2, s_cr, s_r2 = np.broadcast_arrays(c, s_c2, s_cr, s_r2)
         out = _ln_local(*(v.ravel() for v in (c, s_c2, s_cr, s_r2)), zmap).reshape(c.shape)
     else:
         raise ValueError("the stacked density covers gaussian, local and logarithmic maps; "
                          "'model' goes through NonGaussianPlan.evaluate")
     return out + math.log(ps_factor)
+
+
+def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0):
+    """ln g [1] at the nodes ``c`` ((n_y,) shared, or (n, n_y) per pair) for every pair of
+    variances (n,): shape (n, n_y).
+
+    As :func:`ln_density` on (c, s[:, None]); the logarithmic map goes through its
+    compiled closed form (:func:`scan.observables.pbh.ng_closed.log_map_density`, the
+    array code only for elements with mu < 0)."""
+    c = np.atleast_2d(np.asarray(c, dtype=float))
+    if np.size(s_c2) == 0:
+        return np.empty((0, c.shape[1]))
+    if zmap.kind != "logarithmic":
+        return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
+    arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
+    out, todo = log_map_density(*arrays, float(zmap.log_lambda), math.log(ps_factor),
+                                _LN_H_TABLE)
+    if todo.any():
+        i, j = np.nonzero(todo)
+        out[i, j] = _ln_log_map(c[i if c.shape[0] > 1 else 0, j], s_c2[i], s_cr[i], s_r2[i],
+                                zmap.log_lambda) + math.log(ps_factor)
+    return out
+
+
+def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
+                     ps_factor: float = 1.0) -> np.ndarray:
+    """An upper bound [1] on ln g(c) over c >= ``y_th`` (a number, or one per pair) per pair
+    of variances (arrays of equal shape); +inf (no bound) unless the map is local with
+    g_NL = 0.
+
+    Local map, F' = 1 + p zeta_G (our derivation): on the curve C_G F' = c the joint
+    exponent Q = zeta_G^2/sigma_r^2 + (C_G - a zeta_G)^2/t^2 is at least each marginal's,
+    max(C_G^2/sigma_c^2, zeta_G^2/sigma_r^2); with u = |F'|, C_G = c/u and |zeta_G| >=
+    |u - 1|/|p| its minimum over u is nu^2, nu = c / (sigma_c u*), u* = (1 + sqrt(1 + 4 c
+    |p| sigma_r/sigma_c))/2 (where the two cross).  Writing e^{-Q/2} <= e^{-(1-e) nu^2/2}
+    e^{-e Q/2} (e = ``BOUND_SPLIT``), 1/|F'| = |C_G|/c, |C_G| e^{-e (C_G - a zeta_G)^2/2t^2}
+    <= |a zeta_G| + t/sqrt(e e_1) (e_1 = Euler's e) and integrating over zeta_G,
+
+        g(c) <= e^{-(1-e) nu^2/2} (2 |a| sigma_r^2/e + t sigma_r sqrt(2 pi/(e^2 e_1)))
+                / (2 pi sigma_r t c).
+
+    nu^2 may be replaced by any lower bound on Q along the curve; a sharper one keeps the
+    correlation: on the near branch (u = F' > 0, zeta_G = (u - 1)/p, b = a/p)
+    Q = (u - 1)^2/(p^2 sigma_r^2) + (c/u - b (u - 1))^2/t^2 >= h(u), the second term's
+    base clipped at 0; h is convex in u (c/u - b(u - 1) is convex, its positive part too),
+    so its minimum is bounded from below by the crossing of two tangents
+    (:func:`scan.observables.pbh.ng_closed.near_exponent_bound`); on the far branch (F' =
+    -u < 0, |zeta_G| = (u + 1)/|p|) the marginals cross at u = (sqrt(1 + 4 c |p|
+    sigma_r/sigma_c) - 1)/2.  nu^2 is the larger of the two bounds.
+
+    Every bound rises and 1/c falls with c, so the value at c = y_th bounds every
+    c >= y_th.  tests/test_pbh_ng_stack.py checks it against the computed ln g."""
+    s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (s_c2, s_cr, s_r2))
+    if zmap.kind != "local" or zmap.g_nl != 0:
+        return np.full(s_c2.shape, np.inf)
+    e, p = BOUND_SPLIT, 1.2 * zmap.f_nl
+    a, t2, _ = joint(s_c2, s_cr, s_r2)
+    s_c, s_r, t = np.sqrt(s_c2), np.sqrt(s_r2), np.sqrt(t2)
+    root = np.sqrt(1 + 4 * y_th * abs(p) * s_r / s_c)
+    nu2 = (y_th / (s_c * 0.5 * (1 + root)))**2
+    if p != 0 and s_c2.size:
+        c = np.broadcast_to(y_th, s_c2.shape)
+        near = near_exponent_bound(p, *(np.ascontiguousarray(v, dtype=float).ravel()
+                                        for v in (c, a, t2, s_r2))).reshape(s_c2.shape)
+        with np.errstate(divide="ignore"):
+            far = (y_th / (s_c * 0.5 * (root - 1)))**2
+        nu2 = np.maximum(nu2, np.minimum(near, far))
+    nu = np.sqrt(nu2)
+    pref = (2 * np.abs(a) * s_r2 / e + t * s_r * math.sqrt(2 * math.pi / (e * e * math.e))) \
+        / (2 * math.pi * s_r * t * y_th)
+    return -(1 - e) * 0.5 * nu * nu + np.log(pref) + math.log(ps_factor)
 
 
 def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:
@@ -108,15 +189,22 @@ def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:
 
 
 def _ln_half_moment(A, mu) -> np.ndarray:
-    """ln int_0^inf u exp(-A (u - mu)^2 / 2) du [1], stable for every sign of mu."""
+    """ln int_0^inf u exp(-A (u - mu)^2 / 2) du [1], stable for every sign of mu.
+
+    With x = mu sqrt(A/2): for mu >= 0 it is ln(e^{-x^2} + sqrt(pi) x erfc(-x)) - ln A;
+    above x = ``_X_FLAT`` = 6, erfc(-x) = 2 and e^{-x^2} / (2 sqrt(pi) x) < 1.1e-17 both
+    round away, so x is clipped there inside exp and erfc (whose underflowing arguments
+    take libm's slow path, ~20-300 ns each).  For mu < 0 it is
+    -x^2 - ln A + ln(1 - sqrt(pi) z erfcx(z)), z = -x."""
     out = np.empty(np.shape(A))
     x = mu * np.sqrt(0.5 * A)
     pos = mu >= 0
     neg = ~pos
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-        xp, ap = x[pos], A[pos]
-        out[pos] = np.log(np.exp(-xp * xp) / ap
-                          + mu[pos] * np.sqrt(0.5 * math.pi / ap) * special.erfc(-xp))
+        xp = x[pos]
+        xc = np.minimum(xp, _X_FLAT)           # exp and erfc on their fast paths
+        out[pos] = np.log(np.exp(-xc * xc) + math.sqrt(math.pi) * xp * special.erfc(-xc)) \
+            - np.log(A[pos])
         z = -x[neg]
         h = 1 - math.sqrt(math.pi) * z * special.erfcx(z)
         far = z > _Z_SERIES
@@ -147,11 +235,15 @@ def branches(zmap: ZetaMap) -> list[tuple[float, float]]:
 
 
 _GH_X, _GH_W = np.polynomial.hermite.hermgauss(N_GH)
+_LN_H_TABLE = half_moment_table()
 _GH_LNW = np.log(_GH_W) + _GH_X**2
 
 
-def _ln_local(c, s_c2, s_cr, s_r2, zmap: ZetaMap, n_gh: int = N_GH) -> np.ndarray:
-    """ln g for the local map: adaptive Gauss-Hermite on every branch, summed."""
+def _ln_local(c, s_c2, s_cr, s_r2, zmap: ZetaMap, n_gh: int | None = None) -> np.ndarray:
+    """ln g for the local map: adaptive Gauss-Hermite on every branch, summed (``n_gh``
+    nodes; default N_GH, or N_GH_CUBIC for g_NL != 0)."""
+    if n_gh is None:
+        n_gh = N_GH if zmap.g_nl == 0 else N_GH_CUBIC
     a, t2, ln_norm = joint(s_c2, s_cr, s_r2)
     s = np.sqrt(s_r2 * t2 / s_c2)                     # sd of zeta_G given C_G
     start = (s_cr / s_c2) * c                         # mean of zeta_G given C_G = c

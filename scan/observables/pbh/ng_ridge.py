@@ -10,6 +10,9 @@ rules stay in registers (ratio measured side by side in tests/bench/bench_pbh_no
 Newton stops once a step moves x by less than 1e-13 (|x| + s) (s the conditional width;
 further steps would change x at rounding level; f_PBH moved by <= 3e-13 relative, measured).
 
+Where one ridge carries the integral the rule is summed without a logarithm per node
+(:func:`_single_rule`).
+
 Why numba: the loop has data-dependent exits (Newton convergence, one or two ridges) that
 array code pays for on every element; numba ships wheels (no compiler at install) and
 ``cache=True`` keeps the machine code on disk (see :mod:`scan.ode`).
@@ -26,7 +29,7 @@ from numba import njit
 #: Floating-point freedoms given to LLVM: contraction into fused multiply-adds, reciprocal
 #: multiplication for division and re-association (rounding-level changes); not the
 #: no-NaN/no-inf assumptions, which the finiteness checks rely on.
-_FAST = {"contract", "arcp", "reassoc"}
+FASTMATH = {"contract", "arcp", "reassoc"}
 #: Newton steps towards a ridge from the conditional-mean seeds (at most; module doc).
 N_NEWTON: int = 6
 #: ... and from the curve seed (:func:`_curve_root`), which can start several widths away.
@@ -37,7 +40,7 @@ N_HALVINGS: int = 30
 RIDGE_GAP: float = 50.0
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _slopes(x, p, q, c, a, t2, s_r2):
     """psi' and psi'' at zeta_G = x (psi: :func:`_psi0`); F' = 1 + x (p + q x)."""
     f1 = 1.0 + x * (p + q * x)
@@ -52,7 +55,7 @@ def _slopes(x, p, q, c, a, t2, s_r2):
     return d1, d2
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _psi0(x, p, q, c, a, t2, s_r2):
     """psi, the ln integrand over zeta_G = x (F' = 1 + x (p + q x))."""
     f1 = 1.0 + x * (p + q * x)
@@ -60,12 +63,12 @@ def _psi0(x, p, q, c, a, t2, s_r2):
     return -0.5 * x * x / s_r2 - 0.5 * h * h / t2 - math.log(abs(f1))
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _clip(x, lo, hi):
     return min(max(x, lo), hi)
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2, steps=6):
     """Newton steps on psi from x within [lo, hi]: (ridge, width 1/sqrt(-psi''), psi).
 
@@ -99,7 +102,7 @@ def _ridge(x, lo, hi, s, p, q, c, a, t2, s_r2, steps=6):
     return x, min(width, 4.0 * s), psi if math.isfinite(psi) else -1e300
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _no_descent(x, new, p, q, c, a, t2, s_r2):
     """``new``, moved halfway back towards ``x`` until psi there is not below psi(x)."""
     psi = _psi0(x, p, q, c, a, t2, s_r2)
@@ -112,7 +115,7 @@ def _no_descent(x, new, p, q, c, a, t2, s_r2):
     return new
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _logaddexp(u, v):
     top = max(u, v)
     if top == -math.inf:
@@ -120,7 +123,7 @@ def _logaddexp(u, v):
     return top + math.log(math.exp(u - top) + math.exp(v - top))
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _rule(which, ridges, apart, lo, hi, gx, glw, p, q, c, a, t2, s_r2):
     """ln of the Gauss-Hermite rule centred on ridge ``which`` over (lo, hi), weighted by
     that ridge's share of the partition of unity where there are two."""
@@ -146,7 +149,33 @@ def _rule(which, ridges, apart, lo, hi, gx, glw, p, q, c, a, t2, s_r2):
     return math.log(scale) + top + math.log(total)
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _single_rule(x, width, lo, hi, gx, gw_e, p, q, c, a, t2, s_r2):
+    """ln of the Gauss-Hermite rule centred on the one ridge x (width ``width``) over
+    (lo, hi): :func:`_rule` without the partition of unity, summed as
+    sum_j w_j e^{x_j^2} e^{E_j - E_0} / |F'_j| with E the Gaussian exponent and E_0 its value
+    at the ridge (``gw_e`` = w_j e^{x_j^2}), i.e. no logarithm per node.  NaN where an
+    exponent difference exceeds 700 or the sum is 0 (the caller then uses :func:`_rule`)."""
+    scale = math.sqrt(2.0) * width
+    h0 = c / (1.0 + x * (p + q * x)) - a * x
+    e0 = -0.5 * x * x / s_r2 - 0.5 * h0 * h0 / t2
+    total = 0.0
+    for j in range(gx.size):
+        node = x + scale * gx[j]
+        f1 = 1.0 + node * (p + q * node)
+        h = c / f1 - a * node
+        e = -0.5 * node * node / s_r2 - 0.5 * h * h / t2 - e0
+        if not (math.isfinite(e) and node > lo and node < hi and f1 != 0.0):
+            continue
+        if e > 700.0:
+            return math.nan
+        total += gw_e[j] * math.exp(e) / abs(f1)
+    if not (total > 0.0 and math.isfinite(e0)):
+        return math.nan
+    return math.log(scale) + e0 + math.log(total)
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _curve_root(lo, hi, p, q, c, a, fallback):
     """The zeta_G in (lo, hi) where C_G = c / F'(zeta_G) meets its conditional mean a zeta_G
     (a root of a zeta_G (1 + p zeta_G) = c for g_NL = 0), or where they come closest
@@ -156,8 +185,10 @@ def _curve_root(lo, hi, p, q, c, a, fallback):
     psi hugs this curve, far from the linear conditional mean the other seeds start from;
     Newton from there was measured to stop on the wrong side of it (ln g low by up to
     ~4e3 for f_NL = 5, sigma_c^2 / sigma_r^2 ~ 1e-2)."""
-    if q != 0.0 or a == 0.0:
+    if a == 0.0:
         return fallback
+    if q != 0.0:
+        return _cubic_curve_root(lo, hi, p, q, c, a, fallback)
     if p == 0.0:
         return c / a
     disc = 1.0 + 4.0 * p * c / a
@@ -175,7 +206,37 @@ def _curve_root(lo, hi, p, q, c, a, fallback):
     return fallback
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _cubic_curve_root(lo, hi, p, q, c, a, fallback):
+    """The real root in (lo, hi) of a zeta_G (1 + p zeta_G + q zeta_G^2) = c nearest to 0
+    (the most probable zeta_G on the curve), else ``fallback``; trigonometric or Cardano
+    form of the depressed cubic (standard closed forms)."""
+    b2, b1, b0 = p / q, 1.0 / q, -c / (a * q)          # x^3 + b2 x^2 + b1 x + b0 = 0
+    shift = b2 / 3.0
+    pp = b1 - b2 * b2 / 3.0
+    qq = 2.0 * b2 ** 3 / 27.0 - b2 * b1 / 3.0 + b0
+    disc = (qq / 2.0) ** 2 + (pp / 3.0) ** 3
+    best, found = fallback, False
+    if disc > 0.0:
+        r = math.sqrt(disc)
+        u = -qq / 2.0 + r
+        v = -qq / 2.0 - r
+        x = math.copysign(abs(u) ** (1.0 / 3.0), u) + math.copysign(abs(v) ** (1.0 / 3.0), v)
+        x -= shift
+        if lo < x < hi:
+            return x
+        return fallback
+    m = 2.0 * math.sqrt(max(-pp / 3.0, 0.0))
+    arg = 3.0 * qq / (pp * m) if pp != 0.0 else 0.0
+    theta = math.acos(min(1.0, max(-1.0, arg))) / 3.0
+    for j in range(3):
+        x = m * math.cos(theta - 2.0 * math.pi * j / 3.0) - shift
+        if lo < x < hi and (not found or abs(x) < abs(best)):
+            best, found = x, True
+    return best
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _two_highest(found, ridges):
     """The two highest of the found ridges (rows: ridge, width, psi) into ``ridges``,
     highest first; a seed converging to an already found ridge does not count twice."""
@@ -193,7 +254,7 @@ def _two_highest(found, ridges):
     ridges[1, :] = found[first if second < 0 else second, :]
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
     """ln int_lo^hi exp(psi) dzeta_G [1] per element (arrays of equal length): the
     algorithm of :func:`scan.observables.pbh.ng_density._branch`."""
@@ -204,6 +265,7 @@ def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
     lo_in, hi_in = lo + inset, hi - inset
     ridges = np.empty((2, 3))
     found = np.empty((3, 3))
+    gw_e = np.exp(glw)
     for i in range(n):
         away = math.sqrt(s_r2[i])
         args = (p, q, c[i], a[i], t2[i], s_r2[i])
@@ -219,13 +281,17 @@ def branch_integrals(lo, hi, p, q, start, s, c, a, t2, s_r2, gx, glw):
         _two_highest(found, ridges)
         apart = (abs(ridges[1, 0] - ridges[0, 0]) > 0.1 * min(ridges[0, 1], ridges[1, 1])
                  and ridges[0, 2] - ridges[1, 2] < RIDGE_GAP)
-        one = _rule(0, ridges, apart, lo, hi, gx, glw, *args)
-        out[i] = _logaddexp(one, _rule(1, ridges, apart, lo, hi, gx, glw, *args)) \
-            if apart else one
+        if apart:
+            out[i] = _logaddexp(_rule(0, ridges, apart, lo, hi, gx, glw, *args),
+                                _rule(1, ridges, apart, lo, hi, gx, glw, *args))
+            continue
+        one = _single_rule(ridges[0, 0], ridges[0, 1], lo, hi, gx, gw_e, *args)
+        out[i] = one if math.isfinite(one) else _rule(0, ridges, apart, lo, hi, gx, glw,
+                                                      *args)
     return out
 
 
-@njit(cache=True, error_model="numpy", fastmath=_FAST)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def far_curve_bound(p, grid, a, t2, s_r2, c):
     """ln of the far branch's bound along the curve [1] per element (the derivation is in
     :func:`scan.observables.pbh.ng_density._ln_far_curve_bound`); ``grid`` holds

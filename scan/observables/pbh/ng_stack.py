@@ -18,15 +18,25 @@ interpolation", SIAM Review 46(3), 501-517) to
 For the identity map ln g is a quadratic in y and the interpolation is exact to rounding.
 For the others the interpolation error falls geometrically with ``n_y`` (ln g is
 analytic on the interval); doubling ``n_y`` measures it (tests/test_pbh_ng_stack.py).
-Array operations run over (pairs x nodes); the only Python loop is over formation epochs
-(to apply each epoch's mass matrix).  The QCD-era conventions give every epoch its own
+Array operations run over (pairs x nodes); the only Python loops are over blocks of
+pairs for beta (cache-sized).  The QCD-era conventions give every epoch its own
 threshold and exponent: then the nodes of ln g and the beta weights are per epoch
 (:func:`plan_stacked`).
+
+Cost (tests/bench/bench_pbh_nongaussian.py): every exponential is clipped at
+``LN_ZERO`` = -700 (:func:`exp_or_zero`), below which libm's exp leaves its fast path
+(20-400 ns instead of ~1 ns per element); the three variances come from one product.
+Where the map has a closed-form bound on ln g above y_th (the local map,
+:func:`~scan.observables.pbh.ng_density.ln_density_bound`), a pair whose bound on its
+f(M) and on its total is below e^{-100} of its spectrum's largest f(M) and total is
+left out (``LN_NEGLIGIBLE``, two passes: the pairs near their spectrum's best bound
+first, then those the first pass's values do not rule out).
 
 Units: masses [M_sun]; everything else [1].
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -34,7 +44,7 @@ import numpy as np
 
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
-from scan.observables.pbh.ng_density import ln_density
+from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
     live_epochs,
@@ -48,13 +58,50 @@ from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Chebyshev-Lobatto nodes of ln g per pair.
 N_Y: int = 9
+#: Type-I intervals [y_th, 4/3] wider than this get 2 N_Y - 1 nodes (:func:`nodes_for`):
+#: at C_th = 0.18 with the Gaussian window (y_th = 0.19) 9 nodes were measured 1.4e-3 off
+#: in f_PBH totals and 2.9e-2 in f(M) against the per-spectrum path, 17 nodes 1.8e-6 and
+#: 8.5e-6 (local f_NL = -2 .. 10); the benchmark's C_th = 0.55 (width 0.6) needs 9.
+WIDE_INTERVAL: float = 0.7
 #: Geometric panels of the beta integral towards y_th.
 N_PANELS: int = 14
+#: A pair is left out where its bound (:func:`~scan.observables.pbh.ng_density.
+#: ln_density_bound` times its largest mass-function weight, or times its largest
+#: beta) is below e^{-100} = 3.7e-44 times its spectrum's largest f(M) (or total): the
+#: 128 epochs' dropped pairs move f(M) by < 5e-42 of that maximum, 5e-12 relative at the
+#: f(M) = 1e-30 max f(M) the tests still compare (no bound curve spans 30 decades,
+#: common practice).
+LN_NEGLIGIBLE: float = 100.0
+#: First pass: pairs whose bound is within this of their spectrum's best bound; the
+#: second pass adds those the first pass's f(M) and totals do not rule out.  On the
+#: benchmark's 64 spectra (3597 live pairs): f_NL = 1 computes 2473 + 69 pairs, f_NL =
+#: -1 1699 + 141 (3228 with the marginals-only bound; with the exact ln g, ~1.8k and
+#: ~1.9k would be needed); 40 gives the same sums, a wider first pass just leaves less to
+#: the second.
+LN_FIRST: float = 100.0
 #: A pair whose ln g stays below this at every node contributes exactly 0 (e^{-800} is
 #: below the smallest double, and the epoch weights are < 1e30).
 LN_DEAD: float = -800.0
+#: exp(x) is taken as exactly 0 below this: e^{-700} = 1e-304, and libm's exp (and
+#: arithmetic on its subnormal results) leaves the fast path just below (measured: ~1 ns
+#: per element at -700, 35-375 ns between -708 and -745, 19 ns at -800).
+LN_ZERO: float = -700.0
+_EXP_ZERO: float = math.exp(LN_ZERO)
+#: Pairs per block of the beta integral (256 x 120 exponents: 250 kB, in L2 cache;
+#: 128-2048 measured within noise of each other, unblocked ~20 % slower).
+BLOCK: int = 256
 _PANEL_Z, _PANEL_W = np.polynomial.legendre.leggauss(8)
 _PANEL_Z, _PANEL_W = 0.5 * (_PANEL_Z + 1), 0.5 * _PANEL_W
+
+
+def exp_or_zero(x: np.ndarray) -> np.ndarray:
+    """exp(max(x, ``LN_ZERO``)) - e^``LN_ZERO`` [1] in place of ``x`` (a float array it
+    owns): exactly 0 for x <= ``LN_ZERO``, within e^{-700} = 1e-304 of exp(x) above, never
+    negative; NaN propagates.  Every exp stays on libm's fast path, and no masked pass."""
+    np.maximum(x, LN_ZERO, out=x)
+    np.exp(x, out=x)
+    x -= _EXP_ZERO
+    return x
 
 
 def lobatto(n: int) -> np.ndarray:
@@ -101,7 +148,8 @@ class StackedNGPlan:
     ``mass_matrix`` (n_H, n_y, n_M) takes ln g at the nodes to the masses' y(M, M_H) per
     epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights.
     ``y_nodes`` (n_y,) and ``beta_weight`` (n_beta,) carry a leading epoch axis (n_H, ...)
-    with the QCD-era per-epoch thresholds and exponents.
+    with the QCD-era per-epoch thresholds and exponents.  ``variance_matrix`` (3 n_H, n_k)
+    stacks the plan's sigma_c^2, sigma_cr^2 and sigma_r^2 matrices.
     """
 
     ng: NonGaussianPlan
@@ -109,6 +157,7 @@ class StackedNGPlan:
     mass_matrix: np.ndarray
     beta_matrix: np.ndarray
     beta_weight: np.ndarray
+    variance_matrix: np.ndarray
 
     def evaluate(self, P_zeta, zmap: ZetaMap) -> PBHResult:
         """f_PBH(M) per ln M [1] and the totals for a stack of spectra (m, n_k) [1].
@@ -119,29 +168,81 @@ class StackedNGPlan:
         base = self.ng.base
         P = np.asarray(P_zeta, dtype=float)
         P2 = np.atleast_2d(P)
-        s_c2, _ = base.sigma2(P2)
-        s_c2 = np.maximum(s_c2, 1e-300)
-        s_cr, s_r2 = P2 @ self.ng.v_cr.T, np.maximum(P2 @ self.ng.v_r.T, 1e-300)
-        per_epoch = self.y_nodes.ndim == 2                  # QCD-era thresholds
-        live = _live(self.y_nodes[..., 0], s_c2, s_r2, zmap)
-        i, h = np.nonzero(live)
-        nodes = self.y_nodes[h] if per_epoch else self.y_nodes
-        lng = ln_density(nodes, s_c2[i, h, None], s_cr[i, h, None],
-                         s_r2[i, h, None], zmap, base.conventions.ps_factor)
-        keep = ~(np.max(lng, axis=1) < LN_DEAD)
-        i, h, lng = i[keep], h[keep], lng[keep]
-        f = self._mass_function(lng, i, h, P2.shape[0])
-        beta = np.exp(lng @ self.beta_matrix.T)
-        beta = np.einsum("pb,pb->p", beta, self.beta_weight[h]) if per_epoch \
-            else beta @ self.beta_weight
-        total = np.bincount(i, weights=(base._wln * base._coef)[h] * beta,
-                            minlength=P2.shape[0])
-        bad = ~np.all(np.isfinite(P2), axis=1)              # propagate, as the Gaussian path
+        s_c2, s_cr, s_r2 = self._variances(P2)
+        y_th = self.y_nodes[..., 0]                          # a number, or one per epoch
+        i, h = np.nonzero(_live(y_th, s_c2, s_r2, zmap))
+        var = (s_c2[i, h], s_cr[i, h], s_r2[i, h])
+        ln_g = ln_density_bound(y_th[h] if y_th.ndim else y_th, *var, zmap,
+                                base.conventions.ps_factor)
+        if np.all(np.isposinf(ln_g)):                        # no bound: every pair
+            f, total = self._pairs(np.ones(i.size, dtype=bool), i, h, var, zmap,
+                                   P2.shape[0])
+            return self._result(P, P2, f, total, s_c2)
+        with np.errstate(divide="ignore"):                   # epochs of weight 0: -inf
+            beta_max = base._wln * base._coef * self.beta_weight.sum(axis=-1)
+            bounds = (np.log(base._kernel.weight.max(axis=1))[h] + ln_g,
+                      np.log(beta_max)[h] + ln_g)
+        first = _near_top(bounds, i, P2.shape[0])
+        f, total = self._pairs(first, i, h, var, zmap, P2.shape[0])
+        with np.errstate(divide="ignore"):
+            refs = (np.log(f.max(axis=1)), np.log(total))
+        rest = ~first & np.any([~(b < r[i] - LN_NEGLIGIBLE) for b, r in zip(bounds, refs)],
+                               axis=0)
+        if rest.any():
+            f_rest, total_rest = self._pairs(rest, i, h, var, zmap, P2.shape[0])
+            f, total = f + f_rest, total + total_rest
+        return self._result(P, P2, f, total, s_c2)
+
+    def _result(self, P, P2, f, total, s_c2) -> PBHResult:
+        """The :class:`PBHResult` of a stack (NaN where a spectrum is not finite, as the
+        Gaussian path; no leading axis for one spectrum ``P`` of shape (n_k,))."""
+        base = self.ng.base
+        bad = ~np.all(np.isfinite(P2), axis=1)
         f[bad], total[bad] = np.nan, np.nan
         if P.ndim == 1:
             return PBHResult(base.M, f[0], float(total[0]), base.M_H, s_c2[0],
                              base.conventions)
         return PBHResult(base.M, f, total, base.M_H, s_c2, base.conventions)
+
+    def _pairs(self, chosen, i, h, var, zmap: ZetaMap, m: int):
+        """f(M) [1], (m, n_M), and the totals [1], (m,), of the ``chosen`` (spectrum i,
+        epoch h) pairs with variances ``var``."""
+        i, h = i[chosen], h[chosen]
+        nodes = self.y_nodes[h] if self.y_nodes.ndim == 2 else self.y_nodes
+        lng = ln_density_pairs(nodes, *(v[chosen] for v in var), zmap,
+                               self.ng.base.conventions.ps_factor)
+        keep = ~(np.max(lng, axis=1) < LN_DEAD)
+        i, h, lng = i[keep], h[keep], lng[keep]
+        base = self.ng.base
+        total = np.bincount(i, weights=(base._wln * base._coef)[h] * self._beta(lng, h),
+                            minlength=m).astype(float)    # int64 when no pair is left
+        return self._mass_function(lng, i, h, m), total
+
+    def _variances(self, P2: np.ndarray):
+        """sigma_c^2 (> 0), sigma_cr^2 and sigma_r^2 (> 0) [1], each (m, n_H), of a stack
+        (m, n_k): one product with ``variance_matrix`` over the columns where some
+        spectrum is non-zero (the others add exactly 0, as in :meth:`PBHPlan.sigma2`)."""
+        n_k = self.variance_matrix.shape[1]
+        if P2.ndim != 2 or P2.shape[1] != n_k:
+            raise ValueError(f"P_zeta must have shape ({n_k},) or (m, {n_k}), got "
+                             f"{P2.shape}")
+        cols = np.flatnonzero(np.any(P2 != 0, axis=0))
+        lo, hi = (int(cols[0]), int(cols[-1]) + 1) if cols.size else (0, 0)
+        s_c2, s_cr, s_r2 = np.split(P2[:, lo:hi] @ self.variance_matrix[:, lo:hi].T, 3,
+                                    axis=1)
+        return np.maximum(s_c2, 1e-300), s_cr, np.maximum(s_r2, 1e-300)
+
+    def _beta(self, lng, h) -> np.ndarray:
+        """beta [1] per pair (epochs ``h``) from ln g at the nodes, in blocks of ``BLOCK``
+        pairs (so that the (pairs x beta nodes) exponents stay in cache)."""
+        beta = np.empty(lng.shape[0])
+        per_epoch = self.beta_weight.ndim == 2               # QCD-era weights
+        for start in range(0, lng.shape[0], BLOCK):
+            rows = slice(start, start + BLOCK)
+            block = exp_or_zero(lng[rows] @ self.beta_matrix.T)
+            beta[rows] = np.einsum("pb,pb->p", block, self.beta_weight[h[rows]]) \
+                if per_epoch else block @ self.beta_weight
+        return beta
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
         """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H)).
@@ -153,9 +254,21 @@ class StackedNGPlan:
         dense = np.full((weight.shape[0], m, lng.shape[1]), LN_DEAD)
         dense[h, i] = lng
         ln_f = np.matmul(dense, self.mass_matrix)            # (n_H, m, n_M)
-        np.exp(ln_f, out=ln_f)
+        exp_or_zero(ln_f)
         ln_f *= weight[:, None, :]
         return ln_f.sum(axis=0)
+
+
+def _near_top(bounds, i, m: int) -> np.ndarray:
+    """Pairs whose bound (either of ``bounds``, ln [1]) is within ``LN_FIRST`` of the
+    largest of its spectrum (NaN included): the first pass of
+    :meth:`StackedNGPlan.evaluate`."""
+    out = np.zeros(i.size, dtype=bool)
+    for b in bounds:
+        top = np.full(m, -np.inf)
+        np.maximum.at(top, i, np.where(np.isnan(b), np.inf, b))
+        out |= ~(b < top[i] - LN_FIRST)
+    return out
 
 
 def _live(y_th, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
@@ -179,6 +292,11 @@ def _to_unit(y, y_th: float):
     return 2 * (y - y_th) / (C_L_MAX - y_th) - 1
 
 
+def nodes_for(y_th) -> int:
+    """Nodes of ln g for the type-I intervals [y_th, 4/3] (the widest counts)."""
+    return N_Y if C_L_MAX - float(np.min(y_th)) <= WIDE_INTERVAL else 2 * N_Y - 1
+
+
 def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
                  exponents=None) -> StackedNGPlan:
     """Lay out ``ng`` for stacks; ``n_y`` nodes of ln g.
@@ -192,6 +310,9 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
     z^{gamma/gamma_c} with 8 Gauss-Legendre points, measured in tests/test_sampler_qcd.py).
     """
     conv = ng.base.conventions
+    if ng.v_cr.shape != ng.base._v0.shape:
+        raise ValueError(f"the joint variance matrices {ng.v_cr.shape} do not match the "
+                         f"plan's {ng.base._v0.shape}: build them with the plan's n_formation")
     x = lobatto(n_y)
     y_mass = ng.base._y.T                                    # (n_H, n_M)
     if thresholds is None and exponents is None:
@@ -209,7 +330,8 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
     return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
                          np.ascontiguousarray(barycentric_matrix(
                              x, np.clip(_to_unit(y_mass, y_th), -1, 1)).transpose(0, 2, 1)),
-                         barycentric_matrix(x, _to_unit(yb, y0)), wb)
+                         barycentric_matrix(x, _to_unit(yb, y0)), wb,
+                         np.vstack([ng.base._v0, ng.v_cr, ng.v_r]))
 
 
 @dataclass(frozen=True)
@@ -247,7 +369,8 @@ def plan_pbh_mapped(k_table, masses, conventions, zmap: ZetaMap, *, dof=None,
     kw = {} if n_eff is None else {"n_eff": n_eff}
     base = plan_pbh(k_table, masses, conventions, n_formation=n_formation, dof=dof, **kw)
     if qcd_threshold == "off" and qcd_collapse == "off":
-        return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation)), zmap)
+        n_y = nodes_for(compaction_linear(conventions.threshold))
+        return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation), n_y), zmap)
     thr = epoch_thresholds(base.M_H, conventions.threshold, dof) \
         if qcd_threshold != "off" else None
     gam = epoch_exponents(base.M_H, conventions.gamma_c, dof) if qcd_collapse != "off" \
@@ -258,5 +381,6 @@ def plan_pbh_mapped(k_table, masses, conventions, zmap: ZetaMap, *, dof=None,
     gaussian = plan_pbh_thresholds(k_table, masses, conventions, n_formation=n_formation,
                                    dof=dof, qcd_threshold=qcd_threshold,
                                    qcd_collapse=qcd_collapse, **kw)
-    return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation), N_Y, thr, gam),
+    n_y = nodes_for(compaction_linear(conventions.threshold if thr is None else thr))
+    return MappedStackPlan(plan_stacked(plan_nongaussian(base, n_formation), n_y, thr, gam),
                            zmap, gaussian)

@@ -1,0 +1,158 @@
+"""Compiled closed forms of the stacked non-Gaussian path (numba): the logarithmic map's
+density per pair and the local map's bound on the joint exponent along C_G F' = c.
+
+The logarithmic map's closed form per pair (:func:`log_map_density`, the formula of
+:func:`scan.observables.pbh.ng_density._ln_log_map`) takes ln(e^{-x^2} + sqrt(pi) x
+erfc(-x)) from a piecewise polynomial table below x = 6 (libm's erfc costs ~30 ns, the
+table ~5); :func:`near_exponent_bound` serves
+:func:`scan.observables.pbh.ng_density.ln_density_bound`.  Why numba: see
+:mod:`scan.observables.pbh.ng_ridge`.
+
+Units: all quantities [1].
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+from scipy import special
+
+from scan.observables.pbh.ng_ridge import FASTMATH
+
+#: Above this x = mu sqrt(A/2) >= 0, erfc(-x) = 2 and e^{-x^2} round away (as
+#: :func:`scan.observables.pbh.ng_density._ln_half_moment`).
+_X_FLAT: float = 6.0
+#: ln H(x), H = e^{-x^2} + sqrt(pi) x erfc(-x), on [0, _X_FLAT]: ``_H_PIECES`` equal
+#: pieces, each a degree-``_H_DEGREE`` polynomial in t in [-1, 1] (interpolating at the
+#: Chebyshev points of the first kind, then in powers of t).
+_H_PIECES: int = 32
+_H_DEGREE: int = 9
+
+
+def half_moment_table() -> np.ndarray:
+    """Coefficients (``_H_PIECES``, ``_H_DEGREE`` + 1) [1] of ln H on [0, 6] in powers of t,
+    lowest first (see above); ln H is entire, and the interpolant is within 8 ulp of
+    scipy's erfc-based value (tests/test_pbh_ng_stack.py)."""
+    h = _X_FLAT / _H_PIECES
+    z = np.cos(np.pi * (np.arange(_H_DEGREE + 1) + 0.5) / (_H_DEGREE + 1))
+    out = np.empty((_H_PIECES, _H_DEGREE + 1))
+    for k in range(_H_PIECES):
+        x = (k + 0.5) * h + 0.5 * h * z
+        ln_h = np.log(np.exp(-x * x) + math.sqrt(math.pi) * x * special.erfc(-x))
+        out[k] = np.polynomial.chebyshev.cheb2poly(
+            np.polynomial.chebyshev.chebfit(z, ln_h, _H_DEGREE))
+    return out
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def ln_half_moment_table(x, table):
+    """ln H(x) [1] for 0 <= x < ``_X_FLAT`` from :func:`half_moment_table`."""
+    n = table.shape[0]
+    width = _X_FLAT / n
+    k = min(int(x / width), n - 1)
+    t = (x - (k + 0.5) * width) / (0.5 * width)
+    acc = table[k, table.shape[1] - 1]
+    for d in range(table.shape[1] - 2, -1, -1):
+        acc = acc * t + table[k, d]
+    return acc
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
+    """ln g [1] of the logarithmic map at the nodes ``c`` (1 or n, n_y: shared or per pair)
+    for every pair of variances (n,), shape (n, n_y), plus ``shift``: the closed form of
+    :func:`scan.observables.pbh.ng_density._ln_log_map`, the per-pair parts computed once,
+    with ln int_0^inf u e^{-A (u - mu)^2/2} du = ln H(x) - ln A, x = mu sqrt(A/2) =
+    (kappa + alpha b / t^2) / sqrt(2 A): ln H from ``table``
+    (:func:`half_moment_table`) below x = 6, ln(2 sqrt(pi) x) above (where erfc(-x) = 2
+    and e^{-x^2} round away).
+
+    Elements with mu < 0 (erfcx needed, which numba lacks) are returned as NaN with a
+    True in the second output, for the caller to fill from the array code."""
+    n, m = s_c2.size, c.shape[1]
+    per_pair = c.shape[0] > 1
+    out = np.empty((n, m))
+    todo = np.zeros((n, m), dtype=np.bool_)
+    two_rt_pi = 2.0 * math.sqrt(math.pi)
+    for i in range(n):
+        a = s_cr[i] / s_r2[i]
+        t2 = max(s_c2[i] - a * s_cr[i], 1e-300)
+        base = shift - math.log(2.0 * math.pi) - 0.5 * math.log(s_r2[i] * t2) \
+            - math.log(abs(lam))
+        kappa = 1.0 / (lam * lam * s_r2[i])
+        b = a / lam
+        inv_t2 = 1.0 / t2
+        row = i if per_pair else 0
+        for j in range(m):
+            cj = c[row, j]
+            alpha = cj + b
+            A = kappa + alpha * alpha * inv_t2
+            inv_A = 1.0 / A
+            num = kappa + alpha * (b * inv_t2)
+            x = num / math.sqrt(2.0 * A)
+            if not x >= 0.0:
+                out[i, j] = math.nan
+                todo[i, j] = True
+                continue
+            q_min = (kappa * inv_t2) * (cj * cj) * inv_A
+            if x >= _X_FLAT:
+                moment = math.log(two_rt_pi * x * inv_A)
+            else:
+                moment = ln_half_moment_table(x, table) - math.log(A)
+            out[i, j] = base - 0.5 * q_min + moment
+    return out, todo
+
+
+#: Halvings of the bracket around the minimum of h in ln u: the bracket is then 2^-16 of
+#: its start (ln 4 typically), and the tangents' crossing lies below the minimum by
+#: ~h'' u^2 (4e-5)^2 / 8, negligible against the exponents of hundreds it bounds.
+N_HALVE: int = 16
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _near_slope(u, inv_p2s, c, b, inv_t2):
+    """(h, h') of h(u) = (u - 1)^2 / (p^2 sigma_r^2) + max(c/u - b (u - 1), 0)^2 / t^2."""
+    phi = c / u - b * (u - 1.0)
+    plus = max(phi, 0.0)
+    h = (u - 1.0) * (u - 1.0) * inv_p2s + plus * plus * inv_t2
+    dh = 2.0 * (u - 1.0) * inv_p2s + 2.0 * plus * (-c / (u * u) - b) * inv_t2
+    return h, dh
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def near_exponent_bound(p, c, a, t2, s_r2):
+    """A lower bound [1] on min over u > 0 of the convex h(u) (:func:`_near_slope`) per
+    element, p = (6/5) f_NL != 0, b = a/p: the near branch's joint exponent on the curve
+    C_G F' = c, with u = F' (derivation in
+    :func:`scan.observables.pbh.ng_density.ln_density_bound`).  The minimum is bracketed
+    (h' < 0 as u -> 0, > 0 for large u), the bracket halved ``N_HALVE`` times in ln u, and the
+    bound taken where the tangents at its ends cross (h is convex: it lies above both)."""
+    out = np.empty(c.size)
+    for i in range(c.size):
+        inv_p2s = 1.0 / (p * p * s_r2[i])
+        b, inv_t2 = a[i] / p, 1.0 / t2[i]
+        lo, hi = 0.5, 2.0
+        for _ in range(200):
+            if _near_slope(lo, inv_p2s, c[i], b, inv_t2)[1] <= 0.0:
+                break
+            lo *= 0.5
+        for _ in range(200):
+            if _near_slope(hi, inv_p2s, c[i], b, inv_t2)[1] >= 0.0:
+                break
+            hi *= 2.0
+        for _ in range(N_HALVE):
+            mid = math.sqrt(lo * hi)
+            if _near_slope(mid, inv_p2s, c[i], b, inv_t2)[1] <= 0.0:
+                lo = mid
+            else:
+                hi = mid
+        h_lo, d_lo = _near_slope(lo, inv_p2s, c[i], b, inv_t2)
+        h_hi, d_hi = _near_slope(hi, inv_p2s, c[i], b, inv_t2)
+        if d_lo < d_hi:
+            x = (h_hi - h_lo + d_lo * lo - d_hi * hi) / (d_lo - d_hi)
+            bound = h_lo + d_lo * (min(max(x, lo), hi) - lo)
+        else:
+            bound = min(h_lo, h_hi)
+        out[i] = max(bound, 0.0) * (1.0 - 1e-12)
+    return out
