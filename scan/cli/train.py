@@ -107,9 +107,9 @@ def _chain_round_lines(chain_round) -> list[str]:
     if chain_round is None:
         return []
     if chain_round.stage is None:
-        return [f"--refine-from: {chain_round.pending} points planned earlier were solved "
-                "first and no new round was planned; run the command again to add one"]
-    return [f"--refine-from: {chain_round.planned} posterior points added (stage "
-            f"{chain_round.stage}, chosen from {chain_round.samples} samples; samples closer "
-            "than half the local spacing to a planned point are skipped); the surrogate "
-            "changed: sample again (zetascan sample CONFIG --restart) and verify"]
+        return [(f"--refine-from: {chain_round.pending} points planned earlier were solved "
+                 "first and no new round was planned; run the command again to add one")]
+    return [(f"--refine-from: {chain_round.planned} posterior points added (stage "
+             f"{chain_round.stage}, chosen from {chain_round.samples} samples; samples closer "
+             "than half the local spacing to a planned point are skipped); the surrogate "
+             "changed: sample again (zetascan sample CONFIG --restart) and verify")]

@@ -33,8 +33,14 @@ from scan.surrogate import design
 from scan.surrogate.emulator import Emulator, TrainingSet
 from scan.surrogate.space import ParameterSpace
 from scan.surrogate.store import BUSY, StoreWriter, read_plan, read_points
-from scan.surrogate.train import (MapFunction, Progress, Solve, TrainingPlan, open_store,
-                                  run_training)
+from scan.surrogate.train import (
+    MapFunction,
+    Progress,
+    Solve,
+    TrainingPlan,
+    open_store,
+    run_training,
+)
 
 
 @dataclass(frozen=True)
