@@ -12,10 +12,12 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from scan.cli.summary import format_summary
 from scan.plots import inputs
 from scan.sampler import bands, runfile, summary
 from scan.sampler.convergence import (Policy, assess, burn_in, estimate_tau, settle, thinning,
                                       typical_floor)
+from scan.sampler.summary import judged_steps, tau_discard_of
 from scan.verify import run
 
 
@@ -154,3 +156,18 @@ def test_every_chain_reader_drops_the_stray_walker(monkeypatch):
     assert post["samples"].shape == ((400 - post["burn_in"] + 1) // 2 * 7, 2)
     assert np.abs(post["samples"]).max() < 6.0  # nothing from the stray (offset 8)
     assert post["burn_in"] >= post["burn_in_tau"] == 20
+
+
+def test_summary_ratio_counts_the_steps_tau_was_judged_on():
+    """With tau_discard the stopping rule counts only the kept share of the chain, so the
+    summary's N/max tau does too (and says so); without it, every step."""
+    half = '[sampler]\ntau_discard = 0.5\n'
+    assert judged_steps(half, 10_000) == 5_000
+    assert judged_steps('[sampler]\nwalkers = 32\n', 10_000) == 10_000
+    assert judged_steps('not = [toml', 10_000) == 10_000
+    assert tau_discard_of(half) == 0.5
+    info = {"converged": True, "status": "converged", "n_over_tau": 55.0, "tau_discard": 0.5,
+            "acceptance_fraction": 0.3, "file": "chain.h5", "steps": 10_000, "walkers": 32,
+            "burn_in": 5000, "thin": 20, "samples_used": 100, "tau": None, "parameters": {},
+            "derived": {}, "invalid_reasons": {}}
+    assert "N/max tau 55.0 (last 50 % of the chain)" in format_summary(info)

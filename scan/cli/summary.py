@@ -48,6 +48,8 @@ def format_summary(info: dict) -> str:
     """Human-readable summary lines."""
     state = "converged" if info["converged"] else f"NOT converged ({info['status']})"
     ratio = "-" if info["n_over_tau"] is None else f"{info['n_over_tau']:.1f}"
+    if info.get("tau_discard") and info["n_over_tau"] is not None:
+        ratio += f" (last {100 * (1 - info['tau_discard']):.0f} % of the chain)"
     acc = "-" if info["acceptance_fraction"] is None else f"{info['acceptance_fraction']:.3f}"
     lines = [f"{info['file']}: {info['steps']} steps x {info['walkers']} walkers, {state}",
              f"N/max tau {ratio}; burn-in {info['burn_in']}, thin {info['thin']}, "

@@ -1,13 +1,14 @@
 """Summaries of a chain file: quantiles of parameters and blobs, convergence, reasons."""
 from __future__ import annotations
 
+import tomllib
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from scan.sampler import runfile
-from scan.sampler.convergence import settle
+from scan.sampler.convergence import Policy, settle
 
 #: Quantiles reported: median and the central 68 % and 95 % intervals.
 QUANTILES: dict[str, float] = {"q02.5": 0.025, "q16": 0.16, "median": 0.5, "q84": 0.84,
@@ -87,6 +88,20 @@ def posterior_samples(path: str | Path) -> dict[str, Any]:
             "stray_walkers": 0 if settled is None else settled.dropped}
 
 
+def tau_discard_of(config_text: str) -> float:
+    """``[sampler] tau_discard`` of a stored config text (0 when absent or unreadable)."""
+    try:
+        return float(tomllib.loads(config_text).get("sampler", {}).get("tau_discard", 0.0))
+    except (tomllib.TOMLDecodeError, TypeError, ValueError):
+        return 0.0
+
+
+def judged_steps(config_text: str, steps: int) -> int:
+    """Steps the stopping rule counted: all but the first ``tau_discard`` share (as
+    :meth:`scan.sampler.convergence.Policy.judged_from`), so N/tau compares like with like."""
+    return steps - Policy(tau_discard=tau_discard_of(config_text)).judged_from(steps)
+
+
 def summarize(run: str | Path) -> dict[str, Any]:
     """Everything ``zetascan summary`` shows, as plain JSON-ready values (``run``: a run
     folder or its chain file)."""
@@ -114,7 +129,8 @@ def summarize(run: str | Path) -> dict[str, Any]:
         "converged": extras.status == "converged", "steps": steps, "walkers": walkers,
         "acceptance_fraction": float(np.mean(data["accepted"]) / steps) if steps else None,
         "tau": dict(zip(extras.names, tau)) if tau else None,
-        "n_over_tau": (steps / max(tau)) if tau else None,
+        "n_over_tau": (judged_steps(stored.config_text, steps) / max(tau)) if tau else None,
+        "tau_discard": tau_discard_of(stored.config_text),
         "burn_in": post["burn_in"], "thin": post["thin"],
         "stray_walkers": post["stray_walkers"],
         "samples_used": int(len(post["samples"])),
