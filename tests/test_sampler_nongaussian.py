@@ -9,14 +9,13 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
+from test_sampler_posterior import exact_side_of_first, make_config, trained  # noqa: F401
 
 from scan.cli.summary import format_summary
 from scan.errors import ConfigError
 from scan.observables.settings import pbh_convention_attrs
 from scan.observables.window import spectra_on_table
 from scan.pool import choose_pool
-from scan.posterior.exact import observables_from_table
 from scan.sampler import plan_run, run_chain, runfile
 from scan.sampler.runfile import load_chain
 from scan.sampler.summary import summarize
@@ -101,15 +100,7 @@ def test_exact_side_uses_the_same_convention(trained):  # noqa: F811
     log10 f_PBH depends on sigma^2 less steeply, so its difference is bounded by the same
     1e-3 times the Gaussian |log10 f_PBH| (measured 0.059 dex against a bound of 0.23)."""
     cfg, target = _target(trained, LOCAL)
-    _, blobs = target.log_and_blobs(THETAS[:1])
-    pred = target.loaded["surrogate"].predict(THETAS[:1, :3])
-    lnkp, x = pred.ln_k_peak[0], pred.x
-    lnk = np.arange(lnkp + x[0] - 2.0, lnkp + x[-1] + 2.0, 0.02)
-    log10_p = np.interp(lnk, lnkp + x, pred.log10_P_peak[0] + pred.shape[0],
-                        left=-np.inf, right=-np.inf)
-    out = observables_from_table(cfg, np.exp(lnk), 10.0**log10_p, k_peak=np.exp(lnkp),
-                                 P_peak=10.0**pred.log10_P_peak[0], n_s=0.96, r=0.01,
-                                 N_star=55.0)
+    out, blobs = exact_side_of_first(cfg, target, THETAS)
     obs = out.observables
     assert obs.zeta_map.kind == "local" and obs.f_pbh_total_gaussian is not None
     log_g = np.log10(obs.f_pbh_total_gaussian)

@@ -26,6 +26,7 @@ from scan.observables.pbh import f_pbh
 from scan.observables.sigw import TruncationWarning, omega_gw_h2
 from scan.observables.settings import conventions_of
 from scan.pool import choose_pool
+from scan.posterior.exact import observables_from_table
 from scan.posterior.target import BLOB_FIELDS, PosteriorTarget
 from scan.sampler import plan_run, run_chain
 from scan.sampler.evaluate import Evaluator
@@ -112,6 +113,28 @@ def trained(tmp_path_factory):
                     validate(em, train, hold), identity(cfg, SPACE))
     plan = plan_run(cfg, tmp / "chain.h5")
     return tmp, cfg, plan
+
+
+def fine_spectrum(pred, i: int) -> tuple[np.ndarray, np.ndarray]:
+    """Sample ``i`` of a surrogate prediction on a fine ln k grid (step 0.02, two e-folds
+    beyond the shape grid on each side, P = 0 there): (k [Mpc^-1], P_zeta [1])."""
+    x, lnkp = pred.x, pred.ln_k_peak[i]
+    lnk = np.arange(lnkp + x[0] - 2.0, lnkp + x[-1] + 2.0, 0.02)
+    log10_p = np.interp(lnk, lnkp + x, pred.log10_P_peak[i] + pred.shape[i],
+                        left=-np.inf, right=-np.inf)
+    return np.exp(lnk), 10.0 ** log10_p
+
+
+def exact_side_of_first(cfg, target: PosteriorTarget, thetas: np.ndarray):
+    """verify's exact observables (:func:`observables_from_table`, the config's
+    conventions) of the surrogate spectrum of ``thetas[0]``, with the walker's blobs."""
+    _, blobs = target.log_and_blobs(thetas[:1])
+    pred = target.loaded["surrogate"].predict(thetas[:1, :3])
+    k, p = fine_spectrum(pred, 0)
+    out = observables_from_table(cfg, k, p, k_peak=np.exp(pred.ln_k_peak[0]),
+                                 P_peak=10.0**pred.log10_P_peak[0], n_s=0.96, r=0.01,
+                                 N_star=55.0)
+    return out, blobs
 
 
 def reason_of(target: PosteriorTarget, blob: tuple) -> str:
@@ -209,10 +232,8 @@ def test_loglike_equals_total_loglike_on_independently_computed_observables(trai
         with warnings.catch_warnings():  # P at the grid ends is ~1 % of the peak: the
             warnings.simplefilter("ignore", TruncationWarning)  # target truncates there too
             omega = omega_gw_h2(k, p, f_out)
-        lnk = np.arange(lnkp + x[0] - 2.0, lnkp + x[-1] + 2.0, 0.02)
-        p_fine = np.interp(lnk, lnkp + x, np.log10(p), left=-np.inf, right=-np.inf)
         masses = target.loaded["plan"].pbh.M
-        pbh = f_pbh(np.exp(lnk), 10.0 ** p_fine, masses, conventions_of(cfg.observables))
+        pbh = f_pbh(*fine_spectrum(pred, i), masses, conventions_of(cfg.observables))
         obs = Observables(f_hz=f_out, omega_gw_h2=omega, m_msun=masses,
                                f_pbh_per_lnm=pbh.f_pbh, n_s=pred.n_s[i],
                                ln_1e10_as=cfg.pivot.ln_1e10_As, r=10.0 ** pred.log10_r[i])

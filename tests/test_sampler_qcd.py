@@ -25,7 +25,7 @@ import h5py
 import numpy as np
 import pytest
 from test_grid import GRID, SETS, write_config
-from test_sampler_posterior import make_config, trained  # noqa: F401  (fixture)
+from test_sampler_posterior import exact_side_of_first, make_config, trained  # noqa: F401
 from test_verify import OBSERVABLES, StandinExact
 
 from scan.cli import main
@@ -41,7 +41,6 @@ from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 from scan.observables.settings import settings_of
 from scan.observables.window import spectra_on_table
 from scan.pool import SerialPool, choose_pool
-from scan.posterior.exact import observables_from_table
 from scan.sampler import plan_run, run_chain, runfile
 from scan.sampler.summary import summarize
 from scan.verify.run import open_run, verify_run
@@ -264,15 +263,7 @@ def test_exact_side_uses_the_same_conventions(trained):  # noqa: F811
     relative, as in tests/test_sampler_posterior.py and tests/test_sampler_nongaussian.py
     (the tolerance derived there; measured 2.3e-4 and 4.9e-4 for THETAS)."""
     cfg, plan = _target(trained, QCD)
-    _, blobs = plan.target.log_and_blobs(THETAS[:1])
-    pred = plan.target.loaded["surrogate"].predict(THETAS[:1, :3])
-    lnkp, x = pred.ln_k_peak[0], pred.x
-    lnk = np.arange(lnkp + x[0] - 2.0, lnkp + x[-1] + 2.0, 0.02)
-    log10_p = np.interp(lnk, lnkp + x, pred.log10_P_peak[0] + pred.shape[0],
-                        left=-np.inf, right=-np.inf)
-    out = observables_from_table(cfg, np.exp(lnk), 10.0**log10_p, k_peak=np.exp(lnkp),
-                                 P_peak=10.0**pred.log10_P_peak[0], n_s=0.96, r=0.01,
-                                 N_star=55.0)
+    out, blobs = exact_side_of_first(cfg, plan.target, THETAS)
     assert any("harada-scaled" in n for n in out.notes)
     assert any("gamma-of-w" in n for n in out.notes)
     assert np.log10(out.observables.f_pbh_total) == pytest.approx(
