@@ -99,6 +99,19 @@ class SurrogateSection:
                              0, minimum=0)
     peak_holdout_min: float = spec("lowest predicted log10 P_peak of the peak_holdout points",
                                    -2.5, units="dex")
+    peak_holdout_max: float | None = spec("highest predicted log10 P_peak of the "
+                                          "peak_holdout points (none: no upper bound)", None,
+                                          units="dex")
+    peak_points: int = spec("training points per peak round, placed after refinement the way "
+                            "the peak_holdout points are (where the emulator predicts a valid "
+                            "model with peak_points_min <= log10 P_peak <= peak_points_max) "
+                            "but with their own random draws", 0, minimum=0)
+    peak_rounds: int = spec("peak rounds (plan peak_points, solve, refit, plan again); they "
+                            "come before the peak_holdout points are placed", 1, minimum=0)
+    peak_points_min: float = spec("lowest predicted log10 P_peak of the peak_points", -1.5,
+                                  units="dex")
+    peak_points_max: float | None = spec("highest predicted log10 P_peak of the peak_points "
+                                         "(none: no upper bound)", None, units="dex")
     refine_rounds: int = spec("adaptive refinement rounds after the design", 2, minimum=0)
     refine_points: int = spec("points added per refinement round", 32, minimum=1)
     boundary_fraction: float = spec("share of each refinement round placed along the "

@@ -2,7 +2,7 @@
 
 All points live in the unit cube (see :mod:`scan.surrogate.space`).  Every point has a
 *stage* (``STAGE_DESIGN``, ``STAGE_HOLDOUT``, ``STAGE_HOLDOUT_PEAK``,
-``STAGE_REFINE + round`` or ``STAGE_POSTERIOR + round``) and a
+``STAGE_REFINE + round``, ``STAGE_PEAK + round`` or ``STAGE_POSTERIOR + round``) and a
 sequence number within it; all choices are deterministic given ``run.seed`` and the
 solved points, so a resumed run plans exactly what the interrupted one planned (the
 store also records every plan before it is solved).
@@ -21,6 +21,10 @@ STAGE_REFINE = 2  # + round number
 #: Held-out points placed after training where the emulator predicts a high peak (where
 #: f_PBH is not negligible): a uniform hold-out set almost never lands there.
 STAGE_HOLDOUT_PEAK = -1
+#: Training points placed the way the peak hold-out points are (where the emulator predicts
+#: a valid model with a high peak, the thin sliver where f_PBH matters), with their own
+#: random stream, + the round number; planned before the peak hold-out set.
+STAGE_PEAK = 500
 #: Every stage whose points are never used for training.
 HOLDOUT_STAGES = (STAGE_HOLDOUT, STAGE_HOLDOUT_PEAK)
 #: Training points drawn from a posterior chain (``zetascan train --refine-from``), + the
@@ -55,22 +59,33 @@ def holdout_points(dim: int, count: int, seed: int) -> np.ndarray:
     return _rng(seed, STAGE_HOLDOUT).random((count, dim))
 
 
+def in_peak_window(predicted_log10_p: np.ndarray, margin: np.ndarray, low: float,
+                   high: float | None = None) -> np.ndarray:
+    """Which candidates the emulator predicts valid (``margin > 0``) with ``low <=``
+    log10 P_peak ``<= high`` (no upper bound if ``high`` is None)."""
+    keep = (margin > 0) & (predicted_log10_p >= low)
+    return keep if high is None else keep & (predicted_log10_p <= high)
+
+
 def peak_holdout_points(candidates: np.ndarray, predicted_log10_p: np.ndarray,
                         margin: np.ndarray, threshold: float, count: int,
-                        seed: int) -> np.ndarray:
-    """Held-out points where the emulator predicts a valid model with a high peak.
+                        seed: int, high: float | None = None,
+                        stream: tuple[int, ...] = (STAGE_HOLDOUT, 2)) -> np.ndarray:
+    """Points where the emulator predicts a valid model with a high peak.
 
     Random draws (uniform) among the ``candidates`` predicted valid (``margin > 0``) with
-    log10 P_peak >= ``threshold``: the errors there estimate the surrogate's error where
-    f_PBH matters, and the emulator only chooses *where* to look (the exact solves judge).
+    ``threshold <=`` log10 P_peak ``<= high``: as held-out points the errors there estimate
+    the surrogate's error where f_PBH matters, and the emulator only chooses *where* to
+    look (the exact solves judge).  The training stage ``STAGE_PEAK`` draws the same way
+    from its own random ``stream``.
 
     Returns
     -------
     ndarray, shape (m, d)
         ``m = min(count, number of such candidates)`` points.
     """
-    eligible = np.flatnonzero((margin > 0) & (predicted_log10_p >= threshold))
-    pick = _rng(seed, STAGE_HOLDOUT, 2).permutation(eligible)[:count]
+    eligible = np.flatnonzero(in_peak_window(predicted_log10_p, margin, threshold, high))
+    pick = _rng(seed, *stream).permutation(eligible)[:count]
     return candidates[np.sort(pick)]
 
 
@@ -140,9 +155,10 @@ def refine_points(train_u: np.ndarray, error_score: np.ndarray, margin: np.ndarr
     return np.vstack([candidates[picks_b], candidates[rest][picks_e]])
 
 
-def peak_candidates(dim: int, count: int, seed: int) -> np.ndarray:
-    """Random candidates for :func:`peak_holdout_points` (deterministic)."""
-    return _rng(seed, STAGE_HOLDOUT, 1).random((count, dim))
+def peak_candidates(dim: int, count: int, seed: int,
+                    stream: tuple[int, ...] = (STAGE_HOLDOUT, 1)) -> np.ndarray:
+    """Random candidates for :func:`peak_holdout_points` (deterministic per ``stream``)."""
+    return _rng(seed, *stream).random((count, dim))
 
 
 def candidate_points(dim: int, count: int, seed: int, round_index: int) -> np.ndarray:

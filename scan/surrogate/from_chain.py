@@ -151,7 +151,7 @@ def refine_from_chain(path: Path, config, space: ParameterSpace, chain: str | Pa
     # nothing but the posterior round (and points an interrupted run left) is solved: the
     # design, hold-out and refinement stages are never extended here
     plan = replace(TrainingPlan.from_config(config), points=0, holdout=0, peak_holdout=0,
-                   refine_rounds=0)
+                   refine_rounds=0, peak_rounds=0)
     emulator, data, holdout = run_training(path, config, space, solve, map_fn, plan,
                                            resume=True, chunk=chunk, progress=progress)
     return planned, emulator, data, holdout

@@ -46,6 +46,11 @@ class TrainingPlan:
     refine_points: int
     boundary_fraction: float
     seed: int
+    peak_holdout_max: float | None = None
+    peak_rounds: int = 0
+    peak_points: int = 0
+    peak_points_min: float = -1.5
+    peak_points_max: float | None = None
 
     @classmethod
     def from_config(cls, config, points: int | None = None) -> "TrainingPlan":
@@ -53,7 +58,8 @@ class TrainingPlan:
         s = config.surrogate
         return cls(points if points is not None else s.points, s.holdout, s.peak_holdout,
                    s.peak_holdout_min, s.refine_rounds, s.refine_points, s.boundary_fraction,
-                   config.run.seed)
+                   config.run.seed, s.peak_holdout_max, s.peak_rounds if s.peak_points else 0,
+                   s.peak_points, s.peak_points_min, s.peak_points_max)
 
 
 def settings_of(config) -> EmulatorSettings:
@@ -152,20 +158,46 @@ def propose_refinement(emulator: Emulator, data: TrainingSet, plan: TrainingPlan
                                 plan.boundary_fraction)
 
 
+def high_peak_points(emulator: Emulator, dim: int, count: int, low: float,
+                     high: float | None, seed: int, stream: tuple[int, ...]) -> np.ndarray:
+    """Up to ``count`` random unit-cube points where ``emulator`` predicts a valid model with
+    ``low <=`` log10 P_peak ``<= high`` (:func:`design.peak_holdout_points`); candidates
+    and picks come from the random ``stream`` (``stream + (1,)`` and ``stream + (2,)``)."""
+    cand = design.peak_candidates(dim, PEAK_CANDIDATES_PER_POINT * count, seed, (*stream, 1))
+    return design.peak_holdout_points(cand, predict_unit(emulator, cand).log10_P_peak,
+                                      classify(emulator, cand), low, count, seed, high,
+                                      (*stream, 2))
+
+
 def plan_peak_holdout(path: Path, writer: StoreWriter, space: ParameterSpace,
                       emulator: Emulator, plan: TrainingPlan) -> None:
-    """Plan the peak hold-out points once (:func:`design.peak_holdout_points`), where the
-    final ``emulator`` predicts a valid model with a high peak."""
+    """Plan the peak hold-out points where the final ``emulator`` predicts a valid model
+    with a high peak; a store holding fewer than ``plan.peak_holdout`` (a larger count on
+    resume) gets the rest, drawn from streams of their own."""
     _, stages, _ = read_plan(path)
-    if plan.peak_holdout == 0 or np.any(stages == design.STAGE_HOLDOUT_PEAK):
+    have = int(np.sum(stages == design.STAGE_HOLDOUT_PEAK))
+    if plan.peak_holdout <= have:
         return
-    cand = design.peak_candidates(space.dim, PEAK_CANDIDATES_PER_POINT * plan.peak_holdout,
-                                  plan.seed)
-    new = design.peak_holdout_points(cand, predict_unit(emulator, cand).log10_P_peak,
-                                     classify(emulator, cand), plan.peak_holdout_min,
-                                     plan.peak_holdout, plan.seed)
+    stream = (design.STAGE_HOLDOUT,) if have == 0 else (design.STAGE_HOLDOUT, 3, have)
+    new = high_peak_points(emulator, space.dim, plan.peak_holdout - have,
+                           plan.peak_holdout_min, plan.peak_holdout_max, plan.seed, stream)
     if len(new):
-        writer.add_plan(new, design.STAGE_HOLDOUT_PEAK, np.arange(len(new)))
+        writer.add_plan(new, design.STAGE_HOLDOUT_PEAK, np.arange(have, have + len(new)))
+
+
+def plan_peak_round(path: Path, writer: StoreWriter, space: ParameterSpace, x: np.ndarray,
+                    settings: EmulatorSettings, plan: TrainingPlan, round_index: int) -> None:
+    """Plan peak training round ``round_index`` once: refit on every training point so far
+    and draw ``plan.peak_points`` where that emulator predicts a high valid peak."""
+    stage = design.STAGE_PEAK + round_index
+    _, stages, _ = read_plan(path)
+    if np.any(stages == stage):
+        return
+    emulator = fit_emulator(training_set(path, space, x), settings)
+    new = high_peak_points(emulator, space.dim, plan.peak_points, plan.peak_points_min,
+                           plan.peak_points_max, plan.seed, (stage,))
+    if len(new):
+        writer.add_plan(new, stage, np.arange(len(new)))
 
 
 def run_training(path: Path, config, space: ParameterSpace, solve: Solve, map_fn: MapFunction,
@@ -219,6 +251,10 @@ def _train_locked(path, lock, config, space, solve, map_fn, plan, resume, chunk,
                 writer.add_plan(new, design.STAGE_REFINE + r, np.arange(len(new)))
             solve_pending(path, writer, space, solve, map_fn, chunk, progress,
                           f"refine {r + 1}/{plan.refine_rounds}")
+        for r in range(plan.peak_rounds):  # before the peak hold-out set is placed
+            plan_peak_round(path, writer, space, x, settings, plan, r)
+            solve_pending(path, writer, space, solve, map_fn, chunk, progress,
+                          f"peak {r + 1}/{plan.peak_rounds}")
         data = training_set(path, space, x)
         _check_enough_valid(path, data)
         emulator = fit_emulator(data, settings)  # the final fit also places the peak hold-out
