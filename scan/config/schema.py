@@ -95,7 +95,8 @@ class SurrogateSection:
     holdout: int = spec("held-out validation points, never used for training", 64, minimum=0)
     peak_holdout: int = spec("extra held-out points, placed after training where the emulator "
                              "predicts a valid model with log10 P_peak >= peak_holdout_min "
-                             "(where f_PBH matters; a uniform hold-out set rarely lands there)",
+                             "(where f_PBH matters; a uniform hold-out set rarely lands there); "
+                             "a larger count on --resume adds the rest",
                              0, minimum=0)
     peak_holdout_min: float = spec("lowest predicted log10 P_peak of the peak_holdout points",
                                    -2.5, units="dex")
