@@ -77,3 +77,22 @@ def test_peak_rounds_are_deterministic_and_a_resume_extends_the_peak_holdout(pea
     # a rerun plans nothing more
     train(grown, "surrogate.peak_holdout=7", "surrogate.peak_holdout_max=-1.2")
     assert len(read_plan(grown)[0]) == len(u2)
+
+
+def test_peak_round_points_split_between_largest_sd_and_random_draws():
+    """``peak_variance_fraction`` of a round goes to the largest predictive sd (kept apart
+    by :func:`design.greedy_spread`), the rest are the hold-out-like random draws."""
+    rng = np.random.default_rng(0)
+    cand = rng.random((400, 3))
+    window = cand[:, 2] > 0.5                       # a stand-in window: half the cube
+    sd = np.where(cand[window, 0] > 0.9, 1.0, 0.01)  # uncertain only in a corner of it
+    existing = rng.random((50, 3))
+    pts = design.peak_round_points(cand, window, sd, existing, 10, 0.5, 3, (500, 2))
+    assert len(pts) == 10 and np.all(pts[:, 2] > 0.5)
+    assert np.all(pts[:5, 0] > 0.9)                 # the 5 by sd sit where sd is large
+    assert len({tuple(p) for p in pts}) == 10       # no candidate taken twice
+    # fraction 0: exactly the random draw of the peak hold-out points with the same stream
+    random_only = design.peak_round_points(cand, window, sd, existing, 10, 0.0, 3, (500, 2))
+    same = design.peak_holdout_points(cand, np.where(window, 0.0, -9.0), np.ones(400), -1.0,
+                                      10, 3, stream=(500, 2))
+    assert np.array_equal(random_only, same)

@@ -89,6 +89,31 @@ def peak_holdout_points(candidates: np.ndarray, predicted_log10_p: np.ndarray,
     return candidates[np.sort(pick)]
 
 
+def peak_round_points(candidates: np.ndarray, in_window: np.ndarray, sd: np.ndarray,
+                      existing: np.ndarray, count: int, variance_fraction: float, seed: int,
+                      stream: tuple[int, ...]) -> np.ndarray:
+    """Points of one peak training round among the ``candidates`` ``in_window``.
+
+    ``round(count * variance_fraction)`` go where the predictive sd of the peak (``sd``,
+    given for the candidates in the window) is largest, kept apart from each other and
+    from the ``existing`` points (:func:`greedy_spread`); the rest are random draws in the
+    window, like the peak hold-out points.
+
+    Returns
+    -------
+    ndarray, shape (m, d)
+        ``m = min(count, number of candidates in the window)`` points.
+    """
+    eligible = np.flatnonzero(in_window)
+    n_var = min(int(round(count * variance_fraction)), len(eligible))
+    scale = spacing(len(existing) + count, candidates.shape[1])
+    by_sd = eligible[greedy_spread(np.asarray(sd, float), candidates[eligible], existing,
+                                   n_var, scale)] if n_var else np.zeros(0, int)
+    rest = np.setdiff1d(eligible, by_sd)
+    drawn = _rng(seed, *stream).permutation(rest)[:count - n_var]
+    return candidates[np.concatenate([by_sd, np.sort(drawn)])]
+
+
 def min_distances(points: np.ndarray, reference: np.ndarray) -> np.ndarray:
     """Distance from each row of ``points`` to the nearest row of ``reference``."""
     if len(reference) == 0:

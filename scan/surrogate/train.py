@@ -51,6 +51,7 @@ class TrainingPlan:
     peak_points: int = 0
     peak_points_min: float = -1.5
     peak_points_max: float | None = None
+    peak_variance_fraction: float = 0.0
 
     @classmethod
     def from_config(cls, config, points: int | None = None) -> "TrainingPlan":
@@ -59,7 +60,8 @@ class TrainingPlan:
         return cls(points if points is not None else s.points, s.holdout, s.peak_holdout,
                    s.peak_holdout_min, s.refine_rounds, s.refine_points, s.boundary_fraction,
                    config.run.seed, s.peak_holdout_max, s.peak_rounds if s.peak_points else 0,
-                   s.peak_points, s.peak_points_min, s.peak_points_max)
+                   s.peak_points, s.peak_points_min, s.peak_points_max,
+                   s.peak_variance_fraction)
 
 
 def settings_of(config) -> EmulatorSettings:
@@ -193,9 +195,16 @@ def plan_peak_round(path: Path, writer: StoreWriter, space: ParameterSpace, x: n
     _, stages, _ = read_plan(path)
     if np.any(stages == stage):
         return
-    emulator = fit_emulator(training_set(path, space, x), settings)
-    new = high_peak_points(emulator, space.dim, plan.peak_points, plan.peak_points_min,
-                           plan.peak_points_max, plan.seed, (stage,))
+    data = training_set(path, space, x)
+    emulator = fit_emulator(data, settings)
+    cand = design.peak_candidates(space.dim, PEAK_CANDIDATES_PER_POINT * plan.peak_points,
+                                  plan.seed, (stage, 1))
+    pred = predict_unit(emulator, cand)
+    window = design.in_peak_window(pred.log10_P_peak, pred.margin, plan.peak_points_min,
+                                   plan.peak_points_max)
+    sd = peak_sd(emulator, cand[window]) if plan.peak_variance_fraction > 0 else None
+    new = design.peak_round_points(cand, window, sd, data.u, plan.peak_points,
+                                   plan.peak_variance_fraction, plan.seed, (stage, 2))
     if len(new):
         writer.add_plan(new, stage, np.arange(len(new)))
 
