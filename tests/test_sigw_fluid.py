@@ -1,0 +1,89 @@
+"""The induced-GW kernel on a general perfect-fluid background (scan.observables.sigw_fluid).
+
+Error budget of the time integration (used for the tolerances below): classical RK4
+with steps h <= 0.05/omega accumulates a relative phase error ~ (omega X)(omega h)^4/120
+<= 1400 * 6.3e-6 / 120 ~ 7e-5 over X = k eta = 800 at omega <= 1.7; the Hann-window
+average of the Green's-function integrals leaves oscillating tail terms
+~ (Omega X)^-1 (Omega L)^-3 <= 1e-5 for beat frequencies Omega = |1 - c_s(u +- v)| >= 0.15
+and window length L = 400; the initial time k eta ~ 1e-3 misses ~1e-6.  Hence 1e-3
+relative for kernels (>10x margin); the transfer function alone (no window) to 2e-5
+absolute (RK4 bound 1e-5 for omega X <= 130).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.special import gamma, jv
+
+from scan.observables import sigw_fluid as sf
+from scan.observables.gstar import saikawa_shirai_2018
+from scan.observables.sigw import induced_kernel
+from scan.observables.sigw_fluid_ode import scalar_transfer
+
+# (u, v) away from the log resonance u + v = sqrt(3) (beat frequency >= 0.15)
+POINTS = [(1.0, 1.0), (0.7, 0.5), (1.5, 1.2), (2.5, 3.0), (0.3, 1.1)]
+
+
+def test_radiation_background_reproduces_the_closed_form_kernel():
+    """w = c_s^2 = 1/3: the time integration equals the closed-form RD kernel
+    (Kohri & Terada 2018, arXiv:1804.08577, Eq. 29 with its 1/12; Espinosa, Racco &
+    Riotto 2018, arXiv:1804.07732) to the 1e-3 budget of the module docstring."""
+    u, v = np.array(POINTS).T
+    got = sf.fluid_kernel(u, v, sf.constant_background(1 / 3))
+    np.testing.assert_allclose(got, induced_kernel(u, v), rtol=1e-3)
+
+
+@pytest.mark.parametrize("w", [0.05, 0.2, 1 / 3, 0.6])
+def test_constant_w_transfer_is_the_bessel_solution(w):
+    """Constant w = c_s^2, a ~ eta^{2/(1+3w)}: Phi/zeta = T0 Gamma(nu+1) (2/z)^nu J_nu(z),
+    z = c_s q k eta, nu = (5+3w)/(2(1+3w)), T0 = 3(1+w)/(5+3w) (the regular solution of
+    the Phi equation; Mukhanov 2005, Physical Foundations of Cosmology, ch. 7 for RD,
+    general w from memory; reduces to 3(sin z - z cos z)/z^3 at w = 1/3, checked here)."""
+    bg = sf.constant_background(w)
+    q, eta = 1.3, np.array([0.5, 1.0, 3.0, 10.0, 30.0, 100.0])
+    got = scalar_transfer(q, bg.n0, bg.dn, bg.w, bg.cs2, bg.lneps, 1e-3 / q, eta)
+    nu, z = (5 + 3 * w) / (2 * (1 + 3 * w)), math.sqrt(w) * q * eta
+    exact = 3 * (1 + w) / (5 + 3 * w) * gamma(nu + 1) * (2 / z)**nu * jv(nu, z)
+    np.testing.assert_allclose(got, exact, atol=2e-5)
+
+
+def test_resonance_follows_the_sound_speed():
+    """Constant w = c_s^2 = 1/4: the resonance of a Dirac-delta spectrum, u = v = 1/k~,
+    sits at c_s (u + v) = 1, i.e. k~ = 2 c_s = 1 instead of 2/sqrt(3) (Domenech 2020,
+    arXiv:1912.05583, from memory; Abe, Tada & Ueda 2021, arXiv:2010.06193, abstract:
+    the resonant amplification scale depends on c_s)."""
+    bg = sf.constant_background(0.25)
+    kt = np.array([0.9, 0.95, 0.98, 1.02, 1.05, 1.1, 2 / math.sqrt(3)])
+    values = sf.fluid_kernel(1 / kt, 1 / kt, bg)
+    assert np.argmax(values) in (2, 3)              # the two points nearest k~ = 1
+    assert values[2] > 4 * values[-1]               # RD's resonance point is far below
+
+
+def test_sound_speed_of_the_lattice_table():
+    """c_s^2 = 1/(3 + d ln g_s/d ln T) equals the table's own dp/drho (p = T s - rho,
+    rho = (pi^2/30) g_rho T^4, s = (2 pi^2/45) g_s T^3; both by central differences on
+    the rows), is 1/3 on the plateaus and dips across the QCD crossover (Saikawa &
+    Shirai 2018, arXiv:1803.01038 table).  The two central differences differ at
+    O(h^2) (h = 0.04 in ln T): bounded by 2 x (1/6) max|second difference of c_s^2|,
+    twice the leading truncation term (the dip at 0.15-0.2 GeV is only ~5 rows wide)."""
+    table = saikawa_shirai_2018()
+    T = table.T_GeV
+    rho = math.pi**2 / 30 * table.g_rho * T**4
+    p = 2 * math.pi**2 / 45 * table.g_s * T**4 - rho
+    sel = (T > 0.01) & (T < 10)
+    finite = (np.gradient(p) / np.gradient(rho))[sel]
+    bound = np.abs(np.diff(finite, 2)).max() / 3
+    np.testing.assert_allclose(sf.sound_speed_squared(T[sel]), finite, atol=bound)
+    assert abs(float(sf.sound_speed_squared(0.005)) - 1 / 3) < 3e-3
+    assert float(sf.sound_speed_squared(0.15)) < 0.25
+
+
+def test_table_background_is_radiation_for_modes_entering_after_the_crossover():
+    """A mode re-entering at 5 MeV sees the crossover only while superhorizon, where
+    zeta is conserved: its kernel is the RD one up to the residual w - 1/3 ~ 1e-3
+    of the table near 5-10 MeV (sensitivity d ln K/dw ~ 20 measured on constant w)."""
+    u, v = np.array(POINTS[:4]).T
+    bg = sf.table_background(0.005)
+    np.testing.assert_allclose(sf.fluid_kernel(u, v, bg), induced_kernel(u, v), rtol=0.02)
