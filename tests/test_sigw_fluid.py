@@ -87,3 +87,18 @@ def test_table_background_is_radiation_for_modes_entering_after_the_crossover():
     u, v = np.array(POINTS[:4]).T
     bg = sf.table_background(0.005)
     np.testing.assert_allclose(sf.fluid_kernel(u, v, bg), induced_kernel(u, v), rtol=0.02)
+
+
+def test_cancellation_follows_the_sound_speed():
+    """Constant w = c_s^2 = 1/4: the delta-spectrum kernel K(1/k~, 1/k~) dips near
+    k~ = sqrt(2) c_s, where u^2 + v^2 = 1/c_s^2 (the RD zero at k~ = sqrt(2/3) of Kohri &
+    Terada 2018, arXiv:1804.08577, moved with c_s: from memory; Abe, Tada & Ueda 2021,
+    arXiv:2010.06193, abstract: the cancellation scale depends on c_s).  For w != 1/3
+    the dip need not be an exact zero, so the check is its location (the lowest of seven
+    points within +-10 %, sampled at +-1 % around sqrt(2) c_s) and depth (< 1/3 of the
+    values at +-10 %)."""
+    bg = sf.constant_background(0.25)
+    kt = np.array([0.9, 0.97, 0.99, 1.0, 1.01, 1.03, 1.1]) * math.sqrt(2 * 0.25)
+    values = sf.fluid_kernel(1 / kt, 1 / kt, bg)
+    assert np.argmin(values) in (2, 3, 4)
+    assert values.min() < min(values[0], values[-1]) / 3
