@@ -18,7 +18,7 @@ import pytest
 from scipy.special import gamma, jv
 
 from scan.observables import sigw_fluid as sf
-from scan.observables.gstar import saikawa_shirai_2018
+from scan.observables.gstar import DofTable, saikawa_shirai_2018
 from scan.observables.sigw import induced_kernel
 from scan.observables.sigw_fluid_ode import scalar_transfer
 
@@ -102,3 +102,15 @@ def test_cancellation_follows_the_sound_speed():
     values = sf.fluid_kernel(1 / kt, 1 / kt, bg)
     assert np.argmin(values) in (2, 3, 4)
     assert values.min() < min(values[0], values[-1]) / 3
+
+
+def test_a_table_without_thermal_features_gives_the_radiation_kernel():
+    """A g_* table with constant g_rho = g_s (w = c_s^2 = 1/3 at every T) through the
+    table path (T(N) from entropy conservation, ln eps, the re-entry temperature of k)
+    gives the closed-form RD kernel (Kohri & Terada 2018) to the 1e-3 budget."""
+    flat = DofTable(np.array([1e-6, 1e6]), np.array([50.0, 50.0]), np.array([50.0, 50.0]),
+                    "synthetic: constant g")
+    u, v = np.array(POINTS[:3]).T
+    np.testing.assert_allclose(sf.kernel_ratio(1e7, u, v, flat), 1.0, rtol=1e-3)
+    bg = sf.table_background(0.3, flat)
+    np.testing.assert_allclose(sf.fluid_kernel(u, v, bg), induced_kernel(u, v), rtol=1e-3)
