@@ -28,6 +28,21 @@ Backgrounds (uniform grids in N = ln(a/a_c)):
 Accuracy: RK4 with steps <= 0.05/omega and a Hann window over k eta in
 [eta_end/2, eta_end]; against the exact radiation kernel the error is ~1e-5 at
 eta_end = 800 away from the log resonance u + v = sqrt(3) (tests/test_sigw_fluid.py).
+The window must lie after the background has returned to w = 1/3: true for re-entry
+below ~30 GeV at eta_end = 800 (modes entering earlier meet the crossover later, at
+k eta ~ T_c/0.2 GeV, and need a longer eta_end).
+
+Approximations: perfect adiabatic fluid (no free-streaming or diffusion damping, no
+anisotropic stress); Newtonian-gauge tensor source; w = c_s^2 = 1/3 below 3 MeV as in
+qcd.py (neutrino decoupling and e+- annihilation are left to the c_g transfer).
+
+Size (measured, tests/tools/qcd_sigw_effect.py): the kernel is very sensitive to c_s
+near the lines where the RD kernel vanishes (u^2 + v^2 = 1/c_s^2) or resonates
+(c_s (u + v) = 1, crossed during the crossover for sqrt(3) < u + v < 2.13), so single
+kernel values change by factors 0.06-4.6 for re-entry at 0.05-5 GeV, and Omega_GW of
+smooth synthetic spectra by 0.76-1.86 at 1-100 nHz.  Not yet used by the SIGW plan:
+no user-facing option (a tabulation over T_c must resolve the resonance band, whose
+T_c dependence oscillates faster at higher T_c).
 Units: u, v, w, c_s^2, kernels [1]; T [GeV]; k [Mpc^-1].
 """
 from __future__ import annotations
