@@ -114,3 +114,20 @@ def test_a_table_without_thermal_features_gives_the_radiation_kernel():
     np.testing.assert_allclose(sf.kernel_ratio(1e7, u, v, flat), 1.0, rtol=1e-3)
     bg = sf.table_background(0.3, flat)
     np.testing.assert_allclose(sf.fluid_kernel(u, v, bg), induced_kernel(u, v), rtol=1e-3)
+
+
+def test_crossover_moves_the_cancellation_scale():
+    """Lattice background, re-entry at 0.3 GeV (c_s^2 ~ 0.22-0.29 while the mode enters):
+    the dip of the delta-spectrum kernel K(1/k~, 1/k~) leaves the RD zero sqrt(2/3) =
+    0.816 (Kohri & Terada 2018) for a lower k~, between sqrt(2) c_s,min and sqrt(2/3),
+    while a mode entering at 5 MeV keeps it (Abe, Tada & Ueda 2021, arXiv:2010.06193,
+    abstract: the cancellation scale depends on c_s; the direction, sqrt(2) c_s, is our
+    generalisation of the RD zero, from memory).  Grid step 0.02 in k~."""
+    kt = np.arange(0.6, 0.9001, 0.02)
+    lowest = {}
+    for T_c in (0.005, 0.3):
+        values = sf.fluid_kernel(1 / kt, 1 / kt, sf.table_background(T_c))
+        lowest[T_c] = kt[np.argmin(values)]
+    cs2_min = float(sf.sound_speed_squared(np.geomspace(0.05, 1.0, 200)).min())
+    assert abs(lowest[0.005] - math.sqrt(2 / 3)) <= 0.02
+    assert math.sqrt(2 * cs2_min) - 0.02 <= lowest[0.3] <= math.sqrt(2 / 3) - 0.04
