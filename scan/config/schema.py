@@ -113,10 +113,11 @@ class SurrogateSection:
                                   units="dex")
     peak_points_max: float | None = spec("highest predicted log10 P_peak of the peak_points "
                                          "(none: no upper bound)", None, units="dex")
-    peak_variance_fraction: float = spec("share of each peak round placed where the "
-                                         "emulator's predictive sd of the peak is largest "
-                                         "(kept apart); the rest are random draws in the "
-                                         "window", 0.0, minimum=0.0, maximum=1.0)
+    peak_variance_fraction: tuple[float, ...] = spec(
+        "share of each peak round placed where the emulator's predictive sd of the peak is "
+        "largest (kept apart, among 8x more candidates); the rest are random draws in the "
+        "window; one number per round, the last one repeats (none: all random)",
+        default_factory=tuple, minimum=0.0, maximum=1.0)
     refine_rounds: int = spec("adaptive refinement rounds after the design", 2, minimum=0)
     refine_points: int = spec("points added per refinement round", 32, minimum=1)
     boundary_fraction: float = spec("share of each refinement round placed along the "

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
+from functools import partial
 from pathlib import Path
 
 import numpy as np
@@ -32,6 +33,8 @@ CANDIDATES_PER_POINT = 64
 #: Candidates per peak hold-out point: a high peak is a thin sliver of a wide box (in the
 #: wide pole box f_PBH > 1e-10 needs log10 P_peak >~ -1.1, ~1 % of the box).
 PEAK_CANDIDATES_PER_POINT = 256
+#: Candidates per emulator call when choosing peak round points (bounds the kernel matrix).
+PREDICT_BATCH = 16384
 
 
 @dataclass(frozen=True)
@@ -51,7 +54,12 @@ class TrainingPlan:
     peak_points: int = 0
     peak_points_min: float = -1.5
     peak_points_max: float | None = None
-    peak_variance_fraction: float = 0.0
+    peak_variance_fraction: tuple[float, ...] = ()
+
+    def variance_fraction(self, round_index: int) -> float:
+        """Share of peak round ``round_index`` placed by predictive sd (last one repeats)."""
+        shares = self.peak_variance_fraction
+        return float(shares[min(round_index, len(shares) - 1)]) if shares else 0.0
 
     @classmethod
     def from_config(cls, config, points: int | None = None) -> "TrainingPlan":
@@ -61,7 +69,7 @@ class TrainingPlan:
                    s.peak_holdout_min, s.refine_rounds, s.refine_points, s.boundary_fraction,
                    config.run.seed, s.peak_holdout_max, s.peak_rounds if s.peak_points else 0,
                    s.peak_points, s.peak_points_min, s.peak_points_max,
-                   s.peak_variance_fraction)
+                   tuple(s.peak_variance_fraction))
 
 
 def settings_of(config) -> EmulatorSettings:
@@ -197,14 +205,19 @@ def plan_peak_round(path: Path, writer: StoreWriter, space: ParameterSpace, x: n
         return
     data = training_set(path, space, x)
     emulator = fit_emulator(data, settings)
-    cand = design.peak_candidates(space.dim, PEAK_CANDIDATES_PER_POINT * plan.peak_points,
-                                  plan.seed, (stage, 1))
-    pred = predict_unit(emulator, cand)
-    window = design.in_peak_window(pred.log10_P_peak, pred.margin, plan.peak_points_min,
-                                   plan.peak_points_max)
-    sd = peak_sd(emulator, cand[window]) if plan.peak_variance_fraction > 0 else None
-    new = design.peak_round_points(cand, window, sd, data.u, plan.peak_points,
-                                   plan.peak_variance_fraction, plan.seed, (stage, 2))
+    share = plan.variance_fraction(round_index)
+    # the sliver's thin ends (p -> 1) hold few candidates: 8x more when sd chooses
+    per_point = PEAK_CANDIDATES_PER_POINT * (8 if share > 0 else 1)
+    cand = design.peak_candidates(space.dim, per_point * plan.peak_points, plan.seed,
+                                  (stage, 1))
+    window = np.concatenate([
+        design.in_peak_window(pred.log10_P_peak, pred.margin, plan.peak_points_min,
+                              plan.peak_points_max)
+        for pred in map(partial(predict_unit, emulator), np.array_split(
+            cand, max(1, len(cand) // PREDICT_BATCH)))])
+    sd = peak_sd(emulator, cand[window]) if share > 0 else None
+    new = design.peak_round_points(cand, window, sd, data.u, plan.peak_points, share,
+                                   plan.seed, (stage, 2))
     if len(new):
         writer.add_plan(new, stage, np.arange(len(new)))
 
