@@ -45,6 +45,7 @@ import numpy as np
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
+from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
     live_epochs,
@@ -209,8 +210,10 @@ class StackedNGPlan:
         epoch h) pairs with variances ``var``."""
         i, h = i[chosen], h[chosen]
         nodes = self.y_nodes[h] if self.y_nodes.ndim == 2 else self.y_nodes
-        lng = ln_density_pairs(nodes, *(v[chosen] for v in var), zmap,
-                               self.ng.base.conventions.ps_factor)
+        density = ln_density_tabulated if zmap.kind == "local" and zmap.g_nl == 0 \
+            and zmap.f_nl != 0 else ln_density_pairs
+        lng = density(nodes, *(v[chosen] for v in var), zmap,
+                      self.ng.base.conventions.ps_factor)
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
         i, h, lng = i[keep], h[keep], lng[keep]
         base = self.ng.base
