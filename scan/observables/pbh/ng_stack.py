@@ -45,6 +45,7 @@ import numpy as np
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
+from scan.observables.pbh.ng_pairs import pair_mass_function
 from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
@@ -248,18 +249,10 @@ class StackedNGPlan:
         return beta
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
-        """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H)).
-
-        The pairs' ln g is laid out densely per (epoch, spectrum), dead pairs at
-        ``LN_DEAD`` (a constant interpolates to itself; e^{-800} is 0), and every
-        epoch's mass matrix applied in one batched product."""
-        weight = self.ng.base._kernel.weight                 # (n_H, n_M), epoch-major
-        dense = np.full((weight.shape[0], m, lng.shape[1]), LN_DEAD)
-        dense[h, i] = lng
-        ln_f = np.matmul(dense, self.mass_matrix)            # (n_H, m, n_M)
-        exp_or_zero(ln_f)
-        ln_f *= weight[:, None, :]
-        return ln_f.sum(axis=0)
+        """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))
+        (compiled, over the live pairs only: :mod:`scan.observables.pbh.ng_pairs`)."""
+        return pair_mass_function(np.ascontiguousarray(lng), i, h, self.mass_matrix,
+                                  self.ng.base._kernel.weight, m, LN_ZERO)
 
 
 def _near_top(bounds, i, m: int) -> np.ndarray:

@@ -38,6 +38,7 @@ import numpy as np
 from numba import njit
 
 from scan.observables.pbh.ng_density import _ln_local
+from scan.observables.pbh.ng_ridge import FASTMATH
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 
 #: Domain of the table in t = C_l / sigma_c, |b| and rho.
@@ -60,9 +61,11 @@ TABLE_ERROR = 2e-5
 #: Gauss-Hermite nodes per ridge of the exact density the table is built from.
 N_GH_TABLE = 32
 #: Newton steps of the ridge search (at most), and the squared step in Laplace widths
-#: below which it ends.
+#: below which it ends: after a step of delta <= 1e-4 widths Newton's error is
+#: ~ delta^2 psi'''/psi'' ~ 1e-8 widths (quadratic convergence, psi analytic on the
+#: branch), so psi(z*) is off by ~1e-16 / 2.
 N_STEPS = 60
-STEP_TOL = 1e-16
+STEP_TOL = 1e-8
 
 
 def _axis(lo: float, hi: float, h: float) -> np.ndarray:
@@ -71,7 +74,7 @@ def _axis(lo: float, hi: float, h: float) -> np.ndarray:
     return lo - h + h * np.arange(n + 3)
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _psi(z, t, b, rho, w2):
     """psi at z (module doc)."""
     f = 1.0 + b * z
@@ -79,7 +82,7 @@ def _psi(z, t, b, rho, w2):
     return -0.5 * z * z - 0.5 * h * h / w2 - math.log(abs(f))
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _slopes(z, t, b, rho, w2):
     """psi' and psi'' at z."""
     r = 1.0 / (1.0 + b * z)
@@ -89,20 +92,19 @@ def _slopes(z, t, b, rho, w2):
     return -z - h * h1 / w2 - b * r, -1.0 - (h1 * h1 + h * h2) / w2 + b * b * r * r
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _inside(z, b):
     """Whether z is on the near branch (1 + b z > 0)."""
     return 1.0 + b * z > 0.0
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _newton(z, t, b, rho, w2):
     """Damped Newton ascent of psi from z on the near branch: (z*, psi'', converged).
 
     A step that would leave the branch, or one longer than a Laplace width 1/sqrt(-psi'')
     that would lower psi, is halved (at most 60 times); where psi'' >= 0 the step is one
-    unit of z uphill.  Converged once a step is below 1e-8 Laplace widths (``STEP_TOL`` =
-    its square; psi is then off by < 1e-16 / 2, and rounding in psi' moves the step more).
+    unit of z uphill.  Converged after a step below 1e-4 Laplace widths (``STEP_TOL``).
     """
     d1, d2 = _slopes(z, t, b, rho, w2)
     for _ in range(N_STEPS):
@@ -116,7 +118,7 @@ def _newton(z, t, b, rho, w2):
                 new = 0.5 * (z + new)
         if not _inside(new, b):
             return z, d2, False
-        done = local and d1 * d1 <= STEP_TOL * -d2   # step below 1e-8 Laplace widths
+        done = local and d1 * d1 <= STEP_TOL * -d2   # step below 1e-4 Laplace widths
         z = new
         d1, d2 = _slopes(z, t, b, rho, w2)
         if done:
@@ -124,7 +126,7 @@ def _newton(z, t, b, rho, w2):
     return z, d2, False
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _laplace(t, b, rho, z):
     """(-ln(2 pi w) + psi(z*) + ln(2 pi / |psi''(z*)|) / 2, z*, converged) for the ridge
     z* reached from the seed z (moved onto the near branch if it is off it)."""
@@ -137,7 +139,7 @@ def _laplace(t, b, rho, z):
     return value, z, ok
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _laplace_many(t, b, rho):
     """:func:`_laplace` from the conditional mean rho t: (values, ridges); NaN where the
     search fails (on 2e5 random points of the domain it reached the same ridge as a
@@ -149,45 +151,53 @@ def _laplace_many(t, b, rho):
     return out
 
 
-@njit(cache=True, error_model="numpy")
-def _weights(x, x0, h, n):
-    """Index of the first of 4 stencil nodes and the cubic Lagrange weights at x."""
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _weights(x, x0, h, n, w):
+    """Index of the first of 4 stencil nodes at x; the cubic Lagrange weights into w."""
     i = min(max(math.floor((x - x0) / h), 1), n - 3)
     f = (x - x0) / h - i
-    return i - 1, (-f * (f - 1.0) * (f - 2.0) / 6.0, (f + 1.0) * (f - 1.0) * (f - 2.0) / 2.0,
-                   -(f + 1.0) * f * (f - 2.0) / 2.0, (f + 1.0) * f * (f - 1.0) / 6.0)
+    w[0] = -f * (f - 1.0) * (f - 2.0) / 6.0
+    w[1] = (f + 1.0) * (f - 1.0) * (f - 2.0) / 2.0
+    w[2] = -(f + 1.0) * f * (f - 2.0) / 2.0
+    w[3] = (f + 1.0) * f * (f - 1.0) / 6.0
+    return i - 1
 
 
-@njit(cache=True, error_model="numpy")
-def _lookup(table, s0, r0, l0, s, rho, lnt):
-    """The tricubic interpolants of ``table`` (axes s, rho, ln t; last axis: G and z*/t)
-    at one point."""
-    ns, nr, nl, _ = table.shape
-    i, ws = _weights(s, s0, H_S, ns)
-    j, wr = _weights(rho, r0, H_RHO, nr)
-    k, wl = _weights(lnt, l0, H_LNT, nl)
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _lookup(flat, shape, origin, s, rho, lnt, w):
+    """The tricubic interpolants of the table (``flat``: axes s, rho, ln t, value; value:
+    G and z*/t) at one point; ``w`` (3, 4) holds the weights."""
+    i = _weights(s, origin[0], H_S, shape[0], w[0])
+    j = _weights(rho, origin[1], H_RHO, shape[1], w[1])
+    k = _weights(lnt, origin[2], H_LNT, shape[2], w[2])
+    l0, l1, l2, l3 = w[2, 0], w[2, 1], w[2, 2], w[2, 3]
+    row = 2 * shape[2]
     g, z = 0.0, 0.0
     for a in range(4):
         for c in range(4):
-            w = ws[a] * wr[c]
-            for d in range(4):
-                g += w * wl[d] * table[i + a, j + c, k + d, 0]
-                z += w * wl[d] * table[i + a, j + c, k + d, 1]
+            o = ((i + a) * shape[1] + j + c) * row + 2 * k
+            wac = w[0, a] * w[1, c]
+            g += wac * (l0 * flat[o] + l1 * flat[o + 2] + l2 * flat[o + 4] + l3 * flat[o + 6])
+            z += wac * (l0 * flat[o + 1] + l1 * flat[o + 3] + l2 * flat[o + 5]
+                        + l3 * flat[o + 7])
     return g, z
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def tabulated_ln_h(table, origin, t, b, rho):
     """ln h(t; b, rho) [1] per element from ``table`` (:func:`density_table`); NaN outside
     the domain or where the ridge search fails (the caller takes the exact path)."""
     out = np.empty(t.size)
+    flat = table.ravel()
+    shape = table.shape
+    w = np.empty((3, 4))
     for i in range(t.size):
         if not (T_MIN <= t[i] <= T_MAX and abs(b[i]) <= B_MAX
                 and RHO_MIN <= rho[i] <= RHO_MAX):
             out[i] = math.nan
             continue
-        g, z = _lookup(table, origin[0], origin[1], origin[2], math.asinh(b[i] * t[i] / V0),
-                       rho[i], math.log(t[i]))
+        g, z = _lookup(flat, shape, origin, math.asinh(b[i] * t[i] / V0), rho[i],
+                       math.log(t[i]), w)
         value, _, ok = _laplace(t[i], b[i], rho[i], z * t[i])
         out[i] = value + g / (t[i] * t[i]) if ok else math.nan
     return out
