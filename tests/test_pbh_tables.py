@@ -268,6 +268,8 @@ def test_direct_quadrature_error_against_qaws(threshold):
         s = y_th / nu
 
         def scaled(y, s=s):
+            if y <= y_th:                     # QUADPACK may sample the end point
+                return 0.0
             return conv.K * ((y - 0.375 * y * y - threshold) / (y - y_th))**conv.gamma_c \
                 * math.exp(-0.5 * (y - y_th) * (y + y_th) / (s * s))
 
