@@ -40,7 +40,18 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   the merge of the third seed; the cut's bound with the correlation (2542 at f_NL = 1,
   1840 at -1): f_NL = -1 22-23x -> 14-15x, f_NL = 1 about even.
 
-What limits it (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
+* ngtable branch (the local map's density from a table in reduced variables,
+  scan/observables/pbh/ng_table.py; compiled mass function over the live pairs,
+  ng_pairs.py; 8 bracket halvings in the cut's bound), alternating runs of this file
+  with main 9955f2a (2 runs each): local f_NL = 1 15.2-19.5x -> 3.9-4.0x, f_NL = -1
+  11.7-14.2x -> 3.1-3.2x, logarithmic 3.3-3.9x -> 3.4-3.5x (unchanged path but for
+  the mass function).  The table is built once per process (~1 s, the first block;
+  the ratios are min-based).  By parts (py-spy, f_NL = 1, before the bound change):
+  the tabulated density ~50 % (0.26-0.35 us per density: a Newton step from the
+  tabulated ridge, the Laplace value and a tricubic lookup, for 2.5k pairs x 9 nodes),
+  the cut's bound ~15 %, the mass function ~10 %, variances ~5 %, beta ~4 %.
+
+What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
 density; ~1 us per density) for 2.5k of 3.6k live pairs x 9 nodes; the pairs the
@@ -94,6 +105,7 @@ def main() -> None:
     stacked = plan_stacked(ng)
     P = spectra(k)
     maps = {"local f_NL=1": zeta_map_of("local", f_nl=1.0),
+            "local f_NL=-1": zeta_map_of("local", f_nl=-1.0),
             "logarithmic lambda=3": zeta_map_of("logarithmic", log_lambda=3.0)}
     funcs = {"gaussian stack": lambda: plan.evaluate(P)}
     for name, zmap in maps.items():
