@@ -45,7 +45,7 @@ import numpy as np
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
-from scan.observables.pbh.ng_pairs import pair_mass_function
+from scan.observables.pbh.ng_pairs import pair_ln_mass, pair_scatter
 from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
@@ -251,8 +251,8 @@ class StackedNGPlan:
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
         """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))
         (compiled, over the live pairs only: :mod:`scan.observables.pbh.ng_pairs`)."""
-        return pair_mass_function(np.ascontiguousarray(lng), i, h, self.mass_matrix,
-                                  self.ng.base._kernel.weight, m, LN_ZERO)
+        ln_f = pair_ln_mass(np.ascontiguousarray(lng), h, self.mass_matrix)
+        return pair_scatter(exp_or_zero(ln_f), i, h, self.ng.base._kernel.weight, m)
 
 
 def _near_top(bounds, i, m: int) -> np.ndarray:

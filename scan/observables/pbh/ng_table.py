@@ -66,6 +66,7 @@ N_GH_TABLE = 32
 #: branch), so psi(z*) is off by ~1e-16 / 2.
 N_STEPS = 60
 STEP_TOL = 1e-8
+_HALF_LN_2PI = 0.5 * math.log(2.0 * math.pi)
 
 
 def _axis(lo: float, hi: float, h: float) -> np.ndarray:
@@ -134,8 +135,8 @@ def _laplace(t, b, rho, z):
     if not _inside(z, b):
         z = -0.5 / b
     z, d2, ok = _newton(z, t, b, rho, w2)
-    value = -math.log(2.0 * math.pi * math.sqrt(w2)) + _psi(z, t, b, rho, w2) \
-        + 0.5 * math.log(2.0 * math.pi / -d2) if ok else math.nan
+    value = _psi(z, t, b, rho, w2) - _HALF_LN_2PI - 0.5 * math.log(-d2 * w2) if ok \
+        else math.nan                   # -ln(2 pi w) + psi + ln(2 pi / -psi'') / 2
     return value, z, ok
 
 
