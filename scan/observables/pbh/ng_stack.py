@@ -1,7 +1,9 @@
 """Non-Gaussian f_PBH for a stack of spectra at once: the sampler's and the grid's path.
 
 For every (spectrum, formation epoch) pair the log-density ln g(C_l) of the linear
-compaction (:mod:`scan.observables.pbh.ng_density`) is evaluated at ``n_y`` Chebyshev-Lobatto
+compaction (:mod:`scan.observables.pbh.ng_density`; for the local map with g_NL = 0 from
+the table of :mod:`scan.observables.pbh.ng_table` inside its domain, within 2e-5 of the
+exact density) is evaluated at ``n_y`` Chebyshev-Lobatto
 nodes on the type-I interval [y_th, 4/3] (y_th = C_l at C = C_th) and interpolated as a
 polynomial (barycentric form, Berrut & Trefethen 2004, "Barycentric Lagrange
 interpolation", SIAM Review 46(3), 501-517) to
