@@ -28,7 +28,12 @@ from scan.observables.pbh.ng_density import (
     ln_density_bound,
     ln_density_pairs,
 )
-from scan.observables.pbh.ng_stack import LN_NEGLIGIBLE, _live, plan_pbh_mapped, plan_stacked
+from scan.observables.pbh.ng_stack import (
+    LN_NEGLIGIBLE,
+    _live,
+    plan_pbh_mapped,
+    plan_stacked,
+)
 from scan.observables.pbh.nongaussian import plan_nongaussian
 from scan.observables.pbh.zeta_map import zeta_map_of
 
