@@ -66,9 +66,10 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   1 4.3-4.7x -> 4.0-4.2x, f_NL = -1 3.4-3.7x -> 3.0-3.4x, logarithmic 3.9-4.0x ->
   3.7-4.0x (path unchanged: noise).  The split alone, in one process against e = 0.1
   (40 alternating blocks): f_NL = 1 4.65x -> 4.58x, -1 3.81x -> 3.58x; the cut computes
-  2393 + 58 pairs at f_NL = 1 (2473 + 70 before), 1626 + 69 at -1 (1699 + 141); f(M) above 1e-30 of each
-  spectrum's largest and the totals bit-identical to main (with both changes); 5 halvings keep 2399 + 65 and 1628 + 73 and take ~35 % off the
-  search (0.60-0.67 -> 0.40-0.41 ms).  The cut is now at its floor: with each pair's
+  2393 + 58 pairs at f_NL = 1 (2473 + 70 before), 1626 + 69 at -1 (1699 + 141); f(M)
+  above 1e-30 of each spectrum's largest and the totals bit-identical to main (with both
+  changes); 5 halvings keep 2399 + 65 and 1628 + 73 and take ~35 % off the search
+  (0.60-0.67 -> 0.40-0.41 ms).  The cut is now at its floor: with each pair's
   exact contribution (max_M weight x g(y(M)), and its term of the total) in place of the
   bound, the same e^-100 rule keeps 2372 pairs at f_NL = 1 and 1615 at -1 (the bound
   2451 / 1695); a shorter range would not pay either (exact contributions at e^-80: 2199
