@@ -1,0 +1,88 @@
+"""One-parameter and two-parameter fits of a tabulated delta-N map zeta = F(zeta_G).
+
+The sampler's path takes an analytic map per spectrum; the model's own map
+(:mod:`scan.observables.pbh.deltan`) is represented there by the logarithmic map
+F = -ln(1 - lambda zeta_G)/lambda (Cai, Chen, Namjoo, Sasaki, Wang & Wang 2018,
+arXiv:1712.09998, their eq. for zeta in terms of delta-N with a USR phase followed by
+slow roll; Pi & Sasaki 2022, arXiv:2211.13932) fitted by least squares over
+|zeta_G| <= ``SPAN`` sigma, sigma = sqrt(P_peak): :func:`fit_logarithmic`.
+:func:`fit_local` fits the local (f_NL, g_NL) expansion over the same points, for
+comparison (tests/tools/ng_representation.py measures both against the tabulated map's
+f_PBH; the numbers are in docs/ng_model_representation.md).
+
+Units: all quantities [1].
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import minimize_scalar
+
+from scan.observables.pbh.zeta_map import ZetaMap
+
+#: Half-width of the fit in units of sigma = sqrt(P_peak).
+SPAN: float = 5.0
+#: lambda is kept below this fraction of the edge 1/zeta_G of the largest fitted point.
+EDGE_SHARE: float = 0.999
+#: Largest |lambda| searched: above it the map is a wall at zeta_G = 1/lambda < 0.02.
+LAMBDA_MAX: float = 50.0
+
+
+@dataclass(frozen=True)
+class LogFit:
+    """A fitted logarithmic map.
+
+    Attributes
+    ----------
+    log_lambda : float [1]
+        lambda of F = -ln(1 - lambda zeta_G)/lambda.
+    rms : float [1]
+        Root-mean-square residual of F over the fitted points, relative to sigma.
+    """
+
+    log_lambda: float
+    rms: float
+
+
+def fitted_points(zmap: ZetaMap, sigma: float, span: float = SPAN):
+    """The table's (zeta_G, zeta) [1] with |zeta_G| <= ``span`` ``sigma``."""
+    zg, z = np.asarray(zmap.zeta_g, float), np.asarray(zmap.zeta, float)
+    keep = np.abs(zg) <= span * sigma * (1 + 1e-12)
+    if keep.sum() < 3:
+        raise ValueError(f"the map has {keep.sum()} points within {span:g} sigma; need 3")
+    return zg[keep], z[keep]
+
+
+def _log_map(zg: np.ndarray, lam: float) -> np.ndarray:
+    if lam == 0.0:
+        return zg
+    return -np.log1p(-lam * zg) / lam
+
+
+def fit_logarithmic(zmap: ZetaMap, sigma: float, span: float = SPAN) -> LogFit:
+    """Least-squares lambda [1] of the logarithmic map to a tabulated ``zmap`` over
+    |zeta_G| <= ``span`` ``sigma`` (lambda restricted to where every fitted point is
+    inside the map's domain lambda zeta_G < 1)."""
+    zg, z = fitted_points(zmap, sigma, span)
+    hi = min(LAMBDA_MAX, EDGE_SHARE / zg.max()) if zg.max() > 0 else LAMBDA_MAX
+    lo = max(-LAMBDA_MAX, EDGE_SHARE / zg.min()) if zg.min() < 0 else -LAMBDA_MAX
+
+    def cost(lam: float) -> float:
+        return float(np.sum((_log_map(zg, lam) - z) ** 2))
+
+    # the cost is smooth in lambda; start from the f_NL of the quadratic part
+    res = minimize_scalar(cost, bounds=(lo, hi), method="bounded",
+                          options={"xatol": 1e-10 * max(1.0, hi - lo)})
+    lam = float(res.x)
+    return LogFit(lam, math.sqrt(cost(lam) / zg.size) / sigma)
+
+
+def fit_local(zmap: ZetaMap, sigma: float, span: float = SPAN) -> tuple[float, float]:
+    """Least-squares (f_NL, g_NL) [1] of F - zeta_G = (3/5) f_NL zeta_G^2 +
+    (9/25) g_NL zeta_G^3 over |zeta_G| <= ``span`` ``sigma``."""
+    zg, z = fitted_points(zmap, sigma, span)
+    design = np.column_stack([0.6 * zg**2, 0.36 * zg**3])
+    coef, *_ = np.linalg.lstsq(design, z - zg, rcond=None)
+    return float(coef[0]), float(coef[1])
