@@ -18,7 +18,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import minimize_scalar
+from scipy.optimize import least_squares, minimize_scalar
 
 from scan.observables.pbh.zeta_map import ZetaMap
 
@@ -86,3 +86,53 @@ def fit_local(zmap: ZetaMap, sigma: float, span: float = SPAN) -> tuple[float, f
     design = np.column_stack([0.6 * zg**2, 0.36 * zg**3])
     coef, *_ = np.linalg.lstsq(design, z - zg, rcond=None)
     return float(coef[0]), float(coef[1])
+
+
+@dataclass(frozen=True)
+class CappedFit:
+    """A fitted capped logarithmic map (:class:`ZetaMap` ``logarithmic`` with
+    ``slope_max``).
+
+    Attributes
+    ----------
+    log_lambda : float [1]
+    slope_max : float [1]
+        The cap of F' (> 1).
+    rms : float [1]
+        Root-mean-square residual of F over the fitted points, relative to sigma.
+    """
+
+    log_lambda: float
+    slope_max: float
+    rms: float
+
+    def zeta_map(self) -> ZetaMap:
+        """The fitted map."""
+        return ZetaMap("logarithmic", log_lambda=self.log_lambda, slope_max=self.slope_max)
+
+
+#: Half-width of the capped fit [sigma]: the whole delta-N table (6 sigma,
+#: :func:`scan.observables.pbh.deltan.peak_map`), whose end slope the model map continues.
+CAPPED_SPAN: float = 6.0
+
+
+def fit_capped(zmap: ZetaMap, sigma: float, span: float = CAPPED_SPAN) -> CappedFit:
+    """Least-squares (lambda, slope_max) [1] of the capped logarithmic map to a tabulated
+    ``zmap`` over |zeta_G| <= ``span`` ``sigma`` (residuals in F; parameters lambda and
+    ln(slope_max - 1), started from the table's f_NL and its largest slope)."""
+    zg, z = fitted_points(zmap, sigma, span)
+    top = float(np.max(zmap.slope(zg)))
+    lam0 = 1.2 * zmap.f_nl_equivalent()
+    if abs(lam0) < 1e-6 / sigma:
+        lam0 = 1e-6 / sigma
+    start = [lam0 * sigma, math.log(max(top - 1, 1e-3))]
+
+    def residual(p):
+        m = ZetaMap("logarithmic", log_lambda=p[0] / sigma, slope_max=1 + math.exp(p[1]))
+        return (m.value(zg) - z) / sigma
+
+    res = least_squares(residual, start, x_scale=[0.1, 1.0], xtol=1e-12, ftol=1e-14,
+                        gtol=1e-14, bounds=([-LAMBDA_MAX * sigma, -12.0],
+                                            [LAMBDA_MAX * sigma, 8.0]))
+    lam, cap = float(res.x[0] / sigma), 1 + math.exp(float(res.x[1]))
+    return CappedFit(lam, cap, float(np.sqrt(np.mean(res.fun**2))))

@@ -40,6 +40,7 @@ import math
 import numpy as np
 from scipy import special
 
+from scan.observables.pbh.ng_capped import ln_capped_density
 from scan.observables.pbh.ng_closed import (
     half_moment_table,
     log_map_density,
@@ -87,6 +88,8 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
     c, s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
     if zmap.kind == "gaussian":
         out = -0.5 * np.log(2 * math.pi * s_c2) - 0.5 * c * c / s_c2
+    elif zmap.kind == "logarithmic" and _is_capped(zmap):
+        out = ln_capped_density(c, s_c2, s_cr, s_r2, zmap.log_lambda, 1 / zmap.slope_max)
     elif zmap.kind == "logarithmic":
         out = _ln_log_map(c, s_c2, s_cr, s_r2, zmap.log_lambda)
     elif zmap.kind == "local":
@@ -108,6 +111,12 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     c = np.atleast_2d(np.asarray(c, dtype=float))
     if np.size(s_c2) == 0:
         return np.empty((0, c.shape[1]))
+    if zmap.kind == "logarithmic" and _is_capped(zmap):
+        lam, u_min = (np.asarray(v, dtype=float) for v in (zmap.log_lambda,
+                                                            1 / np.asarray(zmap.slope_max)))
+        return ln_capped_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None],
+                                 lam[:, None] if lam.ndim else lam,
+                                 u_min[:, None] if u_min.ndim else u_min) + math.log(ps_factor)
     if zmap.kind != "logarithmic":
         return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
     arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
@@ -118,6 +127,14 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
         out[i, j] = _ln_log_map(c[i if c.shape[0] > 1 else 0, j], s_c2[i], s_cr[i], s_r2[i],
                                 zmap.log_lambda) + math.log(ps_factor)
     return out
+
+
+def _is_capped(zmap: ZetaMap) -> bool:
+    """A logarithmic map with a slope cap or with parameters per pair (arrays): the
+    closed form of :mod:`scan.observables.pbh.ng_capped` (the compiled plain form takes
+    one number)."""
+    return np.ndim(zmap.log_lambda) > 0 or np.ndim(zmap.slope_max) > 0 \
+        or math.isfinite(zmap.slope_max)
 
 
 def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
