@@ -25,7 +25,7 @@ The compaction function only needs the slope F'(zeta_G) (C_l = C_G F'(zeta_G)), 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.interpolate import CubicSpline
@@ -132,6 +132,16 @@ class ZetaMap:
         elif self.kind == "model":
             attrs.update(f_nl_peak=self.f_nl_equivalent())
         return attrs
+
+    def of_spectra(self, i: np.ndarray) -> "ZetaMap":
+        """The map of spectra ``i`` of a stack: a logarithmic map whose ``log_lambda`` or
+        ``slope_max`` are arrays (one per spectrum) takes them at ``i``; others as is."""
+        if self.kind != "logarithmic" or not (np.ndim(self.log_lambda)
+                                              or np.ndim(self.slope_max)):
+            return self
+        lam, cap = np.broadcast_arrays(np.asarray(self.log_lambda, dtype=float),
+                                       np.asarray(self.slope_max, dtype=float))
+        return replace(self, log_lambda=lam[i], slope_max=cap[i])
 
     def _spline(self) -> CubicSpline:
         return _spline_of(self)
