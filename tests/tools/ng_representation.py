@@ -7,8 +7,9 @@ local (f_NL, g_NL) (:mod:`scan.observables.pbh.map_fit`), and compare f_PBH of e
 (per-spectrum path) with f_PBH of the tabulated map itself.  Prints one line per model
 and the summary (dex); also the wall time of the delta-N map against the solve.
 
-Run:  python tests/tools/ng_representation.py CONFIG STORE [N] [LEVEL]
-      (STORE: a training.h5 made from CONFIG; N models, default 24)
+Run:  python tests/tools/ng_representation.py CONFIG STORE [N] [LEVEL] [TOP]
+      (STORE: a training.h5 made from CONFIG; N models, default 24, with
+      LEVEL <= log10 P_peak < TOP, default -2.5 and no top)
 """
 from __future__ import annotations
 
@@ -47,13 +48,13 @@ def totals(cfg, spectrum, maps):
     return [float(ng.evaluate(P, m).f_pbh_total) for m in maps]
 
 
-def main(config: str, store: str, n: int, level: float) -> None:
+def main(config: str, store: str, n: int, level: float, top: float = math.inf) -> None:
     base = as_config(config)
     keys = [p.key for p in base.parameters]
     with h5py.File(store, "r") as h:
         params = h["points/params"][...]
         logp = h["points/scalars"][:, 1]
-    pick = np.flatnonzero(np.isfinite(logp) & (logp >= level))
+    pick = np.flatnonzero(np.isfinite(logp) & (logp >= level) & (logp < top))
     pick = pick[np.random.default_rng(0).permutation(pick.size)[:n]]
     rows = []
     for j in pick:
@@ -70,21 +71,28 @@ def main(config: str, store: str, n: int, level: float) -> None:
         lam = fit_logarithmic(dn.zeta_map, sigma)
         f_nl, g_nl = fit_local(dn.zeta_map, sigma)
         cap = fit_capped(dn.zeta_map, sigma)
+        top = fit_capped(dn.zeta_map, sigma, cap="max")
         maps = [ZetaMap(), dn.zeta_map, ZetaMap("logarithmic", log_lambda=lam.log_lambda),
-                ZetaMap("local", f_nl=f_nl, g_nl=g_nl), cap.zeta_map()]
-        f_g, f_m, f_log, f_loc, f_cap = (max(v, _FLOOR) for v in totals(cfg, s, maps))
+                ZetaMap("local", f_nl=f_nl, g_nl=g_nl), cap.zeta_map(), top.zeta_map()]
+        f_g, f_m, f_log, f_loc, f_cap, f_top = (max(v, _FLOOR) for v in totals(cfg, s, maps))
         d_log, d_loc = math.log10(f_log / f_m), math.log10(f_loc / f_m)
-        d_cap = math.log10(f_cap / f_m)
-        rows.append((math.log10(s.P_peak), f_m, d_log, d_loc, t1 - t0, t2 - t1, d_cap))
+        d_cap, d_top = math.log10(f_cap / f_m), math.log10(f_top / f_m)
+        rows.append((math.log10(s.P_peak), f_m, d_log, d_loc, t1 - t0, t2 - t1, d_cap,
+                     d_top))
         print(f"log10P {math.log10(s.P_peak):6.3f}  f_G {f_g:8.2e}  f_model {f_m:8.2e}  "
               f"lambda {lam.log_lambda:6.3f} (rms {lam.rms:.1e})  f_NL {f_nl:6.3f} "
               f"g_NL {g_nl:7.3f}  capped ({cap.log_lambda:.3f}, {cap.slope_max:.3f}; rms "
               f"{cap.rms:.1e})  dex log {d_log:+.3f} local {d_loc:+.3f} "
-              f"capped {d_cap:+.3f}  "
+              f"capped {d_cap:+.3f} capped-max ({top.log_lambda:.3f}, {top.slope_max:.3f}) "
+              f"{d_top:+.3f}  "
               f"solve {t1 - t0:.1f} s  deltaN {t2 - t1:.1f} s", flush=True)
     r = np.array(rows)
+    print(f"largest f_PBH: model map {r[:, 1].max():.2e}")
     alive = r[:, 1] > LIVE
-    for name, col in (("logarithmic", 2), ("local", 3), ("capped logarithmic", 6)):
+    if not alive.any():
+        return
+    for name, col in (("logarithmic", 2), ("local", 3), ("capped logarithmic", 6),
+                      ("capped at the largest slope", 7)):
         d = np.abs(r[alive, col])
         print(f"{name}: |dex| median {np.median(d):.3f}, 90 % {np.quantile(d, 0.9):.3f}, "
               f"max {d.max():.3f} over {alive.sum()} models with f_PBH > {LIVE:g}")
@@ -93,4 +101,5 @@ def main(config: str, store: str, n: int, level: float) -> None:
 
 if __name__ == "__main__":
     main(sys.argv[1], sys.argv[2], int(sys.argv[3]) if len(sys.argv) > 3 else 24,
-         float(sys.argv[4]) if len(sys.argv) > 4 else -2.5)
+         float(sys.argv[4]) if len(sys.argv) > 4 else -2.5,
+         float(sys.argv[5]) if len(sys.argv) > 5 else math.inf)

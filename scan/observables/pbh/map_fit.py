@@ -22,6 +22,11 @@ from scipy.optimize import least_squares, minimize_scalar
 
 from scan.observables.pbh.zeta_map import ZetaMap
 
+#: log10 P_peak [dex] below which the sampler's path keeps zeta Gaussian for ``model``
+#: (the delta-N map is not computed at training time there): measured on wide_scan_high
+#: models (tests/tools/ng_representation.py, docs/ng_model_representation.md), the model's
+#: own f_PBH stays below 1e-100 there.
+NG_LEVEL: float = -2.5
 #: Half-width of the fit in units of sigma = sqrt(P_peak).
 SPAN: float = 5.0
 #: lambda is kept below this fraction of the edge 1/zeta_G of the largest fitted point.
@@ -116,23 +121,34 @@ class CappedFit:
 CAPPED_SPAN: float = 6.0
 
 
-def fit_capped(zmap: ZetaMap, sigma: float, span: float = CAPPED_SPAN) -> CappedFit:
+def fit_capped(zmap: ZetaMap, sigma: float, span: float = CAPPED_SPAN,
+               cap: str = "fit") -> CappedFit:
     """Least-squares (lambda, slope_max) [1] of the capped logarithmic map to a tabulated
     ``zmap`` over |zeta_G| <= ``span`` ``sigma`` (residuals in F; parameters lambda and
-    ln(slope_max - 1), started from the table's f_NL and its largest slope)."""
+    ln(slope_max - 1), started from the table's f_NL and its largest slope).
+
+    ``cap = "max"``: slope_max is the map's largest slope over the fitted points and their
+    linear continuation (the end slopes), and only lambda is fitted: the tail of C_l,
+    where black holes form, follows the largest F'.
+    """
     zg, z = fitted_points(zmap, sigma, span)
-    top = float(np.max(zmap.slope(zg)))
+    slopes = zmap.slope(np.concatenate([zg, [zg[0] - sigma, zg[-1] + sigma]]))
+    top = float(np.max(slopes))
     lam0 = 1.2 * zmap.f_nl_equivalent()
     if abs(lam0) < 1e-6 / sigma:
         lam0 = 1e-6 / sigma
-    start = [lam0 * sigma, math.log(max(top - 1, 1e-3))]
+    fixed = cap == "max"
 
     def residual(p):
-        m = ZetaMap("logarithmic", log_lambda=p[0] / sigma, slope_max=1 + math.exp(p[1]))
+        slope_max = top if fixed else 1 + math.exp(p[1])
+        m = ZetaMap("logarithmic", log_lambda=p[0] / sigma, slope_max=slope_max)
         return (m.value(zg) - z) / sigma
 
-    res = least_squares(residual, start, x_scale=[0.1, 1.0], xtol=1e-12, ftol=1e-14,
-                        gtol=1e-14, bounds=([-LAMBDA_MAX * sigma, -12.0],
-                                            [LAMBDA_MAX * sigma, 8.0]))
-    lam, cap = float(res.x[0] / sigma), 1 + math.exp(float(res.x[1]))
-    return CappedFit(lam, cap, float(np.sqrt(np.mean(res.fun**2))))
+    start = [lam0 * sigma] if fixed else [lam0 * sigma, math.log(max(top - 1, 1e-3))]
+    lo, hi = [-LAMBDA_MAX * sigma, -12.0], [LAMBDA_MAX * sigma, 8.0]
+    n = len(start)
+    res = least_squares(residual, start, x_scale=[0.1, 1.0][:n], xtol=1e-12, ftol=1e-14,
+                        gtol=1e-14, bounds=(lo[:n], hi[:n]))
+    lam = float(res.x[0] / sigma)
+    slope_max = top if fixed else 1 + math.exp(float(res.x[1]))
+    return CappedFit(lam, slope_max, float(np.sqrt(np.mean(res.fun**2))))
