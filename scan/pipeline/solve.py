@@ -196,6 +196,11 @@ def mode_settings_of(config: RunConfig) -> ModeSettings:
     return ModeSettings(x_in=m.x_in, x_out=m.x_out, rtol=m.rtol, p_zeta_max=m.stochastic_limit)
 
 
+#: Why a ``model`` solve without an interior peak has Gaussian f_PBH.
+NO_PEAK_NOTE: str = ("non_gaussianity = 'model': the spectrum has no interior peak, so no "
+                     "delta-N map was computed; f_PBH is for Gaussian zeta")
+
+
 def observables_of(config: RunConfig, spectrum: Spectrum,
                    bg: Background | None = None) -> Observables:
     """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions.
@@ -208,6 +213,9 @@ def observables_of(config: RunConfig, spectrum: Spectrum,
         return settings.compute(spectrum.k, spectrum.P_zeta)
     if bg is None:
         raise ValueError("non_gaussianity = 'model' needs the model's background")
+    if not (math.isfinite(spectrum.k_peak) and spectrum.P_peak > 0):
+        obs = settings.compute(spectrum.k, spectrum.P_zeta)
+        return obs.replace(notes=obs.notes + (NO_PEAK_NOTE,))
     dn = peak_map(bg, spectrum.k_peak, spectrum.P_peak, spectrum.N_star, spectrum.k_star)
     obs = settings.compute(spectrum.k, spectrum.P_zeta, dn.zeta_map)
     return obs.replace(notes=obs.notes + dn.notes)

@@ -93,10 +93,15 @@ def map_targets(result) -> dict[str, float]:
     """The emulated delta-N map of a solved model (``ng_log_lambda``, ``ng_ln_cap``,
     :class:`TrainingRecord`): the capped logarithmic fit of its delta-N map at the peak
     (:func:`scan.observables.pbh.deltan.peak_map`), NaN below
-    :data:`~scan.observables.pbh.map_fit.NG_LEVEL` in log10 P_peak (not computed there)."""
+    :data:`~scan.observables.pbh.map_fit.NG_LEVEL` in log10 P_peak (not computed there)
+    and where delta-N or the fit fails (a root not bracketed): the emulator's ``ng``
+    block then learns the map from the other points."""
     s = result.spectrum
-    if not math.log10(s.P_peak) >= NG_LEVEL:
+    if not (s.P_peak > 0 and math.log10(s.P_peak) >= NG_LEVEL):
         return {}
-    dn = peak_map(result.background, s.k_peak, s.P_peak, s.N_star, s.k_star)
-    fit = fit_capped(dn.zeta_map, math.sqrt(s.P_peak))
+    try:
+        dn = peak_map(result.background, s.k_peak, s.P_peak, s.N_star, s.k_star)
+        fit = fit_capped(dn.zeta_map, math.sqrt(s.P_peak))
+    except ValueError:
+        return {}
     return {"ng_log_lambda": fit.log_lambda, "ng_ln_cap": math.log(fit.slope_max - 1)}
