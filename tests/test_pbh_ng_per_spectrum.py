@@ -8,8 +8,8 @@ form is checked against quad in tests/test_pbh_ng_capped.py.
 from __future__ import annotations
 
 import sys
-from types import SimpleNamespace
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 import pytest

@@ -24,10 +24,10 @@ from scan.cli.summary import format_summary
 from scan.errors import ConfigError
 from scan.observables.pbh.map_fit import NG_LEVEL, fit_capped
 from scan.observables.pbh.zeta_map import ZetaMap
-from scan.observables.window import spectra_on_table
-from scan.pool import choose_pool
 from scan.observables.settings import settings_of
+from scan.observables.window import spectra_on_table
 from scan.pipeline.solve import solve_config
+from scan.pool import choose_pool
 from scan.posterior.exact import exact_outcome
 from scan.posterior.reasons import Reason
 from scan.sampler import plan_run, run_chain, runfile

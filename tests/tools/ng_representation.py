@@ -27,7 +27,12 @@ from scan.observables.pbh.nongaussian import plan_nongaussian
 from scan.observables.pbh.plan import plan_pbh
 from scan.observables.pbh.zeta_map import ZetaMap
 from scan.observables.settings import settings_of
-from scan.observables.single import N_FORMATION, mass_grid, max_table_rows, resample_table
+from scan.observables.single import (
+    N_FORMATION,
+    mass_grid,
+    max_table_rows,
+    resample_table,
+)
 from scan.pipeline.solve import solve_config
 
 _FLOOR = 1e-300

@@ -133,7 +133,7 @@ class ZetaMap:
             attrs.update(f_nl_peak=self.f_nl_equivalent())
         return attrs
 
-    def of_spectra(self, i: np.ndarray) -> "ZetaMap":
+    def of_spectra(self, i: np.ndarray) -> ZetaMap:
         """The map of spectra ``i`` of a stack: a logarithmic map whose ``log_lambda`` or
         ``slope_max`` are arrays (one per spectrum) takes them at ``i``; others as is."""
         if self.kind != "logarithmic" or not (np.ndim(self.log_lambda)
