@@ -13,6 +13,7 @@ import pickle
 import warnings
 from pathlib import Path
 
+import h5py
 import numpy as np
 import pytest
 from test_surrogate_standin import SPACE, StandinSolve, standin_truth
@@ -33,7 +34,7 @@ from scan.sampler.evaluate import Evaluator
 from scan.sampler.runfile import load_chain
 from scan.surrogate.identity import identity
 from scan.surrogate.record import shape_grid
-from scan.surrogate.surrogate_file import write_surrogate
+from scan.surrogate.surrogate_file import read_report, read_surrogate, write_surrogate
 from scan.surrogate.train import TrainingPlan, run_training, serial_map
 from scan.surrogate.validate import validate
 
@@ -402,3 +403,28 @@ def test_resume_refuses_a_changed_curve_file_naming_it(trained, tmp_path):
         assert again.curves == plan.curves
         outcome = run_chain(again, pool)
     assert outcome.resumed and outcome.steps == 35  # the same contents again: it resumes
+
+
+def test_resume_refuses_a_refitted_surrogate_but_not_a_rewritten_one(trained, tmp_path):
+    # a chain continued on a refitted surrogate (train --refine-from) would join two
+    # posteriors in one chain; the same emulator written again must still resume
+    tmp, cfg, _ = trained
+    surrogate = tmp_path / "surrogate.h5"
+    surrogate.write_bytes((tmp / "standin" / "surrogate.h5").read_bytes())
+    text_of = (lambda steps: BASE.format(
+        out=tmp_path, nuisance="A_smbhb", curves=", ".join(f'"{p}"' for p in CURVES),
+        surrogate=surrogate).replace("max_steps = 30", f"max_steps = {steps}"))
+    em, space = read_surrogate(surrogate)
+    with choose_pool(None, False, vectorized=True) as pool:
+        assert run_chain(plan_run(load_config_text(text_of(30), "s.toml")), pool).steps == 30
+        write_surrogate(surrogate, cfg, space, em, read_report(surrogate),
+                        identity(cfg, SPACE))                      # rewritten, same emulator
+        outcome = run_chain(plan_run(load_config_text(text_of(35), "s.toml")), pool)
+        assert outcome.resumed and outcome.steps == 35
+        with h5py.File(surrogate, "a") as handle:                  # refitted: one weight
+            handle["surrogate/peak/weights"][0] *= 1.0 + 1e-9
+        longer = plan_run(load_config_text(text_of(40), "s.toml"))
+        with pytest.raises(InputFileError, match="refitted since this chain started") as err:
+            run_chain(longer, pool)
+    assert "--restart" in str(err.value)
+    assert load_chain(longer.path)["iteration"] == 35              # the chain is untouched

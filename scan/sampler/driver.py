@@ -28,7 +28,7 @@ from scan import store
 from scan.config.diff import config_diff, format_diff, resumable, stored_config
 from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
-from scan.errors import ConfigError, ZetascanError
+from scan.errors import ConfigError, InputFileError, ZetascanError
 from scan.pool import BasePool
 from scan.posterior.build import build_target
 from scan.posterior.targets import TargetBase
@@ -36,6 +36,7 @@ from scan.sampler import runfile
 from scan.sampler.convergence import Policy, assess, burn_in, estimate_tau, thinning
 from scan.sampler.evaluate import Evaluator
 from scan.sampler.moves import move_mixture
+from scan.surrogate import emulator_digest
 
 #: Rounds of redrawing initial walkers whose log-probability is -inf.
 START_ATTEMPTS = 100
@@ -57,6 +58,9 @@ class RunPlan:
     target: TargetBase
     path: Path
     curves: dict[str, str] = dataclasses.field(default_factory=dict)
+    #: :func:`scan.surrogate.emulator_digest` of the surrogate the target reads (None: the
+    #: target reads none).
+    surrogate: str | None = None
 
 
 @dataclasses.dataclass(frozen=True)
@@ -105,7 +109,9 @@ def plan_run(config: RunConfig, path: str | Path | None = None) -> RunPlan:
                           f"{config.sampler.walkers} walkers for {priors.dim} parameters",
                           f"use at least 2 x {priors.dim} = {2 * priors.dim} walkers")
     path = Path(path) if path else store.RunFolder.of(config).chain
-    return RunPlan(config, priors, target, path, store.curve_digests(target.curve_paths))
+    surrogate_path = getattr(target, "surrogate_path", None)
+    return RunPlan(config, priors, target, path, store.curve_digests(target.curve_paths),
+                   emulator_digest(surrogate_path) if surrogate_path else None)
 
 
 def _check_resumable(plan: RunPlan, stored: runfile.Stored) -> bool:
@@ -168,9 +174,22 @@ def _open(plan: RunPlan, restart: bool) -> runfile.Stored | None:
         raise ConfigMismatchError(f"{plan.path}: stored parameters {stored.extras.names} "
                                   f"differ from {plan.priors.names}; pass --restart")
     store.check_curves(plan.path, stored.curves, plan.curves)
+    _check_surrogate(plan, stored)
     if _check_resumable(plan, stored):
         runfile.update_config(plan.path, plan.config, stored.config_sha256)
     return stored if stored.iteration > 0 else None
+
+
+def _check_surrogate(plan: RunPlan, stored: runfile.Stored) -> None:
+    """Refuse to continue a chain on a surrogate other than the one it started on (e.g.
+    refitted by ``zetascan train --refine-from``): the two parts would sample different
+    posteriors.  Chains from before the digest was recorded are not checked."""
+    if stored.surrogate is None or stored.surrogate == plan.surrogate:
+        return
+    path = getattr(plan.target, "surrogate_path", "the surrogate")
+    raise InputFileError(str(plan.path), f"the surrogate {path} was refitted since this "
+                         "chain started (its emulator digest changed), and one chain must "
+                         "sample one posterior; pass --restart to start a new chain on it")
 
 
 def run_chain(plan: RunPlan, pool: BasePool, *, restart: bool = False,
@@ -216,7 +235,8 @@ def _run_locked(plan: RunPlan, pool: BasePool, restart: bool,
     evaluator = Evaluator(plan.target, pool, extras.counts)
     if stored is None:
         initial = _initial_walkers(plan, evaluator)
-        runfile.create(plan.path, plan.config, extras, initial.coords, plan.curves)
+        runfile.create(plan.path, plan.config, extras, initial.coords, plan.curves,
+                       plan.surrogate)
     extras.counts = evaluator.counts  # the same array: flushed as it grows
 
     backend = runfile.ChainBackend(plan.path, section.write_every, on_flush=extras.write)

@@ -39,6 +39,8 @@ from scan.sampler.moves import describe as describe_moves
 
 GROUP = "mcmc"
 EXTRA = "sampler"
+#: Root attribute: the emulator digest of the surrogate the chain samples on.
+SURROGATE_ATTR = "surrogate_sha256"
 
 
 class ChainBackend(HDFBackend):
@@ -203,13 +205,17 @@ def pbh_convention(path: str | Path) -> dict[str, Any]:
 
 
 def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
-           curves: Mapping[str, str] | None = None) -> None:
+           curves: Mapping[str, str] | None = None, surrogate: str | None = None) -> None:
     """Write a new run file (atomically): provenance, config, the digests of the curve
-    files read (:mod:`scan.store.identity`), the ``sampler`` group."""
+    files read (:mod:`scan.store.identity`) and of the surrogate's emulator
+    (``surrogate_sha256``, :func:`scan.surrogate.emulator_digest`), the ``sampler``
+    group."""
     with store.atomic_h5(path) as handle:
         store.write_attrs(handle, store.provenance(config.effective_text, config.run.seed))
         store.write_attrs(handle, store.curve_attrs(curves or {}))
         handle.attrs["run_name"] = config.run.name
+        if surrogate is not None:
+            handle.attrs[SURROGATE_ATTR] = surrogate
         store.write_attrs(handle, pbh_convention_attrs(config.observables))
         store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         extras.write(handle)
@@ -232,6 +238,7 @@ class Stored:
     extras: Extras
     curves: dict[str, str] | None = None
     base_dir: str = ""
+    surrogate: str | None = None
 
 
 def read(path: str | Path) -> Stored:
@@ -255,10 +262,15 @@ def read(path: str | Path) -> Stored:
             iteration = int(handle[GROUP].attrs["iteration"]) if GROUP in handle else 0
             return Stored(config.text, str(handle.attrs["config_sha256"]), config.overrides,
                           config.run_name, iteration, Extras.read(handle),
-                          store.stored_digests(handle.attrs), config.base_dir)
+                          store.stored_digests(handle.attrs), config.base_dir,
+                          _optional_str(handle.attrs.get(SURROGATE_ATTR)))
     except (OSError, KeyError) as err:
         raise InputFileError(str(path), f"cannot read the chain file ({err}); it may have "
                              "been damaged during a write: use --restart") from None
+
+
+def _optional_str(value) -> str | None:
+    return None if value is None else str(value)
 
 
 def update_config(path: Path, config: RunConfig, previous_sha256: str) -> None:

@@ -20,10 +20,10 @@ from scan.surrogate.emulator import Emulator, Prediction, predict_unit
 from scan.surrogate.identity import identity
 from scan.surrogate.record import TrainingRecord
 from scan.surrogate.space import ParameterSpace, from_config
-from scan.surrogate.surrogate_file import read_surrogate
+from scan.surrogate.surrogate_file import emulator_digest, read_surrogate
 
 __all__ = ["Surrogate", "load_surrogate", "Prediction", "TrainingRecord", "ParameterSpace",
-]
+           "emulator_digest"]
 
 
 @dataclass(frozen=True)

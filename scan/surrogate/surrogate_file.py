@@ -12,6 +12,7 @@ report (JSON attribute and the printable text).  Written atomically (:func:`scan
 """
 from __future__ import annotations
 
+import hashlib
 import json
 from pathlib import Path
 
@@ -126,6 +127,33 @@ def _open(path: str | Path) -> h5py.File:
         return h5py.File(path, "r")
     except OSError as err:
         raise InputFileError(str(path), f"cannot open as HDF5 ({err})") from None
+
+
+def emulator_digest(path: str | Path) -> str:
+    """SHA-256 [hex] of what a surrogate file predicts: the ``surrogate`` group's arrays and
+    attributes, in name order.
+
+    Unlike the file's bytes it does not change when the same emulator is written again
+    (provenance, creation time and the validation report are left out), so a chain can
+    tell "refitted" from "rewritten".
+    """
+    digest = hashlib.sha256()
+
+    def feed(name: str, obj) -> None:
+        digest.update(name.encode())
+        for key in sorted(obj.attrs):
+            digest.update(key.encode() + repr(np.asarray(obj.attrs[key]).tolist()).encode())
+        if isinstance(obj, h5py.Dataset):
+            digest.update(np.ascontiguousarray(obj[()]).tobytes())
+
+    with _open(path) as handle:
+        grp = handle["surrogate"]
+        names: list[str] = []
+        grp.visit(names.append)
+        feed("", grp)
+        for name in sorted(names):
+            feed(name, grp[name])
+    return digest.hexdigest()
 
 
 def read_report(path: str | Path) -> dict:
