@@ -14,6 +14,7 @@ import dataclasses
 import math
 from pathlib import Path
 
+import h5py
 import numpy as np
 import pytest
 from test_sampler_posterior import make_config, trained  # noqa: F401
@@ -21,7 +22,9 @@ from test_surrogate_standin import SPACE, StandinSolve
 
 from scan.api.calls import as_config
 from scan.cli.summary import format_summary
+from scan.config import load_config_text
 from scan.errors import ConfigError
+from scan.grid import install_worker, plan_grid_run, read_grid, run_grid
 from scan.observables.pbh.map_fit import NG_LEVEL, fit_capped
 from scan.observables.pbh.zeta_map import ZetaMap
 from scan.observables.settings import settings_of
@@ -32,6 +35,7 @@ from scan.posterior.exact import exact_outcome
 from scan.posterior.reasons import Reason
 from scan.sampler import plan_run, run_chain, runfile
 from scan.sampler.summary import summarize
+from scan.surrogate.adapter import solve_point
 from scan.surrogate.identity import identity
 from scan.surrogate.record import shape_grid
 from scan.surrogate.surrogate_file import write_surrogate
@@ -39,6 +43,15 @@ from scan.surrogate.train import TrainingPlan, run_training, serial_map
 from scan.surrogate.validate import validate
 
 MODEL = '[observables]\nnon_gaussianity = "model"\n'
+GRID = """
+[grid]
+x = "model.poles[0].width"
+y = "model.poles[0].position"
+x_points = 3
+y_points = 2
+x_range = [0.012, 0.03]
+y_range = [1.5, 1.6]
+"""
 THETAS = np.array([[0.012, 1.55, 1.0, 1e-15], [0.015, 1.62, 1.4, 3e-15]])
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -137,3 +150,42 @@ def test_verify_exact_side_uses_the_models_own_delta_n_map():
     capped = fit_capped(obs.zeta_map, math.sqrt(spectrum.P_peak)).zeta_map()
     from_fit = settings_of(cfg.observables).compute(spectrum.k, spectrum.P_zeta, capped)
     assert abs(math.log10(from_fit.f_pbh_total / obs.f_pbh_total)) <= 1.0
+
+
+def test_grid_runs_with_each_points_map(model_trained):
+    """A 3 x 2 grid with ``model``: complete, the file records the representation, and each
+    stored f_PBH total is the target's (the same emulated map) for that point."""
+    tmp, _ = model_trained
+    config = load_config_text(make_config(tmp, extra=MODEL + GRID).text, "grid_model.toml",
+                              overrides=("parameters[2].start=0.5",))
+    run = plan_grid_run(config)
+    with choose_pool(None, False, initializer=install_worker, initargs=(run.worker,)) as pool:
+        outcome = run_grid(run, pool)
+    assert outcome.status == "complete" and outcome.done == outcome.total == 6
+    with h5py.File(outcome.path, "r") as handle:
+        assert handle.attrs["non_gaussianity"] == "model"
+        assert handle.attrs["model_map"] == "capped_logarithmic"
+    data = read_grid(outcome.path)
+    target = plan_run(make_config(tmp, extra=MODEL), tmp / "chain_g.h5").target
+    for j, row in enumerate(data["params"]):           # one surrogate call per row, as the grid
+        thetas = np.column_stack([row, np.full(len(row), 1e-15)])
+        _, blobs = target.log_and_blobs(thetas)
+        ok = np.isfinite(data["f_pbh_total"][j])
+        assert ok.any()
+        np.testing.assert_allclose(data["f_pbh_total"][j][ok], blobs["f_pbh_total"][ok],
+                                   rtol=1e-12)
+
+
+def test_training_record_carries_the_capped_fit_of_the_delta_n_map():
+    """``zetascan train`` with ``model`` (the product's solve_point) stores the capped fit
+    of the point's delta-N map; the same point trained Gaussian has none (NaN)."""
+    theta = [4.647, 2.59e-3, 0.8937]                     # log10 P_peak = -1.6
+    sets = {"modes.n_k": 96}
+    model = solve_point(as_config(ROOT / "configs" / "wide_scan_low.toml",
+                                  {**sets, "observables.non_gaussianity": "model"}), theta)
+    gauss = solve_point(as_config(ROOT / "configs" / "wide_scan_low.toml", sets), theta)
+    assert model.valid and model.log10_P_peak >= NG_LEVEL
+    # lambda ~ 1 and slope_max ~ 4.3 for this model (measured, docs/ng_model_representation.md)
+    assert 0.5 < model.ng_log_lambda < 2.0 and 1.0 < math.exp(model.ng_ln_cap) + 1 < 10.0
+    assert math.isnan(gauss.ng_log_lambda) and math.isnan(gauss.ng_ln_cap)
+    np.testing.assert_array_equal(model.scalar_targets()[:6], gauss.scalar_targets()[:6])
