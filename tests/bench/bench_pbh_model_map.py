@@ -25,15 +25,15 @@ import os
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
-import time  # noqa: E402
+import time
 
-import numpy as np  # noqa: E402
-from bench_pbh_nongaussian import M_SPECTRA, spectra  # noqa: E402
+import numpy as np
+from bench_pbh_nongaussian import M_SPECTRA, spectra
 
-from scan.observables.pbh import PBHConventions, plan_pbh  # noqa: E402
-from scan.observables.pbh.ng_stack import plan_stacked  # noqa: E402
-from scan.observables.pbh.nongaussian import plan_nongaussian  # noqa: E402
-from scan.observables.pbh.zeta_map import ZetaMap  # noqa: E402
+from scan.observables.pbh import PBHConventions, plan_pbh
+from scan.observables.pbh.ng_stack import plan_stacked
+from scan.observables.pbh.nongaussian import plan_nongaussian
+from scan.observables.pbh.zeta_map import ZetaMap
 
 BLOCKS = 3
 
