@@ -10,11 +10,14 @@ one (the array closed form of scan/observables/pbh/ng_capped.py).  Timed side by
 alternating blocks (thread CPU time).
 
 Measured (2-core machine shared with other jobs, nice 15; ratios min-based, the Gaussian
-stack ~2 ms; ngmodel branch, 1 run of 3 blocks): plain logarithmic lambda = 3 (one map)
-4.2x, lambda per spectrum 11.0x, capped per spectrum 9.9x the Gaussian stack (21 ms for
-the 64 spectra).  The per-pair array closed form (scipy's erfc, erfcx and log_ndtr over
-(pairs x nodes) arrays) costs ~2.5x the compiled one-map form; issue 15's <= 3x is not
-met (a compiled per-pair capped form, as ng_closed.log_map_density, is the next step).
+stack 2-4 ms; ngmodel branch):
+
+* array closed form per pair (scipy's erfc, erfcx, log_ndtr over (pairs x nodes)), 1 run:
+  one-map logarithmic lambda = 3 4.2x, lambda per spectrum 11.0x, capped 9.9x;
+* compiled per pair (ng_capped.capped_pairs, asymptotic series in the far tails), 2 runs:
+  one-map logarithmic 3.6-4.1x, lambda per spectrum 4.1-4.7x, capped per spectrum
+  4.8-5.5x (12-16 ms for the 64 spectra).  Issue 15's <= 3x is not met (nor by the
+  one-map logarithmic stack on this machine today).
 
 Run:  python tests/bench/bench_pbh_model_map.py
 """

@@ -18,6 +18,8 @@ g(c) = int dzeta_G u p(c u, zeta_G) splits at zeta_c = (1 - u_min)/lambda (our d
 
 Every argument broadcasts (the stacked path passes lambda and u_min per pair).
 tests/test_pbh_ng_capped.py checks it against direct quadrature of the integral.
+:func:`capped_pairs` is the same formula compiled per pair (numba; why numba: see
+:mod:`scan.observables.pbh.ng_ridge`), with asymptotic series in the far tails.
 
 Units: all quantities [1].
 """
@@ -26,8 +28,17 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from numba import njit
 from scipy import special
 
+from scan.observables.pbh.ng_ridge import FASTMATH
+
+#: The compiled form takes erfcx(x0) = e^{x0^2} erfc(x0) from libm's erfc below this
+#: (erfc(25) = 8e-274, e^{625} = 3e271: both finite); above, its asymptotic series.
+X0_COMPILED: float = 25.0
+#: ... and ln Phi(z) = ln(erfc(-z/sqrt 2)/2) above this z (erfc(26.2) ~ 1e-300: still a
+#: normal double); below, its asymptotic series (:func:`_ln_ndtr`).
+Z_COMPILED: float = -37.0
 #: Above this x0 the difference 1 - sqrt(pi) x0 erfcx(x0) is taken from its asymptotic
 #: series (as :data:`scan.observables.pbh.ng_density._Z_SERIES`).
 _Z_SERIES: float = 100.0
@@ -86,3 +97,78 @@ def ln_capped_density(c, s_c2, s_cr, s_r2, lam, u_min):
         tail = special.log_ndtr(np.sign(lam) * (rho * C - edge) / s)
         ln_g2 = np.log(u_min) - 0.5 * np.log(2 * math.pi * s_c2) - 0.5 * C * C / s_c2 + tail
     return np.logaddexp(ln_g1, ln_g2)
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _tail_moment(x0, xm):
+    """(1 - sqrt(pi) x0 erfcx(x0)) + sqrt(pi) xm erfcx(x0) [1] for x0 >= ``X0_COMPILED``
+    from the asymptotic series of erfcx (Abramowitz & Stegun 1964, eq. 7.1.23, from
+    memory): sqrt(pi) x erfcx(x) = 1 - 1/(2x^2) + 3/(4x^4) - 15/(8x^6) + 105/(16x^8),
+    first omitted term 945/(32 x^10) < 4e-13 relative at x = 25."""
+    r = 1.0 / (x0 * x0)
+    series = 1.0 + r * (-0.5 + r * (0.75 + r * (-1.875 + r * 6.5625)))
+    return r * (0.5 + r * (-0.75 + r * (1.875 - r * 6.5625))) + xm / x0 * series
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _ln_ndtr(z):
+    """ln Phi(z) [1]: ln(erfc(-z/sqrt 2)/2) above ``Z_COMPILED``, below it the asymptotic
+    series -z^2/2 - ln(-z sqrt(2 pi)) + ln(1 - 1/z^2 + 3/z^4 - 15/z^6 + 105/z^8)
+    (Abramowitz & Stegun 1964, eq. 26.2.12, from memory; first omitted term 945/z^10 <
+    2e-13 relative there; checked against scipy's log_ndtr in tests/test_pbh_ng_capped.py)."""
+    if z >= Z_COMPILED:
+        return math.log(0.5 * math.erfc(-z / math.sqrt(2.0)))
+    r = 1.0 / (z * z)
+    return -0.5 * z * z - math.log(-z * math.sqrt(2.0 * math.pi)) \
+        + math.log(1.0 + r * (-1.0 + r * (3.0 + r * (-15.0 + 105.0 * r))))
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def capped_pairs(c, s_c2, s_cr, s_r2, lam, u_min, shift):
+    """ln g [1] of the capped logarithmic map at the nodes ``c`` (1 or n, n_y) for pairs
+    (n,) with their own ``lam`` and ``u_min`` (n,), plus ``shift``: :func:`ln_capped_density`
+    compiled per pair (the far tails x0 >= ``X0_COMPILED`` and z < ``Z_COMPILED`` from
+    asymptotic series)."""
+    n, m = s_c2.size, c.shape[1]
+    per_pair = c.shape[0] > 1
+    out = np.empty((n, m))
+    rt_pi = math.sqrt(math.pi)
+    for i in range(n):
+        a = s_cr[i] / s_r2[i]
+        t2 = max(s_c2[i] - a * s_cr[i], 1e-300)
+        lm, um = lam[i], u_min[i]
+        base = -math.log(2.0 * math.pi) - 0.5 * math.log(s_r2[i] * t2) - math.log(abs(lm))
+        kappa = 1.0 / (lm * lm * s_r2[i])
+        b = a / lm
+        rho = s_cr[i] / s_c2[i]
+        s = math.sqrt(max(s_r2[i] - rho * s_cr[i], 1e-300))
+        edge = (1.0 - um) / lm
+        sign = 1.0 if lm > 0 else -1.0
+        cap_base = (math.log(um) if um > 0 else -math.inf) \
+            - 0.5 * math.log(2.0 * math.pi * s_c2[i])
+        row = i if per_pair else 0
+        for j in range(m):
+            cj = c[row, j]
+            alpha = cj + b
+            A = kappa + alpha * alpha / t2
+            mu = (kappa + alpha * b / t2) / A
+            root = math.sqrt(0.5 * A)
+            x0 = (um - mu) * root
+            xm = um * root
+            if x0 <= 0.0:
+                moment = math.log(math.exp(-x0 * x0) + rt_pi * (xm - x0) * math.erfc(x0))
+            elif x0 < X0_COMPILED:
+                ex = math.erfc(x0) * math.exp(x0 * x0)
+                moment = -x0 * x0 + math.log((1.0 - rt_pi * x0 * ex) + rt_pi * xm * ex)
+            else:
+                moment = -x0 * x0 + math.log(_tail_moment(x0, xm))
+            g1 = base - 0.5 * kappa * cj * cj / (t2 * A) + moment - math.log(A)
+            if um > 0.0:
+                C = cj * um
+                z = sign * (rho * C - edge) / s
+                g2 = cap_base - 0.5 * C * C / s_c2[i] + _ln_ndtr(z)
+                top = max(g1, g2)
+                out[i, j] = top + math.log(math.exp(g1 - top) + math.exp(g2 - top)) + shift
+            else:
+                out[i, j] = g1 + shift
+    return out

@@ -40,7 +40,7 @@ import math
 import numpy as np
 from scipy import special
 
-from scan.observables.pbh.ng_capped import ln_capped_density
+from scan.observables.pbh.ng_capped import capped_pairs, ln_capped_density
 from scan.observables.pbh.ng_closed import (
     half_moment_table,
     log_map_density,
@@ -112,11 +112,7 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     if np.size(s_c2) == 0:
         return np.empty((0, c.shape[1]))
     if zmap.kind == "logarithmic" and _is_capped(zmap):
-        lam, u_min = (np.asarray(v, dtype=float) for v in (zmap.log_lambda,
-                                                            1 / np.asarray(zmap.slope_max)))
-        return ln_capped_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None],
-                                 lam[:, None] if lam.ndim else lam,
-                                 u_min[:, None] if u_min.ndim else u_min) + math.log(ps_factor)
+        return _capped_pairs(c, s_c2, s_cr, s_r2, zmap, ps_factor)
     if zmap.kind != "logarithmic":
         return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
     arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
@@ -127,6 +123,16 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
         out[i, j] = _ln_log_map(c[i if c.shape[0] > 1 else 0, j], s_c2[i], s_cr[i], s_r2[i],
                                 zmap.log_lambda) + math.log(ps_factor)
     return out
+
+
+def _capped_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float):
+    """:func:`ln_density_pairs` of a capped (or per-pair) logarithmic map: the compiled
+    form (:func:`scan.observables.pbh.ng_capped.capped_pairs`)."""
+    n = np.size(s_c2)
+    lam, u_min = (np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=float)
+                  for v in (zmap.log_lambda, 1 / np.asarray(zmap.slope_max, dtype=float)))
+    arrays = [np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2)]
+    return capped_pairs(*arrays, lam, u_min, math.log(ps_factor))
 
 
 def _is_capped(zmap: ZetaMap) -> bool:
