@@ -21,6 +21,7 @@ from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
 from scan.observables import Observables
 from scan.observables.pbh.deltan import peak_map
+from scan.observables.pbh.map_fit import NG_LEVEL, fit_capped
 from scan.observables.settings import settings_of
 from scan.pipeline.peaks import Peak, describe, peak_table
 from scan.pipeline.validity import feature_at_pivot, poles_on_cmb_scales
@@ -218,7 +219,22 @@ def observables_of(config: RunConfig, spectrum: Spectrum,
         return obs.replace(notes=obs.notes + (NO_PEAK_NOTE,))
     dn = peak_map(bg, spectrum.k_peak, spectrum.P_peak, spectrum.N_star, spectrum.k_star)
     obs = settings.compute(spectrum.k, spectrum.P_zeta, dn.zeta_map)
-    return obs.replace(notes=obs.notes + dn.notes)
+    return obs.replace(notes=obs.notes + dn.notes + (representation_note(dn.zeta_map,
+                                                                          spectrum.P_peak),))
+
+
+def representation_note(zmap, P_peak: float) -> str:
+    """How sample, grid and verify's surrogate side represent this delta-N map: its capped
+    logarithmic fit (:func:`scan.observables.pbh.map_fit.fit_capped`), or Gaussian zeta
+    below :data:`~scan.observables.pbh.map_fit.NG_LEVEL`."""
+    if not math.log10(P_peak) >= NG_LEVEL:
+        return (f"sample/grid keep zeta Gaussian for this model (log10 P_peak "
+                f"{math.log10(P_peak):.2f} < {NG_LEVEL:g}; docs/ng_model_representation.md)")
+    fit = fit_capped(zmap, math.sqrt(P_peak))
+    return (f"sample/grid represent this delta-N map as the capped logarithmic map "
+            f"lambda = {fit.log_lambda:.4g}, slope_max = {fit.slope_max:.4g} (rms "
+            f"{fit.rms:.2g} sqrt(P_peak) from the table; 0.0-0.7 dex in f_PBH measured, "
+            "docs/ng_model_representation.md)")
 
 
 def solve_background_of(config: RunConfig, model: Model | None = None) -> Background:
