@@ -8,8 +8,9 @@ local (f_NL, g_NL) (:mod:`scan.observables.pbh.map_fit`), and compare f_PBH of e
 and the summary (dex); also the wall time of the delta-N map against the solve.
 
 Run:  python tests/tools/ng_representation.py CONFIG STORE [N] [LEVEL] [TOP]
-      (STORE: a training.h5 made from CONFIG; N models, default 24, with
-      LEVEL <= log10 P_peak < TOP, default -2.5 and no top)
+      (STORE: a training.h5 made from CONFIG, or "prior" for uniform draws in its box
+      (uniform priors only); N models, default 24, with LEVEL <= log10 P_peak < TOP,
+      default -2.5 and no top)
 """
 from __future__ import annotations
 
@@ -53,21 +54,35 @@ def totals(cfg, spectrum, maps):
     return [float(ng.evaluate(P, m).f_pbh_total) for m in maps]
 
 
-def main(config: str, store: str, n: int, level: float, top: float = math.inf) -> None:
-    base = as_config(config)
-    keys = [p.key for p in base.parameters]
+def candidates(base, store: str, level: float, top: float) -> np.ndarray:
+    """Parameter vectors to try: a store's points with LEVEL <= log10 P_peak < TOP in
+    random order, or (STORE = "prior") 400 uniform draws in the config's box (those outside
+    the level are solved and skipped)."""
+    rng = np.random.default_rng(0)
+    if store == "prior":
+        low = np.array([p.low for p in base.parameters], float)
+        high = np.array([p.high for p in base.parameters], float)
+        return low + (high - low) * rng.random((400, low.size))
     with h5py.File(store, "r") as h:
         params = h["points/params"][...]
         logp = h["points/scalars"][:, 1]
     pick = np.flatnonzero(np.isfinite(logp) & (logp >= level) & (logp < top))
-    pick = pick[np.random.default_rng(0).permutation(pick.size)[:n]]
+    return params[pick[rng.permutation(pick.size)]]
+
+
+def main(config: str, store: str, n: int, level: float, top: float = math.inf) -> None:
+    base = as_config(config)
+    keys = [p.key for p in base.parameters]
+    params = candidates(base, store, level, top)
     rows = []
-    for j in pick:
-        cfg = as_config(base, {k: float(v) for k, v in zip(keys, params[j])})
+    for theta in params:
+        if len(rows) == n:
+            break
+        cfg = as_config(base, {k: float(v) for k, v in zip(keys, theta)})
         t0 = time.perf_counter()
         res = solve_config(cfg, with_observables=False)
         t1 = time.perf_counter()
-        if not res.valid:
+        if not res.valid or not (level <= math.log10(res.spectrum.P_peak) < top):
             continue
         s = res.spectrum
         dn = peak_map(res.background, s.k_peak, s.P_peak, s.N_star, s.k_star)
