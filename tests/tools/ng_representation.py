@@ -91,9 +91,9 @@ def main(config: str, store: str, n: int, level: float, top: float = math.inf) -
         lam = fit_logarithmic(dn.zeta_map, sigma)
         f_nl, g_nl = fit_local(dn.zeta_map, sigma)
         cap = fit_capped(dn.zeta_map, sigma)
-        top = fit_capped(dn.zeta_map, sigma, cap="max")
+        largest = fit_capped(dn.zeta_map, sigma, cap="max")
         maps = [ZetaMap(), dn.zeta_map, ZetaMap("logarithmic", log_lambda=lam.log_lambda),
-                ZetaMap("local", f_nl=f_nl, g_nl=g_nl), cap.zeta_map(), top.zeta_map()]
+                ZetaMap("local", f_nl=f_nl, g_nl=g_nl), cap.zeta_map(), largest.zeta_map()]
         f_g, f_m, f_log, f_loc, f_cap, f_top = (max(v, _FLOOR) for v in totals(cfg, s, maps))
         d_log, d_loc = math.log10(f_log / f_m), math.log10(f_loc / f_m)
         d_cap, d_top = math.log10(f_cap / f_m), math.log10(f_top / f_m)
@@ -103,7 +103,7 @@ def main(config: str, store: str, n: int, level: float, top: float = math.inf) -
               f"lambda {lam.log_lambda:6.3f} (rms {lam.rms:.1e})  f_NL {f_nl:6.3f} "
               f"g_NL {g_nl:7.3f}  capped ({cap.log_lambda:.3f}, {cap.slope_max:.3f}; rms "
               f"{cap.rms:.1e})  dex log {d_log:+.3f} local {d_loc:+.3f} "
-              f"capped {d_cap:+.3f} capped-max ({top.log_lambda:.3f}, {top.slope_max:.3f}) "
+              f"capped {d_cap:+.3f} capped-max ({largest.log_lambda:.3f}, {largest.slope_max:.3f}) "
               f"{d_top:+.3f}  "
               f"solve {t1 - t0:.1f} s  deltaN {t2 - t1:.1f} s", flush=True)
     r = np.array(rows)
