@@ -87,6 +87,9 @@ REFERENCES: dict[str, tuple[str, int, str, str, bool]] = {
     "1804.07732": ("J. R. Espinosa, D. Racco, A. Riotto", 2018, "A cosmological signature of "
                    "the SM Higgs instability: gravitational waves", "JCAP 09 (2018) 012",
                    False),
+    "2010.06193": ("K. T. Abe, Y. Tada, I. Ueda", 2021, "Induced gravitational waves as a "
+                   "cosmological probe of the sound speed during the QCD phase transition",
+                   "arXiv preprint (journal version not checked)", True),
     "1804.08577": ("K. Kohri, T. Terada", 2018, "Semianalytic calculation of gravitational "
                    "wave spectrum nonlinearly induced from primordial curvature "
                    "perturbations", "Phys. Rev. D 97, 123532", False),
