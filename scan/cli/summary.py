@@ -79,7 +79,7 @@ def format_summary(info: dict) -> str:
 #: What ``model`` means on the surrogate's path (summary note).
 MODEL_NOTE: str = ("  each sample's map is the surrogate's emulated fit of its model's delta-N map "
                    "({}: F' = 1/(1 - lambda zeta_G) capped at slope_max), not the map itself: "
-                   "the fit was measured 0.0-0.7 dex from the tabulated map's f_PBH and its "
+                   "the fit was measured 0.0-0.8 dex from the tabulated map's f_PBH and its "
                    "emulation adds to that (docs/ng_model_representation.md; the surrogate's "
                    "report gives the hold-out errors); 'zetascan verify' recomputes samples "
                    "with their own delta-N map")

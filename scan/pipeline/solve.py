@@ -233,7 +233,7 @@ def representation_note(zmap, P_peak: float) -> str:
     fit = fit_capped(zmap, math.sqrt(P_peak))
     return (f"sample/grid represent this delta-N map as the capped logarithmic map "
             f"lambda = {fit.log_lambda:.4g}, slope_max = {fit.slope_max:.4g} (rms "
-            f"{fit.rms:.2g} sqrt(P_peak) from the table; 0.0-0.7 dex in f_PBH measured, "
+            f"{fit.rms:.2g} sqrt(P_peak) from the table; 0.0-0.8 dex in f_PBH measured, "
             "docs/ng_model_representation.md)")
 
 
