@@ -188,6 +188,7 @@ def test_identity_map_reproduces_gaussian_stack(plans):
 
 @pytest.mark.parametrize("zmap, rtol", [
     (zeta_map_of("local", f_nl=1.0), 1e-4),  # GH-16 error in ln g <= 5e-5 (above)
+    (zeta_map_of("local", f_nl=-1.0), 1e-4),  # the stack's table: <= 2e-5 (test_pbh_ng_table)
     (zeta_map_of("logarithmic", log_lambda=3.0), 2e-5),
 ])
 def test_stack_matches_per_spectrum_path(plans, zmap, rtol):

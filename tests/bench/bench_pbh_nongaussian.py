@@ -40,7 +40,26 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   the merge of the third seed; the cut's bound with the correlation (2542 at f_NL = 1,
   1840 at -1): f_NL = -1 22-23x -> 14-15x, f_NL = 1 about even.
 
-What limits it (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
+* ngtable branch (the local map's density from a table in reduced variables,
+  scan/observables/pbh/ng_table.py; the mass function over the live pairs only,
+  ng_pairs.py; 8 bracket halvings in the cut's bound), this file alternated with main
+  (bee91c3 / 9955f2a), 3 or 8 blocks, 4 runs each after the last change: local f_NL = 1
+  15.2-19.7x -> 3.9-4.4x, f_NL = -1 11.7-14.6x -> 3.1-3.6x, logarithmic 3.3-3.9x ->
+  3.4-3.9x (its path changed only in the mass function: even within noise); a busier
+  hour gave up to 4.7x / 3.8x / 4.2x on the branch.  With --qcd (1 run each): local
+  19.8x -> 4.3x, f_NL = -1 13.4x -> 3.4x, logarithmic 4.2x -> 3.7x (Gaussian QCD stack
+  5.5x -> 3.2x, same code: noise).  The table is built once per process (~1 s, inside
+  the first block; the ratios are min-based).  By parts (py-spy, f_NL = 1): the
+  tabulated density ~47 % (~0.23 us per density: the tricubic lookup of G and of the
+  ridge seed ~0.17 us, one Newton step and the Laplace value ~0.06 us; 2.5k pairs x 9
+  nodes), mass function ~12 % (before the compiled products and scatter), the cut's bound
+  ~9 %, variances ~7 %, beta ~4 %.  The lookup is compute-bound (a float32 table, a
+  different layout, and linear interpolation in ln t -- which doubled the error and the
+  Newton steps -- were measured no faster overall), so 3x for f_NL = 1 needs fewer
+  densities (the cut keeps 2.5k pairs where ~2k matter) or a cheaper remainder than
+  4^3 nodes.
+
+What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
 density; ~1 us per density) for 2.5k of 3.6k live pairs x 9 nodes; the pairs the
@@ -94,6 +113,7 @@ def main() -> None:
     stacked = plan_stacked(ng)
     P = spectra(k)
     maps = {"local f_NL=1": zeta_map_of("local", f_nl=1.0),
+            "local f_NL=-1": zeta_map_of("local", f_nl=-1.0),
             "logarithmic lambda=3": zeta_map_of("logarithmic", log_lambda=3.0)}
     funcs = {"gaussian stack": lambda: plan.evaluate(P)}
     for name, zmap in maps.items():
