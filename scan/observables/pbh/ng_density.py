@@ -40,6 +40,7 @@ import math
 import numpy as np
 from scipy import special
 
+from scan.observables.pbh.ng_capped import capped_pairs, ln_capped_density
 from scan.observables.pbh.ng_closed import (
     half_moment_table,
     log_map_density,
@@ -88,6 +89,8 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
     c, s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
     if zmap.kind == "gaussian":
         out = -0.5 * np.log(2 * math.pi * s_c2) - 0.5 * c * c / s_c2
+    elif zmap.kind == "logarithmic" and _is_capped(zmap):
+        out = ln_capped_density(c, s_c2, s_cr, s_r2, zmap.log_lambda, 1 / zmap.slope_max)
     elif zmap.kind == "logarithmic":
         out = _ln_log_map(c, s_c2, s_cr, s_r2, zmap.log_lambda)
     elif zmap.kind == "local":
@@ -109,6 +112,8 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     c = np.atleast_2d(np.asarray(c, dtype=float))
     if np.size(s_c2) == 0:
         return np.empty((0, c.shape[1]))
+    if zmap.kind == "logarithmic" and _is_capped(zmap):
+        return _capped_pairs(c, s_c2, s_cr, s_r2, zmap, ps_factor)
     if zmap.kind != "logarithmic":
         return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
     arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
@@ -119,6 +124,24 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
         out[i, j] = _ln_log_map(c[i if c.shape[0] > 1 else 0, j], s_c2[i], s_cr[i], s_r2[i],
                                 zmap.log_lambda) + math.log(ps_factor)
     return out
+
+
+def _capped_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float):
+    """:func:`ln_density_pairs` of a capped (or per-pair) logarithmic map: the compiled
+    form (:func:`scan.observables.pbh.ng_capped.capped_pairs`)."""
+    n = np.size(s_c2)
+    lam, u_min = (np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=float)
+                  for v in (zmap.log_lambda, 1 / np.asarray(zmap.slope_max, dtype=float)))
+    arrays = [np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2)]
+    return capped_pairs(*arrays, lam, u_min, math.log(ps_factor))
+
+
+def _is_capped(zmap: ZetaMap) -> bool:
+    """A logarithmic map with a slope cap or with parameters per pair (arrays): the
+    closed form of :mod:`scan.observables.pbh.ng_capped` (the compiled plain form takes
+    one number)."""
+    return np.ndim(zmap.log_lambda) > 0 or np.ndim(zmap.slope_max) > 0 \
+        or math.isfinite(zmap.slope_max)
 
 
 def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,

@@ -215,7 +215,7 @@ class StackedNGPlan:
         nodes = self.y_nodes[h] if self.y_nodes.ndim == 2 else self.y_nodes
         density = ln_density_tabulated if zmap.kind == "local" and zmap.g_nl == 0 \
             and zmap.f_nl != 0 else ln_density_pairs
-        lng = density(nodes, *(v[chosen] for v in var), zmap,
+        lng = density(nodes, *(v[chosen] for v in var), zmap.of_spectra(i),
                       self.ng.base.conventions.ps_factor)
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
         i, h, lng = i[keep], h[keep], lng[keep]
@@ -279,7 +279,9 @@ def _live(y_th, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
     :func:`live_epochs`."""
     on = (s_c2 > 1e-250) & (s_r2 > 1e-250)
     if zmap.kind == "logarithmic":
-        q = y_th**2 / (np.sqrt(s_c2) + abs(zmap.log_lambda) * y_th * np.sqrt(s_r2))**2
+        lam = np.abs(np.asarray(zmap.log_lambda, dtype=float))
+        lam = lam[:, None] if lam.ndim else lam              # one per spectrum
+        q = y_th**2 / (np.sqrt(s_c2) + lam * y_th * np.sqrt(s_r2))**2
         return on & (0.5 * q < 1500.0)
     return on & live_epochs(np.broadcast_to(y_th, s_c2.shape).ravel(), s_c2.ravel(),
                             s_r2.ravel(), zmap).reshape(s_c2.shape)
@@ -346,14 +348,17 @@ class MappedStackPlan:
         """Output masses [M_sun]."""
         return self.stacked.ng.base.M
 
-    def evaluate(self, P_zeta, thresholds=None) -> PBHResult:
+    def evaluate(self, P_zeta, thresholds=None, zeta_map: ZetaMap | None = None
+                 ) -> PBHResult:
         """f_PBH of a stack (m, n_k) [1] with the Gaussian total beside it
-        (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported."""
+        (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported.
+        ``zeta_map`` replaces the plan's map (e.g. a logarithmic map with parameters per
+        spectrum, arrays of shape (m,))."""
         if thresholds is not None:
             raise ValueError("the stacked non-Gaussian plan has the same thresholds for all "
                              "spectra")
         gaussian = (self.gaussian or self.stacked.ng.base).evaluate(P_zeta).f_pbh_total
-        return replace(self.stacked.evaluate(P_zeta, self.zmap),
+        return replace(self.stacked.evaluate(P_zeta, zeta_map or self.zmap),
                        f_pbh_total_gaussian=gaussian)
 
 
