@@ -168,11 +168,13 @@ def test_no_live_epoch_gives_exactly_zero():
     ({"non_gaussianity": "model"}, "observables.non_gaussianity"),
 ])
 def test_sampler_paths_refuse_conventions_they_do_not_compute(changes, key):
-    # sample/grid/verify evaluate f_PBH for a stack with the config's fixed map: a
-    # per-sample delta-N map must stop them instead of being silently ignored (the
-    # stacks take the QCD-era conventions, tests/test_sampler_qcd.py)
+    # a spectrum given as arrays (no model) cannot have its delta-N map: 'model' stops
+    # there instead of being silently ignored; sample/grid/verify take it (with a
+    # surrogate that emulates the map, tests/test_sampler_model_map.py) and the QCD-era
+    # conventions (tests/test_sampler_qcd.py)
     with pytest.raises(ConfigError, match=key):
-        require_batch_conventions(ObservablesSection(**changes), "run.toml")
+        require_batch_conventions(ObservablesSection(**changes), "run.toml", exact_only=True)
+    require_batch_conventions(ObservablesSection(**changes), "run.toml")
     require_batch_conventions(ObservablesSection(), "run.toml")
     require_batch_conventions(ObservablesSection(qcd_threshold="harada-scaled",
                                                  qcd_collapse="gamma-of-w"), "run.toml")

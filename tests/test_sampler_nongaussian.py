@@ -1,5 +1,6 @@
 """The posterior target with a non-Gaussian zeta (issue 15 step 4): local and logarithmic
-maps in the vectorised f_PBH, ``model`` and per-walker thresholds refused, the convention
+maps in the vectorised f_PBH, ``model`` with a surrogate that does not emulate the map and
+per-walker thresholds refused (``model`` itself: tests/test_sampler_model_map.py), the convention
 recorded.  The surrogate is the stand-in of tests/test_sampler_posterior.py (trained in
 well under a second); the reference is the per-spectrum non-Gaussian path
 (scan/observables/pbh/nongaussian.py, checked against scipy quad in
@@ -58,7 +59,7 @@ def test_posterior_f_pbh_is_the_per_spectrum_non_gaussian_one(trained, extra):  
 
 
 def test_model_map_and_sampled_threshold_are_refused_naming_the_key(trained):  # noqa: F811
-    with pytest.raises(ConfigError, match=r"observables\.non_gaussianity.*f_nl"):
+    with pytest.raises(ConfigError, match=r"observables\.non_gaussianity.*delta-N map"):
         _target(trained, '[observables]\nnon_gaussianity = "model"\n')
     extra = LOCAL.replace("[observables]", "[[nuisance]]\nname = \"pbh.threshold\"\n"
                           "prior = \"uniform\"\nlow = 0.4\nhigh = 0.6\n[observables]")

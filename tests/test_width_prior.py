@@ -25,7 +25,7 @@ from scan.posterior.exact import exact_ln_wall_width
 from scan.sampler import runfile
 from scan.surrogate.adapter import solve_point
 from scan.surrogate.emulator import TrainingSet, fit_emulator, predict_unit
-from scan.surrogate.record import TrainingRecord
+from scan.surrogate.record import SCALARS, TrainingRecord
 from scan.surrogate.space import from_config
 from scan.surrogate.store import StoreWriter, create_store, read_points
 
@@ -198,7 +198,7 @@ def test_training_record_carries_the_exact_wall_width():
     expected = 0.5 * 4.0 / (s * math.sinh(2.0 * 5.2 / s)) / lam_w
     # same lambda_w, analytic V'/V on both sides: they differ by float rounding only
     assert record.ln_wall_width == pytest.approx(math.log(expected), abs=1e-12)
-    assert record.scalar_targets()[-1] == record.ln_wall_width
+    assert record.scalar_targets()[SCALARS.index("ln_wall_width")] == record.ln_wall_width
     # verify's exact side finds the same wall (cached per model)
     assert exact_ln_wall_width(config, np.array([[5.2, 1.05]]))[0] == record.ln_wall_width
     canonical = load_config_text(BASE.replace("wall_ratio = 1.05", "width = 0.02"), "c.toml")
@@ -221,7 +221,8 @@ def test_a_store_made_before_the_wall_column_reads_it_as_nan_and_keeps_six(tmp_p
     with h5py.File(path, "r") as handle:
         assert handle["points/scalars"].shape == (1, 6)
     points = read_points(path)
-    assert points.scalars.shape == (1, 7) and math.isnan(points.scalars[0, 6])
+    # read as the current columns (ln w_w and the delta-N map's fit): NaN
+    assert points.scalars.shape == (1, 9) and np.all(np.isnan(points.scalars[0, 6:]))
     np.testing.assert_array_equal(points.scalars[0, :6], record.scalar_targets()[:6])
 
 

@@ -76,6 +76,13 @@ def format_summary(info: dict) -> str:
     return "\n".join(lines)
 
 
+#: What ``model`` means on the surrogate's path (summary note).
+MODEL_NOTE: str = ("  each sample's map is the surrogate's emulated fit of its model's delta-N map "
+                   "({}: F' = 1/(1 - lambda zeta_G) capped at slope_max), not the map itself: "
+                   "the fit was measured 0.0-0.8 dex from the tabulated map's f_PBH and its "
+                   "emulation adds to that (docs/ng_model_representation.md; the surrogate's "
+                   "report gives the hold-out errors); 'zetascan verify' recomputes samples "
+                   "with their own delta-N map")
 #: Recorded convention attributes that are not parameters of the zeta map.
 QCD_KEYS: tuple[str, ...] = ("qcd_threshold", "qcd_collapse", "qcd_notes")
 
@@ -88,10 +95,12 @@ def convention_lines(conv: dict, derived: dict) -> list[str]:
     if kind in (None, "gaussian"):                      # Gaussian, or not recorded
         return lines
     params = ", ".join(f"{k} = {v:g}" for k, v in conv.items()
-                       if k != "non_gaussianity" and k not in QCD_KEYS)
+                       if k not in ("non_gaussianity", "model_map") and k not in QCD_KEYS)
     lines += [f"PBH abundance: non-Gaussian zeta, non_gaussianity = '{kind}'"
               + (f" ({params})" if params else "") + "; f_pbh_total uses it, "
               "f_pbh_total_gaussian is the same spectra with Gaussian zeta"]
+    if kind == "model":
+        lines.append(MODEL_NOTE.format(conv.get("model_map", "capped_logarithmic")))
     ng, gauss = derived.get("f_pbh_total"), derived.get("f_pbh_total_gaussian")
     if ng and gauss:
         lines.append(f"  f_PBH median: {gauss['median']:.3e} Gaussian -> {ng['median']:.3e} "

@@ -297,7 +297,9 @@ class ObservablesSection:
                               minimum=0.0, exclusive_minimum=True)
     non_gaussianity: str = spec("zeta = F(zeta_G) in the compaction function: gaussian, "
                                 "local (f_nl, g_nl), logarithmic (log_lambda) or model "
-                                "(delta-N on the solved model's background)", "gaussian",
+                                "(delta-N on the solved model's background; sample/grid: the "
+                                "surrogate's capped logarithmic fit of it, trained with "
+                                "model)", "gaussian",
                                 choices=NON_GAUSSIANITIES)
     f_nl: float = spec("local f_NL (non_gaussianity = 'local')", 0.0)
     g_nl: float = spec("local g_NL (non_gaussianity = 'local')", 0.0)

@@ -136,8 +136,8 @@ def plan_batch(x: np.ndarray, peak_range: tuple[float, float], conventions, *,
 
 def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.ndarray,
                       shape: np.ndarray, n_s: np.ndarray, r: np.ndarray, N_star: np.ndarray,
-                      ln_1e10_as: float, thresholds: np.ndarray | None = None
-                      ) -> Observables:
+                      ln_1e10_as: float, thresholds: np.ndarray | None = None,
+                      zeta_map=None) -> Observables:
     """Omega_GW,0 h^2 and f_PBH of m emulated spectra, on the plan's shared grids.
 
     Parameters
@@ -152,6 +152,9 @@ def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.n
     ln_1e10_as : float
     thresholds : ndarray, shape (m,), optional
         Per-walker collapse thresholds (needs a threshold-aware ``plan.pbh``).
+    zeta_map : ZetaMap, optional
+        Each spectrum's zeta = F(zeta_G) (parameters arrays (m,); needs the ``model``
+        plan, :mod:`scan.observables.pbh.ng_model_plan`).
 
     Returns
     -------
@@ -160,7 +163,7 @@ def batch_observables(plan: BatchPlan, ln_k_peak: np.ndarray, log10_P_peak: np.n
     ln_k_peak = np.asarray(ln_k_peak, float)
     log10_p = np.asarray(log10_P_peak, float)[:, None] + np.asarray(shape, float)
     omega, ln_k_top, omega_peak = gw_on_grids(plan, ln_k_peak, log10_p)
-    pbh = pbh_on_table(plan, ln_k_peak, log10_p, thresholds)
+    pbh = pbh_on_table(plan, ln_k_peak, log10_p, thresholds, zeta_map)
     gaussian = getattr(pbh, "f_pbh_total_gaussian", None)
     return Observables(
         f_hz=plan.f_gw, omega_gw_h2=omega, m_msun=np.asarray(plan.pbh.M),
@@ -204,7 +207,7 @@ def gw_on_grids(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray
 
 
 def pbh_on_table(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray,
-                 thresholds: np.ndarray | None = None):
+                 thresholds: np.ndarray | None = None, zeta_map=None):
     """f_PBH of m spectra: each put on the shared absolute ln k table, one plan for all.
 
     Parameters
@@ -215,6 +218,8 @@ def pbh_on_table(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray,
         log10 P_zeta on ``plan.x``; taken as 0 outside it.
     thresholds : ndarray, shape (m,), optional
         Per-spectrum collapse thresholds (needs a threshold-aware ``plan.pbh``).
+    zeta_map : ZetaMap, optional
+        Per-spectrum maps (needs the ``model`` plan).
 
     Returns
     -------
@@ -222,6 +227,8 @@ def pbh_on_table(plan: BatchPlan, ln_k_peak: np.ndarray, log10_p: np.ndarray,
         ``f_pbh`` (m, n_M) per ln M on ``plan.pbh.M`` [M_sun], ``f_pbh_total`` (m,).
     """
     p_table = spectra_on_table(plan.lnk_table, ln_k_peak, plan.x, log10_p)
+    if zeta_map is not None:
+        return plan.pbh.evaluate(p_table, thresholds, zeta_map=zeta_map)
     if thresholds is None:
         return plan.pbh.evaluate(p_table)
     return plan.pbh.evaluate(p_table, np.asarray(thresholds, float))

@@ -88,38 +88,46 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
                               section.qcd_collapse)
 
 
-def require_batch_conventions(section: ObservablesSection, source: str) -> None:
+def require_batch_conventions(section: ObservablesSection, source: str,
+                              exact_only: bool = False) -> None:
     """Refuse conventions the vectorised (surrogate) and table paths do not compute.
 
     The sampler, the grid and verify evaluate f_PBH for a stack of spectra: Gaussian zeta
-    (:mod:`scan.observables.pbh.threshold_plan`), or the ``local`` and
-    ``logarithmic`` maps with the config's fixed parameters
-    (:mod:`scan.observables.pbh.ng_stack`), each with the QCD-era threshold and exponent
-    per formation epoch.  ``model`` needs every sample's own delta-N map, which the
-    surrogate does not emulate: it would silently be ignored there, so it stops with a
-    message instead.
+    (:mod:`scan.observables.pbh.threshold_plan`), the ``local`` and ``logarithmic`` maps
+    with the config's fixed parameters (:mod:`scan.observables.pbh.ng_stack`), each with
+    the QCD-era threshold and exponent per formation epoch, and ``model`` with each
+    sample's emulated delta-N map (:mod:`scan.observables.pbh.ng_model_plan`; the
+    surrogate must emulate it).  ``exact_only``: the path has a spectrum but no model
+    (:func:`scan.posterior.exact.exact_from_arrays`), where ``model`` (which needs the
+    background for delta-N) is refused.
 
     Raises
     ------
     ConfigError
         Naming ``observables.non_gaussianity``.
     """
-    if section.non_gaussianity == "model":
-        raise ConfigError(source, "observables.non_gaussianity", "'model' is not available "
-                          "in sample, grid and verify (the surrogate does not emulate each "
-                          "sample's delta-N map)", "use non_gaussianity = 'local' with the "
-                          "f_nl that 'zetascan solve' prints for your best model (f_NL at "
-                          "the peak), or 'logarithmic' with log_lambda")
+    if exact_only and section.non_gaussianity == "model":
+        raise ConfigError(source, "observables.non_gaussianity", "'model' needs the model's "
+                          "background for its delta-N map, which a spectrum given as "
+                          "arrays does not have", "solve the model (zetascan solve or "
+                          "verify), or use 'local' / 'logarithmic' with fixed parameters")
+
+
+#: How the batch path represents ``model`` (attribute ``model_map`` of chains and grids).
+MODEL_MAP: str = "capped_logarithmic"
 
 
 def pbh_convention_attrs(section: ObservablesSection) -> dict:
     """The PBH statistics conventions of a run as flat attributes (as ``pbh`` of a solve
-    result): ``non_gaussianity`` and its parameters, ``qcd_threshold``, ``qcd_collapse``
+    result): ``non_gaussianity`` and its parameters (for ``model``, ``model_map``: the
+    emulated representation of each sample's delta-N map), ``qcd_threshold``, ``qcd_collapse``
     and, with either on, ``qcd_notes`` (the limitation lines the single path prints,
     newline-separated, :func:`scan.observables.pbh.qcd.qcd_notes`)."""
     settings = settings_of(section)
     attrs = {"non_gaussianity": section.non_gaussianity} \
         if section.non_gaussianity in ("gaussian", "model") else settings.zeta_map.as_attrs()
+    if section.non_gaussianity == "model":           # the batch path's representation
+        attrs["model_map"] = MODEL_MAP
     attrs.update(qcd_threshold=section.qcd_threshold, qcd_collapse=section.qcd_collapse)
     notes = qcd_notes(settings.conventions, section.qcd_threshold, section.qcd_collapse,
                       settings.dof)

@@ -21,6 +21,7 @@ from scan.models import Model, model_from_section
 from scan.modes import ModeSettings, Spectrum, compute_spectrum
 from scan.observables import Observables
 from scan.observables.pbh.deltan import peak_map
+from scan.observables.pbh.map_fit import NG_LEVEL, fit_capped
 from scan.observables.settings import settings_of
 from scan.pipeline.peaks import Peak, describe, peak_table
 from scan.pipeline.validity import feature_at_pivot, poles_on_cmb_scales
@@ -196,6 +197,11 @@ def mode_settings_of(config: RunConfig) -> ModeSettings:
     return ModeSettings(x_in=m.x_in, x_out=m.x_out, rtol=m.rtol, p_zeta_max=m.stochastic_limit)
 
 
+#: Why a ``model`` solve without an interior peak has Gaussian f_PBH.
+NO_PEAK_NOTE: str = ("non_gaussianity = 'model': the spectrum has no interior peak, so no "
+                     "delta-N map was computed; f_PBH is for Gaussian zeta")
+
+
 def observables_of(config: RunConfig, spectrum: Spectrum,
                    bg: Background | None = None) -> Observables:
     """Ω_GW h²(f) and f_PBH(M) of an exact spectrum, with the config's conventions.
@@ -208,9 +214,27 @@ def observables_of(config: RunConfig, spectrum: Spectrum,
         return settings.compute(spectrum.k, spectrum.P_zeta)
     if bg is None:
         raise ValueError("non_gaussianity = 'model' needs the model's background")
+    if not (math.isfinite(spectrum.k_peak) and spectrum.P_peak > 0):
+        obs = settings.compute(spectrum.k, spectrum.P_zeta)
+        return obs.replace(notes=obs.notes + (NO_PEAK_NOTE,))
     dn = peak_map(bg, spectrum.k_peak, spectrum.P_peak, spectrum.N_star, spectrum.k_star)
     obs = settings.compute(spectrum.k, spectrum.P_zeta, dn.zeta_map)
-    return obs.replace(notes=obs.notes + dn.notes)
+    return obs.replace(notes=obs.notes + dn.notes + (representation_note(dn.zeta_map,
+                                                                          spectrum.P_peak),))
+
+
+def representation_note(zmap, P_peak: float) -> str:
+    """How sample, grid and verify's surrogate side represent this delta-N map: its capped
+    logarithmic fit (:func:`scan.observables.pbh.map_fit.fit_capped`), or Gaussian zeta
+    below :data:`~scan.observables.pbh.map_fit.NG_LEVEL`."""
+    if not math.log10(P_peak) >= NG_LEVEL:
+        return (f"sample/grid keep zeta Gaussian for this model (log10 P_peak "
+                f"{math.log10(P_peak):.2f} < {NG_LEVEL:g}; docs/ng_model_representation.md)")
+    fit = fit_capped(zmap, math.sqrt(P_peak))
+    return (f"sample/grid represent this delta-N map as the capped logarithmic map "
+            f"lambda = {fit.log_lambda:.4g}, slope_max = {fit.slope_max:.4g} (rms "
+            f"{fit.rms:.2g} sqrt(P_peak) from the table; 0.0-0.8 dex in f_PBH measured, "
+            "docs/ng_model_representation.md)")
 
 
 def solve_background_of(config: RunConfig, model: Model | None = None) -> Background:

@@ -104,7 +104,7 @@ def observables_from_table(config: RunConfig, k: np.ndarray, P_zeta: np.ndarray,
     -------
     ExactOutcome
     """
-    require_batch_conventions(config.observables, config.source)
+    require_batch_conventions(config.observables, config.source, exact_only=True)
     obs = settings_of(config.observables).compute(k, P_zeta)
     return ExactOutcome(posterior_observables(obs, k_peak=k_peak, P_peak=P_peak, n_s=n_s,
                                               r=r, N_star=N_star,

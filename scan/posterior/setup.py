@@ -9,7 +9,10 @@ from scan.config.priors import PriorSet
 from scan.config.schema import RunConfig
 from scan.errors import ConfigError
 from scan.observables.pbh import plan_pbh_thresholds
+from scan.observables.pbh.map_fit import NG_LEVEL
+from scan.observables.pbh.ng_model_plan import plan_pbh_model
 from scan.observables.pbh.ng_stack import plan_pbh_mapped
+from scan.observables.pbh.zeta_map import ZetaMap
 
 #: The nuisance name of the PBH collapse threshold.
 THRESHOLD = "pbh.threshold"
@@ -90,7 +93,9 @@ def check_threshold_prior(config: RunConfig, priors: PriorSet) -> None:
 
 def pbh_plan_of(settings, span: tuple[float, float] | None):
     """The batch path's f_PBH plan factory ``(k_table, masses) -> plan`` for observable
-    ``settings``: the stacked non-Gaussian plan for a non-Gaussian map (with the QCD-era
+    ``settings``: for ``model`` the stack with each spectrum's emulated map
+    (:mod:`scan.observables.pbh.ng_model_plan`); the stacked non-Gaussian plan for a
+    non-Gaussian map (with the QCD-era
     conventions, if any), the threshold plan
     over ``span`` for a sampled threshold or a QCD-era convention (per-epoch thresholds
     and exponents; a sampled threshold is the radiation-era value they scale), else None
@@ -98,6 +103,9 @@ def pbh_plan_of(settings, span: tuple[float, float] | None):
     conventions, dof, n_eff, zmap = (settings.conventions, settings.dof, settings.n_eff,
                                      settings.zeta_map)
     qcd = {"qcd_threshold": settings.qcd_threshold, "qcd_collapse": settings.qcd_collapse}
+    if settings.non_gaussianity == "model":
+        return lambda k_table, masses: plan_pbh_model(k_table, masses, conventions,
+                                                      dof=dof, n_eff=n_eff, **qcd)
     if zmap is not None and not zmap.is_gaussian:
         return lambda k_table, masses: plan_pbh_mapped(k_table, masses, conventions, zmap,
                                                        dof=dof, n_eff=n_eff, **qcd)
@@ -105,3 +113,31 @@ def pbh_plan_of(settings, span: tuple[float, float] | None):
         return lambda k_table, masses: plan_pbh_thresholds(k_table, masses, conventions,
                                                            span, dof=dof, n_eff=n_eff, **qcd)
     return None
+
+
+def require_emulated_map(config: RunConfig, surrogate, path: str) -> None:
+    """``non_gaussianity = 'model'`` needs a surrogate that emulates the delta-N map.
+
+    Raises
+    ------
+    ConfigError
+        The surrogate has no ``ng`` block (trained with another convention, or before it
+        existed).
+    """
+    if config.observables.non_gaussianity == "model" and surrogate.emulator.ng is None:
+        raise ConfigError(config.source, "observables.non_gaussianity",
+                          f"'model' needs a surrogate that emulates each model's delta-N "
+                          f"map; '{path}' does not (trained with another "
+                          "non_gaussianity, or before the map was emulated)",
+                          "retrain it with observables.non_gaussianity = \"model\" "
+                          "(zetascan train computes the map of every point with "
+                          f"log10 P_peak >= {NG_LEVEL:g})")
+
+
+def emulated_map(config: RunConfig, pred, keep) -> ZetaMap | None:
+    """The per-spectrum capped logarithmic maps of the predictions ``pred[keep]`` for
+    ``model`` (NaN parameters: Gaussian there), else None."""
+    if config.observables.non_gaussianity != "model":
+        return None
+    return ZetaMap("logarithmic", log_lambda=pred.ng_log_lambda[keep],
+                   slope_max=pred.ng_slope_max[keep])

@@ -51,7 +51,14 @@ from scan.posterior.blobs import (empty_blobs, extra_fields, extra_values, finis
                                   mass_at_peak, peak_range, store_blobs, total_of_terms)
 from scan.posterior.reasons import REASONS, Reason
 from scan.likelihood.from_config import build_terms
-from scan.posterior.setup import COLLAPSE_K, THRESHOLD, pbh_plan_of, threshold_range
+from scan.posterior.setup import (
+    COLLAPSE_K,
+    THRESHOLD,
+    emulated_map,
+    pbh_plan_of,
+    require_emulated_map,
+    threshold_range,
+)
 from scan.posterior.targets import TargetBase
 from scan.surrogate import load_surrogate
 
@@ -150,6 +157,7 @@ class PosteriorTarget(TargetBase):
                               f"the surrogate '{self.surrogate_path}' is over "
                               f"{list(surrogate.space.keys)}, the run varies {list(keys)}",
                               "vary the same keys as the training run, or retrain")
+        require_emulated_map(self.config, surrogate, self.surrogate_path)
         terms = build_terms(self.config, self.curve_paths)
         settings = settings_of(self.config.observables)
         conventions, dof, n_eff = settings.conventions, settings.dof, settings.n_eff
@@ -251,7 +259,8 @@ class PosteriorTarget(TargetBase):
         batch = batch_observables(data["plan"], pred.ln_k_peak[keep], pred.log10_P_peak[keep],
                                   pred.shape[keep], pred.n_s[keep], 10.0 ** pred.log10_r[keep],
                                   pred.N_star[keep], self.config.pivot.ln_1e10_As,
-                                  self._nuisance_column(thetas, rows, THRESHOLD))
+                                  self._nuisance_column(thetas, rows, THRESHOLD),
+                                  emulated_map(self.config, pred, keep))
         k_values = self._nuisance_column(thetas, rows, COLLAPSE_K)
         if k_values is not None:
             batch = with_collapse_coefficient(batch, k_values / self.config.observables.collapse_K)

@@ -9,6 +9,8 @@ import numpy as np
 
 from scan.config import load_config_text
 from scan.config.priors import apply_parameters
+from scan.observables.pbh.deltan import peak_map
+from scan.observables.pbh.map_fit import NG_LEVEL, fit_capped
 from scan.pipeline import solve_config
 from scan.pipeline.solve import wall_width
 from scan.surrogate.record import TrainingRecord, invalid_record, record_from_spectrum, shape_grid
@@ -82,4 +84,24 @@ def solve_point(config, values: Sequence[float], keys: Sequence[str] | None = No
         record = invalid_record(values, result.reason, len(x))
     else:
         record = record_from_spectrum(values, result.spectrum, x)
+        if config.observables.non_gaussianity == "model" and record.valid:
+            record = dataclasses.replace(record, **map_targets(result))
     return dataclasses.replace(record, ln_wall_width=math.log(wall_width(solved)))
+
+
+def map_targets(result) -> dict[str, float]:
+    """The emulated delta-N map of a solved model (``ng_log_lambda``, ``ng_ln_cap``,
+    :class:`TrainingRecord`): the capped logarithmic fit of its delta-N map at the peak
+    (:func:`scan.observables.pbh.deltan.peak_map`), NaN below
+    :data:`~scan.observables.pbh.map_fit.NG_LEVEL` in log10 P_peak (not computed there)
+    and where delta-N or the fit fails (a root not bracketed): the emulator's ``ng``
+    block then learns the map from the other points."""
+    s = result.spectrum
+    if not (s.P_peak > 0 and math.log10(s.P_peak) >= NG_LEVEL):
+        return {}
+    try:
+        dn = peak_map(result.background, s.k_peak, s.P_peak, s.N_star, s.k_star)
+        fit = fit_capped(dn.zeta_map, math.sqrt(s.P_peak))
+    except ValueError:
+        return {}
+    return {"ng_log_lambda": fit.log_lambda, "ng_ln_cap": math.log(fit.slope_max - 1)}

@@ -37,6 +37,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from scan.observables.pbh.map_fit import NG_LEVEL
 from scan.surrogate.bottleneck import Bottleneck, augment, candidates
 from scan.surrogate.gp import KERNELS, GPFit, fit_best, predict_gp, predictive_sd
 from scan.surrogate.highpeak import HighPeak, blend, fit_high_peak
@@ -47,6 +48,9 @@ PEAK_COLUMNS = ("ln_k_peak", "log10_P_peak")
 CMB_COLUMNS = ("n_s", "log10_r", "log10_V0", "N_star")
 #: Column of ln w_w in ``TrainingSet.scalars`` (absent from six-column sets).
 WALL_COLUMN = len(PEAK_COLUMNS) + len(CMB_COLUMNS)
+#: Columns of the delta-N map's capped logarithmic fit (lambda, ln(slope_max - 1)), absent
+#: from sets made before them (:data:`scan.surrogate.record.SCALARS`).
+NG_COLUMNS = slice(WALL_COLUMN + 1, WALL_COLUMN + 3)
 
 
 @dataclass(frozen=True)
@@ -106,6 +110,7 @@ class Emulator:
     bottleneck_blocks: tuple[str, ...] = ()
     wall: GPFit | None = None
     high_peak: HighPeak | None = None
+    ng: GPFit | None = None
 
     def inputs(self, block: str, u: np.ndarray) -> np.ndarray:
         """The inputs of regressor ``block`` at unit-cube points ``u`` (p, d)."""
@@ -131,6 +136,10 @@ class Prediction:
         CMB quantities (log10 V0 in dex of M_p^4).
     ln_wall_width : ndarray [ln(M_p)]
         ln w_w of the pole given by a wall coordinate (nan without a ``wall`` block).
+    ng_log_lambda, ng_slope_max : ndarray [1] or None
+        The model's delta-N map as the capped logarithmic map (``ng`` block; None
+        without one; nan where the emulated log10 P_peak is below
+        :data:`scan.observables.pbh.map_fit.NG_LEVEL`: Gaussian there).
     """
 
     valid: np.ndarray
@@ -144,6 +153,8 @@ class Prediction:
     log10_V0: np.ndarray
     N_star: np.ndarray
     ln_wall_width: np.ndarray | None = None
+    ng_log_lambda: np.ndarray | None = None
+    ng_slope_max: np.ndarray | None = None
 
     def spectrum(self) -> tuple[np.ndarray, np.ndarray]:
         """``(k, P_zeta)`` on the shape grid, each (p, n_x) [Mpc^-1], [-]."""
@@ -195,7 +206,19 @@ def _fit_emulator(data: TrainingSet, settings: EmulatorSettings) -> Emulator:
                                          ("cmb", cmb_bn)) if bn is not None)
     high_peak = fit_high_peak(data.u[good], data.scalars[good, 1], coefs, shape, opts)
     return Emulator(classifier, bool(data.valid.all()), peak, shape, cmb, basis,
-                    bottleneck if blocks else None, blocks, _fit_wall(data, opts), high_peak)
+                    bottleneck if blocks else None, blocks, _fit_wall(data, opts), high_peak,
+                    _fit_ng(data, opts))
+
+
+def _fit_ng(data: TrainingSet, opts: dict) -> GPFit | None:
+    """The delta-N map block (lambda, ln(slope_max - 1)) over the valid points where the
+    map was computed (None if fewer than 3: trained without ``non_gaussianity = 'model'``)."""
+    if data.scalars.shape[1] < NG_COLUMNS.stop:
+        return None
+    known = data.valid & _complete(data.scalars[:, NG_COLUMNS])
+    if known.sum() < 3:
+        return None
+    return fit_best(data.u[known], data.scalars[known, NG_COLUMNS], **opts)
 
 
 def _fit_wall(data: TrainingSet, opts: dict) -> GPFit | None:
@@ -237,7 +260,18 @@ def predict_unit(emulator: Emulator, u: np.ndarray) -> Prediction:
                       x=emulator.basis.x, n_s=cmb[:, 0], log10_r=cmb[:, 1],
                       log10_V0=cmb[:, 2], N_star=cmb[:, 3],
                       ln_wall_width=(predict_gp(emulator.wall, u)[:, 0] if emulator.wall
-                                     is not None else np.full(len(u), np.nan)))
+                                     is not None else np.full(len(u), np.nan)),
+                      **_predict_ng(emulator.ng, u, peak[:, 1]))
+
+
+def _predict_ng(fit: GPFit | None, u: np.ndarray, log10_p: np.ndarray) -> dict:
+    """The emulated capped logarithmic map (nan below ``NG_LEVEL``; {} without a block)."""
+    if fit is None:
+        return {}
+    ng = predict_gp(fit, u)
+    below = ~(log10_p >= NG_LEVEL)
+    return {"ng_log_lambda": np.where(below, np.nan, ng[:, 0]),
+            "ng_slope_max": np.where(below, np.nan, 1 + np.exp(ng[:, 1]))}
 
 
 def peak_sd(emulator: Emulator, u: np.ndarray) -> np.ndarray:

@@ -14,12 +14,13 @@ from scan.pipeline.validity import FEATURE_REASON, TILT_LIMIT, tilt_off
 
 #: Scalar targets of a record, in the order of :func:`scalar_targets` columns.
 SCALARS: tuple[str, ...] = ("ln_k_peak", "log10_P_peak", "n_s", "log10_r", "log10_V0",
-                            "N_star", "ln_wall_width")
+                            "N_star", "ln_wall_width", "ng_log_lambda", "ng_ln_cap")
 #: Units of the scalar targets (HDF5 ``units`` attributes).
 SCALAR_UNITS: dict[str, str] = {"ln_k_peak": "ln(Mpc^-1)", "log10_P_peak": "dex",
                                 "n_s": "1", "log10_r": "dex", "log10_V0": "dex(M_p^4)",
                                 "N_star": "1",  # e-folds
-                                "ln_wall_width": "ln(M_p)"}
+                                "ln_wall_width": "ln(M_p)", "ng_log_lambda": "1",
+                                "ng_ln_cap": "1"}
 
 
 def shape_grid(span: float, points: int) -> np.ndarray:
@@ -56,6 +57,11 @@ class TrainingRecord:
         ln w_w [ln(M_p)], the width at the wall of the pole given by a wall coordinate
         (:func:`scan.pipeline.solve.wall_width`); known for invalid models too, nan when
         no pole uses a wall coordinate.
+    ng_log_lambda, ng_ln_cap : float [1]
+        The model's delta-N map at the peak as the capped logarithmic map
+        (:func:`scan.observables.pbh.map_fit.fit_capped`): lambda and ln(slope_max - 1);
+        nan unless ``[observables] non_gaussianity = "model"`` and log10 P_peak >=
+        :data:`scan.observables.pbh.map_fit.NG_LEVEL`.
     """
 
     params: np.ndarray
@@ -69,12 +75,15 @@ class TrainingRecord:
     log10_V0: float = float("nan")
     N_star: float = float("nan")
     ln_wall_width: float = float("nan")
+    ng_log_lambda: float = float("nan")
+    ng_ln_cap: float = float("nan")
 
     def scalar_targets(self) -> np.ndarray:
         """The values of :data:`SCALARS` (log10 r from r)."""
         log_r = np.log10(self.r) if self.r > 0 else float("nan")
         return np.array([self.ln_k_peak, self.log10_P_peak, self.n_s, log_r, self.log10_V0,
-                         self.N_star, self.ln_wall_width], float)
+                         self.N_star, self.ln_wall_width, self.ng_log_lambda,
+                         self.ng_ln_cap], float)
 
 
 #: A spectrum whose tilt at the CMB pivot is far from 1 has its feature (the stall) at CMB

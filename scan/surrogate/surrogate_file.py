@@ -2,7 +2,9 @@
 
 Layout: root provenance and ``identity_json``; ``config`` (text); group ``surrogate``
 with ``space`` attributes and one sub-group per kernel block (``classifier``, ``peak``,
-``shape``, ``cmb``, and ``wall`` when a pole is given by a wall coordinate) plus
+``shape``, ``cmb``, ``wall`` when a pole is given by a wall coordinate, and ``ng`` when
+trained with ``non_gaussianity = "model"``: the delta-N map's capped logarithmic fit; files
+without it load, and a run with ``model`` refuses them) plus
 ``basis`` and, if any block uses it, ``bottleneck`` (the extra input of
 :mod:`scan.surrogate.bottleneck`; attribute ``blocks``) and, if fitted, ``high_peak``
 (:mod:`scan.surrogate.highpeak`: sub-group ``shape``, attribute ``floor``); group ``validation`` with the
@@ -97,7 +99,7 @@ def write_surrogate(path: str | Path, config, space: ParameterSpace, emulator: E
         grp.attrs["parameter_high"] = np.array(space.high)
         grp.attrs["constant_valid"] = emulator.constant_valid
         grp.attrs["has_classifier"] = emulator.classifier is not None
-        for name in ("classifier", "peak", "shape", "cmb", "wall"):
+        for name in ("classifier", "peak", "shape", "cmb", "wall", "ng"):
             fit = getattr(emulator, name)
             if fit is not None:
                 _write_gp(grp.create_group(name), fit)
@@ -189,5 +191,6 @@ def read_surrogate(path: str | Path, ident: dict | None = None
                             _read_gp(grp["shape"]), _read_gp(grp["cmb"]), basis,
                             *_read_bottleneck(grp),
                             _read_gp(grp["wall"]) if "wall" in grp else None,
-                            _read_high_peak(grp))
+                            _read_high_peak(grp),
+                            _read_gp(grp["ng"]) if "ng" in grp else None)
     return emulator, space

@@ -11,7 +11,13 @@ import numpy as np
 
 from scan.observables.pbh.conventions import NEGLIGIBLE_FPBH
 from scan.surrogate import design
-from scan.surrogate.emulator import Emulator, Prediction, TrainingSet, predict_unit
+from scan.surrogate.emulator import (
+    NG_COLUMNS,
+    Emulator,
+    Prediction,
+    TrainingSet,
+    predict_unit,
+)
 
 #: f_PBH,total above which a held-out model counts as "PBHs matter" in the report (the
 #: accuracy goal of issue 14: 0.3 dex at the 95th percentile over such models).
@@ -97,6 +103,11 @@ def validate(emulator: Emulator, train: TrainingSet, holdout: TrainingSet,
     errs["N_star"] = error_stats((pred.N_star - sc[:, 5])[ok])
     if sc.shape[1] > 6 and np.isfinite(sc[:, 6]).any():  # a wall coordinate: ln w_w, all points
         errs["ln_wall_width"] = error_stats(pred.ln_wall_width - sc[:, 6])
+    if pred.ng_log_lambda is not None and sc.shape[1] >= NG_COLUMNS.stop:
+        known = ok & np.all(np.isfinite(sc[:, NG_COLUMNS]), axis=1)  # where it was computed
+        errs["delta-N map: lambda"] = error_stats((pred.ng_log_lambda - sc[:, 7])[known])
+        errs["delta-N map: ln(slope_max - 1)"] = error_stats(
+            (np.log(pred.ng_slope_max - 1) - sc[:, 8])[known])
     if observables is not None and ok.any():
         true_obs = observables(sc[ok, 0], sc[ok, 1], holdout.shapes[ok], holdout.x)
         pred_obs = observables(pred.ln_k_peak[ok], pred.log10_P_peak[ok], pred.shape[ok],

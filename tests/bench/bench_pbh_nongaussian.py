@@ -40,7 +40,51 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   the merge of the third seed; the cut's bound with the correlation (2542 at f_NL = 1,
   1840 at -1): f_NL = -1 22-23x -> 14-15x, f_NL = 1 about even.
 
-What limits it (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
+* ngtable branch (the local map's density from a table in reduced variables,
+  scan/observables/pbh/ng_table.py; the mass function over the live pairs only,
+  ng_pairs.py; 8 bracket halvings in the cut's bound), this file alternated with main
+  (bee91c3 / 9955f2a), 3 or 8 blocks, 4 runs each after the last change: local f_NL = 1
+  15.2-19.7x -> 3.9-4.4x, f_NL = -1 11.7-14.6x -> 3.1-3.6x, logarithmic 3.3-3.9x ->
+  3.4-3.9x (its path changed only in the mass function: even within noise); a busier
+  hour gave up to 4.7x / 3.8x / 4.2x on the branch.  With --qcd (1 run each): local
+  19.8x -> 4.3x, f_NL = -1 13.4x -> 3.4x, logarithmic 4.2x -> 3.7x (Gaussian QCD stack
+  5.5x -> 3.2x, same code: noise).  The table is built once per process (~1 s, inside
+  the first block; the ratios are min-based).  By parts (py-spy, f_NL = 1): the
+  tabulated density ~47 % (~0.23 us per density: the tricubic lookup of G and of the
+  ridge seed ~0.17 us, one Newton step and the Laplace value ~0.06 us; 2.5k pairs x 9
+  nodes), mass function ~12 % (before the compiled products and scatter), the cut's bound
+  ~9 %, variances ~7 %, beta ~4 %.  The lookup is compute-bound (a float32 table, a
+  different layout, and linear interpolation in ln t -- which doubled the error and the
+  Newton steps -- were measured no faster overall), so 3x for f_NL = 1 needs fewer
+  densities (the cut keeps 2.5k pairs where ~2k matter) or a cheaper remainder than
+  4^3 nodes.
+
+* ngspeed5 branch (the local bound with the best split e = 2/nu^2 per pair instead of
+  e = 0.1, ng_density.ln_density_bound; 5 instead of 8 bracket halvings in its near-branch
+  search, ng_closed.N_HALVE), a copy of this file with 10 blocks alternated with main
+  0c683ab, 3 runs each (machine loaded by other helpers' surrogate training): local f_NL =
+  1 4.3-4.7x -> 4.0-4.2x, f_NL = -1 3.4-3.7x -> 3.0-3.4x, logarithmic 3.9-4.0x ->
+  3.7-4.0x (path unchanged: noise).  The split alone, in one process against e = 0.1
+  (40 alternating blocks): f_NL = 1 4.65x -> 4.58x, -1 3.81x -> 3.58x; the cut computes
+  2393 + 58 pairs at f_NL = 1 (2473 + 70 before), 1626 + 69 at -1 (1699 + 141); f(M)
+  above 1e-30 of each spectrum's largest and the totals bit-identical to main (with both
+  changes); 5 halvings keep 2399 + 65 and 1628 + 73 and take ~35 % off the search
+  (0.60-0.67 -> 0.40-0.41 ms).  The cut is now at its floor: with each pair's
+  exact contribution (max_M weight x g(y(M)), and its term of the total) in place of the
+  bound, the same e^-100 rule keeps 2372 pairs at f_NL = 1 and 1615 at -1 (the bound
+  2451 / 1695); a shorter range would not pay either (exact contributions at e^-80: 2199
+  pairs, at e^-60: 1972 -- 17 % fewer densities, but the dropped pairs' 5e-12 relative
+  error would then hold only down to f(M) = 5e-22 and 2e-13 of the largest, not 1e-30).
+  By parts now (f_NL = 1, per evaluation, Gaussian stack = 1): the tabulated density
+  2.6 (2.45k pairs x 9 nodes, ~0.3 us each), beta 0.55, the bound 0.25-0.3, variances
+  0.36, mass function 0.31, the rest (pair selection, indexing) ~0.4; so 3x for f_NL = 1
+  needs the density itself ~2x cheaper.  Logarithmic by parts: beta 1.45 (7.1k pairs x
+  120 nodes: the 9-column product 0.8 ms and the exponentials 0.75 ms of ~2.3 ms),
+  closed form 1.28, mass function 1.0, variances 0.43; a cut of beta alone at e^-50 of
+  the total (below rounding for the total) would skip 947 of 7144 pairs (13 %): not
+  done.
+
+What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
 density; ~1 us per density) for 2.5k of 3.6k live pairs x 9 nodes; the pairs the
@@ -94,6 +138,7 @@ def main() -> None:
     stacked = plan_stacked(ng)
     P = spectra(k)
     maps = {"local f_NL=1": zeta_map_of("local", f_nl=1.0),
+            "local f_NL=-1": zeta_map_of("local", f_nl=-1.0),
             "logarithmic lambda=3": zeta_map_of("logarithmic", log_lambda=3.0)}
     funcs = {"gaussian stack": lambda: plan.evaluate(P)}
     for name, zmap in maps.items():

@@ -93,13 +93,30 @@ def _crossing(bg: Background, phi0: float, phi_f: float) -> float | None:
 
 
 def _phi_at(model: Model, phi_s: float, dchi: float) -> float:
-    """phi with chi(phi) - chi(phi_s) = dchi (no pole between: K finite)."""
+    """phi with chi(phi) - chi(phi_s) = dchi (no pole between: K finite).
+
+    The root is bracketed from phi_s outwards in steps that double from dchi/sqrt(K(phi_s))
+    (halved where chi is not finite: past a pole), so a K that grows or falls by any factor
+    between phi_s and the root is bracketed."""
     if dchi == 0.0:
         return phi_s
-    guess = dchi / math.sqrt(float(model.K(phi_s)))
-    a, b = phi_s + 0.5 * guess, phi_s + 2.0 * guess
-    return brentq(lambda p: float(model.canonical_field(p, phi_s)) - dchi, min(a, b),
-                  max(a, b), xtol=1e-15, rtol=1e-15)
+    sign = math.copysign(1.0, dchi)
+
+    def excess(p: float) -> float:
+        return float(model.canonical_field(p, phi_s)) - dchi
+
+    step = dchi / math.sqrt(float(model.K(phi_s)))
+    a, b = phi_s, phi_s + step
+    for _ in range(200):
+        gb = excess(b)
+        if math.isfinite(gb) and gb * sign >= 0:
+            break
+        if math.isfinite(gb):
+            a, step = b, 2.0 * step
+        else:
+            step *= 0.5
+        b = a + step
+    return brentq(excess, min(a, b), max(a, b), xtol=1e-15, rtol=1e-15)
 
 
 def delta_n_map(model: Model, phi_s: float, pi_s: float, phi_f: float, n_f: float,

@@ -40,6 +40,7 @@ import math
 import numpy as np
 from scipy import special
 
+from scan.observables.pbh.ng_capped import capped_pairs, ln_capped_density
 from scan.observables.pbh.ng_closed import (
     half_moment_table,
     log_map_density,
@@ -58,7 +59,8 @@ N_GH_CUBIC: int = 32
 #: The far branch of a quadratic map is skipped where its bound is below e^{-40} times the
 #: near branch (relative contribution < 4e-18, below rounding).
 FAR_MARGIN: float = 40.0
-#: Share of the exponent given up for the prefactor in :func:`ln_density_bound`.
+#: Share of the exponent given up for the prefactor in :func:`ln_density_bound` when
+#: fixed (its default is the best share per pair, 2/nu^2).
 BOUND_SPLIT: float = 0.1
 #: Above this z, 1 - sqrt(pi) z erfcx(z) is taken from its asymptotic series (the direct
 #: difference loses ~2 z^2 eps, 4e-12 at z = 100; the series' first omitted term is
@@ -87,6 +89,8 @@ def ln_density(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0) -> np
     c, s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
     if zmap.kind == "gaussian":
         out = -0.5 * np.log(2 * math.pi * s_c2) - 0.5 * c * c / s_c2
+    elif zmap.kind == "logarithmic" and _is_capped(zmap):
+        out = ln_capped_density(c, s_c2, s_cr, s_r2, zmap.log_lambda, 1 / zmap.slope_max)
     elif zmap.kind == "logarithmic":
         out = _ln_log_map(c, s_c2, s_cr, s_r2, zmap.log_lambda)
     elif zmap.kind == "local":
@@ -108,6 +112,8 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     c = np.atleast_2d(np.asarray(c, dtype=float))
     if np.size(s_c2) == 0:
         return np.empty((0, c.shape[1]))
+    if zmap.kind == "logarithmic" and _is_capped(zmap):
+        return _capped_pairs(c, s_c2, s_cr, s_r2, zmap, ps_factor)
     if zmap.kind != "logarithmic":
         return ln_density(c, s_c2[:, None], s_cr[:, None], s_r2[:, None], zmap, ps_factor)
     arrays = (np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2))
@@ -120,8 +126,26 @@ def ln_density_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float = 1.0)
     return out
 
 
+def _capped_pairs(c, s_c2, s_cr, s_r2, zmap: ZetaMap, ps_factor: float):
+    """:func:`ln_density_pairs` of a capped (or per-pair) logarithmic map: the compiled
+    form (:func:`scan.observables.pbh.ng_capped.capped_pairs`)."""
+    n = np.size(s_c2)
+    lam, u_min = (np.ascontiguousarray(np.broadcast_to(v, (n,)), dtype=float)
+                  for v in (zmap.log_lambda, 1 / np.asarray(zmap.slope_max, dtype=float)))
+    arrays = [np.ascontiguousarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2)]
+    return capped_pairs(*arrays, lam, u_min, math.log(ps_factor))
+
+
+def _is_capped(zmap: ZetaMap) -> bool:
+    """A logarithmic map with a slope cap or with parameters per pair (arrays): the
+    closed form of :mod:`scan.observables.pbh.ng_capped` (the compiled plain form takes
+    one number)."""
+    return np.ndim(zmap.log_lambda) > 0 or np.ndim(zmap.slope_max) > 0 \
+        or math.isfinite(zmap.slope_max)
+
+
 def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
-                     ps_factor: float = 1.0) -> np.ndarray:
+                     ps_factor: float = 1.0, split: float | None = None) -> np.ndarray:
     """An upper bound [1] on ln g(c) over c >= ``y_th`` (a number, or one per pair) per pair
     of variances (arrays of equal shape); +inf (no bound) unless the map is local with
     g_NL = 0.
@@ -147,11 +171,15 @@ def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
     sigma_r/sigma_c) - 1)/2.  nu^2 is the larger of the two bounds.
 
     Every bound rises and 1/c falls with c, so the value at c = y_th bounds every
-    c >= y_th.  tests/test_pbh_ng_stack.py checks it against the computed ln g."""
+    c >= y_th.  The split e is free in (0, 1], and the prefactor is (e-independent)/e:
+    the bound's e-dependent part -(1 - e) nu^2/2 - ln e is least at e = 2/nu^2, used per
+    pair by default (clipped to (0, 1]; ``split`` fixes it): at nu^2 = 200 it is 6.7
+    e-folds below e = 0.1.  tests/test_pbh_ng_stack.py checks it against the computed
+    ln g, and that it is below the fixed split's."""
     s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (s_c2, s_cr, s_r2))
     if zmap.kind != "local" or zmap.g_nl != 0:
         return np.full(s_c2.shape, np.inf)
-    e, p = BOUND_SPLIT, 1.2 * zmap.f_nl
+    e, p = split, 1.2 * zmap.f_nl
     a, t2, _ = joint(s_c2, s_cr, s_r2)
     s_c, s_r, t = np.sqrt(s_c2), np.sqrt(s_r2), np.sqrt(t2)
     root = np.sqrt(1 + 4 * y_th * abs(p) * s_r / s_c)
@@ -163,10 +191,11 @@ def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
         with np.errstate(divide="ignore"):
             far = (y_th / (s_c * 0.5 * (root - 1)))**2
         nu2 = np.maximum(nu2, np.minimum(near, far))
-    nu = np.sqrt(nu2)
-    pref = (2 * np.abs(a) * s_r2 / e + t * s_r * math.sqrt(2 * math.pi / (e * e * math.e))) \
+    if e is None:                                        # the best split per pair
+        e = np.clip(2.0 / nu2, 1e-300, 1.0)
+    pref = (2 * np.abs(a) * s_r2 + t * s_r * math.sqrt(2 * math.pi / math.e)) \
         / (2 * math.pi * s_r * t * y_th)
-    return -(1 - e) * 0.5 * nu * nu + np.log(pref) + math.log(ps_factor)
+    return -(1 - e) * 0.5 * nu2 - np.log(e) + np.log(pref) + math.log(ps_factor)
 
 
 def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:

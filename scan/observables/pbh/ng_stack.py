@@ -1,7 +1,9 @@
 """Non-Gaussian f_PBH for a stack of spectra at once: the sampler's and the grid's path.
 
 For every (spectrum, formation epoch) pair the log-density ln g(C_l) of the linear
-compaction (:mod:`scan.observables.pbh.ng_density`) is evaluated at ``n_y`` Chebyshev-Lobatto
+compaction (:mod:`scan.observables.pbh.ng_density`; for the local map with g_NL = 0 from
+the table of :mod:`scan.observables.pbh.ng_table` inside its domain, within 2e-5 of the
+exact density) is evaluated at ``n_y`` Chebyshev-Lobatto
 nodes on the type-I interval [y_th, 4/3] (y_th = C_l at C = C_th) and interpolated as a
 polynomial (barycentric form, Berrut & Trefethen 2004, "Barycentric Lagrange
 interpolation", SIAM Review 46(3), 501-517) to
@@ -45,6 +47,8 @@ import numpy as np
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
+from scan.observables.pbh.ng_pairs import pair_ln_mass, pair_scatter
+from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
     live_epochs,
@@ -209,8 +213,10 @@ class StackedNGPlan:
         epoch h) pairs with variances ``var``."""
         i, h = i[chosen], h[chosen]
         nodes = self.y_nodes[h] if self.y_nodes.ndim == 2 else self.y_nodes
-        lng = ln_density_pairs(nodes, *(v[chosen] for v in var), zmap,
-                               self.ng.base.conventions.ps_factor)
+        density = ln_density_tabulated if zmap.kind == "local" and zmap.g_nl == 0 \
+            and zmap.f_nl != 0 else ln_density_pairs
+        lng = density(nodes, *(v[chosen] for v in var), zmap.of_spectra(i),
+                      self.ng.base.conventions.ps_factor)
         keep = ~(np.max(lng, axis=1) < LN_DEAD)
         i, h, lng = i[keep], h[keep], lng[keep]
         base = self.ng.base
@@ -245,18 +251,10 @@ class StackedNGPlan:
         return beta
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
-        """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H)).
-
-        The pairs' ln g is laid out densely per (epoch, spectrum), dead pairs at
-        ``LN_DEAD`` (a constant interpolates to itself; e^{-800} is 0), and every
-        epoch's mass matrix applied in one batched product."""
-        weight = self.ng.base._kernel.weight                 # (n_H, n_M), epoch-major
-        dense = np.full((weight.shape[0], m, lng.shape[1]), LN_DEAD)
-        dense[h, i] = lng
-        ln_f = np.matmul(dense, self.mass_matrix)            # (n_H, m, n_M)
-        exp_or_zero(ln_f)
-        ln_f *= weight[:, None, :]
-        return ln_f.sum(axis=0)
+        """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))
+        (compiled, over the live pairs only: :mod:`scan.observables.pbh.ng_pairs`)."""
+        ln_f = pair_ln_mass(np.ascontiguousarray(lng), h, self.mass_matrix)
+        return pair_scatter(exp_or_zero(ln_f), i, h, self.ng.base._kernel.weight, m)
 
 
 def _near_top(bounds, i, m: int) -> np.ndarray:
@@ -281,7 +279,9 @@ def _live(y_th, s_c2, s_r2, zmap: ZetaMap) -> np.ndarray:
     :func:`live_epochs`."""
     on = (s_c2 > 1e-250) & (s_r2 > 1e-250)
     if zmap.kind == "logarithmic":
-        q = y_th**2 / (np.sqrt(s_c2) + abs(zmap.log_lambda) * y_th * np.sqrt(s_r2))**2
+        lam = np.abs(np.asarray(zmap.log_lambda, dtype=float))
+        lam = lam[:, None] if lam.ndim else lam              # one per spectrum
+        q = y_th**2 / (np.sqrt(s_c2) + lam * y_th * np.sqrt(s_r2))**2
         return on & (0.5 * q < 1500.0)
     return on & live_epochs(np.broadcast_to(y_th, s_c2.shape).ravel(), s_c2.ravel(),
                             s_r2.ravel(), zmap).reshape(s_c2.shape)
@@ -348,14 +348,17 @@ class MappedStackPlan:
         """Output masses [M_sun]."""
         return self.stacked.ng.base.M
 
-    def evaluate(self, P_zeta, thresholds=None) -> PBHResult:
+    def evaluate(self, P_zeta, thresholds=None, zeta_map: ZetaMap | None = None
+                 ) -> PBHResult:
         """f_PBH of a stack (m, n_k) [1] with the Gaussian total beside it
-        (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported."""
+        (``f_pbh_total_gaussian``); per-spectrum thresholds are not supported.
+        ``zeta_map`` replaces the plan's map (e.g. a logarithmic map with parameters per
+        spectrum, arrays of shape (m,))."""
         if thresholds is not None:
             raise ValueError("the stacked non-Gaussian plan has the same thresholds for all "
                              "spectra")
         gaussian = (self.gaussian or self.stacked.ng.base).evaluate(P_zeta).f_pbh_total
-        return replace(self.stacked.evaluate(P_zeta, self.zmap),
+        return replace(self.stacked.evaluate(P_zeta, zeta_map or self.zmap),
                        f_pbh_total_gaussian=gaussian)
 
 

@@ -11,7 +11,10 @@ Four conventions (the ``[observables]`` key ``non_gaussianity``):
   2018, arXiv:1712.09998; Pi & Sasaki 2022, arXiv:2211.13932).  Its expansion has
   f_NL = 5 lambda / 6: lambda = 3 for a USR phase ending abruptly (f_NL = 5/2, Namjoo,
   Firouzjahi & Sasaki 2013, arXiv:1210.3692).  For lambda zeta_G >= 1 the field never
-  leaves the plateau in that patch (F is undefined: no type-I black hole is counted);
+  leaves the plateau in that patch (F is undefined: no type-I black hole is counted).
+  With a finite ``slope_max`` the slope F' = 1/(1 - lambda zeta_G) is capped there and
+  F continues linearly (the *capped logarithmic* map, our two-parameter representation
+  of a model's delta-N map on the sampler's path, :mod:`scan.observables.pbh.map_fit`);
 * ``model``: F tabulated by a non-perturbative delta-N computation on the model's own
   background (:mod:`scan.observables.pbh.deltan`), interpolated by a cubic spline and
   continued linearly outside the table.
@@ -22,7 +25,7 @@ The compaction function only needs the slope F'(zeta_G) (C_l = C_G F'(zeta_G)), 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.interpolate import CubicSpline
@@ -45,6 +48,10 @@ class ZetaMap:
         at the peak (0: take it from the spline).
     log_lambda : float [1]
         lambda of the logarithmic mapping (``logarithmic``).
+    slope_max : float [1]
+        Cap of F' of the logarithmic map (> 1; inf: the plain map).  On the stacked path
+        (:mod:`scan.observables.pbh.ng_stack`) ``log_lambda`` and ``slope_max`` may be
+        arrays, one per spectrum; the methods here take numbers.
     zeta_g, zeta : ndarray [1] or None
         The tabulated map (``model``): increasing zeta_G and F(zeta_G).
     """
@@ -53,6 +60,7 @@ class ZetaMap:
     f_nl: float = 0.0
     g_nl: float = 0.0
     log_lambda: float = 0.0
+    slope_max: float = math.inf
     zeta_g: np.ndarray | None = None
     zeta: np.ndarray | None = None
 
@@ -76,7 +84,7 @@ class ZetaMap:
         if self.kind == "local":
             return x + 0.6 * self.f_nl * x * x + 0.36 * self.g_nl * x**3
         if self.kind == "logarithmic":
-            return _log_map(x, self.log_lambda)
+            return _capped(x, self.log_lambda, self.slope_max, 0)
         return _linear_ends(self._spline(), self.zeta_g, x, 0)
 
     def slope(self, zeta_g) -> np.ndarray:
@@ -87,15 +95,14 @@ class ZetaMap:
         if self.kind == "local":
             return 1 + 1.2 * self.f_nl * x + 1.08 * self.g_nl * x * x
         if self.kind == "logarithmic":
-            lam = self.log_lambda
-            with np.errstate(divide="ignore", invalid="ignore"):
-                return np.where(lam * x < 1, 1 / (1 - lam * x), np.nan)
+            return _capped(x, self.log_lambda, self.slope_max, 1)
         return _linear_ends(self._spline(), self.zeta_g, x, 1)
 
     def domain(self) -> tuple[float, float]:
         """(lower, upper) zeta_G [1] where F is defined: lambda zeta_G < 1 for the
         logarithmic map, everything otherwise."""
-        if self.kind == "logarithmic" and self.log_lambda != 0:
+        if self.kind == "logarithmic" and self.log_lambda != 0 \
+                and not math.isfinite(self.slope_max):
             edge = 1 / self.log_lambda
             return (-math.inf, edge) if edge > 0 else (edge, math.inf)
         return -math.inf, math.inf
@@ -120,9 +127,21 @@ class ZetaMap:
             attrs.update(f_nl=self.f_nl, g_nl=self.g_nl)
         elif self.kind == "logarithmic":
             attrs.update(log_lambda=self.log_lambda)
+            if math.isfinite(self.slope_max):
+                attrs.update(slope_max=self.slope_max)
         elif self.kind == "model":
             attrs.update(f_nl_peak=self.f_nl_equivalent())
         return attrs
+
+    def of_spectra(self, i: np.ndarray) -> ZetaMap:
+        """The map of spectra ``i`` of a stack: a logarithmic map whose ``log_lambda`` or
+        ``slope_max`` are arrays (one per spectrum) takes them at ``i``; others as is."""
+        if self.kind != "logarithmic" or not (np.ndim(self.log_lambda)
+                                              or np.ndim(self.slope_max)):
+            return self
+        lam, cap = np.broadcast_arrays(np.asarray(self.log_lambda, dtype=float),
+                                       np.asarray(self.slope_max, dtype=float))
+        return replace(self, log_lambda=lam[i], slope_max=cap[i])
 
     def _spline(self) -> CubicSpline:
         return _spline_of(self)
@@ -158,6 +177,24 @@ def _log_map(x: np.ndarray, lam: float) -> np.ndarray:
         return x.copy()
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(lam * x < 1, -np.log1p(-lam * x) / lam, np.nan)
+
+
+def _capped(x: np.ndarray, lam: float, slope_max: float, nu: int) -> np.ndarray:
+    """The logarithmic map (``nu`` = 0) or its slope (1) with F' capped at ``slope_max``:
+    beyond zeta_c = (1 - 1/slope_max)/lambda, F' = slope_max and F continues linearly."""
+    if not math.isfinite(slope_max) or lam == 0:
+        if nu == 0:
+            return _log_map(x, lam)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(lam * x < 1, 1 / (1 - lam * x), np.nan)
+    u_min = 1 / slope_max
+    edge = (1 - u_min) / lam
+    past = lam * (x - edge) > 0
+    inner = np.where(past, edge, x)
+    if nu == 1:
+        return np.where(past, slope_max, 1 / (1 - lam * inner))
+    return np.where(past, _log_map(np.asarray(edge), lam) + slope_max * (x - edge),
+                    _log_map(inner, lam))
 
 
 def _check_table(zeta_g, zeta) -> None:

@@ -1,0 +1,174 @@
+"""Closed-form density of the linear compaction for the capped logarithmic map.
+
+The map (:class:`~scan.observables.pbh.zeta_map.ZetaMap`, ``logarithmic`` with a finite
+``slope_max``): 1/F'(zeta_G) = u = max(1 - lambda zeta_G, u_min), u_min = 1/slope_max < 1.
+(C_G, zeta_G) are jointly Gaussian as in :mod:`scan.observables.pbh.ng_density`
+(zeta_G ~ N(0, sigma_r^2), C_G | zeta_G ~ N(a zeta_G, t^2)), and
+g(c) = int dzeta_G u p(c u, zeta_G) splits at zeta_c = (1 - u_min)/lambda (our derivation):
+
+* the logarithmic part (u >= u_min): with the exponent A (u - mu)^2 + q_min of
+  :func:`scan.observables.pbh.ng_density._ln_log_map`,
+  g_1 = e^{-q_min/2} / (2 pi sqrt(det) |lambda|) int_{u_min}^inf u e^{-A (u - mu)^2/2} du,
+  and int_{u_min}^inf = (e^{-x0^2} + sqrt(pi) x erfc(x0)) / A, x = mu sqrt(A/2),
+  x0 = (u_min - mu) sqrt(A/2) (for u_min = 0 the plain map's half moment);
+* the capped part (u = u_min, zeta_G beyond zeta_c):
+  g_2 = u_min p_C(c u_min) P(zeta_G beyond zeta_c | C_G = c u_min), a Gaussian density
+  times a normal tail (zeta_G | C_G = C ~ N(sigma_cr^2 C / sigma_c^2, s^2),
+  s^2 = sigma_r^2 - sigma_cr^4 / sigma_c^2).
+
+Every argument broadcasts (the stacked path passes lambda and u_min per pair).
+tests/test_pbh_ng_capped.py checks it against direct quadrature of the integral.
+:func:`capped_pairs` is the same formula compiled per pair (numba; why numba: see
+:mod:`scan.observables.pbh.ng_ridge`), with asymptotic series in the far tails.
+
+Units: all quantities [1].
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+from scipy import special
+
+from scan.observables.pbh.ng_ridge import FASTMATH
+
+#: The compiled form takes erfcx(x0) = e^{x0^2} erfc(x0) from libm's erfc below this
+#: (erfc(25) = 8e-274, e^{625} = 3e271: both finite); above, its asymptotic series.
+X0_COMPILED: float = 25.0
+#: ... and ln Phi(z) = ln(erfc(-z/sqrt 2)/2) above this z (erfc(26.2) ~ 1e-300: still a
+#: normal double); below, its asymptotic series (:func:`_ln_ndtr`).
+Z_COMPILED: float = -37.0
+#: Above this x0 the difference 1 - sqrt(pi) x0 erfcx(x0) is taken from its asymptotic
+#: series (as :data:`scan.observables.pbh.ng_density._Z_SERIES`).
+_Z_SERIES: float = 100.0
+
+
+def _one_minus(z):
+    """1 - sqrt(pi) z erfcx(z) [1] for z > 0, stable for large z (the series
+    1/(2z^2) - 3/(4z^4) + 15/(8z^6) - 105/(16z^8), Abramowitz & Stegun 1964, eq. 7.1.23,
+    from memory, as :func:`scan.observables.pbh.ng_density._series`)."""
+    out = 1 - math.sqrt(math.pi) * z * special.erfcx(z)
+    far = z > _Z_SERIES
+    r = 1.0 / (z[far] * z[far])
+    out[far] = r * (0.5 + r * (-0.75 + r * (1.875 - r * 6.5625)))
+    return out
+
+
+def ln_moment_above(A, mu, u_min):
+    """ln int_{u_min}^inf u exp(-A (u - mu)^2 / 2) du [1] (u_min >= 0), stable for every
+    sign of u_min - mu."""
+    A, mu, u_min = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (A, mu, u_min)))
+    root = np.sqrt(0.5 * A)
+    x0 = (u_min - mu) * root
+    xm = u_min * root
+    out = np.empty(A.shape)
+    low = x0 <= 0
+    with np.errstate(over="ignore", under="ignore", divide="ignore"):
+        z = x0[low]
+        out[low] = np.log(np.exp(-z * z) + math.sqrt(math.pi) * (xm[low] - z)
+                          * special.erfc(z))
+        z = x0[~low]
+        out[~low] = -z * z + np.log(_one_minus(z) + math.sqrt(math.pi) * xm[~low]
+                                    * special.erfcx(z))
+    return out - np.log(A)
+
+
+def ln_capped_density(c, s_c2, s_cr, s_r2, lam, u_min):
+    """ln g(c) [1] of the capped logarithmic map (see the module doc); ``u_min`` = 0 gives
+    the plain logarithmic map.  Arguments broadcast; lambda != 0, 0 <= u_min < 1."""
+    c, s_c2, s_cr, s_r2, lam, u_min = np.broadcast_arrays(
+        *(np.asarray(v, dtype=float) for v in (c, s_c2, s_cr, s_r2, lam, u_min)))
+    a = s_cr / s_r2
+    t2 = np.maximum(s_c2 - a * s_cr, 1e-300)
+    ln_norm = -math.log(2 * math.pi) - 0.5 * np.log(s_r2 * t2)
+    kappa = 1.0 / (lam * lam * s_r2)
+    b = a / lam
+    alpha = c + b
+    A = kappa + alpha * alpha / t2
+    mu = (kappa + alpha * b / t2) / A
+    q_min = kappa * c * c / (t2 * A)
+    ln_g1 = ln_norm - np.log(np.abs(lam)) - 0.5 * q_min + ln_moment_above(A, mu, u_min)
+    with np.errstate(divide="ignore"):
+        C = c * u_min
+        rho = s_cr / s_c2
+        s = np.sqrt(np.maximum(s_r2 - rho * s_cr, 1e-300))
+        edge = (1 - u_min) / lam
+        tail = special.log_ndtr(np.sign(lam) * (rho * C - edge) / s)
+        ln_g2 = np.log(u_min) - 0.5 * np.log(2 * math.pi * s_c2) - 0.5 * C * C / s_c2 + tail
+    return np.logaddexp(ln_g1, ln_g2)
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _tail_moment(x0, xm):
+    """(1 - sqrt(pi) x0 erfcx(x0)) + sqrt(pi) xm erfcx(x0) [1] for x0 >= ``X0_COMPILED``
+    from the asymptotic series of erfcx (Abramowitz & Stegun 1964, eq. 7.1.23, from
+    memory): sqrt(pi) x erfcx(x) = 1 - 1/(2x^2) + 3/(4x^4) - 15/(8x^6) + 105/(16x^8),
+    first omitted term 945/(32 x^10) < 4e-13 relative at x = 25."""
+    r = 1.0 / (x0 * x0)
+    series = 1.0 + r * (-0.5 + r * (0.75 + r * (-1.875 + r * 6.5625)))
+    return r * (0.5 + r * (-0.75 + r * (1.875 - r * 6.5625))) + xm / x0 * series
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _ln_ndtr(z):
+    """ln Phi(z) [1]: ln(erfc(-z/sqrt 2)/2) above ``Z_COMPILED``, below it the asymptotic
+    series -z^2/2 - ln(-z sqrt(2 pi)) + ln(1 - 1/z^2 + 3/z^4 - 15/z^6 + 105/z^8)
+    (Abramowitz & Stegun 1964, eq. 26.2.12, from memory; first omitted term 945/z^10 <
+    2e-13 relative there; checked against scipy's log_ndtr in tests/test_pbh_ng_capped.py)."""
+    if z >= Z_COMPILED:
+        return math.log(0.5 * math.erfc(-z / math.sqrt(2.0)))
+    r = 1.0 / (z * z)
+    return -0.5 * z * z - math.log(-z * math.sqrt(2.0 * math.pi)) \
+        + math.log(1.0 + r * (-1.0 + r * (3.0 + r * (-15.0 + 105.0 * r))))
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def capped_pairs(c, s_c2, s_cr, s_r2, lam, u_min, shift):
+    """ln g [1] of the capped logarithmic map at the nodes ``c`` (1 or n, n_y) for pairs
+    (n,) with their own ``lam`` and ``u_min`` (n,), plus ``shift``: :func:`ln_capped_density`
+    compiled per pair (the far tails x0 >= ``X0_COMPILED`` and z < ``Z_COMPILED`` from
+    asymptotic series)."""
+    n, m = s_c2.size, c.shape[1]
+    per_pair = c.shape[0] > 1
+    out = np.empty((n, m))
+    rt_pi = math.sqrt(math.pi)
+    for i in range(n):
+        a = s_cr[i] / s_r2[i]
+        t2 = max(s_c2[i] - a * s_cr[i], 1e-300)
+        lm, um = lam[i], u_min[i]
+        base = -math.log(2.0 * math.pi) - 0.5 * math.log(s_r2[i] * t2) - math.log(abs(lm))
+        kappa = 1.0 / (lm * lm * s_r2[i])
+        b = a / lm
+        rho = s_cr[i] / s_c2[i]
+        s = math.sqrt(max(s_r2[i] - rho * s_cr[i], 1e-300))
+        edge = (1.0 - um) / lm
+        sign = 1.0 if lm > 0 else -1.0
+        cap_base = (math.log(um) if um > 0 else -math.inf) \
+            - 0.5 * math.log(2.0 * math.pi * s_c2[i])
+        row = i if per_pair else 0
+        for j in range(m):
+            cj = c[row, j]
+            alpha = cj + b
+            A = kappa + alpha * alpha / t2
+            mu = (kappa + alpha * b / t2) / A
+            root = math.sqrt(0.5 * A)
+            x0 = (um - mu) * root
+            xm = um * root
+            if x0 <= 0.0:
+                moment = math.log(math.exp(-x0 * x0) + rt_pi * (xm - x0) * math.erfc(x0))
+            elif x0 < X0_COMPILED:
+                ex = math.erfc(x0) * math.exp(x0 * x0)
+                moment = -x0 * x0 + math.log((1.0 - rt_pi * x0 * ex) + rt_pi * xm * ex)
+            else:
+                moment = -x0 * x0 + math.log(_tail_moment(x0, xm))
+            g1 = base - 0.5 * kappa * cj * cj / (t2 * A) + moment - math.log(A)
+            if um > 0.0:
+                C = cj * um
+                z = sign * (rho * C - edge) / s
+                g2 = cap_base - 0.5 * C * C / s_c2[i] + _ln_ndtr(z)
+                top = max(g1, g2)
+                out[i, j] = top + math.log(math.exp(g1 - top) + math.exp(g2 - top)) + shift
+            else:
+                out[i, j] = g1 + shift
+    return out
