@@ -15,8 +15,9 @@ log-normal width 0.5 at f_* = 10 nHz: 1.04, 1.86, 1.68, 1.06 at k/k_* = 0.5, 1, 
 1.5; width 0.2: 0.86, 2.32, 1.63, 0.62; flat P (t <= 15): 1.13, 1.18, 1.55, 0.76, 0.82 at
 f = 1, 3, 10, 30, 100 nHz; width 0.5 at f_* = 3 nHz: 1.08, 1.24, 1.25, 1.31, at 30 nHz:
 1.18, 0.75, 0.68, 0.60, at 100 nHz: 1.03, 0.82, 0.76, 0.70 (k/k_* = 0.5, 1, 2/sqrt(3),
-1.5).  The RD values reproduce the log-normal table of /work/shared/physics/observables.md
-(0.2996, 0.3160 at width 0.5) to 1e-4.
+1.5).  The RD values reproduce an independent computation of the log-normal case in the
+setup of Pi & Sasaki 2020 (arXiv:2005.12306; 0.2996, 0.3160 at width 0.5 -- computed, not a
+published number) to 1e-4.
 """
 from __future__ import annotations
 
