@@ -14,10 +14,12 @@ from scan.models import Model, Pole
 from scan.models.types import width_from_sharpness
 from scan.pipeline.solve import model_of, wall_sharpness
 from scan.pipeline.validity import FEATURE_REASON, TILT_LIMIT, feature_at_pivot
-from scan.pipeline.wall import NoWall, locate_wall
+from scan.pipeline.wall import WALL_RTOL, NoWall, locate_wall
 from scan.posterior.reasons import REASONS, Reason, of_exact_solve
 from scan.surrogate.adapter import solve_point
+from scan.surrogate.identity import differences, identity
 from scan.surrogate.record import shape_grid
+from scan.surrogate.space import from_config
 
 
 def t_model(*poles: Pole) -> Model:
@@ -143,3 +145,32 @@ def test_width_sharpness_and_wall_ratio_are_exclusive():
         "width = 0.026", "width = 0.026\nwall_ratio = 1.2")
     with pytest.raises(ConfigError, match="exactly one of width, sharpness, wall_ratio and"):
         load_config_text(text)
+
+
+def test_the_wall_is_a_smooth_function_of_the_power():
+    """λ_w(p) must be smooth on the scale of a surrogate's design, or the wall coordinate
+    d = λ/λ_w - 1 inherits the bisection's jumps (relative WALL_RTOL/d in d; near the wall
+    ln k_peak moves by 3.5-7 per unit of ln d, so 1e-4 at d = 2e-3 gave steps of ~0.1 in
+    ln k_peak between powers 7e-4 apart, measured on wide_scan_high).  Three powers 7e-4
+    apart (wide_scan_high, position 4.639): the second difference of λ_w is the smooth
+    curvature (measured 8.5e-7 relative) plus at most 2 WALL_RTOL of bisection noise; with
+    the former 1e-4 tolerance it was 8.6e-5.  The bound 1e-5 separates the two."""
+    config = load_config("configs/wide_scan_high.toml")
+    lams = []
+    for power in (1.24784, 1.24854, 1.24924):
+        text = config.text.replace("position = 5.0", "position = 4.63944").replace(
+            "power = 1.0", f"power = {power}")
+        lams.append(wall_sharpness(load_config_text(text), 0))
+    second = abs(lams[0] - 2 * lams[1] + lams[2]) / lams[1]
+    assert second < 1e-5 and 2 * WALL_RTOL < 1e-6
+
+
+def test_a_wall_config_records_the_wall_tolerance_in_its_identity():
+    """Stores made with another wall tolerance are refused on resume (identity differs)."""
+    config = load_config("configs/wide_scan_high.toml")
+    ident = identity(config, from_config(config))
+    assert ident["wall.rtol"] == WALL_RTOL
+    plain = load_config("configs/pole_scan.toml")
+    assert "wall.rtol" not in identity(plain, from_config(plain))
+    old = dict(ident, **{"wall.rtol": 1e-4})
+    assert differences(old, ident) == ["wall.rtol: store has 0.0001, config has 1e-08"]

@@ -4,7 +4,9 @@ Two runs may share training points only if everything that changes a solve or th
 agrees.  :func:`identity` collects those values as flat ``key path -> value`` pairs;
 :func:`differences` says which ones differ, for the refusal message.  The base values of
 the varied parameters are left out (every point overrides them), as are the run name,
-output folder and the ``[surrogate]`` sizes (more points may be added on resume).
+output folder and the ``[surrogate]`` sizes (more points may be added on resume).  A
+config with a wall coordinate also records the wall's bisection tolerance
+(:data:`scan.pipeline.wall.WALL_RTOL`): stores made with a coarser wall are refused.
 """
 from __future__ import annotations
 
@@ -12,6 +14,7 @@ import json
 from typing import Any
 
 from scan.config.spec import as_dict
+from scan.pipeline.wall import WALL_RTOL
 
 #: Config sections that change an exact solve.
 PHYSICS_SECTIONS: tuple[str, ...] = ("model", "background", "pivot", "modes")
@@ -44,12 +47,22 @@ def identity(config, space) -> dict[str, Any]:
     for section in PHYSICS_SECTIONS:
         flat = flatten(as_dict(getattr(config, section)), section)
         out.update({k: v for k, v in flat.items() if k not in varied})
+    if uses_wall(config):  # the wall's bisection tolerance sets the coordinate's accuracy
+        out["wall.rtol"] = WALL_RTOL
     out["run.seed"] = config.run.seed
     out["surrogate.shape_span"] = config.surrogate.shape_span
     out["surrogate.shape_points"] = config.surrogate.shape_points
     for i, (key, kind, low, high) in enumerate(space.as_table()):
         out[f"parameters[{i}]"] = f"{key} {kind} [{low!r}, {high!r}]"
     return json.loads(json.dumps(out))
+
+
+def uses_wall(config) -> bool:
+    """Whether a pole of ``config`` is given by a wall coordinate (wall_ratio, wall_distance)."""
+    model = getattr(config, "model", None)
+    return any(getattr(p, "wall_ratio", None) is not None
+               or getattr(p, "wall_distance", None) is not None
+               for p in getattr(model, "poles", ()) or ())
 
 
 def differences(stored: dict[str, Any], wanted: dict[str, Any]) -> list[str]:
