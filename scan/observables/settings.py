@@ -42,6 +42,8 @@ class ObservableSettings:
         ``[observables] qcd_threshold``.
     qcd_collapse : str
         ``[observables] qcd_collapse``.
+    sigw_kernel : str
+        ``[observables] sigw_kernel`` (:mod:`scan.observables.sigw_kernel_table`).
     """
 
     conventions: PBHConventions
@@ -53,6 +55,7 @@ class ObservableSettings:
     zeta_map: ZetaMap | None = None
     qcd_threshold: str = "off"
     qcd_collapse: str = "off"
+    sigw_kernel: str = "radiation"
 
     def compute(self, k: np.ndarray, P_zeta: np.ndarray,
                 zeta_map: ZetaMap | None = None) -> Observables:
@@ -64,7 +67,8 @@ class ObservableSettings:
                                    n_m=self.n_m, dof=self.dof, n_eff=self.n_eff,
                                    zeta_map=zeta_map or self.zeta_map,
                                    qcd_threshold=self.qcd_threshold,
-                                   qcd_collapse=self.qcd_collapse)
+                                   qcd_collapse=self.qcd_collapse,
+                                   sigw_kernel=self.sigw_kernel)
 
 
 def conventions_of(section: ObservablesSection) -> PBHConventions:
@@ -85,7 +89,7 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
                                                     log_lambda=section.log_lambda)
     return ObservableSettings(conventions_of(section), dof, section.n_eff, section.n_f,
                               section.n_m, kind, zmap, section.qcd_threshold,
-                              section.qcd_collapse)
+                              section.qcd_collapse, section.sigw_kernel)
 
 
 def require_batch_conventions(section: ObservablesSection, source: str,
@@ -101,11 +105,23 @@ def require_batch_conventions(section: ObservablesSection, source: str,
     (:func:`scan.posterior.exact.exact_from_arrays`), where ``model`` (which needs the
     background for delta-N) is refused.
 
+    The induced-GW integral of the batch path is one plan on a table relative to each
+    walker's peak, which the radiation kernel's scale-free form allows; the ``qcd-fluid``
+    kernel depends on the absolute re-entry temperature, so it is refused there (not
+    with ``exact_only``: that path plans each spectrum on its own k).
+
     Raises
     ------
     ConfigError
-        Naming ``observables.non_gaussianity``.
+        Naming ``observables.non_gaussianity`` or ``observables.sigw_kernel``.
     """
+    if not exact_only and section.sigw_kernel != "radiation":
+        raise ConfigError(source, "observables.sigw_kernel", f"'{section.sigw_kernel}' is "
+                          "computed by solve, observe and the exact solves only; the "
+                          "surrogate posterior and grid integrate Omega_GW with one "
+                          "scale-free plan for every walker, which needs the radiation "
+                          "kernel", "set sigw_kernel = 'radiation' for sample/grid (and "
+                          "check single models with solve or observe)")
     if exact_only and section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' needs the model's "
                           "background for its delta-N map, which a spectrum given as "
@@ -120,15 +136,16 @@ MODEL_MAP: str = "capped_logarithmic"
 def pbh_convention_attrs(section: ObservablesSection) -> dict:
     """The PBH statistics conventions of a run as flat attributes (as ``pbh`` of a solve
     result): ``non_gaussianity`` and its parameters (for ``model``, ``model_map``: the
-    emulated representation of each sample's delta-N map), ``qcd_threshold``, ``qcd_collapse``
-    and, with either on, ``qcd_notes`` (the limitation lines the single path prints,
+    emulated representation of each sample's delta-N map), ``qcd_threshold``, ``qcd_collapse``,
+    ``sigw_kernel`` (the induced-GW kernel) and, with either on, ``qcd_notes`` (the limitation lines the single path prints,
     newline-separated, :func:`scan.observables.pbh.qcd.qcd_notes`)."""
     settings = settings_of(section)
     attrs = {"non_gaussianity": section.non_gaussianity} \
         if section.non_gaussianity in ("gaussian", "model") else settings.zeta_map.as_attrs()
     if section.non_gaussianity == "model":           # the batch path's representation
         attrs["model_map"] = MODEL_MAP
-    attrs.update(qcd_threshold=section.qcd_threshold, qcd_collapse=section.qcd_collapse)
+    attrs.update(qcd_threshold=section.qcd_threshold, qcd_collapse=section.qcd_collapse,
+                 sigw_kernel=section.sigw_kernel)
     notes = qcd_notes(settings.conventions, section.qcd_threshold, section.qcd_collapse,
                       settings.dof)
     return {**attrs, "qcd_notes": "\n".join(notes)} if notes else attrs

@@ -193,7 +193,8 @@ def chain_path(run: str | Path) -> Path:
 
 #: Root attributes of a chain recording the PBH non-Gaussianity and QCD-era conventions.
 CONVENTION_ATTRS: tuple[str, ...] = ("non_gaussianity", "f_nl", "g_nl", "log_lambda",
-                                     "model_map", "qcd_threshold", "qcd_collapse", "qcd_notes")
+                                     "model_map", "qcd_threshold", "qcd_collapse", "qcd_notes",
+                                     "sigw_kernel")
 
 
 def pbh_convention(path: str | Path) -> dict[str, Any]:
