@@ -100,9 +100,16 @@ def _spline(z: np.ndarray, s: np.ndarray, values: np.ndarray) -> RectBivariateSp
     return RectBivariateSpline(z, s, values, kx=3, ky=3, s=0)
 
 
+@lru_cache(maxsize=4)
+def _radiation_spline(table: KernelTable, left: bool) -> RectBivariateSpline:
+    """The spline of K_fluid(radiation) on one side (the same for every T_c)."""
+    return _spline(table.z_left if left else table.z_right, table.s,
+                   table.rd_left if left else table.rd_right)
+
+
 def _side(t: np.ndarray, table: KernelTable, left: bool) -> np.ndarray:
     """z of the nodes on one side, held inside that side's grid."""
-    z = np.log(np.abs(t - T_RESONANCE)) if t.size else t
+    z = np.log(np.abs(t - T_RESONANCE))
     grid = table.z_left if left else table.z_right
     return np.clip(z, grid[0], grid[-1])
 
@@ -133,12 +140,13 @@ def kernel_at(table: KernelTable, T_c_GeV: float, t, s, k_rd) -> np.ndarray:
     out = np.empty(k_rd.shape)
     for left in (True, False):
         mask = (t < T_RESONANCE) if left else (t >= T_RESONANCE)
+        if not mask.any():
+            continue
         z_grid = table.z_left if left else table.z_right
         d_rows = (table.d_left if left else table.d_right)[first:first + 4]
-        rd = table.rd_left if left else table.rd_right
         z = _side(t[mask], table, left)
         d = _spline(z_grid, table.s, np.tensordot(weights, d_rows, axes=1)).ev(z, s[mask])
-        ratio = 1.0 + d / _spline(z_grid, table.s, rd).ev(z, s[mask])
+        ratio = 1.0 + d / _radiation_spline(table, left).ev(z, s[mask])
         near = (np.abs(t[mask] - T_RESONANCE) < DELTA_SWITCH) | (t[mask] > table.t_max)
         out[mask] = np.where(near, k_rd[mask] * ratio, k_rd[mask] + d)
     return out
@@ -150,6 +158,6 @@ def kernel_range_note(table: KernelTable) -> str:
     f_lo, f_hi = (float(cosmo.k_to_f(cosmo.k_of_temperature(T))) for T in (lo, hi))
     return (f"sigw_kernel = 'qcd-fluid': induced GWs on the {TABLE_GSTAR} background "
             f"(softened w, c_s^2; perfect adiabatic fluid, no free-streaming or anisotropic "
-            f"stress), tabulated for re-entry at {lo * 1e3:.3g} MeV - {hi:.3g} GeV "
+            f"stress), tabulated for re-entry at T_c = {lo:.3g} - {hi:.3g} GeV "
             f"(f ~ {f_lo:.2g} - {f_hi:.2g} Hz), radiation kernel outside; "
             f"{INTERPOLATION_NOTE}")
