@@ -117,11 +117,11 @@ def require_batch_conventions(section: ObservablesSection, source: str,
     """
     if not exact_only and section.sigw_kernel != "radiation":
         raise ConfigError(source, "observables.sigw_kernel", f"'{section.sigw_kernel}' is "
-                          "computed by solve, observe and the exact solves only; the "
-                          "surrogate posterior and grid integrate Omega_GW with one "
-                          "scale-free plan for every walker, which needs the radiation "
-                          "kernel", "set sigw_kernel = 'radiation' for sample/grid (and "
-                          "check single models with solve or observe)")
+                          "computed by solve, observe and exact solves only; the surrogate "
+                          "posterior integrates Omega_GW with one scale-free plan for every "
+                          "walker, which needs the radiation kernel", "set sigw_kernel = "
+                          "'radiation' for sample and surrogate grids (check single models "
+                          "with solve or observe, or use an exact grid)")
     if exact_only and section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' needs the model's "
                           "background for its delta-N map, which a spectrum given as "
