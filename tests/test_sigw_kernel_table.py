@@ -10,6 +10,7 @@ crossover -- here: the nHz log-normal peak changes by a factor ~1.9 at its maxim
 """
 from __future__ import annotations
 
+import itertools
 import math
 
 import numpy as np
@@ -22,7 +23,11 @@ from scan.observables import cosmo
 from scan.observables import sigw_fluid as sf
 from scan.observables.settings import require_batch_conventions
 from scan.observables.sigw import induced_kernel, plan_sigw
-from scan.observables.sigw_kernel_table import DELTA_SWITCH, kernel_at, load_kernel_table
+from scan.observables.sigw_kernel_table import (
+    DELTA_SWITCH,
+    kernel_at,
+    load_kernel_table,
+)
 from scan.observables.sigw_nodes import T_RESONANCE
 
 TABLE = load_kernel_table()
@@ -88,7 +93,7 @@ def _small_node_set(k, k_star, width):
 
     def panels(a, b, n):
         edges = np.linspace(a, b, n + 1)
-        pairs = list(zip(edges[:-1], edges[1:]))
+        pairs = list(itertools.pairwise(edges))
         return (np.concatenate([0.5 * (hi - lo) * x + 0.5 * (hi + lo) for lo, hi in pairs]),
                 np.concatenate([0.5 * (hi - lo) * w for lo, hi in pairs]))
 

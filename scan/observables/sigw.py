@@ -31,9 +31,18 @@ import numpy as np
 from scipy import sparse
 
 from scan.observables import cosmo
-from scan.observables.sigw_kernel_table import SIGW_KERNELS, kernel_at, load_kernel_table
-from scan.observables.sigw_nodes import (T_RESONANCE, TINY, interpolation_entries,  # noqa: F401
-                                         kernel_array, nodes_for_k)
+from scan.observables.sigw_kernel_table import (
+    SIGW_KERNELS,
+    kernel_at,
+    load_kernel_table,
+)
+from scan.observables.sigw_nodes import (  # noqa: F401
+    T_RESONANCE,
+    TINY,
+    interpolation_entries,
+    kernel_array,
+    nodes_for_k,
+)
 
 
 class TruncationWarning(UserWarning):

@@ -21,7 +21,11 @@ import numpy as np
 
 from scan.observables import sigw_fluid as sf
 from scan.observables.sigw import induced_kernel
-from scan.observables.sigw_kernel_table import DELTA_SWITCH, kernel_at, load_kernel_table
+from scan.observables.sigw_kernel_table import (
+    DELTA_SWITCH,
+    kernel_at,
+    load_kernel_table,
+)
 from scan.observables.sigw_nodes import T_RESONANCE
 
 

@@ -48,7 +48,7 @@ V_FLOOR = 1e-5
 
 def grid():
     """(ln T_c, z_left, z_right, s) of the table."""
-    n_t = int(round(math.log(T_HI / T_LO) / D_LN_T)) + 1
+    n_t = round(math.log(T_HI / T_LO) / D_LN_T) + 1
     ln_t = np.linspace(math.log(T_LO), math.log(T_HI), n_t)
     z_left = np.linspace(math.log(DELTA_MIN), math.log(T_RES), N_LEFT)
     z_right = np.linspace(math.log(DELTA_MIN), math.log(T_MAX - T_RES), N_RIGHT)
