@@ -31,11 +31,13 @@ from scan.observables.sigw_kernel_table import (
 from scan.observables.sigw_nodes import T_RESONANCE
 
 TABLE = load_kernel_table()
-#: Interpolation error of the table, measured by tests/tools/fluid_kernel_table_error.py
-#: over 240 seeded off-grid points (module docstring of scan.observables.sigw_kernel_table):
-#: |K_table - K_direct| <= REL (|K_direct| + FLOOR).
-REL, FLOOR = 2e-2, 1e-2
-#: Its L1-weighted error sum|dK| / sum|K| over the same points.
+#: Interpolation error of the table where it is applied (T_c <= 2 GeV), measured by
+#: tests/tools/fluid_kernel_table_error.py at seeded off-grid points (module docstring of
+#: scan.observables.sigw_kernel_table): |K_table - K_direct| <= REL (|K_direct| + FLOOR),
+#: largest measured 2.4e-2, stated as 3e-2; not within ~0.1 of the resonance in t, where
+#: the direct kernel's own finite-eta_end ripples (a few per cent) are not tabulated.
+REL, FLOOR = 3e-2, 1e-2
+#: Its L1-weighted error sum|dK| / sum|K| (measured 1.8e-3 at 0.3-1 GeV, 3.7e-3 at 1-2 GeV).
 L1 = 4e-3
 
 
@@ -53,6 +55,7 @@ def test_default_and_outside_the_table_are_the_radiation_plan():
     """Outside the table's T_c rows (and by default) the plan's weights are the RD ones
     exactly: same nodes, same arithmetic (this repository's convention, module doc)."""
     lo, hi = TABLE.T_range
+    assert (lo, hi) == (pytest.approx(0.003), 2.0)
     for T_out in (0.3 * lo, 3.0 * hi):
         k_star = float(cosmo.k_of_temperature(T_out))
         k_in = k_star * np.exp(np.linspace(-3, 3, 61))
@@ -67,13 +70,13 @@ def test_default_and_outside_the_table_are_the_radiation_plan():
 
 @pytest.mark.parametrize("T_c, t, s", [
     (0.0731, [0.21, 1.07, 1.9, 4.3], [0.33, 0.71, 0.12, 0.55]),
-    (0.433, [0.55, 0.69, 0.80, 2.7], [0.45, 0.08, 0.62, 0.91]),
-    (3.17, [0.37, 0.75, 1.33, 8.2], [0.5, 0.29, 0.77, 0.4]),
+    (0.433, [0.55, 0.87, 1.33, 2.7], [0.45, 0.08, 0.62, 0.91]),
+    (1.63, [0.37, 1.05, 1.33, 8.2], [0.5, 0.29, 0.77, 0.4]),
 ])
 def test_table_matches_direct_integration_off_grid(T_c, t, s):
-    """Off-grid (T_c, t, s): the table equals the same construction from direct
-    fluid_kernel values (K_RD + D away from the resonance, K_RD times the ratio near it)
-    within its measured interpolation error REL (|K| + FLOOR)."""
+    """Off-grid (T_c, t, s), |t - t_res| >= 0.1: the table equals the same construction
+    from direct fluid_kernel values (K_RD + D away from the resonance, K_RD times the ratio
+    near it) within its measured interpolation error REL (|K| + FLOOR)."""
     t, s = np.array(t), np.array(s)
     u, v = 0.5 * (t + s + 1), 0.5 * (t - s + 1)
     closed = induced_kernel(u, v)

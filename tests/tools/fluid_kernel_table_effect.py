@@ -3,7 +3,7 @@
 1. Edges: sum|D| / sum|K_rad| over each T_c row's (z, s) grid (D = K_fluid(T_c) -
    K_fluid(radiation)), printed for the first and last rows and the largest.
 2. Effect: Omega_GW(qcd-fluid) / Omega_GW(radiation) from the plans (synthetic log-normal
-   P_zeta, widths 0.5 and 0.2, peak at 10 nHz) at k/k_* = 0.5, 1, 2/sqrt(3), 1.5.
+   P_zeta, widths 0.5 and 0.2, peak at 10 and 100 nHz) at k/k_* = 0.5, 1, 2/sqrt(3), 1.5.
 3. Interpolation error on Omega: on a small (t, s) node set, the table kernel against the
    same construction from direct fluid_kernel values (tests/test_sigw_kernel_table.py).
 4. Plan-build time with and without the option (same table, 200 outputs over the peak,
@@ -44,16 +44,16 @@ def edges(table) -> None:
         print(f"row T_c = {T[i]:.4g} GeV: sum|D|/sum|K_rad| = {size[i]:.2e}")
 
 
-def effect_and_error(table) -> None:
-    """Plan ratios and the node-set interpolation error on Omega."""
-    k_star = float(cosmo.f_to_k(1e-8))
+def effect_and_error(table, f_star: float) -> None:
+    """Plan ratios and the node-set interpolation error on Omega (peak at f_star [Hz])."""
+    k_star = float(cosmo.f_to_k(f_star))
     k_in = k_star * np.exp(np.linspace(-4, 4, 161))
     x_out = np.array([0.5, 1.0, 2 / math.sqrt(3), 1.5])
     for width in (0.5, 0.2):
         P = _lognormal(k_in, k_star, width)
         rd = plan_sigw(k_in, k_star * x_out).omega_gw(P)
         qcd = plan_sigw(k_in, k_star * x_out, kernel="qcd-fluid").omega_gw(P)
-        print(f"width {width}: Omega(qcd-fluid)/Omega(radiation) at k/k_* = "
+        print(f"f_* = {f_star:.0e} Hz, width {width}: Omega(qcd-fluid)/Omega(radiation) at k/k_* = "
               + ", ".join(f"{x:.3f}: {r:.3f}" for x, r in zip(x_out, qcd / rd)))
         errors = []
         for x in x_out:
@@ -91,7 +91,8 @@ def main() -> int:
     print(f"table: T_c {table.T_range[0]:.4g}-{table.T_range[1]:.4g} GeV, "
           f"{table.ln_T_c.size} rows; {table.provenance}")
     edges(table)
-    effect_and_error(table)
+    for f_star in (1e-8, 1e-7):
+        effect_and_error(table, f_star)
     build_cost()
     return 0
 

@@ -6,8 +6,8 @@ with half the points within 0.3 of the RD resonance, s uniform on [0, 1]) the ta
 construction applied to direct :func:`scan.observables.sigw_fluid.fluid_kernel` values
 (K_RD + K_fluid(T_c) - K_fluid(rad) away from the resonance, K_RD K_fluid(T_c)/K_fluid(rad)
 near it), so the difference is the interpolation error alone.  Printed: the L1-weighted
-error sum|dK|/sum|K|, and quantiles of |dK|/(|K| + floor) for floor = 1e-2 and 1e-3
-(K ~ 0.1-10 where Omega_GW gets its weight), by region.
+error sum|dK|/sum|K|, and quantiles of |dK|/(|K| + 0.01) (K ~ 0.1-10 where Omega_GW
+gets its weight), by region (|t - t_res| below or above DELTA_SWITCH) and T_c band.
 
     nice -n 15 python tests/tools/fluid_kernel_table_error.py [n_T] [n_per_T]
 """
@@ -62,14 +62,18 @@ def main(argv: list[str]) -> int:
     near = np.abs(t - T_RESONANCE) < DELTA_SWITCH
     print(f"{data.shape[0]} points, T_c {T_c.min():.3g}-{T_c.max():.3g} GeV, "
           f"{time.process_time() - start:.0f} s CPU")
-    for name, mask in (("all", np.ones_like(near)), ("near resonance", near),
-                       ("elsewhere", ~near)):
+    low = T_c < 1.0
+    for name, mask in (("all", np.ones_like(near)), ("near, T_c < 1 GeV", near & low),
+                       ("near, T_c >= 1 GeV", near & ~low), ("away, T_c < 1 GeV", ~near & low),
+                       ("away, T_c >= 1 GeV", ~near & ~low), ("T_c < 1 GeV", low),
+                       ("T_c >= 1 GeV", ~low)):
+        if not mask.any():
+            continue
         e, r = err[mask], ref[mask]
         line = f"{name:>15}: L1 {e.sum() / np.abs(r).sum():.2e}"
-        for floor in (1e-2, 1e-3):
-            q = e / (np.abs(r) + floor)
-            line += f"; |dK|/(|K|+{floor:g}) median {np.median(q):.1e} 90% " \
-                    f"{np.quantile(q, 0.9):.1e} max {q.max():.1e}"
+        q = e / (np.abs(r) + 1e-2)
+        line += (f"; |dK|/(|K|+0.01) median {np.median(q):.1e} 90% {np.quantile(q, 0.9):.1e}"
+                 f" 99% {np.quantile(q, 0.99):.1e} max {q.max():.1e} ({mask.sum()} points)")
         print(line)
     worst = np.argsort(err / (np.abs(ref) + 1e-2))[-5:]
     for i in worst:
