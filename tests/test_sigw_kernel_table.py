@@ -21,7 +21,7 @@ from scan.config.schema import ObservablesSection
 from scan.errors import ConfigError
 from scan.observables import cosmo
 from scan.observables import sigw_fluid as sf
-from scan.observables.settings import require_batch_conventions
+from scan.observables.settings import gw_convention_attrs, require_batch_conventions
 from scan.observables.sigw import induced_kernel, plan_sigw
 from scan.observables.sigw_kernel_table import (
     DELTA_SWITCH,
@@ -196,3 +196,10 @@ def test_batch_path_refuses_the_tabulated_kernel():
         require_batch_conventions(section, "run.toml")
     require_batch_conventions(section, "run.toml", exact_only=True)
     require_batch_conventions(ObservablesSection(), "run.toml")
+
+
+def test_chains_and_grids_record_the_kernel():
+    """Chain and grid files carry ``sigw_kernel`` beside the PBH conventions."""
+    assert gw_convention_attrs(ObservablesSection()) == {"sigw_kernel": "radiation"}
+    assert gw_convention_attrs(ObservablesSection(sigw_kernel="qcd-fluid")) == {
+        "sigw_kernel": "qcd-fluid"}

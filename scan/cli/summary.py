@@ -95,8 +95,7 @@ def convention_lines(conv: dict, derived: dict) -> list[str]:
     if kind in (None, "gaussian"):                      # Gaussian, or not recorded
         return lines
     params = ", ".join(f"{k} = {v:g}" for k, v in conv.items()
-                       if k not in ("non_gaussianity", "model_map", "sigw_kernel")
-                       and k not in QCD_KEYS)
+                       if k not in ("non_gaussianity", "model_map") and k not in QCD_KEYS)
     lines += [f"PBH abundance: non-Gaussian zeta, non_gaussianity = '{kind}'"
               + (f" ({params})" if params else "") + "; f_pbh_total uses it, "
               "f_pbh_total_gaussian is the same spectra with Gaussian zeta"]

@@ -136,16 +136,21 @@ MODEL_MAP: str = "capped_logarithmic"
 def pbh_convention_attrs(section: ObservablesSection) -> dict:
     """The PBH statistics conventions of a run as flat attributes (as ``pbh`` of a solve
     result): ``non_gaussianity`` and its parameters (for ``model``, ``model_map``: the
-    emulated representation of each sample's delta-N map), ``qcd_threshold``, ``qcd_collapse``,
-    ``sigw_kernel`` (the induced-GW kernel) and, with either on, ``qcd_notes`` (the limitation lines the single path prints,
+    emulated representation of each sample's delta-N map), ``qcd_threshold``, ``qcd_collapse``
+    and, with either on, ``qcd_notes`` (the limitation lines the single path prints,
     newline-separated, :func:`scan.observables.pbh.qcd.qcd_notes`)."""
     settings = settings_of(section)
     attrs = {"non_gaussianity": section.non_gaussianity} \
         if section.non_gaussianity in ("gaussian", "model") else settings.zeta_map.as_attrs()
     if section.non_gaussianity == "model":           # the batch path's representation
         attrs["model_map"] = MODEL_MAP
-    attrs.update(qcd_threshold=section.qcd_threshold, qcd_collapse=section.qcd_collapse,
-                 sigw_kernel=section.sigw_kernel)
+    attrs.update(qcd_threshold=section.qcd_threshold, qcd_collapse=section.qcd_collapse)
     notes = qcd_notes(settings.conventions, section.qcd_threshold, section.qcd_collapse,
                       settings.dof)
     return {**attrs, "qcd_notes": "\n".join(notes)} if notes else attrs
+
+
+def gw_convention_attrs(section: ObservablesSection) -> dict:
+    """The induced-GW convention of a run as flat attributes: ``sigw_kernel`` (chains and
+    grids, beside :func:`pbh_convention_attrs`)."""
+    return {"sigw_kernel": section.sigw_kernel}

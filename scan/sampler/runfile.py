@@ -34,7 +34,7 @@ from scan import store
 from scan.config.priors import width_prior_attributes
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
-from scan.observables.settings import pbh_convention_attrs
+from scan.observables.settings import gw_convention_attrs, pbh_convention_attrs
 from scan.sampler.moves import describe as describe_moves
 
 GROUP = "mcmc"
@@ -193,8 +193,7 @@ def chain_path(run: str | Path) -> Path:
 
 #: Root attributes of a chain recording the PBH non-Gaussianity and QCD-era conventions.
 CONVENTION_ATTRS: tuple[str, ...] = ("non_gaussianity", "f_nl", "g_nl", "log_lambda",
-                                     "model_map", "qcd_threshold", "qcd_collapse", "qcd_notes",
-                                     "sigw_kernel")
+                                     "model_map", "qcd_threshold", "qcd_collapse", "qcd_notes")
 
 
 def pbh_convention(path: str | Path) -> dict[str, Any]:
@@ -218,6 +217,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         if surrogate is not None:
             handle.attrs[SURROGATE_ATTR] = surrogate
         store.write_attrs(handle, pbh_convention_attrs(config.observables))
+        store.write_attrs(handle, gw_convention_attrs(config.observables))
         store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",
