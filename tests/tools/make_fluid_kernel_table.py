@@ -16,6 +16,10 @@ rows are computed from the middle of the range outwards and checkpointed after e
 row (``--out`` + ``.part.npz``), so an interrupted run leaves a contiguous, usable range.
 
     nice -n 15 python tests/tools/make_fluid_kernel_table.py [--out PATH] [--rows N]
+        [--t-range LO HI] [--d-ln-t STEP] [--n-right N]
+
+The shipped tables: the defaults (``sigw_kernel_qcd.npz``) and ``--t-range 1.5 6
+--d-ln-t 0.075 --n-right 96 --out scan/observables/data/sigw_kernel_qcd_high.npz``.
 
 Prints the cost of each row and the total CPU time.
 """
@@ -46,12 +50,13 @@ N_LEFT, N_RIGHT, N_S = 32, 48, 17
 V_FLOOR = 1e-5
 
 
-def grid():
+def grid(t_lo: float = T_LO, t_hi: float = T_HI, d_ln_t: float = D_LN_T,
+         n_right: int = N_RIGHT):
     """(ln T_c, z_left, z_right, s) of the table."""
-    n_t = round(math.log(T_HI / T_LO) / D_LN_T) + 1
-    ln_t = np.linspace(math.log(T_LO), math.log(T_HI), n_t)
+    n_t = round(math.log(t_hi / t_lo) / d_ln_t) + 1
+    ln_t = np.linspace(math.log(t_lo), math.log(t_hi), n_t)
     z_left = np.linspace(math.log(DELTA_MIN), math.log(T_RES), N_LEFT)
-    z_right = np.linspace(math.log(DELTA_MIN), math.log(T_MAX - T_RES), N_RIGHT)
+    z_right = np.linspace(math.log(DELTA_MIN), math.log(T_MAX - T_RES), n_right)
     return ln_t, z_left, z_right, np.linspace(0.0, 1.0, N_S)
 
 
@@ -77,7 +82,7 @@ def centre_out(n: int) -> list[int]:
     return order[:n]
 
 
-def provenance(done: np.ndarray, cpu: float) -> str:
+def provenance(done: np.ndarray, cpu: float, ln_t: np.ndarray, z_right: np.ndarray) -> str:
     """The JSON header naming how the table was made."""
     return json.dumps({
         "generator": "tests/tools/make_fluid_kernel_table.py",
@@ -86,9 +91,10 @@ def provenance(done: np.ndarray, cpu: float) -> str:
                        "gstar_saikawa_shirai_2018.csv, sha256 "
                        + hashlib.sha256(GSTAR_CSV.read_bytes()).hexdigest()[:16] + ")",
         "eta_end": sf.ETA_END, "a_start": sf.A_START,
-        "grid": {"T_c_GeV": [T_LO, T_HI], "d_ln_T": D_LN_T, "delta_min": DELTA_MIN,
-                 "t_max": T_MAX, "n_left": N_LEFT, "n_right": N_RIGHT, "n_s": N_S,
-                 "v_floor": V_FLOOR},
+        "grid": {"T_c_GeV": [round(math.exp(ln_t[0]), 6), round(math.exp(ln_t[-1]), 6)],
+                 "d_ln_T": round(float(ln_t[1] - ln_t[0]), 6), "delta_min": DELTA_MIN,
+                 "t_max": T_MAX, "n_left": N_LEFT, "n_right": int(z_right.size),
+                 "n_s": N_S, "v_floor": V_FLOOR},
         "rows_done": int(done.sum()), "cpu_seconds": round(cpu, 1),
         "stored": "d_* = K_fluid(T_c) - K_fluid(radiation), rd_* = K_fluid(radiation)",
     })
@@ -101,15 +107,21 @@ def save(path: Path, ln_t, z_left, z_right, s, d_left, d_right, rd_left, rd_righ
     keep = slice(idx.min(), idx.max() + 1)
     np.savez_compressed(path, ln_T_c=ln_t[keep], z_left=z_left, z_right=z_right, s=s,
                         d_left=d_left[keep], d_right=d_right[keep], rd_left=rd_left,
-                        rd_right=rd_right, provenance=np.array(provenance(done, cpu)))
+                        rd_right=rd_right,
+                        provenance=np.array(provenance(done, cpu, ln_t, z_right)))
 
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--out", type=Path, default=OUT)
     parser.add_argument("--rows", type=int, default=None, help="stop after N rows")
+    parser.add_argument("--t-range", type=float, nargs=2, default=(T_LO, T_HI),
+                        metavar=("LO", "HI"), help="T_c range [GeV]")
+    parser.add_argument("--d-ln-t", type=float, default=D_LN_T, help="step in ln T_c")
+    parser.add_argument("--n-right", type=int, default=N_RIGHT,
+                        help="t-points above the resonance")
     args = parser.parse_args(argv)
-    ln_t, z_left, z_right, s = grid()
+    ln_t, z_left, z_right, s = grid(*args.t_range, args.d_ln_t, args.n_right)
     start = time.process_time()
     rd_left, rd_right = side_kernels(sf.constant_background(1 / 3), z_left, z_right, s)
     print(f"radiation rows: {time.process_time() - start:.1f} s CPU", flush=True)
