@@ -33,8 +33,8 @@ from scipy import sparse
 from scan.observables import cosmo
 from scan.observables.sigw_kernel_table import (
     SIGW_KERNELS,
-    kernel_at,
-    load_kernel_table,
+    load_kernel_tables,
+    tabulated_kernel,
 )
 from scan.observables.sigw_nodes import (  # noqa: F401
     T_RESONANCE,
@@ -255,13 +255,13 @@ def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 
     if kernel not in SIGW_KERNELS:
         raise ValueError(f"kernel must be one of {SIGW_KERNELS}, got {kernel!r}")
     xg, wg = _gauss(n_gl)
-    table = load_kernel_table() if kernel == "qcd-fluid" else None
-    T_c = cosmo.temperature_of_k(k_out, dof) if table is not None else k_out
+    tables = load_kernel_tables() if kernel == "qcd-fluid" else None
+    T_c = cosmo.temperature_of_k(k_out, dof) if tables is not None else k_out
     iu_l, fu_l, iv_l, fv_l, w_l, counts = [], [], [], [], [], []
     for k, T in zip(k_out, T_c):
         iu, fu, iv, fv, w, t, s, q = nodes_for_k(float(k), lnk_in, h, xg, wg, int(grade))
-        if table is not None:
-            w = q * kernel_at(table, float(T), t, s, w / q)
+        if tables is not None:
+            w = q * tabulated_kernel(float(T), t, s, w / q, tables)
         iu_l.append(iu), fu_l.append(fu), iv_l.append(iv), fv_l.append(fv)
         w_l.append(w)
         counts.append(w.size)

@@ -61,13 +61,13 @@ from scan.observables.sigw_nodes import T_RESONANCE
 
 #: Names of ``[observables] sigw_kernel``: today's closed-form RD kernel, the table's.
 SIGW_KERNELS: tuple[str, ...] = ("radiation", "qcd-fluid")
-#: The shipped table.
-TABLE_PATH: Path = Path(__file__).parent / "data" / "sigw_kernel_qcd.npz"
+#: The shipped tables and the re-entry temperatures each is applied at [GeV] (a later
+#: entry wins where ranges meet; module docstring).
+DATA: Path = Path(__file__).parent / "data"
+TABLES: dict[str, tuple[float, float]] = {"sigw_kernel_qcd.npz": (0.003, 2.0)}
+TABLE_PATH: Path = DATA / "sigw_kernel_qcd.npz"
 #: Half-width in t around the RD resonance where the table's ratio (not difference) is used.
 DELTA_SWITCH: float = 0.2
-#: Highest re-entry temperature the table is applied at [GeV]: its rows reach 20 GeV, but
-#: above ~2 GeV the late resonance band is narrower than the grid (module docstring).
-T_APPLIED_MAX: float = 2.0
 #: The g_*(T) table (``[observables] gstar``) the kernel table was computed on.
 TABLE_GSTAR: str = "saikawa-shirai-2018"
 #: Measured interpolation error (see the module docstring), printed with the result.
@@ -89,12 +89,13 @@ class KernelTable:
     rd_left: np.ndarray
     rd_right: np.ndarray
     provenance: dict
+    applied: tuple[float, float] = (0.0, math.inf)
 
     @property
     def T_range(self) -> tuple[float, float]:
-        """Re-entry temperatures the table is applied at [GeV]: its first row to the
-        lower of its last row and :data:`T_APPLIED_MAX`."""
-        return math.exp(self.ln_T_c[0]), min(math.exp(self.ln_T_c[-1]), T_APPLIED_MAX)
+        """Re-entry temperatures the table is applied at [GeV]: its rows within ``applied``."""
+        return (max(math.exp(self.ln_T_c[0]), self.applied[0]),
+                min(math.exp(self.ln_T_c[-1]), self.applied[1]))
 
     @property
     def t_max(self) -> float:
@@ -102,13 +103,31 @@ class KernelTable:
         return T_RESONANCE + math.exp(self.z_right[-1])
 
 
-@lru_cache(maxsize=2)
-def load_kernel_table(path: str | Path = TABLE_PATH) -> KernelTable:
+@lru_cache(maxsize=4)
+def load_kernel_table(path: str | Path = TABLE_PATH,
+                      applied: tuple[float, float] = (0.0, math.inf)) -> KernelTable:
     """Read a kernel table written by ``tests/tools/make_fluid_kernel_table.py``."""
     with np.load(path, allow_pickle=False) as data:
         arrays = {name: np.array(data[name]) for name in data.files if name != "provenance"}
         provenance = json.loads(str(data["provenance"]))
-    return KernelTable(provenance=provenance, **arrays)
+    return KernelTable(provenance=provenance, applied=applied, **arrays)
+
+
+def load_kernel_tables() -> tuple[KernelTable, ...]:
+    """The shipped tables with their applied ranges (:data:`TABLES`)."""
+    return tuple(load_kernel_table(DATA / name, applied) for name, applied in TABLES.items())
+
+
+def tabulated_kernel(T_c_GeV: float, t, s, k_rd,
+                     tables: tuple[KernelTable, ...] | None = None) -> np.ndarray:
+    """The kernel [1] at nodes (t, s) of an output k re-entering at ``T_c_GeV`` [GeV]:
+    from the last of ``tables`` (default: the shipped ones) applied at T_c, else ``k_rd``
+    (the closed-form RD kernel at the nodes).  Arguments as :func:`kernel_at`."""
+    for table in reversed(tables or load_kernel_tables()):
+        lo, hi = table.T_range
+        if lo <= T_c_GeV <= hi:
+            return kernel_at(table, T_c_GeV, t, s, k_rd)
+    return np.array(k_rd, dtype=float)
 
 
 def _row_weights(table: KernelTable, ln_T: float) -> tuple[int, np.ndarray]:
@@ -182,7 +201,7 @@ def _ev(spline: RectBivariateSpline, x: np.ndarray, y: np.ndarray) -> np.ndarray
                     np.ascontiguousarray(y, dtype=float))
 
 
-@lru_cache(maxsize=4)
+@lru_cache(maxsize=8)
 def _radiation_spline(table: KernelTable, left: bool) -> RectBivariateSpline:
     """The spline of K_fluid(radiation) on one side (the same for every T_c)."""
     return _spline(table.z_left if left else table.z_right, table.s,
@@ -236,9 +255,10 @@ def kernel_at(table: KernelTable, T_c_GeV: float, t, s, k_rd) -> np.ndarray:
     return out
 
 
-def kernel_range_note(table: KernelTable) -> str:
+def kernel_range_note(tables: tuple[KernelTable, ...] | None = None) -> str:
     """One line: what the tabulated kernel assumes and where it applies."""
-    lo, hi = table.T_range
+    ranges = [table.T_range for table in tables or load_kernel_tables()]
+    lo, hi = min(r[0] for r in ranges), max(r[1] for r in ranges)
     f_lo, f_hi = (float(cosmo.k_to_f(cosmo.k_of_temperature(T))) for T in (lo, hi))
     return (f"sigw_kernel = 'qcd-fluid': induced GWs on the {TABLE_GSTAR} background "
             f"(softened w, c_s^2; perfect adiabatic fluid, no free-streaming or anisotropic "

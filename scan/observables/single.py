@@ -22,7 +22,7 @@ from scan.observables.pbh.qcd import (
 )
 from scan.observables.pbh.zeta_map import ZetaMap
 from scan.observables.record import Observables, peak_of
-from scan.observables.sigw_kernel_table import kernel_range_note, load_kernel_table
+from scan.observables.sigw_kernel_table import kernel_range_note
 
 #: P_zeta above which the classical, perturbative treatment fails [1]: quantum diffusion
 #: dominates once P_zeta ≳ O(0.1–1) (shared/physics/inflation.md sect. 5.5; Pattison,
@@ -164,7 +164,7 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     pbh = plan.evaluate(P_zeta)
     notes = tuple(str(w.message) for w in caught)
     if sigw_kernel != "radiation":
-        notes += (kernel_range_note(load_kernel_table()),)
+        notes += (kernel_range_note(),)
     gaussian_total = None
     non_gaussian = zeta_map is not None and not zeta_map.is_gaussian
     if non_gaussian or qcd_threshold != "off" or qcd_collapse != "off":

@@ -29,8 +29,8 @@ from scan.observables import sigw_fluid as sf
 from scan.observables.sigw import induced_kernel, plan_sigw
 from scan.observables.sigw_kernel_table import (
     DELTA_SWITCH,
-    kernel_at,
-    load_kernel_table,
+    load_kernel_tables,
+    tabulated_kernel,
 )
 from scan.observables.sigw_nodes import T_RESONANCE
 
@@ -44,7 +44,7 @@ def edges(table) -> None:
         print(f"row T_c = {T[i]:.4g} GeV: sum|D|/sum|K_rad| = {size[i]:.2e}")
 
 
-def effect_and_error(table, f_star: float) -> None:
+def effect_and_error(f_star: float) -> None:
     """Plan ratios and the node-set interpolation error on Omega (peak at f_star [Hz])."""
     k_star = float(cosmo.f_to_k(f_star))
     k_in = k_star * np.exp(np.linspace(-4, 4, 161))
@@ -60,7 +60,7 @@ def effect_and_error(table, f_star: float) -> None:
             u, v, pp = _small_node_set(k_star * x, k_star, width)
             closed = induced_kernel(u, v)
             T_c = float(cosmo.temperature_of_k(k_star * x))
-            got = kernel_at(table, T_c, u + v - 1, u - v, closed)
+            got = tabulated_kernel(T_c, u + v - 1, u - v, closed)
             fluid = sf.fluid_kernel(u, v, sf.table_background(T_c))
             radiation = sf.fluid_kernel(u, v, sf.constant_background(1 / 3))
             near = np.abs(u + v - 1 - T_RESONANCE) < DELTA_SWITCH
@@ -87,12 +87,12 @@ def build_cost() -> None:
 
 
 def main() -> int:
-    table = load_kernel_table()
-    print(f"table: T_c {table.T_range[0]:.4g}-{table.T_range[1]:.4g} GeV, "
-          f"{table.ln_T_c.size} rows; {table.provenance}")
-    edges(table)
+    for table in load_kernel_tables():
+        print(f"table applied at T_c {table.T_range[0]:.4g}-{table.T_range[1]:.4g} GeV, "
+              f"{table.ln_T_c.size} rows; {table.provenance}")
+        edges(table)
     for f_star in (1e-8, 1e-7):
-        effect_and_error(table, f_star)
+        effect_and_error(f_star)
     build_cost()
     return 0
 

@@ -9,7 +9,9 @@ near it), so the difference is the interpolation error alone.  Printed: the L1-w
 error sum|dK|/sum|K|, and quantiles of |dK|/(|K| + 0.01) (K ~ 0.1-10 where Omega_GW
 gets its weight), by region (|t - t_res| below or above DELTA_SWITCH) and T_c band.
 
-    nice -n 15 python tests/tools/fluid_kernel_table_error.py [n_T] [n_per_T]
+    nice -n 15 python tests/tools/fluid_kernel_table_error.py [n_T] [n_per_T] [TABLE.npz]
+
+(default: the shipped tables over their applied ranges; a path: that table over its rows)
 """
 from __future__ import annotations
 
@@ -25,6 +27,7 @@ from scan.observables.sigw_kernel_table import (
     DELTA_SWITCH,
     kernel_at,
     load_kernel_table,
+    load_kernel_tables,
 )
 from scan.observables.sigw_nodes import T_RESONANCE
 
@@ -42,13 +45,15 @@ def reference(T_c: float, t: np.ndarray, s: np.ndarray, rd_bg) -> np.ndarray:
 def main(argv: list[str]) -> int:
     n_T = int(argv[0]) if argv else 8
     n_per = int(argv[1]) if len(argv) > 1 else 24
-    table = load_kernel_table()
+    tables = (load_kernel_table(argv[2]),) if len(argv) > 2 else load_kernel_tables()
     rng = np.random.default_rng(20261203)
     rd_bg = sf.constant_background(1 / 3)
     start = time.process_time()
     rows = []
-    for ln_T in rng.uniform(table.ln_T_c[0], table.ln_T_c[-1], n_T):
+    lo, hi = min(t.T_range[0] for t in tables), max(t.T_range[1] for t in tables)
+    for ln_T in rng.uniform(math.log(lo), math.log(hi), n_T):
         T_c = math.exp(ln_T)
+        table = next(t for t in reversed(tables) if t.T_range[0] <= T_c <= t.T_range[1])
         half = n_per // 2
         t = np.concatenate([rng.uniform(0.0, 5.0, n_per - half),
                             T_RESONANCE + rng.uniform(-0.3, 0.3, half)])
