@@ -23,25 +23,34 @@ Interpolation: cubic Lagrange over the 4 nearest T_c rows (uniform in ln T_c), t
 bicubic interpolating spline in (z, s) (evaluated by a compiled de Boor sum, equal to
 scipy's to rounding).
 
-The shipped table: 60 rows T_c = 3 MeV - 20 GeV (step 0.15 in ln T_c); 32 + 48 t-points
-(1e-3 <= |t - t_res|, t <= 20) x 17 s-points; eta_end = 800; 1219 s CPU on one core.
-It is applied for T_c = 3 MeV - 2 GeV (f ~ 0.054 - 50 nHz).
+The shipped tables (:data:`TABLES`; eta_end = 800, 17 s-points, 32 t-points below the
+resonance, 1e-3 <= |t - t_res|, t <= 20):
+
+* ``sigw_kernel_qcd.npz``: 60 rows T_c = 3 MeV - 20 GeV (step 0.15 in ln T_c), 48 t-points
+  above the resonance; 1219 s CPU on one core; applied for T_c = 3 MeV - 1.5 GeV;
+* ``sigw_kernel_qcd_high.npz``: 19 rows T_c = 1.5 - 6 GeV (step 0.077), 96 t-points above;
+  673 s CPU; applied for T_c = 1.5 - 6 GeV.
+
+Together: re-entry at 3 MeV - 6 GeV, f ~ 0.054 - 150 nHz.  Above ~2 GeV the late
+resonance band (where c_s (u + v) = 1 is crossed late in the crossover) narrows as T_c
+grows, which the first grid does not resolve (sum|dK|/sum|K| 6.8e-3 at 2-4 GeV, 0.11 at
+8-20 GeV) and the finer one does to 6 GeV.
 Edges (tests/tools/fluid_kernel_table_effect.py): below 3 MeV the background is w = c_s^2
 = 1/3 by construction (as :mod:`scan.observables.pbh.qcd`), and the first rows differ from
 radiation by sum|D|/sum|K| = 4.4e-3 -- the integrator's superhorizon start inside the
-crossover (a_start 1e-3 -> 1e-5 moves it by a few 1e-3), the size of the interpolation
-error.  Above 2 GeV the kernel still differs from radiation at O(1) (sum|D|/sum|K| = 0.8
-on the 20 GeV row: a late dip of c_s breaks the coherence of the resonance), but the
-resonance band it changes narrows as T_c grows and the grid no longer resolves it, so
-the RD kernel is used there, an O(1) step which the printed note says.
+crossover (a_start 1e-3 -> 1e-5 moves it by a few 1e-3), comparable to the table error.
+Above 6 GeV the kernel still differs from radiation at O(1) (sum|D|/sum|K| = 0.88 on the
+6 GeV row, 0.80 on the 20 GeV one: a late dip of c_s breaks the coherence of the
+resonance), so the switch to the RD kernel there is an O(1) step, which the printed note
+says.
 Interpolation error, measured against direct :func:`scan.observables.sigw_fluid.fluid_kernel`
-at seeded off-grid points (tests/tools/fluid_kernel_table_error.py, 1280 points, and by
-T_c band, 192 points each): sum|dK|/sum|K| = 1.8e-3 at 0.3-1 GeV, 3.7e-3 at 1-2 GeV,
-6.8e-3 at 2-4 GeV, 3.8e-2 at 4-8 GeV, 0.11 at 8-20 GeV; pointwise |dK| <= 2.4e-2 (|K| + 0.01)
-below 2 GeV.  Within |t - t_res| ~ 0.1 the direct kernels themselves carry the finite
-eta_end's ripples (a few per cent, period ~0.01 in t), which the grid does not follow:
-there single values differ by up to ~7 % (integrated over the resonance they average out).
-On Omega_GW of log-normal peaks (widths 0.5, 0.2; small node set): <= 2e-3 at 10 nHz.
+at 1280 seeded off-grid points over the applied range (tests/tools/fluid_kernel_table_error.py):
+sum|dK|/sum|K| = 2.8e-4 below 1 GeV, 2.3e-3 above; |dK| <= 5.2e-2 (|K| + 0.01) for
+|t - t_res| >= 0.2 (99 % of points below 1e-2), 7.8e-2 closer.  Within |t - t_res| ~ 0.1
+the direct kernels carry the finite eta_end's ripples (a few per cent, period ~0.01 in
+t), which the grid does not follow; integrated over the resonance they average out.
+On Omega_GW of log-normal peaks (widths 0.5, 0.2; small node set, same construction):
+<= 2e-3 at 10 and 100 nHz.
 Units: T [GeV], k [Mpc^-1], u, v, t, s, kernels [1].
 """
 from __future__ import annotations
@@ -64,16 +73,17 @@ SIGW_KERNELS: tuple[str, ...] = ("radiation", "qcd-fluid")
 #: The shipped tables and the re-entry temperatures each is applied at [GeV] (a later
 #: entry wins where ranges meet; module docstring).
 DATA: Path = Path(__file__).parent / "data"
-TABLES: dict[str, tuple[float, float]] = {"sigw_kernel_qcd.npz": (0.003, 2.0)}
+TABLES: dict[str, tuple[float, float]] = {"sigw_kernel_qcd.npz": (0.003, 1.5),
+                                          "sigw_kernel_qcd_high.npz": (1.5, 6.0)}
 TABLE_PATH: Path = DATA / "sigw_kernel_qcd.npz"
 #: Half-width in t around the RD resonance where the table's ratio (not difference) is used.
 DELTA_SWITCH: float = 0.2
 #: The g_*(T) table (``[observables] gstar``) the kernel table was computed on.
 TABLE_GSTAR: str = "saikawa-shirai-2018"
 #: Measured interpolation error (see the module docstring), printed with the result.
-INTERPOLATION_NOTE: str = ("table error ~0.2 % on Omega_GW of smooth peaks; above 2 GeV "
-                           "the crossover still changes the kernel by O(1) near its "
-                           "resonance, which the table does not resolve")
+INTERPOLATION_NOTE: str = ("table error ~0.2 % on Omega_GW of smooth peaks; above the "
+                           "table the crossover still changes the kernel by O(1) near its "
+                           "resonance (not tabulated)")
 
 
 @dataclass(frozen=True, eq=False)

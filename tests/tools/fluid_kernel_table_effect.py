@@ -22,7 +22,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from test_sigw_kernel_table import _lognormal, _small_node_set
+from test_sigw_kernel_table import _lognormal, _node_set
 
 from scan.observables import cosmo
 from scan.observables import sigw_fluid as sf
@@ -57,7 +57,7 @@ def effect_and_error(f_star: float) -> None:
               + ", ".join(f"{x:.3f}: {r:.3f}" for x, r in zip(x_out, qcd / rd)))
         errors = []
         for x in x_out:
-            u, v, pp = _small_node_set(k_star * x, k_star, width)
+            u, v, pp = _node_set(k_star * x, k_star, width)
             closed = induced_kernel(u, v)
             T_c = float(cosmo.temperature_of_k(k_star * x))
             got = tabulated_kernel(T_c, u + v - 1, u - v, closed)
