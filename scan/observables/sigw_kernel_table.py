@@ -50,7 +50,10 @@ sum|dK|/sum|K| = 2.8e-4 below 1 GeV, 2.3e-3 above; |dK| <= 5.2e-2 (|K| + 0.01) f
 the direct kernels carry the finite eta_end's ripples (a few per cent, period ~0.01 in
 t), which the grid does not follow; integrated over the resonance they average out.
 On Omega_GW of log-normal peaks (widths 0.5, 0.2; small node set, same construction):
-<= 2e-3 at 10 and 100 nHz.
+<= 2e-3 at 10 and 100 nHz.  The plan's nodes (placed for the RD kernel) integrate the
+softened kernel of a log-normal peak (width 0.5, table step 0.05 in ln k) to 2e-4 at
+10 nHz and 1e-2 at 100 nHz, where its features are sharper (against a converged node
+set; tests/test_sigw_kernel_table.py).
 Units: T [GeV], k [Mpc^-1], u, v, t, s, kernels [1].
 """
 from __future__ import annotations
