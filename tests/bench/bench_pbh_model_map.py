@@ -28,9 +28,8 @@ import os
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
-import time
-
 import numpy as np
+from _timing import alternating_times, print_ratios
 from bench_pbh_nongaussian import M_SPECTRA, spectra
 
 from scan.observables.pbh import PBHConventions, plan_pbh
@@ -55,16 +54,7 @@ def main() -> None:
     funcs = {"gaussian stack": lambda: plan.evaluate(P)}
     for name, zmap in maps.items():
         funcs[name] = lambda zmap=zmap: stacked.evaluate(P, zmap)
-    times = {name: [] for name in funcs}
-    for _ in range(BLOCKS):
-        for name, f in funcs.items():
-            start = time.thread_time()
-            f()
-            times[name].append(time.thread_time() - start)
-    base = min(times["gaussian stack"])
-    for name, t in times.items():
-        print(f"{name:>35}: median {np.median(t):.3f} s, ratio to Gaussian (min-based) "
-              f"{min(t) / base:.1f}x")
+    print_ratios(alternating_times(funcs, BLOCKS))
 
 
 if __name__ == "__main__":

@@ -110,9 +110,9 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import sys  # noqa: E402
-import time  # noqa: E402
 
 import numpy as np  # noqa: E402
+from _timing import alternating_times, print_ratios  # noqa: E402
 
 from scan.observables.pbh import PBHConventions, plan_pbh  # noqa: E402
 from scan.observables.pbh.ng_stack import plan_pbh_mapped, plan_stacked  # noqa: E402
@@ -152,16 +152,7 @@ def main() -> None:
         funcs["gaussian stack QCD"] = lambda: qcd.gaussian.evaluate(P)
         for name, zmap in maps.items():
             funcs[f"stacked QCD {name}"] = lambda zmap=zmap: qcd.stacked.evaluate(P, zmap)
-    times = {name: [] for name in funcs}
-    for _ in range(BLOCKS):
-        for name, f in funcs.items():
-            start = time.thread_time()
-            f()
-            times[name].append(time.thread_time() - start)
-    base = min(times["gaussian stack"])
-    for name, t in times.items():
-        print(f"{name:>35}: median {np.median(t):.3f} s, ratio to Gaussian (min-based) "
-              f"{min(t) / base:.1f}x")
+    print_ratios(alternating_times(funcs, BLOCKS))
 
 
 if __name__ == "__main__":
