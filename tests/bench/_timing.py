@@ -6,6 +6,7 @@ Used by bench_pbh_nongaussian.py, bench_pbh_model_map.py and bench_pbh_batch.py.
 """
 from __future__ import annotations
 
+import sys
 import time
 from collections.abc import Callable
 
@@ -26,6 +27,13 @@ def alternating_times(funcs: dict[str, Callable[[], object]], blocks: int,
                 f()
                 times[name].append(time.thread_time() - start)
     return times
+
+
+def blocks_from_argv(default: int) -> int:
+    """The number of blocks: ``--blocks N`` on the command line, else ``default``."""
+    if "--blocks" in sys.argv:
+        return int(sys.argv[sys.argv.index("--blocks") + 1])
+    return default
 
 
 def print_ratios(times: dict[str, list[float]], base: str = "gaussian stack") -> None:

@@ -19,7 +19,7 @@ stack 2-4 ms; ngmodel branch):
   4.8-5.5x (12-16 ms for the 64 spectra).  Issue 15's <= 3x is not met (nor by the
   one-map logarithmic stack on this machine today).
 
-Run:  python tests/bench/bench_pbh_model_map.py
+Run:  python tests/bench/bench_pbh_model_map.py [--blocks N]
 """
 from __future__ import annotations
 
@@ -29,7 +29,7 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import numpy as np
-from _timing import alternating_times, print_ratios
+from _timing import alternating_times, blocks_from_argv, print_ratios
 from bench_pbh_nongaussian import M_SPECTRA, spectra
 
 from scan.observables.pbh import PBHConventions, plan_pbh
@@ -54,7 +54,7 @@ def main() -> None:
     funcs = {"gaussian stack": lambda: plan.evaluate(P)}
     for name, zmap in maps.items():
         funcs[name] = lambda zmap=zmap: stacked.evaluate(P, zmap)
-    print_ratios(alternating_times(funcs, BLOCKS))
+    print_ratios(alternating_times(funcs, blocks_from_argv(BLOCKS)))
 
 
 if __name__ == "__main__":

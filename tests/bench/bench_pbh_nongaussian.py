@@ -100,7 +100,7 @@ y_th)/span)^gamma_c) is 1.2e-10 high at sigma = 0.044 (QAWS), so the identity te
 against the Gaussian path) fails by 1.25e-10 with the more accurate rule (which measured
 logarithmic 3.2-3.5x against 3.8-4.0x side by side); it is left as is.  Fewer nodes of ln g: 9 -> 8 moves f(M) by 1e-6 (lambda = 3), 9 -> 7 by 7e-6.
 
-Run:  python tests/bench/bench_pbh_nongaussian.py
+Run:  python tests/bench/bench_pbh_nongaussian.py [--blocks N] [--qcd] [--reference]
 """
 from __future__ import annotations
 
@@ -112,7 +112,7 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import sys  # noqa: E402
 
 import numpy as np  # noqa: E402
-from _timing import alternating_times, print_ratios  # noqa: E402
+from _timing import alternating_times, blocks_from_argv, print_ratios  # noqa: E402
 
 from scan.observables.pbh import PBHConventions, plan_pbh  # noqa: E402
 from scan.observables.pbh.ng_stack import plan_pbh_mapped, plan_stacked  # noqa: E402
@@ -152,7 +152,7 @@ def main() -> None:
         funcs["gaussian stack QCD"] = lambda: qcd.gaussian.evaluate(P)
         for name, zmap in maps.items():
             funcs[f"stacked QCD {name}"] = lambda zmap=zmap: qcd.stacked.evaluate(P, zmap)
-    print_ratios(alternating_times(funcs, BLOCKS))
+    print_ratios(alternating_times(funcs, blocks_from_argv(BLOCKS)))
 
 
 if __name__ == "__main__":

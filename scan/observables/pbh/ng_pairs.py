@@ -54,9 +54,11 @@ def exp_or_zero(x: np.ndarray) -> np.ndarray:
     return x
 
 
-def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray) -> np.ndarray:
+def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
+               h: np.ndarray) -> np.ndarray:
     """beta [1] per pair: sum_b weight_b exp(ln g(y_b)) with ln g(y_b) = ``beta_matrix``
-    (n_beta, n_y) @ ``lng`` (n_pairs, n_y); ``weight`` (n_beta,) or one row per pair.
+    (n_beta, n_y) @ ``lng`` (n_pairs, n_y); ``weight`` (n_beta,), or (n_H, n_beta) with
+    the pairs' epochs ``h`` (gathered per block: 256 rows stay in cache).
     Pairs whose interpolant is above ``LN_ZERO`` by the Lebesgue bound (module doc) take
     plain exponentials (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s; the
     product's rounding, ~1e-13, stays far above libm's slow range below -708); the
@@ -71,15 +73,15 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray) -> 
     order = None if n_safe == safe.size else np.concatenate(
         (np.flatnonzero(safe), np.flatnonzero(~safe)))
     if order is not None:
-        lng, weight = lng[order], weight[order] if weight.ndim == 2 else weight
+        lng, h = lng[order], h[order]
     beta = np.empty(lng.shape[0])
     for first, last, clip in ((0, n_safe, False), (n_safe, lng.shape[0], True)):
         for start in range(first, last, BLOCK):
             rows = slice(start, min(start + BLOCK, last))
             block = lng[rows] @ beta_matrix.T
             block = exp_or_zero(block) if clip else np.exp(block, out=block)
-            beta[rows] = np.einsum("pb,pb->p", block, weight[rows]) if weight.ndim == 2 \
-                else block @ weight
+            beta[rows] = np.einsum("pb,pb->p", block, weight[h[rows]]) \
+                if weight.ndim == 2 else block @ weight
     if order is not None:
         beta[order] = beta.copy()
     return beta

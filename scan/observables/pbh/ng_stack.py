@@ -228,8 +228,7 @@ class StackedNGPlan:
     def _beta(self, lng, h) -> np.ndarray:
         """beta [1] per pair (epochs ``h``) from ln g at the nodes
         (:func:`~scan.observables.pbh.ng_pairs.pair_betas`)."""
-        weight = self.beta_weight[h] if self.beta_weight.ndim == 2 else self.beta_weight
-        return pair_betas(lng, self.beta_matrix, weight)
+        return pair_betas(lng, self.beta_matrix, self.beta_weight, h)
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
         """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))
