@@ -17,6 +17,7 @@ from scan.observables.pbh.ng_pairs import (
     pair_betas,
     pair_ln_mass,
     pair_scatter,
+    row_extremes,
 )
 from scan.observables.pbh.ng_stack import barycentric_matrix, beta_nodes, lobatto
 from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
@@ -93,3 +94,12 @@ def test_mass_function_sums_equal_the_clipped_exponentials():
     ref = np.zeros((4, 12))
     np.add.at(ref, i, weight[h] * g)
     np.testing.assert_allclose(got, ref, rtol=4 * np.finfo(float).eps, atol=0)
+
+
+def test_row_extremes_equal_numpys_reductions():
+    """row_extremes equals np.min / np.max along the rows, NaN rows included."""
+    lng = _random_ln_g(50, 6)
+    lng[3, 4] = np.nan
+    low, high = row_extremes(lng)
+    np.testing.assert_array_equal(low, lng.min(axis=1))
+    np.testing.assert_array_equal(high, lng.max(axis=1))

@@ -54,6 +54,17 @@ def exp_or_zero(x: np.ndarray) -> np.ndarray:
     return x
 
 
+def row_extremes(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(smallest, largest) element of each row of ``a`` (n, k), k small, NaN propagating:
+    k - 1 elementwise minima and maxima over the columns (numpy's reduction along a short
+    axis was measured ~6x slower: 310 against 48 us for 7144 x 9)."""
+    low, high = a[:, 0].copy(), a[:, 0].copy()
+    for column in a.T[1:]:
+        np.minimum(low, column, out=low)
+        np.maximum(high, column, out=high)
+    return low, high
+
+
 def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
                h: np.ndarray) -> np.ndarray:
     """beta [1] per pair: sum_b weight_b exp(ln g(y_b)) with ln g(y_b) = ``beta_matrix``
@@ -63,10 +74,7 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
     plain exponentials (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s; the
     product's rounding, ~1e-13, stays far above libm's slow range below -708); the
     others (and NaN) :func:`exp_or_zero`: the first group, then the second, in blocks."""
-    low, high = lng[:, 0].copy(), lng[:, 0].copy()
-    for column in lng.T[1:]:                     # (n_pairs, n_y) reduced by column: fast
-        np.minimum(low, column, out=low)
-        np.maximum(high, column, out=high)
+    low, high = row_extremes(lng)
     overshoot = 0.5 * (np.abs(beta_matrix).sum(axis=1).max() - 1.0)
     safe = low - overshoot * (high - low) >= LN_ZERO
     n_safe = int(np.count_nonzero(safe))

@@ -52,6 +52,7 @@ from scan.observables.pbh.ng_pairs import (
     pair_betas,
     pair_ln_mass,
     pair_scatter,
+    row_extremes,
 )
 from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
@@ -204,8 +205,9 @@ class StackedNGPlan:
             and zmap.f_nl != 0 else ln_density_pairs
         lng = density(nodes, *(v[chosen] for v in var), zmap.of_spectra(i),
                       self.ng.base.conventions.ps_factor)
-        keep = ~(np.max(lng, axis=1) < LN_DEAD)
-        i, h, lng = i[keep], h[keep], lng[keep]
+        keep = ~(row_extremes(lng)[1] < LN_DEAD)
+        if not keep.all():
+            i, h, lng = i[keep], h[keep], lng[keep]
         base = self.ng.base
         total = np.bincount(i, weights=(base._wln * base._coef)[h] * self._beta(lng, h),
                             minlength=m).astype(float)    # int64 when no pair is left
