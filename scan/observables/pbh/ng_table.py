@@ -307,24 +307,41 @@ def density_table() -> tuple[np.ndarray, np.ndarray]:
     return table.reshape(tuple(a.size for a in axes) + (2,)), np.array([a[0] for a in axes])
 
 
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _tabulated_pairs(table, origin, c, s_c, b, rho):
+    """ln h(c / s_c; b, rho) - ln s_c [1], shape (n, n_y), for the pairs (s_c, b, rho)
+    (n,) at the nodes ``c`` ((1, n_y) shared or (n, n_y)): :func:`tabulated_ln_h` over
+    the pairs' elements, laid out here rather than by numpy broadcasts."""
+    n, n_y = s_c.size, c.shape[1]
+    t, b_e, rho_e = np.empty(n * n_y), np.empty(n * n_y), np.empty(n * n_y)
+    for p in range(n):
+        row = 0 if c.shape[0] == 1 else p
+        for q in range(n_y):
+            t[p * n_y + q] = c[row, q] / s_c[p]
+            b_e[p * n_y + q], rho_e[p * n_y + q] = b[p], rho[p]
+    out = tabulated_ln_h(table, origin, t, b_e, rho_e).reshape((n, n_y))
+    for p in range(n):
+        ln_s_c = math.log(s_c[p])
+        for q in range(n_y):
+            out[p, q] -= ln_s_c
+    return out
+
+
 def ln_density_tabulated(c, s_c2, s_cr, s_r2, zmap: ZetaMap,
                          ps_factor: float = 1.0) -> np.ndarray:
     """ln g [1] at the nodes ``c`` ((n_y,) shared or (n, n_y)) for every pair of variances
     (n,) of a local map with g_NL = 0, shape (n, n_y): the table where it holds, the exact
     path (:func:`~scan.observables.pbh.ng_density._ln_local`) elsewhere."""
-    c = np.atleast_2d(np.asarray(c, dtype=float))
+    c = np.ascontiguousarray(np.atleast_2d(np.asarray(c, dtype=float)))
     shape = (np.size(s_c2), c.shape[1])
-    s_c = np.sqrt(s_c2)
-    t = (c / s_c[:, None]).ravel()
-    b = np.broadcast_to((1.2 * zmap.f_nl * np.sqrt(s_r2))[:, None], shape).ravel()
-    rho = np.broadcast_to((s_cr / (s_c * np.sqrt(s_r2)))[:, None], shape).ravel()
+    s_c, s_r = np.sqrt(s_c2), np.sqrt(s_r2)
+    b = np.ascontiguousarray(np.broadcast_to(1.2 * zmap.f_nl * s_r, shape[:1]), dtype=float)
     table, origin = density_table()
-    out = tabulated_ln_h(table, origin, np.ascontiguousarray(t), np.ascontiguousarray(b),
-                         np.ascontiguousarray(rho))
-    out = out.reshape(shape) - np.log(s_c)[:, None]
+    out = _tabulated_pairs(table, origin, c, s_c, b, s_cr / (s_c * s_r))
     bad = np.isnan(out)
     if bad.any():
         i, j = np.nonzero(bad)
         out[i, j] = _ln_local(np.broadcast_to(c, shape)[i, j], s_c2[i], s_cr[i], s_r2[i],
                               zmap)
-    return out + math.log(ps_factor)
+    out += math.log(ps_factor)
+    return out
