@@ -84,6 +84,38 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   the total (below rounding for the total) would skip 947 of 7144 pairs (13 %): not
   done.
 
+* ngspeed6 branch (the tabulated density in passes the compiler vectorises -- the tricubic
+  lookup with unsigned offsets, two full Newton steps from the tabulated ridge with the
+  damped search only where they miss its stopping rule, the pairs' elements laid out in
+  compiled code: ng_table.py; beta without the clip where a Lebesgue-constant bound keeps
+  every exponent above -700, the mass function's clip folded into its compiled loops:
+  ng_pairs.py; the dead-pair check by column maxima), this file (tests/bench/_timing.py,
+  30 blocks) run against main 6e9e956 and this branch alternately, 5 runs each (machine
+  loaded: load average 4.4-5.2 on the 2 cores, other helpers' training): local f_NL = 1
+  4.13-4.47x -> 3.58-3.68x, f_NL = -1 3.32-3.52x -> 2.92-2.97x, logarithmic 3.73-4.03x
+  -> 3.51-3.88x.  With --qcd (20 blocks, 2 runs each): QCD-era local f_NL = 1 4.28-4.60x
+  -> 3.87-3.91x, f_NL = -1 3.44-3.59x -> 3.06-3.10x, logarithmic 4.10-4.32x ->
+  3.96-4.03x (Gaussian QCD stack, same code, 3.42-3.64x); the plain rows of those runs
+  4.09-4.24x -> 3.43-3.52x, 3.28-3.30x -> 2.70-2.79x, 3.66-3.83x -> 3.44-3.66x.  The
+  density alone, side by side in one process on the benchmark's 22k elements: 0.16-0.21
+  -> 0.10-0.11 us per element (lookup ~0.065, the two vectorised Newton steps 0.005
+  against ~0.06 for the damped search from the same seed, asinh/log and the Laplace
+  value's logs ~0.03).  Results: the local maps within 2e-12 of main in f(M) and totals
+  (both searches stop within their 1e-4-width rule; ln h within 1.8e-10 at 1.5e5 random
+  points), logarithmic, capped and Gaussian bit-identical.  By parts now (alternating,
+  Gaussian stack = 1; f_NL = 1): density 1.5, beta 0.45, variances 0.29, bound 0.29, mass
+  function 0.22, the rest ~0.45; logarithmic: beta 1.1, closed form 0.8, mass function
+  0.6, variances 0.3.  Tried and not kept: the ridge continued along a pair's nodes
+  (extrapolated seed, 3 Newton steps) with a G-only lookup and the pair's rho weights (no
+  faster: the scalar lookup was latency-bound, not memory-bound -- every point in one
+  table cell cost the same); a float32 table (no faster, also alternating); fewer beta
+  panels (N_PANELS = 12 puts the identity map 8.8e-10 off the Gaussian path, above the
+  1e-10 of its test: the Gaussian path's own beta is 1.5e-10 off a 24-panel value, as is
+  the stack's with 14); 7 nodes of ln g (f(M) against 33 nodes: 1.9e-6 at f_NL = 1 but
+  5e-5 at -1, above the doubling test's 1e-5; the nodes are already Chebyshev-Lobatto
+  with barycentric interpolation); compiling the rest of the local bound (its compiled
+  near-branch search is 0.31 of its 0.49 ms).
+
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
