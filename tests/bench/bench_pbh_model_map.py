@@ -20,10 +20,12 @@ stack 2-4 ms; ngmodel branch):
   one-map logarithmic stack on this machine today).
 
 * ngspeed6 branch (beta without the clip where a Lebesgue bound allows it, the mass
-  function's clip in its compiled loops: scan/observables/pbh/ng_pairs.py) against main
-  6e9e956, alternately, 5 runs each, 30 blocks (machine loaded, load average 4.4-5.2):
-  one-map logarithmic 3.68-4.82x -> 3.49-4.02x, lambda per spectrum 4.25-5.35x ->
-  4.08-4.47x, capped per spectrum 4.75-5.68x -> 4.66-5.30x (results bit-identical).
+  function's clip in its compiled loops: scan/observables/pbh/ng_pairs.py; the dead-pair
+  check by column maxima) against main 6e9e956, alternately, 5 runs each, 30 blocks
+  (machine loaded, load average 5.1-5.3): one-map logarithmic 3.57-3.97x -> 3.29-3.69x,
+  lambda per spectrum 4.22-4.99x -> 3.84-4.25x, capped per spectrum 5.00-5.94x ->
+  4.56-5.10x (an earlier set: 3.68-4.82x -> 3.49-4.02x, 4.25-5.35x -> 4.08-4.47x,
+  4.75-5.68x -> 4.66-5.30x); results bit-identical.
   The capped map's beta gains nothing: many of its exponents are below -708 (plain exp
   on all pairs measured 2.03 ms against 1.15 clipped), so most blocks keep the clip.
 

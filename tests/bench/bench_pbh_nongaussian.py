@@ -91,18 +91,20 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   every exponent above -700, the mass function's clip folded into its compiled loops:
   ng_pairs.py; the dead-pair check by column maxima), this file (tests/bench/_timing.py,
   30 blocks) run against main 6e9e956 and this branch alternately, 5 runs each (machine
-  loaded: load average 4.4-5.2 on the 2 cores, other helpers' training): local f_NL = 1
-  4.13-4.47x -> 3.58-3.68x, f_NL = -1 3.32-3.52x -> 2.92-2.97x, logarithmic 3.73-4.03x
-  -> 3.51-3.88x.  With --qcd (20 blocks, 2 runs each): QCD-era local f_NL = 1 4.28-4.60x
-  -> 3.87-3.91x, f_NL = -1 3.44-3.59x -> 3.06-3.10x, logarithmic 4.10-4.32x ->
-  3.96-4.03x (Gaussian QCD stack, same code, 3.42-3.64x); the plain rows of those runs
-  4.09-4.24x -> 3.43-3.52x, 3.28-3.30x -> 2.70-2.79x, 3.66-3.83x -> 3.44-3.66x.  The
-  density alone, side by side in one process on the benchmark's 22k elements: 0.16-0.21
-  -> 0.10-0.11 us per element (lookup ~0.065, the two vectorised Newton steps 0.005
+  loaded: load average 5.1-5.3 on the 2 cores, other helpers' training): local f_NL = 1
+  4.01-4.77x -> 3.34-3.62x, f_NL = -1 3.15-3.74x -> 2.76-3.29x, logarithmic 3.84-4.10x
+  -> 3.42-3.90x (a set before the last change, the elements laid out in compiled code:
+  4.13-4.47x -> 3.58-3.68x, 3.32-3.52x -> 2.92-2.97x, 3.73-4.03x -> 3.51-3.88x).  With
+  --qcd (20 blocks, 2 runs each): QCD-era local f_NL = 1 4.47-4.62x -> 3.92-4.04x, f_NL =
+  -1 3.49-3.53x -> 3.20-3.23x, logarithmic 4.13-4.45x -> 4.21-4.24x (the Gaussian QCD
+  stack, the same code on both, 3.32-3.50x and 3.82-3.83x: that is the noise); the plain
+  rows of those runs 4.10-4.27x -> 3.70-3.79x, 3.32-3.33x -> 2.94-3.00x, 3.72-4.05x ->
+  3.81-3.87x.  The density alone, side by side in one process on the benchmark's 22k
+  elements: 0.16-0.21 -> 0.10-0.11 us per element (lookup ~0.065, the two vectorised Newton steps 0.005
   against ~0.06 for the damped search from the same seed, asinh/log and the Laplace
   value's logs ~0.03).  Results: the local maps within 2e-12 of main in f(M) and totals
-  (both searches stop within their 1e-4-width rule; ln h within 1.8e-10 at 1.5e5 random
-  points), logarithmic, capped and Gaussian bit-identical.  By parts now (alternating,
+  (both searches stop within their 1e-4-width rule; ln h within 1.8e-10 at 1.7e5 random
+  and benchmark points), logarithmic, capped and Gaussian bit-identical.  By parts now (alternating,
   Gaussian stack = 1; f_NL = 1): density 1.5, beta 0.45, variances 0.29, bound 0.29, mass
   function 0.22, the rest ~0.45; logarithmic: beta 1.1, closed form 0.8, mass function
   0.6, variances 0.3.  Tried and not kept: the ridge continued along a pair's nodes
