@@ -60,11 +60,11 @@ def test_table_within_its_error_at_random_points():
     """|ln h(table) - ln h(exact)| <= TABLE_ERROR at 1500 random points of the domain,
     300 of them with rho in [0.85, 0.9] (the sharpest structure, near v = b t = -1/4) and
     300 each near the ends t = T_MIN and T_MAX; every point is computed by the table."""
-    table, origin = density_table()
+    origin = density_table()[1]
     points = [_random_domain(600, 1), _random_domain(300, 2, rho_lo=0.85),
               _random_domain(300, 4, t_hi=2 * T_MIN), _random_domain(300, 5, t_lo=T_MAX / 2)]
     t, b, rho = (np.concatenate(v) for v in zip(*points))
-    got = tabulated_ln_h(table, origin, t, b, rho)
+    got = tabulated_ln_h(*ng_table.split_table(), origin, t, b, rho)
     assert not np.any(np.isnan(got))
     assert np.max(np.abs(got - exact_ln_h(t, b, rho))) <= TABLE_ERROR
 
@@ -92,13 +92,14 @@ def test_two_newton_steps_reach_the_damped_searchs_ridge():
     ln h, plus rounding: 64 eps (|ln h| + 1) (common practice: a few dozen rounded
     operations on terms up to |ln h|; measured 21 eps).  Measured K <= 0.11, |d ln h| <=
     7.9e-11 at |ln h| up to 1.5e5."""
-    table, origin = density_table()
+    origin = density_table()[1]
     points = [_random_domain(600, 1), _random_domain(300, 2, rho_lo=0.85),
               _random_domain(300, 4, t_hi=2 * T_MIN), _random_domain(300, 5, t_lo=T_MAX / 2)]
     t, b, rho = (np.concatenate(v) for v in zip(*points))
     n = t.size
     g, z, ok = np.empty(n), np.empty(n), np.empty(n, dtype=bool)
-    ng_table._lookup(table, origin, np.arcsinh(b * t / ng_table.V0), rho, np.log(t), g, z)
+    ng_table._lookup(*ng_table.split_table(), origin, np.arcsinh(b * t / ng_table.V0), rho,
+                     np.log(t), g, z)
     z *= t
     ng_table._two_newton(z, t, b, rho, ok)
     ridge, laplace, d2, d3 = _ridges(t, b, rho)
@@ -107,7 +108,7 @@ def test_two_newton_steps_reach_the_damped_searchs_ridge():
     widths = np.abs(z - ridge) * np.sqrt(-d2)
     assert np.all(widths[ok] <= 2 * K[ok] * 1e-8 + 1e-12)
     ref = laplace + g / t**2
-    got = tabulated_ln_h(table, origin, t, b, rho)
+    got = tabulated_ln_h(*ng_table.split_table(), origin, t, b, rho)
     eps = np.finfo(float).eps
     assert np.all(np.abs(got - ref) <= 2 * K**2 * 1e-8 + 64 * eps * (np.abs(ref) + 1))
 

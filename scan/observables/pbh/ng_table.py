@@ -19,9 +19,11 @@ the hundreds in ln h exactly) plus a remainder that is smooth and small (measure
 random points of the domain: |G| / t^2 <= 7.9e-3, |G| <= 1.2).  On the near branch psi has
 one ridge in the domain (from the conditional mean rho t and from the curve rho z (1 + b
 z) = t Newton reached the same ridge at 2e5 random points, measured); z*/t is tabulated
-beside G as the seed (measured within 2.5e-4 Laplace widths of the ridge on the
-benchmark's pairs), so that two full Newton steps, the second below 1e-4 widths, end the
-search (:func:`_two_newton`; the damped search where they do not).  G = t^2 (ln h - Laplace), nearly a function of v = b t and rho alone
+beside G as the seed (interpolated trilinearly: measured within 0.01 Laplace widths of
+the ridge on the benchmark's pairs and at 99 % of 5e4 random points of the domain within
+0.014), so that two full Newton steps, the second below 1e-4 widths, end the search
+(:func:`_two_newton`; the damped search where they do not: 1e-4 of random points with rho
+in [0.85, 0.9], seeds up to 0.46 widths off).  G = t^2 (ln h - Laplace), nearly a function of v = b t and rho alone
 (measured: G changes by < 1e-3 relative between t = 10 and 160), is tabulated on a uniform
 grid in (s = asinh(v / ``V0``), rho, ln t) from the exact adaptive Gauss-Hermite density with
 32 nodes per ridge (within 1.4e-7 of scipy quad, tests/test_pbh_ng_stack.py) and
@@ -40,8 +42,8 @@ where the 16-node one was 1.1e-5 off; the stack then meets the per-spectrum path
 (measured).  The table holds no spectrum or f_NL: it is built once per process
 (:func:`density_table`, ~1 s) and serves every plan.  Cost (tests/bench/
 bench_pbh_nongaussian.py): ~0.1 us per element in passes the compiler vectorises
-(lookup, Newton steps), against ~0.16-0.2 us for one branchy loop per element (measured
-side by side on the benchmark's 22k elements).
+(lookup, Newton steps), against ~0.2 us for one branchy loop per element with both
+values tricubic (measured side by side on the benchmark's 22k elements: 0.53x).
 
 Units: all quantities [1].
 """
@@ -182,30 +184,39 @@ def _stencil(x, x0, h, n):
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
-def _lookup(table, origin, s, rho, lnt, g, zt):
-    """The tricubic interpolants of the table (axes s, rho, ln t, value; value: G and
-    z*/t) at the points (s, rho, ln t) into ``g`` and ``zt``: a loop without calls or
-    data-dependent branches, unsigned offsets (no negative-index wrap), which the compiler
-    vectorises across points (gathers)."""
-    flat = table.ravel()
-    n_s, n_rho, n_t = table.shape[0], table.shape[1], table.shape[2]
-    row = 2 * n_t
+def _lookup(g_table, z_table, origin, s, rho, lnt, g, zt):
+    """G by its tricubic interpolant (axes s, rho, ln t) and the ridge seed z*/t by the
+    trilinear one (it only seeds Newton: a seed eps Laplace widths off leaves a second
+    step of ~K eps^2, K <= 0.11 measured, within the 1e-4 rule for eps up to ~0.03, and
+    the damped search takes the rest: module doc) at the points (s, rho, ln t), into
+    ``g`` and ``zt``: a loop without calls or data-dependent branches, unsigned offsets
+    (no negative-index wrap), which the compiler vectorises across points (gathers)."""
+    gf, zf = g_table.ravel(), z_table.ravel()
+    n_s, n_rho, n_t = g_table.shape[0], g_table.shape[1], g_table.shape[2]
     for e in range(s.size):
         i, a0, a1, a2, a3 = _stencil(s[e], origin[0], H_S, n_s)
         j, c0, c1, c2, c3 = _stencil(rho[e], origin[1], H_RHO, n_rho)
         k, l0, l1, l2, l3 = _stencil(lnt[e], origin[2], H_LNT, n_t)
-        first = np.uint64((i * n_rho + j) * row + 2 * k)
-        ge, ze = 0.0, 0.0
+        first = np.uint64((i * n_rho + j) * n_t + k)
+        ge = 0.0
         for a in range(4):
             wa = a0 if a == 0 else (a1 if a == 1 else (a2 if a == 2 else a3))
             for c in range(4):
                 wac = wa * (c0 if c == 0 else (c1 if c == 1 else (c2 if c == 2 else c3)))
-                o = first + np.uint64((a * n_rho + c) * row)
-                ge += wac * (l0 * flat[o] + l1 * flat[o + np.uint64(2)]
-                             + l2 * flat[o + np.uint64(4)] + l3 * flat[o + np.uint64(6)])
-                ze += wac * (l0 * flat[o + np.uint64(1)] + l1 * flat[o + np.uint64(3)]
-                             + l2 * flat[o + np.uint64(5)] + l3 * flat[o + np.uint64(7)])
-        g[e], zt[e] = ge, ze
+                o = first + np.uint64((a * n_rho + c) * n_t)
+                ge += wac * (l0 * gf[o] + l1 * gf[o + np.uint64(1)]
+                             + l2 * gf[o + np.uint64(2)] + l3 * gf[o + np.uint64(3)])
+        g[e] = ge
+        u_s, u_r, u_t = ((s[e] - origin[0]) / H_S - (i + 1), (rho[e] - origin[1]) / H_RHO
+                         - (j + 1), (lnt[e] - origin[2]) / H_LNT - (k + 1))
+        o = first + np.uint64((n_rho + 1) * n_t + 1)       # the cell's corner (i+1, j+1, k+1)
+        d_s, d_r, one = np.uint64(n_rho * n_t), np.uint64(n_t), np.uint64(1)
+        z00 = zf[o] + u_t * (zf[o + one] - zf[o])
+        z01 = zf[o + d_r] + u_t * (zf[o + d_r + one] - zf[o + d_r])
+        z10 = zf[o + d_s] + u_t * (zf[o + d_s + one] - zf[o + d_s])
+        z11 = zf[o + d_s + d_r] + u_t * (zf[o + d_s + d_r + one] - zf[o + d_s + d_r])
+        z0, z1 = z00 + u_r * (z01 - z00), z10 + u_r * (z11 - z10)
+        zt[e] = z0 + u_s * (z1 - z0)
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH, inline="always")
@@ -237,8 +248,8 @@ def _two_newton(z, t, b, rho, ok):
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
-def tabulated_ln_h(table, origin, t, b, rho):
-    """ln h(t; b, rho) [1] per element from ``table`` (:func:`density_table`); NaN outside
+def tabulated_ln_h(g_table, z_table, origin, t, b, rho):
+    """ln h(t; b, rho) [1] per element from the table (:func:`split_table`); NaN outside
     the domain or where the ridge search fails (the caller takes the exact path).
 
     In passes over the elements (measured ~2x faster than one loop of lookup and damped
@@ -255,7 +266,7 @@ def tabulated_ln_h(table, origin, t, b, rho):
         te, be, re = (t[e], b[e], rho[e]) if inside[e] else (T_MIN, 0.0, RHO_MIN)
         s[e], rho_in[e], lnt[e] = math.asinh(be * te / V0), re, math.log(te)
     g, z, ok = np.empty(n), np.empty(n), np.empty(n, dtype=np.bool_)
-    _lookup(table, origin, s, rho_in, lnt, g, z)
+    _lookup(g_table, z_table, origin, s, rho_in, lnt, g, z)
     seed = z * t
     z[:] = seed
     _two_newton(z, t, b, rho, ok)
@@ -307,8 +318,15 @@ def density_table() -> tuple[np.ndarray, np.ndarray]:
     return table.reshape(tuple(a.size for a in axes) + (2,)), np.array([a[0] for a in axes])
 
 
+@functools.lru_cache(maxsize=1)
+def split_table() -> tuple[np.ndarray, np.ndarray]:
+    """G and z*/t of :func:`density_table`, each contiguous (axes s, rho, ln t)."""
+    table = density_table()[0]
+    return np.ascontiguousarray(table[..., 0]), np.ascontiguousarray(table[..., 1])
+
+
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
-def _tabulated_pairs(table, origin, c, s_c, b, rho):
+def _tabulated_pairs(g_table, z_table, origin, c, s_c, b, rho):
     """ln h(c / s_c; b, rho) - ln s_c [1], shape (n, n_y), for the pairs (s_c, b, rho)
     (n,) at the nodes ``c`` ((1, n_y) shared or (n, n_y)): :func:`tabulated_ln_h` over
     the pairs' elements, laid out here rather than by numpy broadcasts."""
@@ -319,7 +337,7 @@ def _tabulated_pairs(table, origin, c, s_c, b, rho):
         for q in range(n_y):
             t[p * n_y + q] = c[row, q] / s_c[p]
             b_e[p * n_y + q], rho_e[p * n_y + q] = b[p], rho[p]
-    out = tabulated_ln_h(table, origin, t, b_e, rho_e).reshape((n, n_y))
+    out = tabulated_ln_h(g_table, z_table, origin, t, b_e, rho_e).reshape((n, n_y))
     for p in range(n):
         ln_s_c = math.log(s_c[p])
         for q in range(n_y):
@@ -336,8 +354,8 @@ def ln_density_tabulated(c, s_c2, s_cr, s_r2, zmap: ZetaMap,
     shape = (np.size(s_c2), c.shape[1])
     s_c, s_r = np.sqrt(s_c2), np.sqrt(s_r2)
     b = np.ascontiguousarray(np.broadcast_to(1.2 * zmap.f_nl * s_r, shape[:1]), dtype=float)
-    table, origin = density_table()
-    out = _tabulated_pairs(table, origin, c, s_c, b, s_cr / (s_c * s_r))
+    out = _tabulated_pairs(*split_table(), density_table()[1], c, s_c, b,
+                           s_cr / (s_c * s_r))
     bad = np.isnan(out)
     if bad.any():
         i, j = np.nonzero(bad)
