@@ -22,10 +22,12 @@ stack 2-4 ms; ngmodel branch):
 * ngspeed6 branch (beta without the clip where a Lebesgue bound allows it, the mass
   function's clip in its compiled loops: scan/observables/pbh/ng_pairs.py; the dead-pair
   check by column maxima) against main 6e9e956, alternately, 5 runs each, 30 blocks
-  (machine loaded, load average 5.1-5.3): one-map logarithmic 3.57-3.97x -> 3.29-3.69x,
-  lambda per spectrum 4.22-4.99x -> 3.84-4.25x, capped per spectrum 5.00-5.94x ->
-  4.56-5.10x (an earlier set: 3.68-4.82x -> 3.49-4.02x, 4.25-5.35x -> 4.08-4.47x,
-  4.75-5.68x -> 4.66-5.30x); results bit-identical.
+  (machine loaded, load average 4.0-4.6): one-map logarithmic 3.57-4.03x -> 3.40-3.78x,
+  lambda per spectrum 4.10-4.43x -> 3.99-4.30x, capped per spectrum 4.69-5.41x ->
+  4.87-5.16x (earlier sets: 3.57-3.97x -> 3.29-3.69x, 4.22-4.99x -> 3.84-4.25x,
+  5.00-5.94x -> 4.56-5.10x; 3.68-4.82x -> 3.49-4.02x, 4.25-5.35x -> 4.08-4.47x,
+  4.75-5.68x -> 4.66-5.30x): within the noise for the capped map; results
+  bit-identical.
   The capped map's beta gains nothing: many of its exponents are below -708 (plain exp
   on all pairs measured 2.03 ms against 1.15 clipped), so most blocks keep the clip.
 

@@ -84,31 +84,35 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   the total (below rounding for the total) would skip 947 of 7144 pairs (13 %): not
   done.
 
-* ngspeed6 branch (the tabulated density in passes the compiler vectorises -- the tricubic
-  lookup with unsigned offsets, two full Newton steps from the tabulated ridge with the
-  damped search only where they miss its stopping rule, the pairs' elements laid out in
-  compiled code: ng_table.py; beta without the clip where a Lebesgue-constant bound keeps
-  every exponent above -700, the mass function's clip folded into its compiled loops:
-  ng_pairs.py; the dead-pair check by column maxima), this file (tests/bench/_timing.py,
-  30 blocks) run against main 6e9e956 and this branch alternately, 5 runs each (machine
-  loaded: load average 5.1-5.3 on the 2 cores, other helpers' training): local f_NL = 1
-  4.01-4.77x -> 3.34-3.62x, f_NL = -1 3.15-3.74x -> 2.76-3.29x, logarithmic 3.84-4.10x
-  -> 3.42-3.90x (a set before the last change, the elements laid out in compiled code:
-  4.13-4.47x -> 3.58-3.68x, 3.32-3.52x -> 2.92-2.97x, 3.73-4.03x -> 3.51-3.88x).  With
-  --qcd (20 blocks, 2 runs each): QCD-era local f_NL = 1 4.47-4.62x -> 3.92-4.04x, f_NL =
-  -1 3.49-3.53x -> 3.20-3.23x, logarithmic 4.13-4.45x -> 4.21-4.24x (the Gaussian QCD
-  stack, the same code on both, 3.32-3.50x and 3.82-3.83x: that is the noise); the plain
-  rows of those runs 4.10-4.27x -> 3.70-3.79x, 3.32-3.33x -> 2.94-3.00x, 3.72-4.05x ->
-  3.81-3.87x.  The density alone, side by side in one process on the benchmark's 22k
-  elements: 0.16-0.21 -> 0.10-0.11 us per element (lookup ~0.065, the two vectorised Newton steps 0.005
-  against ~0.06 for the damped search from the same seed, asinh/log and the Laplace
-  value's logs ~0.03).  Results: the local maps within 2e-12 of main in f(M) and totals
-  (both searches stop within their 1e-4-width rule; ln h within 1.8e-10 at 1.7e5 random
-  and benchmark points), logarithmic, capped and Gaussian bit-identical.  By parts now (alternating,
-  Gaussian stack = 1; f_NL = 1): density 1.5, beta 0.45, variances 0.29, bound 0.29, mass
-  function 0.22, the rest ~0.45; logarithmic: beta 1.1, closed form 0.8, mass function
-  0.6, variances 0.3.  Tried and not kept: the ridge continued along a pair's nodes
-  (extrapolated seed, 3 Newton steps) with a G-only lookup and the pair's rho weights (no
+* ngspeed6 branch (the tabulated density in passes the compiler vectorises -- G's tricubic
+  lookup with unsigned offsets, the ridge seed trilinear from its own table, two full
+  Newton steps from it with the damped search only where they miss its stopping rule,
+  the pairs' elements laid out in compiled code: ng_table.py; beta without the clip where
+  a Lebesgue-constant bound keeps every exponent above -700, the mass function's clip
+  folded into its compiled loops: ng_pairs.py; the dead-pair check by column maxima),
+  this file (tests/bench/_timing.py, 30 blocks) run against main 6e9e956 and this branch
+  alternately, 5 runs each (machine loaded: load average 4.0-4.6 on the 2 cores, other
+  helpers' training): local f_NL = 1 4.39-4.86x -> 2.99-3.48x, f_NL = -1 3.43-3.79x ->
+  2.48-2.72x, logarithmic 3.86-4.42x -> 3.59-3.93x.  With --qcd (20 blocks, 2 runs each):
+  QCD-era local f_NL = 1 4.34-4.37x -> 3.41-3.52x, f_NL = -1 3.39-3.47x -> 2.69-2.88x,
+  logarithmic 4.04-4.18x -> 4.17-4.38x (the Gaussian QCD stack, the same code on both,
+  3.43-3.45x and 3.63-3.85x: that is the noise); the plain rows of those runs 3.94-4.21x
+  -> 2.98-3.21x, 3.14-3.32x -> 2.54-2.69x, 3.62-3.78x -> 3.68-3.92x.  Before the
+  trilinear seed (both values tricubic), 5 runs: 4.01-4.77x -> 3.34-3.62x, 3.15-3.74x ->
+  2.76-3.29x, 3.84-4.10x -> 3.42-3.90x.  The density alone, side by side in one process
+  on the benchmark's 22k elements: 0.23 -> 0.125 us per element (0.53x; 0.65x before the
+  trilinear seed; that form's parts: lookup ~0.065, the two vectorised Newton steps
+  0.005 against ~0.06 for the damped search from the same seed, asinh/log and the
+  Laplace value's logs ~0.03).  Results: the local maps within 2e-12 of main in f(M) and
+  totals (both searches stop within their 1e-4-width rule; ln h within 1.8e-10 at 1.7e5
+  random and benchmark points), logarithmic, capped and Gaussian bit-identical.  By parts
+  now (a separate script timing the parts, the maps alternated, the Gaussian stack = 1;
+  its totals are below this file's ratios, cause not pinned down): f_NL = 1
+  density 0.79, beta 0.37, variances 0.28, bound 0.23, mass function 0.17, the rest
+  ~0.35 (total 2.2); logarithmic: beta 0.91, closed form 0.6, mass function 0.5,
+  variances 0.23 (total 2.6).  So 3x for the logarithmic map needs beta (120 exponentials
+  per pair on 7.1k pairs) cheaper; see below.  Tried and not kept: the ridge continued
+  along a pair's nodes (extrapolated seed, 3 Newton steps) with a G-only lookup and the pair's rho weights (no
   faster: the scalar lookup was latency-bound, not memory-bound -- every point in one
   table cell cost the same); a float32 table (no faster, also alternating); fewer beta
   panels (N_PANELS = 12 puts the identity map 8.8e-10 off the Gaussian path, above the
