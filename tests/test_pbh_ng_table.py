@@ -84,9 +84,9 @@ def _ridges(t, b, rho):
 def test_two_newton_steps_reach_the_damped_searchs_ridge():
     """The fast path (two full Newton steps from the tabulated ridge, ng_table._two_newton)
     against the damped search from the conditional mean, at the random points of the test
-    above.  Bound (Newton's quadratic convergence; e.g. Dennis & Schnabel 1996, Numerical
-    Methods for Unconstrained Optimization and Nonlinear Equations, sec. 2.4, from memory):
-    after a last step of delta <= 1e-4 Laplace widths each ridge is within K delta^2
+    above.  Bound (Newton's error from Taylor's remainder, e_{n+1} = f''(xi) / (2 f'(x_n))
+    e_n^2 for f = psi', the textbook derivation; common practice): after a last step of
+    delta <= 1e-4 Laplace widths each ridge is within K delta^2
     widths of the true one, K = |psi'''| / (2 |psi''|^(3/2)); ln h moves by K per width
     there (psi' = 0), so the two differ by <= 2 K 1e-8 widths in z* and 2 K^2 1e-8 in
     ln h, plus rounding: 64 eps (|ln h| + 1) (common practice: a few dozen rounded
