@@ -6,8 +6,7 @@
    P_zeta, widths 0.5 and 0.2, peak at 10 and 100 nHz) at k/k_* = 0.5, 1, 2/sqrt(3), 1.5.
 3. Interpolation error on Omega: on a small (t, s) node set, the table kernel against the
    same construction from direct fluid_kernel values (tests/test_sigw_kernel_table.py).
-4. Plan-build time with and without the option (same table, 200 outputs over the peak,
-   best of 5, side by side).
+(The plan-build cost is measured by tests/bench/bench_sigw_kernel.py.)
 
     nice -n 15 python tests/tools/fluid_kernel_table_effect.py
 """
@@ -15,7 +14,6 @@ from __future__ import annotations
 
 import math
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
@@ -70,22 +68,6 @@ def effect_and_error(f_star: float) -> None:
               + ", ".join(f"{e:+.1e}" for e in errors))
 
 
-def build_cost() -> None:
-    """Best-of-5 plan-build times, with and without the option."""
-    k_star = float(cosmo.f_to_k(1e-8))
-    k_in = k_star * np.exp(np.linspace(-4, 4, 256))
-    k_out = k_star * np.exp(np.linspace(-2, 2, 200))
-    best = {}
-    for _ in range(5):
-        for kernel in ("radiation", "qcd-fluid"):
-            start = time.perf_counter()
-            plan_sigw(k_in, k_out, kernel=kernel)
-            best[kernel] = min(best.get(kernel, np.inf), time.perf_counter() - start)
-    print(f"plan build (256-point table, 200 outputs): radiation {best['radiation']:.3f} s, "
-          f"qcd-fluid {best['qcd-fluid']:.3f} s, ratio "
-          f"{best['qcd-fluid'] / best['radiation']:.2f}")
-
-
 def main() -> int:
     for table in load_kernel_tables():
         print(f"table applied at T_c {table.T_range[0]:.4g}-{table.T_range[1]:.4g} GeV, "
@@ -93,7 +75,6 @@ def main() -> int:
         edges(table)
     for f_star in (1e-8, 1e-7):
         effect_and_error(f_star)
-    build_cost()
     return 0
 
 
