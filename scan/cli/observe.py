@@ -149,7 +149,7 @@ def run(args: argparse.Namespace) -> int:
         text += "\nfigures: " + ", ".join(str(p) for p in done.figures)
     output.result({"result": done.out, "input": str(args.spectrum),
                    "f_peak_Hz": obs.f_gw_peak, "omega_gw_h2_peak": obs.omega_gw_h2_peak,
-                   "f_pbh_total": obs.f_pbh_total,
+                   "f_pbh_total": obs.f_pbh_total, "sigw_kernel": obs.sigw_kernel,
                    "conventions": obs.conventions.as_attrs(), "notes": list(obs.notes),
                    "figures": list(done.figures), "error": None}, text)
     return 0

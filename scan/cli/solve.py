@@ -65,7 +65,8 @@ def solve_report(result: SolveResult, out: Path, figures: list[Path]) -> dict[st
                               "k_peak_Mpc^-1": s.k_peak, "P_peak": s.P_peak,
                               "k_dip_Mpc^-1": s.k_dip, "P_dip": s.P_dip}
     if o is not None:
-        report["gw"] = {"f_peak_Hz": o.f_gw_peak, "omega_gw_h2_peak": o.omega_gw_h2_peak}
+        report["gw"] = {"f_peak_Hz": o.f_gw_peak, "omega_gw_h2_peak": o.omega_gw_h2_peak,
+                        "sigw_kernel": o.sigw_kernel}
         report["pbh"] = {"f_pbh_total": o.f_pbh_total,
                          "conventions": o.conventions.as_attrs()}
         report["notes"] = list(o.notes)

@@ -20,6 +20,7 @@ from scan.observables.pbh.conventions import MASS_FUNCTIONS as PBH_MASS_FUNCTION
 from scan.observables.pbh.qcd import QCD_COLLAPSES, QCD_THRESHOLDS
 from scan.observables.pbh.variance import WINDOWS as PBH_WINDOWS
 from scan.observables.pbh.zeta_map import NON_GAUSSIANITIES
+from scan.observables.sigw_kernel_table import SIGW_KERNELS, TABLE_GSTAR
 
 @dataclass(frozen=True, kw_only=True)
 class BackgroundSection:
@@ -315,6 +316,10 @@ class ObservablesSection:
                              "gamma_c) or gamma-of-w (gamma_c times gamma(w(T))/gamma(1/3), "
                              "perfect-fluid exponents interpolated in w; K fixed; opt-in)",
                              "off", choices=QCD_COLLAPSES)
+    sigw_kernel: str = spec("induced-GW kernel: radiation (closed form, w = c_s^2 = 1/3) or "
+                            "qcd-fluid (tabulated on the Saikawa-Shirai 2018 background, "
+                            "softened w and c_s^2 across the QCD crossover; solve/observe)",
+                            "radiation", choices=SIGW_KERNELS)
 
     def validate(self, where: str, source: str) -> None:
         """Cross-field rules of the non-Gaussianity and QCD-threshold conventions."""
@@ -337,6 +342,12 @@ class ObservablesSection:
                                   "criterion = 'compaction' and mass_function = 'critical' "
                                   "(it enters through the compaction function)",
                                   f"set those, or the default {key}")
+        if self.sigw_kernel != "radiation" and (self.gstar_table or self.gstar != TABLE_GSTAR):
+            raise ConfigError(source, f"{where}.sigw_kernel", f"'{self.sigw_kernel}' is "
+                              f"tabulated on the {TABLE_GSTAR} g_*(T) background, not on "
+                              f"{self.gstar_table or self.gstar!r}",
+                              f"set gstar = '{TABLE_GSTAR}' (no gstar_table), or "
+                              "sigw_kernel = 'radiation'")
 
 
 @dataclass(frozen=True, kw_only=True)

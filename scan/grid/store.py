@@ -38,7 +38,7 @@ from scan.errors import InputFileError
 from scan.grid.evaluate import DERIVED, BlockResult
 from scan.posterior.reasons import REASONS
 from scan.grid.plan import GridPlan
-from scan.observables.settings import pbh_convention_attrs
+from scan.observables.settings import gw_convention_attrs, pbh_convention_attrs
 from scan.grid.verdict import NOT_EVALUATED, STATUS_NAMES, TermInfo, is_relative, relative_status
 from scan.store import (KIND_ATTRS, RunLock, SingleWriter, provenance, require,
                         stored_config_of, write_attrs, write_config)
@@ -75,7 +75,8 @@ def create_grid_file(path: str | Path, config: Any, plan: GridPlan, infos: list[
         with h5py.File(tmp, "w", libver="latest") as handle:
             write_attrs(handle, provenance(config.effective_text, config.run.seed))
             write_attrs(handle, {"kind": KIND, "run_name": config.run.name, **digests,
-                                 **pbh_convention_attrs(config.observables)})
+                                 **pbh_convention_attrs(config.observables),
+                                 **gw_convention_attrs(config.observables)})
             write_config(handle, config.effective_text, config.overrides, config.base_dir)
             g = handle.create_group("grid")
             names = plan.priors.names

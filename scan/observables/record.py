@@ -18,7 +18,7 @@ from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Fields shared by all models of a stack (never indexed by :meth:`Observables.row`).
 SHARED_FIELDS: frozenset[str] = frozenset({"f_hz", "m_msun", "ln_1e10_as", "conventions",
-                                           "notes", "qcd"})
+                                           "notes", "qcd", "sigw_kernel"})
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -65,6 +65,9 @@ class Observables:
     qcd : dict or None
         The QCD-era conventions ``{"qcd_threshold": ..., "qcd_collapse": ...}`` f_PBH was
         computed with (None: not recorded by the producer).
+    sigw_kernel : str or None
+        The induced-GW kernel Omega_GW was computed with (``[observables] sigw_kernel``;
+        None: not recorded by the producer).
     """
 
     f_hz: np.ndarray | None = None
@@ -86,6 +89,7 @@ class Observables:
     zeta_map: ZetaMap | None = None
     f_pbh_total_gaussian: Any = None
     qcd: dict[str, str] | None = None
+    sigw_kernel: str | None = None
 
     def row(self, i: int) -> Observables:
         """Model ``i`` of a stack, with its own masses in ``m_msun`` (no shift left)."""

@@ -42,6 +42,8 @@ class ObservableSettings:
         ``[observables] qcd_threshold``.
     qcd_collapse : str
         ``[observables] qcd_collapse``.
+    sigw_kernel : str
+        ``[observables] sigw_kernel`` (:mod:`scan.observables.sigw_kernel_table`).
     """
 
     conventions: PBHConventions
@@ -53,6 +55,7 @@ class ObservableSettings:
     zeta_map: ZetaMap | None = None
     qcd_threshold: str = "off"
     qcd_collapse: str = "off"
+    sigw_kernel: str = "radiation"
 
     def compute(self, k: np.ndarray, P_zeta: np.ndarray,
                 zeta_map: ZetaMap | None = None) -> Observables:
@@ -64,7 +67,8 @@ class ObservableSettings:
                                    n_m=self.n_m, dof=self.dof, n_eff=self.n_eff,
                                    zeta_map=zeta_map or self.zeta_map,
                                    qcd_threshold=self.qcd_threshold,
-                                   qcd_collapse=self.qcd_collapse)
+                                   qcd_collapse=self.qcd_collapse,
+                                   sigw_kernel=self.sigw_kernel)
 
 
 def conventions_of(section: ObservablesSection) -> PBHConventions:
@@ -85,7 +89,7 @@ def settings_of(section: ObservablesSection) -> ObservableSettings:
                                                     log_lambda=section.log_lambda)
     return ObservableSettings(conventions_of(section), dof, section.n_eff, section.n_f,
                               section.n_m, kind, zmap, section.qcd_threshold,
-                              section.qcd_collapse)
+                              section.qcd_collapse, section.sigw_kernel)
 
 
 def require_batch_conventions(section: ObservablesSection, source: str,
@@ -101,11 +105,23 @@ def require_batch_conventions(section: ObservablesSection, source: str,
     (:func:`scan.posterior.exact.exact_from_arrays`), where ``model`` (which needs the
     background for delta-N) is refused.
 
+    The induced-GW integral of the batch path is one plan on a table relative to each
+    walker's peak, which the radiation kernel's scale-free form allows; the ``qcd-fluid``
+    kernel depends on the absolute re-entry temperature, so it is refused there (not
+    with ``exact_only``: that path plans each spectrum on its own k).
+
     Raises
     ------
     ConfigError
-        Naming ``observables.non_gaussianity``.
+        Naming ``observables.non_gaussianity`` or ``observables.sigw_kernel``.
     """
+    if not exact_only and section.sigw_kernel != "radiation":
+        raise ConfigError(source, "observables.sigw_kernel", f"'{section.sigw_kernel}' is "
+                          "computed by solve, observe and exact solves only; the surrogate "
+                          "posterior integrates Omega_GW with one scale-free plan for every "
+                          "walker, which needs the radiation kernel", "set sigw_kernel = "
+                          "'radiation' for sample and surrogate grids (check single models "
+                          "with solve or observe, or use an exact grid)")
     if exact_only and section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' needs the model's "
                           "background for its delta-N map, which a spectrum given as "
@@ -132,3 +148,9 @@ def pbh_convention_attrs(section: ObservablesSection) -> dict:
     notes = qcd_notes(settings.conventions, section.qcd_threshold, section.qcd_collapse,
                       settings.dof)
     return {**attrs, "qcd_notes": "\n".join(notes)} if notes else attrs
+
+
+def gw_convention_attrs(section: ObservablesSection) -> dict:
+    """The induced-GW convention of a run as flat attributes: ``sigw_kernel`` (chains and
+    grids, beside :func:`pbh_convention_attrs`)."""
+    return {"sigw_kernel": section.sigw_kernel}

@@ -31,8 +31,18 @@ import numpy as np
 from scipy import sparse
 
 from scan.observables import cosmo
-from scan.observables.sigw_nodes import (T_RESONANCE, TINY, interpolation_entries,  # noqa: F401
-                                         kernel_array, nodes_for_k)
+from scan.observables.sigw_kernel_table import (
+    SIGW_KERNELS,
+    load_kernel_tables,
+    tabulated_kernel,
+)
+from scan.observables.sigw_nodes import (  # noqa: F401
+    T_RESONANCE,
+    TINY,
+    interpolation_entries,
+    kernel_array,
+    nodes_for_k,
+)
 
 
 class TruncationWarning(UserWarning):
@@ -169,7 +179,8 @@ def _interpolation_matrix(iu_l, fu_l, iv_l, fv_l, n_in: int) -> sparse.csr_matri
 
 
 def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
-              dof: cosmo.Dof = None, n_eff: float = cosmo.N_EFF_DEFAULT) -> SIGWPlan:
+              dof: cosmo.Dof = None, n_eff: float = cosmo.N_EFF_DEFAULT,
+              kernel: str = "radiation") -> SIGWPlan:
     """Precompute the induced-GW quadrature for a spectrum table ``k_in``.
 
     Parameters
@@ -185,6 +196,10 @@ def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
         Number of geometric panels (ratio 0.3) on each side of the resonance.
     dof, n_eff
         g_*(T) choice and N_eff for the transfer to today (see :mod:`scan.observables.cosmo`).
+    kernel : str
+        ``"radiation"``: the closed-form RD kernel; ``"qcd-fluid"``: the tabulated kernel
+        on the QCD-era background for output k re-entering inside the table's range
+        (:mod:`scan.observables.sigw_kernel_table`), the RD kernel elsewhere.
 
     Returns
     -------
@@ -196,7 +211,7 @@ def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
             raise ValueError("give k_out [Mpc^-1] or f_out [Hz]")
         k_out = cosmo.f_to_k(f_out)
     k_out = np.atleast_1d(np.asarray(k_out, dtype=float))
-    iu_l, fu_l, iv_l, fv_l, w_l, counts = node_table(k_in, k_out, n_gl, grade)
+    iu_l, fu_l, iv_l, fv_l, w_l, counts = node_table(k_in, k_out, n_gl, grade, kernel, dof)
     n_nodes = int(counts.sum())
     # weighted segmented sum over each output k's nodes (row j holds k_out[j]'s weights)
     summation = sparse.csr_matrix(
@@ -211,7 +226,8 @@ def plan_sigw(k_in, k_out=None, *, f_out=None, n_gl: int = 4, grade: int = 10,
     )
 
 
-def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 10):
+def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 10,
+               kernel: str = "radiation", dof: cosmo.Dof = None):
     """The quadrature nodes of every output k, located in the table ``k_in``.
 
     Parameters
@@ -221,6 +237,10 @@ def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 
     k_out : ndarray [Mpc^-1]
     n_gl, grade : int
         As :func:`plan_sigw`.
+    kernel : str
+        As :func:`plan_sigw`.
+    dof : None, DofTable or (g_rho, g_s)
+        g_*(T) for the re-entry temperature of each output k (``qcd-fluid`` only).
 
     Returns
     -------
@@ -232,10 +252,16 @@ def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 
     """
     lnk_in = np.ascontiguousarray(np.log(k_in), dtype=float)
     h = float(np.median(np.diff(lnk_in)))
+    if kernel not in SIGW_KERNELS:
+        raise ValueError(f"kernel must be one of {SIGW_KERNELS}, got {kernel!r}")
     xg, wg = _gauss(n_gl)
+    tables = load_kernel_tables() if kernel == "qcd-fluid" else None
+    T_c = cosmo.temperature_of_k(k_out, dof) if tables is not None else k_out
     iu_l, fu_l, iv_l, fv_l, w_l, counts = [], [], [], [], [], []
-    for k in k_out:
-        iu, fu, iv, fv, w = nodes_for_k(float(k), lnk_in, h, xg, wg, int(grade))
+    for k, T in zip(k_out, T_c):
+        iu, fu, iv, fv, w, t, s, q = nodes_for_k(float(k), lnk_in, h, xg, wg, int(grade))
+        if tables is not None:
+            w = q * tabulated_kernel(float(T), t, s, w / q, tables)
         iu_l.append(iu), fu_l.append(fu), iv_l.append(iv), fv_l.append(fv)
         w_l.append(w)
         counts.append(w.size)

@@ -40,8 +40,9 @@ Size (measured, tests/tools/qcd_sigw_effect.py): the kernel is very sensitive to
 near the lines where the RD kernel vanishes (u^2 + v^2 = 1/c_s^2) or resonates
 (c_s (u + v) = 1, crossed during the crossover for sqrt(3) < u + v < 2.13), so single
 kernel values change by factors 0.06-4.6 for re-entry at 0.05-5 GeV, and Omega_GW of
-smooth synthetic spectra by 0.76-1.86 at 1-100 nHz.  Not yet used by the SIGW plan:
-no user-facing option.  For a future table: one kernel costs ~20-50 ms (eta_end = 800);
+smooth synthetic spectra by 0.76-1.86 at 1-100 nHz.  The SIGW plan uses it through
+the table of :mod:`scan.observables.sigw_kernel_table` (``[observables] sigw_kernel =
+"qcd-fluid"``).  Table design: one kernel costs ~20-50 ms (eta_end = 800);
 a bicubic spline in (z, s), z = +-ln|t - (sqrt(3) - 1)| on either side of the RD
 resonance, interpolates the RD kernel to 2e-2 (L1-weighted) on 16+24 t-points x 9
 s-points, 8e-4 on 32+48 x 17 and 1e-4 on 64+96 x 33 (measured); the T_c grid must

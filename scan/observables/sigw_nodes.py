@@ -118,13 +118,15 @@ def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
         Lower table index and fraction (in ln k) of k u and k v per node.
     w : ndarray
         Quadrature weight times K(u, v) per node (zero and non-finite ones dropped).
+    t, s, q : ndarray
+        The node's (t, s) and its quadrature weight alone (w = q K(u, v)).
     """
     lo, hi = lnk_in[0], lnk_in[-1]
     t_lo = max(0.0, 2.0 * math.exp(lo) / k - 1.0)
     t_hi = 2.0 * math.exp(hi) / k - 1.0
     if t_hi <= t_lo:
         return (np.empty(0, np.int32), np.empty(0), np.empty(0, np.int32), np.empty(0),
-                np.empty(0))
+                np.empty(0), np.empty(0), np.empty(0), np.empty(0))
     edges = t_panels(t_lo, t_hi, h, grade)
     v_floor = math.exp(lo) / k
     g = xg.size
@@ -134,6 +136,7 @@ def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
     iu = np.empty(total, np.int32)
     iv = np.empty(total, np.int32)
     fu, fv, w = np.empty(total), np.empty(total), np.empty(total)
+    tn, sn, qn = np.empty(total), np.empty(total), np.empty(total)
     last = lnk_in.size - 2
     n, i, j = 0, 0, 0  # i, j: the table intervals of the previous node (walks start there)
     for p in range(edges.size - 1):
@@ -151,16 +154,18 @@ def nodes_for_k(k: float, lnk_in, h: float, xg, wg, grade: int):
                     lu, lv = math.log(k * u), math.log(max(k * v, TINY))
                     if not (lv >= lo and lu <= hi and v > 0.0):
                         continue
-                    wk = tw * ((s1 - s0) * wg[ks]) * kernel_value(u, v)
+                    q = tw * ((s1 - s0) * wg[ks])
+                    wk = q * kernel_value(u, v)
                     if not (math.isfinite(wk) and wk != 0.0):
                         continue
                     i = _walk(lnk_in, lu, i, last)
                     j = _walk(lnk_in, lv, j, last)
                     iu[n], iv[n], w[n] = i, j, wk
+                    tn[n], sn[n], qn[n] = t, s, q
                     fu[n] = (lu - lnk_in[i]) / (lnk_in[i + 1] - lnk_in[i])
                     fv[n] = (lv - lnk_in[j]) / (lnk_in[j + 1] - lnk_in[j])
                     n += 1
-    return iu[:n], fu[:n], iv[:n], fv[:n], w[:n]
+    return iu[:n], fu[:n], iv[:n], fv[:n], w[:n], tn[:n], sn[:n], qn[:n]
 
 
 @njit(cache=True, error_model="numpy")

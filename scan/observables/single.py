@@ -22,6 +22,7 @@ from scan.observables.pbh.qcd import (
 )
 from scan.observables.pbh.zeta_map import ZetaMap
 from scan.observables.record import Observables, peak_of
+from scan.observables.sigw_kernel_table import kernel_range_note
 
 #: P_zeta above which the classical, perturbative treatment fails [1]: quantum diffusion
 #: dominates once P_zeta ≳ O(0.1–1) (shared/physics/inflation.md sect. 5.5; Pattison,
@@ -111,7 +112,8 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                         conventions: PBHConventions = PBHConventions(), n_f: int = 200,
                         n_m: int = 200, dof=None, n_eff: float = cosmo.N_EFF_DEFAULT,
                         zeta_map: ZetaMap | None = None,
-                        qcd_threshold: str = "off", qcd_collapse: str = "off") -> Observables:
+                        qcd_threshold: str = "off", qcd_collapse: str = "off",
+                        sigw_kernel: str = "radiation") -> Observables:
     """Ω_GW h²(f) and f_PBH(M) of a tabulated spectrum.
 
     A table longer than :func:`max_table_rows` is resampled first (:func:`resample_table`;
@@ -140,6 +142,9 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
     qcd_collapse : str
         ``"gamma-of-w"``: the critical-collapse exponent follows w(T) across the QCD
         crossover (:mod:`scan.observables.pbh.qcd`; K stays fixed); ``"off"``: one gamma_c.
+    sigw_kernel : str
+        Induced-GW kernel: ``"radiation"`` or ``"qcd-fluid"`` (tabulated QCD-era kernel,
+        :mod:`scan.observables.sigw_kernel_table`; a note states its approximations).
 
     Returns
     -------
@@ -152,11 +157,14 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
         sigw.check_spectrum(P_zeta)
     k, P_zeta, resampled = resample_table(k, P_zeta, max_table_rows(n_f))
     f = frequency_grid(k, n_f)
-    omega = sigw.plan_sigw(k, f_out=f, dof=dof, n_eff=n_eff).omega_gw_h2(P_zeta)
+    omega = sigw.plan_sigw(k, f_out=f, dof=dof, n_eff=n_eff,
+                           kernel=sigw_kernel).omega_gw_h2(P_zeta)
     M = mass_grid(k, conventions, n_m, dof, n_eff)
     plan = plan_pbh(k, M, conventions, n_formation=N_FORMATION, dof=dof, n_eff=n_eff)
     pbh = plan.evaluate(P_zeta)
     notes = tuple(str(w.message) for w in caught)
+    if sigw_kernel != "radiation":
+        notes += (kernel_range_note(),)
     gaussian_total = None
     non_gaussian = zeta_map is not None and not zeta_map.is_gaussian
     if non_gaussian or qcd_threshold != "off" or qcd_collapse != "off":
@@ -185,7 +193,8 @@ def compute_observables(k: np.ndarray, P_zeta: np.ndarray, *,
                        omega_gw_h2_peak=omega_peak, conventions=pbh.conventions,
                        notes=notes + ((resampled,) if resampled else ()) + warnings_,
                        zeta_map=zeta_map, f_pbh_total_gaussian=gaussian_total,
-                       qcd={"qcd_threshold": qcd_threshold, "qcd_collapse": qcd_collapse})
+                       qcd={"qcd_threshold": qcd_threshold, "qcd_collapse": qcd_collapse},
+                       sigw_kernel=sigw_kernel)
 
 
 def nongaussian_note(zmap: ZetaMap, gaussian: float, nongaussian: float, window: str) -> str:

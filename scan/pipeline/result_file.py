@@ -15,7 +15,8 @@ Layout (every dataset has a ``units`` attribute):
   ``usr_efolds``, ``valid``, ``reason``; ``peaks``: one row per peak of P_ζ (compound:
   ``pole``, ``k``, ``P_zeta``, ``f_gw``, ``omega_gw_h2``, ``M_pbh``, ``f_pbh``; units per
   column as attributes ``units_<column>``);
-* ``gw/``: ``f`` [Hz], ``k`` [Mpc^-1], ``omega_gw_h2``; attributes ``f_peak``, ``omega_gw_h2_peak``;
+* ``gw/``: ``f`` [Hz], ``k`` [Mpc^-1], ``omega_gw_h2``; attributes ``f_peak``, ``omega_gw_h2_peak``,
+  ``sigw_kernel``;
 * ``pbh/``: ``M`` [M_sun], ``M_g`` [g], ``f_pbh`` (per ln M); attribute ``f_pbh_total`` and
   every convention (window, criterion, threshold, gamma_c, K, ...).
 """
@@ -154,14 +155,16 @@ def _write_spectrum(group: h5py.Group, result: SolveResult) -> None:
 def write_observables(handle: h5py.Group, obs: Observables) -> None:
     """Groups ``gw`` (``f`` [Hz], ``k``, ``omega_gw_h2``) and ``pbh`` (``M`` [M_sun], ``M_g``,
     ``f_pbh`` per ln M; attribute ``f_pbh_total`` and every PBH convention, the QCD-era
-    ones ``qcd_threshold`` and ``qcd_collapse`` included)."""
+    ones ``qcd_threshold`` and ``qcd_collapse`` included); ``gw`` carries ``sigw_kernel``,
+    the induced-GW kernel's name."""
     gw = handle.create_group("gw")
     store.write_dataset(gw, "f", obs.f_hz, "Hz", "GW frequency today")
     store.write_dataset(gw, "k", cosmo.f_to_k(obs.f_hz), "Mpc^-1", "comoving wavenumber")
     store.write_dataset(gw, "omega_gw_h2", obs.omega_gw_h2, "1", "Omega_GW,0 h^2 per ln f")
     store.attach_scale(gw, "f", "k", "omega_gw_h2")
     store.write_attrs(gw, {"f_peak": obs.f_gw_peak, "omega_gw_h2_peak": obs.omega_gw_h2_peak,
-                           "units_f_peak": "Hz", "notes": list(obs.notes) or ["none"]})
+                           "units_f_peak": "Hz", "notes": list(obs.notes) or ["none"],
+                           "sigw_kernel": obs.sigw_kernel or "radiation"})
     pbh = handle.create_group("pbh")
     store.write_dataset(pbh, "M", obs.m_msun, "M_sun", "PBH mass")
     store.write_dataset(pbh, "M_g", cosmo.msun_to_grams(obs.m_msun), "g", "PBH mass")

@@ -34,7 +34,7 @@ from scan import store
 from scan.config.priors import width_prior_attributes
 from scan.config.schema import RunConfig
 from scan.errors import InputFileError
-from scan.observables.settings import pbh_convention_attrs
+from scan.observables.settings import gw_convention_attrs, pbh_convention_attrs
 from scan.sampler.moves import describe as describe_moves
 
 GROUP = "mcmc"
@@ -217,6 +217,7 @@ def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
         if surrogate is not None:
             handle.attrs[SURROGATE_ATTR] = surrogate
         store.write_attrs(handle, pbh_convention_attrs(config.observables))
+        store.write_attrs(handle, gw_convention_attrs(config.observables))
         store.write_config(handle, config.effective_text, config.overrides, config.base_dir)
         extras.write(handle)
         store.write_dataset(handle[EXTRA], "initial", initial, "1",

@@ -19,9 +19,9 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import sys  # noqa: E402
-import time  # noqa: E402
 
 import numpy as np  # noqa: E402
+from _timing import alternating_times  # noqa: E402
 
 from scan.observables.batch import interp_uniform_shifted, pbh_on_table, plan_batch
 from scan.observables.pbh import PBHConventions, beta_weighted, plan_pbh  # noqa: E402
@@ -30,19 +30,6 @@ from scan.observables.pbh.tables import beta_tabulated  # noqa: E402
 from scan.observables.window import spectra_on_table  # noqa: E402
 
 M_WALKERS, BLOCKS, BLOCK = 64, 20, 10
-
-
-def timed(funcs, blocks: int = BLOCKS, block: int = BLOCK) -> list[list[float]]:
-    """Thread CPU times [s] of each function, called in alternating blocks."""
-    times = [[] for _ in funcs]
-    for _ in range(blocks):
-        for f, out in zip(funcs, times):
-            f()
-            for _ in range(block):
-                start = time.thread_time()
-                f()
-                out.append(time.thread_time() - start)
-    return times
 
 
 def main() -> None:
@@ -78,7 +65,8 @@ def main() -> None:
             ("beta (live)", lambda: beta_tabulated(plan.pbh._beta_table, s_live, k_live),
              lambda: beta_weighted(s_live, k_live, conv))]
     for name, new, old in rows:
-        t_new, t_old = timed([new, old])
+        t_new, t_old = alternating_times({"new": new, "old": old}, BLOCKS, BLOCK,
+                                         warm_up=True).values()
         ratio = np.median(t_old) / np.median(t_new)
         print(f"  {name:13s} fast {1e3 * np.median(t_new):6.3f} ms  direct "
               f"{1e3 * np.median(t_old):6.3f} ms  ratio {ratio:5.2f}"

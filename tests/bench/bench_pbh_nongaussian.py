@@ -84,6 +84,44 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   the total (below rounding for the total) would skip 947 of 7144 pairs (13 %): not
   done.
 
+* ngspeed6 branch (the tabulated density in passes the compiler vectorises -- G's tricubic
+  lookup with unsigned offsets, the ridge seed trilinear from its own table, two full
+  Newton steps from it with the damped search only where they miss its stopping rule,
+  the pairs' elements laid out in compiled code: ng_table.py; beta without the clip where
+  a Lebesgue-constant bound keeps every exponent above -700, the mass function's clip
+  folded into its compiled loops: ng_pairs.py; the dead-pair check by column maxima),
+  this file (tests/bench/_timing.py, 30 blocks) run against main 6e9e956 and this branch
+  alternately, 5 runs each (machine loaded: load average 4.0-4.6 on the 2 cores, other
+  helpers' training): local f_NL = 1 4.39-4.86x -> 2.99-3.48x, f_NL = -1 3.43-3.79x ->
+  2.48-2.72x, logarithmic 3.86-4.42x -> 3.59-3.93x.  With --qcd (20 blocks, 2 runs each):
+  QCD-era local f_NL = 1 4.34-4.37x -> 3.41-3.52x, f_NL = -1 3.39-3.47x -> 2.69-2.88x,
+  logarithmic 4.04-4.18x -> 4.17-4.38x (the Gaussian QCD stack, the same code on both,
+  3.43-3.45x and 3.63-3.85x: that is the noise); the plain rows of those runs 3.94-4.21x
+  -> 2.98-3.21x, 3.14-3.32x -> 2.54-2.69x, 3.62-3.78x -> 3.68-3.92x.  Before the
+  trilinear seed (both values tricubic), 5 runs: 4.01-4.77x -> 3.34-3.62x, 3.15-3.74x ->
+  2.76-3.29x, 3.84-4.10x -> 3.42-3.90x.  The density alone, side by side in one process
+  on the benchmark's 22k elements: 0.23 -> 0.125 us per element (0.53x; 0.65x before the
+  trilinear seed; that form's parts: lookup ~0.065, the two vectorised Newton steps
+  0.005 against ~0.06 for the damped search from the same seed, asinh/log and the
+  Laplace value's logs ~0.03).  Results: the local maps within 2e-12 of main in f(M) and
+  totals (both searches stop within their 1e-4-width rule; ln h within 1.8e-10 at 1.7e5
+  random and benchmark points), logarithmic, capped and Gaussian bit-identical.  By parts
+  now (a separate script timing the parts, the maps alternated, the Gaussian stack = 1;
+  its totals are below this file's ratios, cause not pinned down): f_NL = 1
+  density 0.79, beta 0.37, variances 0.28, bound 0.23, mass function 0.17, the rest
+  ~0.35 (total 2.2); logarithmic: beta 0.91, closed form 0.6, mass function 0.5,
+  variances 0.23 (total 2.6).  So 3x for the logarithmic map needs beta (120 exponentials
+  per pair on 7.1k pairs) cheaper; see below.  Tried and not kept: the ridge continued
+  along a pair's nodes (extrapolated seed, 3 Newton steps) with a G-only lookup and the pair's rho weights (no
+  faster: the scalar lookup was latency-bound, not memory-bound -- every point in one
+  table cell cost the same); a float32 table (no faster, also alternating); fewer beta
+  panels (N_PANELS = 12 puts the identity map 8.8e-10 off the Gaussian path, above the
+  1e-10 of its test: the Gaussian path's own beta is 1.5e-10 off a 24-panel value, as is
+  the stack's with 14); 7 nodes of ln g (f(M) against 33 nodes: 1.9e-6 at f_NL = 1 but
+  5e-5 at -1, above the doubling test's 1e-5; the nodes are already Chebyshev-Lobatto
+  with barycentric interpolation); compiling the rest of the local bound (its compiled
+  near-branch search is 0.31 of its 0.49 ms).
+
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
@@ -100,7 +138,7 @@ y_th)/span)^gamma_c) is 1.2e-10 high at sigma = 0.044 (QAWS), so the identity te
 against the Gaussian path) fails by 1.25e-10 with the more accurate rule (which measured
 logarithmic 3.2-3.5x against 3.8-4.0x side by side); it is left as is.  Fewer nodes of ln g: 9 -> 8 moves f(M) by 1e-6 (lambda = 3), 9 -> 7 by 7e-6.
 
-Run:  python tests/bench/bench_pbh_nongaussian.py
+Run:  python tests/bench/bench_pbh_nongaussian.py [--blocks N] [--qcd] [--reference]
 """
 from __future__ import annotations
 
@@ -110,9 +148,9 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import sys  # noqa: E402
-import time  # noqa: E402
 
 import numpy as np  # noqa: E402
+from _timing import alternating_times, blocks_from_argv, print_ratios  # noqa: E402
 
 from scan.observables.pbh import PBHConventions, plan_pbh  # noqa: E402
 from scan.observables.pbh.ng_stack import plan_pbh_mapped, plan_stacked  # noqa: E402
@@ -152,16 +190,7 @@ def main() -> None:
         funcs["gaussian stack QCD"] = lambda: qcd.gaussian.evaluate(P)
         for name, zmap in maps.items():
             funcs[f"stacked QCD {name}"] = lambda zmap=zmap: qcd.stacked.evaluate(P, zmap)
-    times = {name: [] for name in funcs}
-    for _ in range(BLOCKS):
-        for name, f in funcs.items():
-            start = time.thread_time()
-            f()
-            times[name].append(time.thread_time() - start)
-    base = min(times["gaussian stack"])
-    for name, t in times.items():
-        print(f"{name:>35}: median {np.median(t):.3f} s, ratio to Gaussian (min-based) "
-              f"{min(t) / base:.1f}x")
+    print_ratios(alternating_times(funcs, blocks_from_argv(BLOCKS)))
 
 
 if __name__ == "__main__":

@@ -26,7 +26,7 @@ threshold and exponent: then the nodes of ln g and the beta weights are per epoc
 (:func:`plan_stacked`).
 
 Cost (tests/bench/bench_pbh_nongaussian.py): every exponential is clipped at
-``LN_ZERO`` = -700 (:func:`exp_or_zero`), below which libm's exp leaves its fast path
+``LN_ZERO`` = -700 (:func:`~scan.observables.pbh.ng_pairs.exp_or_zero`), below which libm's exp leaves its fast path
 (20-400 ns instead of ~1 ns per element); the three variances come from one product.
 Where the map has a closed-form bound on ln g above y_th (the local map,
 :func:`~scan.observables.pbh.ng_density.ln_density_bound`), a pair whose bound on its
@@ -47,7 +47,13 @@ import numpy as np
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
-from scan.observables.pbh.ng_pairs import pair_ln_mass, pair_scatter
+from scan.observables.pbh.ng_pairs import (
+    LN_ZERO,
+    pair_betas,
+    pair_ln_mass,
+    pair_scatter,
+    row_extremes,
+)
 from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
@@ -86,26 +92,8 @@ LN_FIRST: float = 100.0
 #: A pair whose ln g stays below this at every node contributes exactly 0 (e^{-800} is
 #: below the smallest double, and the epoch weights are < 1e30).
 LN_DEAD: float = -800.0
-#: exp(x) is taken as exactly 0 below this: e^{-700} = 1e-304, and libm's exp (and
-#: arithmetic on its subnormal results) leaves the fast path just below (measured: ~1 ns
-#: per element at -700, 35-375 ns between -708 and -745, 19 ns at -800).
-LN_ZERO: float = -700.0
-_EXP_ZERO: float = math.exp(LN_ZERO)
-#: Pairs per block of the beta integral (256 x 120 exponents: 250 kB, in L2 cache;
-#: 128-2048 measured within noise of each other, unblocked ~20 % slower).
-BLOCK: int = 256
 _PANEL_Z, _PANEL_W = np.polynomial.legendre.leggauss(8)
 _PANEL_Z, _PANEL_W = 0.5 * (_PANEL_Z + 1), 0.5 * _PANEL_W
-
-
-def exp_or_zero(x: np.ndarray) -> np.ndarray:
-    """exp(max(x, ``LN_ZERO``)) - e^``LN_ZERO`` [1] in place of ``x`` (a float array it
-    owns): exactly 0 for x <= ``LN_ZERO``, within e^{-700} = 1e-304 of exp(x) above, never
-    negative; NaN propagates.  Every exp stays on libm's fast path, and no masked pass."""
-    np.maximum(x, LN_ZERO, out=x)
-    np.exp(x, out=x)
-    x -= _EXP_ZERO
-    return x
 
 
 def lobatto(n: int) -> np.ndarray:
@@ -217,8 +205,9 @@ class StackedNGPlan:
             and zmap.f_nl != 0 else ln_density_pairs
         lng = density(nodes, *(v[chosen] for v in var), zmap.of_spectra(i),
                       self.ng.base.conventions.ps_factor)
-        keep = ~(np.max(lng, axis=1) < LN_DEAD)
-        i, h, lng = i[keep], h[keep], lng[keep]
+        keep = ~(row_extremes(lng)[1] < LN_DEAD)
+        if not keep.all():
+            i, h, lng = i[keep], h[keep], lng[keep]
         base = self.ng.base
         total = np.bincount(i, weights=(base._wln * base._coef)[h] * self._beta(lng, h),
                             minlength=m).astype(float)    # int64 when no pair is left
@@ -239,22 +228,16 @@ class StackedNGPlan:
         return np.maximum(s_c2, 1e-300), s_cr, np.maximum(s_r2, 1e-300)
 
     def _beta(self, lng, h) -> np.ndarray:
-        """beta [1] per pair (epochs ``h``) from ln g at the nodes, in blocks of ``BLOCK``
-        pairs (so that the (pairs x beta nodes) exponents stay in cache)."""
-        beta = np.empty(lng.shape[0])
-        per_epoch = self.beta_weight.ndim == 2               # QCD-era weights
-        for start in range(0, lng.shape[0], BLOCK):
-            rows = slice(start, start + BLOCK)
-            block = exp_or_zero(lng[rows] @ self.beta_matrix.T)
-            beta[rows] = np.einsum("pb,pb->p", block, self.beta_weight[h[rows]]) \
-                if per_epoch else block @ self.beta_weight
-        return beta
+        """beta [1] per pair (epochs ``h``) from ln g at the nodes
+        (:func:`~scan.observables.pbh.ng_pairs.pair_betas`)."""
+        return pair_betas(lng, self.beta_matrix, self.beta_weight, h)
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
         """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))
         (compiled, over the live pairs only: :mod:`scan.observables.pbh.ng_pairs`)."""
-        ln_f = pair_ln_mass(np.ascontiguousarray(lng), h, self.mass_matrix)
-        return pair_scatter(exp_or_zero(ln_f), i, h, self.ng.base._kernel.weight, m)
+        ln_f = pair_ln_mass(np.ascontiguousarray(lng), h, self.mass_matrix, LN_ZERO)
+        return pair_scatter(np.exp(ln_f, out=ln_f), i, h, self.ng.base._kernel.weight, m,
+                            math.exp(LN_ZERO))
 
 
 def _near_top(bounds, i, m: int) -> np.ndarray:
