@@ -70,9 +70,10 @@ ARRAYS: dict[str, str] = {"f_hz": "Hz", "omega_gw_h2": "1", "m_msun": "M_sun",
 #: non-Gaussian map and the Gaussian comparison total are not (yet) part of the
 #: verification (issue 15 step 4); the QCD-era conventions follow from the stored config
 #: (both sides compute with them: the exact side per spectrum, the surrogate side with the
-#: threshold plan's per-epoch thresholds and exponents).
+#: threshold plan's per-epoch thresholds and exponents); the GW kernel likewise (verify takes the
+#: radiation kernel only: the tabulated QCD-era kernel is refused on the sampler path).
 NOT_STORED: tuple[str, ...] = ("conventions", "notes", "ln_mass_shift", "zeta_map",
-                               "f_pbh_total_gaussian", "qcd")
+                               "f_pbh_total_gaussian", "qcd", "sigw_kernel")
 BUSY = ("another 'zetascan verify' of this chain is running (it holds these partial "
         "results); wait for it or stop it first")
 Log = Callable[[str], None]
