@@ -95,6 +95,16 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
     return beta
 
 
+def mass_function(lng: np.ndarray, i: np.ndarray, h: np.ndarray, mass_matrix: np.ndarray,
+                  weight: np.ndarray, m: int) -> np.ndarray:
+    """f(M) [1], shape (m, n_M): sum over the live pairs (spectra ``i``, epochs ``h``) of
+    ``weight``[h](M) g(y(M, M_H)), ln g at the nodes ``lng`` (n_pairs, n_y) carried to the
+    masses by ``mass_matrix`` (n_H, n_y, n_M); the exponentials as :func:`exp_or_zero`'s,
+    the clip and the offset folded into the compiled loops."""
+    ln_f = pair_ln_mass(np.ascontiguousarray(lng), h, mass_matrix, LN_ZERO)
+    return pair_scatter(np.exp(ln_f, out=ln_f), i, h, weight, m, _EXP_ZERO)
+
+
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def pair_ln_mass(lng, h, mass_matrix, floor):
     """ln g [1] at the masses, shape (n_pairs, n_M), at least ``floor``: ``lng`` (n_pairs,

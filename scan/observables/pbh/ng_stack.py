@@ -26,8 +26,8 @@ threshold and exponent: then the nodes of ln g and the beta weights are per epoc
 (:func:`plan_stacked`).
 
 Cost (tests/bench/bench_pbh_nongaussian.py): every exponential is clipped at
-``LN_ZERO`` = -700 (:func:`~scan.observables.pbh.ng_pairs.exp_or_zero`), below which libm's exp leaves its fast path
-(20-400 ns instead of ~1 ns per element); the three variances come from one product.
+``LN_ZERO`` = -700 (:func:`~scan.observables.pbh.ng_pairs.exp_or_zero`), below which
+libm's exp leaves its fast path (20-400 ns instead of ~1 ns per element); the three variances come from one product.
 Where the map has a closed-form bound on ln g above y_th (the local map,
 :func:`~scan.observables.pbh.ng_density.ln_density_bound`), a pair whose bound on its
 f(M) and on its total is below e^{-100} of its spectrum's largest f(M) and total is
@@ -38,7 +38,6 @@ Units: masses [M_sun]; everything else [1].
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -47,13 +46,7 @@ import numpy as np
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
-from scan.observables.pbh.ng_pairs import (
-    LN_ZERO,
-    pair_betas,
-    pair_ln_mass,
-    pair_scatter,
-    row_extremes,
-)
+from scan.observables.pbh.ng_pairs import mass_function, pair_betas, row_extremes
 from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
@@ -235,9 +228,7 @@ class StackedNGPlan:
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
         """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))
         (compiled, over the live pairs only: :mod:`scan.observables.pbh.ng_pairs`)."""
-        ln_f = pair_ln_mass(np.ascontiguousarray(lng), h, self.mass_matrix, LN_ZERO)
-        return pair_scatter(np.exp(ln_f, out=ln_f), i, h, self.ng.base._kernel.weight, m,
-                            math.exp(LN_ZERO))
+        return mass_function(lng, i, h, self.mass_matrix, self.ng.base._kernel.weight, m)
 
 
 def _near_top(bounds, i, m: int) -> np.ndarray:
