@@ -39,7 +39,7 @@ from scan.observables.pbh.ng_ridge import FASTMATH
 #: per element at -700, 35-375 ns between -708 and -745, 19 ns at -800).
 LN_ZERO: float = -700.0
 _EXP_ZERO: float = math.exp(LN_ZERO)
-#: Pairs per block of the beta integral (256 x 120 exponents: 250 kB, in L2 cache;
+#: Pairs per block of the beta integral (256 x 80 exponents: 160 kB, in L2 cache;
 #: 128-2048 measured within noise of each other, unblocked ~20 % slower).
 BLOCK: int = 256
 
