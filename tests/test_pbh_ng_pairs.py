@@ -87,7 +87,7 @@ def test_mass_function_sums_equal_the_clipped_exponentials():
     floor, the vectorised exp and pair_scatter taking e^LN_ZERO off) equals exp_or_zero
     of the unfloored product at every mass (the same loop over all masses), times the
     weights and scattered in the same order: the same operations on the same values but
-    for the exponential (within 1 ulp of numpy's, tests/test_pbh_vector_exp.py), so equal
+    for the exponential (within 1 ulp of numpy's, tests/test_pbh_vector_math.py), so equal
     to a few ulps (4 eps relative; common practice).  The weights are 0 outside a run of
     masses per epoch (critical collapse: M < 1.5 M_H), one epoch without any."""
     rng = np.random.default_rng(4)

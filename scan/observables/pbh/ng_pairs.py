@@ -6,7 +6,7 @@ e^{-800}, and took the exponential of all n_H m n_M products (262k for the bench
 128 epochs, 64 spectra and 32 masses, of which the ~2.5k live pairs need 80k).  Here each
 live pair's ln g at the masses y(M, M_H) is one n_y x n_M product (:func:`pair_ln_mass`),
 the exponentials are taken in one vectorised pass
-(:func:`~scan.observables.pbh.vector_exp.exp_in_place`; numpy's exp when measured), and
+(:func:`~scan.observables.pbh.vector_math.exp_in_place`; numpy's exp when measured), and
 :func:`pair_scatter` adds weight x g to each pair's spectrum: measured 0.68 ms against
 1.17 ms for a single compiled loop with scalar exponentials and ~1.5 ms for the dense
 form (f_NL = 1, 2473 pairs).  The clip at ``LN_ZERO`` is taken inside
@@ -34,7 +34,7 @@ import numpy as np
 from numba import njit
 
 from scan.observables.pbh.ng_ridge import FASTMATH
-from scan.observables.pbh.vector_exp import X_MAX, exp_in_place
+from scan.observables.pbh.vector_math import X_MAX, exp_in_place
 
 #: exp(x) is taken as exactly 0 below this: e^{-700} = 1e-304, and libm's exp (and
 #: arithmetic on its subnormal results) leaves the fast path just below (measured: ~1 ns
@@ -75,10 +75,10 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
     Pairs whose interpolant is in [``LN_ZERO``, ``X_MAX``] by the Lebesgue bound (module
     doc) take plain exponentials (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s;
     the product's rounding, ~1e-13, stays far inside the range of
-    :func:`~scan.observables.pbh.vector_exp.exp_in_place`, [-708, 709]); the others (and
+    :func:`~scan.observables.pbh.vector_math.exp_in_place`, [-708, 709]); the others (and
     NaN) the values of :func:`exp_or_zero` (above 709 those of 709): the first group,
     then the second, in blocks.  Exponentials by
-    :func:`~scan.observables.pbh.vector_exp.exp_in_place` (within 1 ulp of numpy's)."""
+    :func:`~scan.observables.pbh.vector_math.exp_in_place` (within 1 ulp of numpy's)."""
     low, high = row_extremes(lng)
     overshoot = 0.5 * (np.abs(beta_matrix).sum(axis=1).max() - 1.0)
     safe = (low - overshoot * (high - low) >= LN_ZERO) \
@@ -111,7 +111,7 @@ def mass_function(lng: np.ndarray, i: np.ndarray, h: np.ndarray, mass_matrix: np
     """f(M) [1], shape (m, n_M): sum over the live pairs (spectra ``i``, epochs ``h``) of
     ``weight``[h](M) g(y(M, M_H)), ln g at the nodes ``lng`` (n_pairs, n_y) carried to the
     masses by ``mass_matrix`` (n_H, n_y, n_M); the exponentials as :func:`exp_or_zero`'s
-    (by :func:`~scan.observables.pbh.vector_exp.exp_in_place`, ln g capped at 709), the
+    (by :func:`~scan.observables.pbh.vector_math.exp_in_place`, ln g capped at 709), the
     clip and the offset folded into the compiled loops.  Only the masses from each
     epoch's first to its last non-zero weight are computed (:func:`weight_ranges`; on the
     benchmark 49 % of the (epoch, mass) grid, M < 1.5 M_H for critical collapse), packed
