@@ -28,10 +28,10 @@ from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.thresholds import C_L_MAX, C_MAX, compaction_linear
 
 #: Nodes and weights of the beta rule in z = ((y - y_th)/span)^gamma_c on (0, 1).
-BETA_NODES: int = 56
+BETA_NODES: int = 48
 #: The rule's z nodes are t^GRADING for Gauss-Legendre nodes t on (0, 1) (see
 #: :func:`beta_rule`).
-GRADING: float = 1.5
+GRADING: float = 1.3
 
 
 def beta_rule(n: int = BETA_NODES, grading: float = GRADING) -> tuple[np.ndarray, np.ndarray]:
@@ -42,9 +42,12 @@ def beta_rule(n: int = BETA_NODES, grading: float = GRADING) -> tuple[np.ndarray
     at z = 0 for non-integer 1/gamma_c, so Gauss-Legendre in z converges only
     algebraically (48 points: 4e-10 high at nu_th = 37 against scipy's QAWS).  With z =
     t^``grading`` and ``n``-point Gauss-Legendre in t the end point is weaker and the
-    steep part gets more nodes: 56 points with grading 1.5 were measured within 1.1e-13
-    of a 20 x 200-point composite rule (itself within 1e-13 of QAWS) for gamma_c 0.25 to
-    0.36, thresholds C_th 0.1 to 0.66 and nu_th 2 to 39 (tests/test_pbh_tables.py).
+    steep part gets more nodes.  Measured against a 20 x 200-point composite rule (itself
+    within 1e-13 of QAWS) for C_th 0.1 to 0.66 and nu_th 2 to 39: 48 points with grading
+    1.3 within 5.1e-13 for gamma_c 0.33 to 0.36 and 2.3e-12 down to 0.27 (the QCD-era
+    exponents reach 0.28); 56 points with grading 1.5 within 1.1e-13, but the direct
+    per-pair quadrature of the QCD-era Gaussian stack (pair_beta.py) would cost 17 % more
+    (tests/test_pbh_tables.py).
     """
     t, w = np.polynomial.legendre.leggauss(n)
     t, w = 0.5 * (t + 1), 0.5 * w

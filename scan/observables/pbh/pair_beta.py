@@ -55,7 +55,7 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
                         powers: np.ndarray | None = None) -> np.ndarray:
     """int dy K (C - C_th)^gamma_c p(y) [1] per pair, thresholds per pair, shape (n,).
 
-    The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: the 56-point
+    The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: the 48-point
     rule in z on (0, 1) of :func:`scan.observables.pbh.abundance.beta_rule` with y = y_th + span z^{1/gamma_c}, span = min(y_max -
     y_th, 14 sigma).  With e = y - y_th = span z^{1/gamma_c} the excess is C - C_th = e for
     the linear criteria and e (1 - (3/8)(y + y_th)) for the compaction function, so
@@ -73,7 +73,7 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
     gamma_c : ndarray [1], optional
         Critical-collapse exponent per pair, shape (n,) (default ``conv.gamma_c``).
     powers : ndarray [1], optional
-        z^{1/gamma_c} at the rule's nodes per pair, shape (n, 56) (:func:`node_powers`
+        z^{1/gamma_c} at the rule's nodes per pair, shape (n, 48) (:func:`node_powers`
         of the pairs' exponents, gathered; default: computed here).
 
     Returns
@@ -100,6 +100,6 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
 
 
 def node_powers(gamma_c) -> np.ndarray:
-    """z^{1/gamma_c} [1] at the 56 nodes of :func:`beta_weighted_pairs`, shape (56,) for
-    a number or (n, 56) for exponents of shape (n, 1)."""
+    """z^{1/gamma_c} [1] at the 48 nodes of :func:`beta_weighted_pairs`, shape (48,) for
+    a number or (n, 48) for exponents of shape (n, 1)."""
     return _BETA_Z**(1 / np.asarray(gamma_c, dtype=float))

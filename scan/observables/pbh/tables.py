@@ -1,12 +1,12 @@
 """The mass-weighted beta of critical collapse as a table in nu_th = y_th / sigma.
 
 :func:`scan.observables.pbh.abundance.beta_weighted` integrates K (C - C_th)^gamma_c p(y) over
-y = y_th + span z^{1/gamma_c} by the 56-point rule in z of
+y = y_th + span z^{1/gamma_c} by the 48-point rule in z of
 :func:`scan.observables.pbh.abundance.beta_rule` (weights w_j), with span =
 min(y_max - y_th, 14 sigma).  With a_j = z_j^{1/gamma_c}, P = span/sigma,
 nu_j = y_j/sigma = v + P a_j (v = nu_th = y_th/sigma) and, for the compaction function,
 C - C_th = (y - y_th)(1 - (3/8)(y + y_th)) = (y - y_th)(1 - 3 y_th/4)(1 - q a_j) with
-q = (3/8) span / (1 - 3 y_th/4), the same 56 terms give exactly
+q = (3/8) span / (1 - 3 y_th/4), the same 48 terms give exactly
 
     beta = K span^{1+gamma_c} p_0(sigma) (1 - 3 y_th/4)^{gamma_c} e^{-v^2/2} S(v, P, q),
     S = sum_j w_j (a_j/gamma_c) (1 - q a_j)^{gamma_c} [(nu_j^3 - 3 nu_j)]

@@ -116,7 +116,7 @@ class ThresholdPlan:
     _force: np.ndarray | None     # epochs kept live because a kernel weight is not finite
     epoch_scale: np.ndarray | None = None
     epoch_gamma: np.ndarray | None = None
-    _epoch_powers: np.ndarray | None = None  # node_powers of epoch_gamma, shape (n_H, 56)
+    _epoch_powers: np.ndarray | None = None  # node_powers of epoch_gamma, shape (n_H, 48)
 
     @property
     def k_in(self) -> np.ndarray:
