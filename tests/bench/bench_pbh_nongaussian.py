@@ -127,9 +127,14 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   machine's numpy has no AVX-512, so its float64 exp is libm's per element (5.5-9 ns,
   against ~1 ns assumed above): main measures local f_NL = 1 3.71-3.93x, f_NL = -1
   2.98-3.17x, logarithmic 6.18-6.65x here; the branch 2.50-3.12x, 2.34-2.61x and
-  2.98-3.48x.  With --qcd (20 blocks, 2 runs each): QCD-era local f_NL = 1 3.95-4.13x
-  -> QCDLOC, f_NL = -1 3.10-3.24x -> QCDNEG, logarithmic 6.52-6.97x -> QCDLOG (Gaussian
-  QCD stack, the same cost on both since the last change: QCDG).  The changes, each
+  2.98-3.48x.  With --qcd (20 blocks, 2 runs each, 2 sets): QCD-era local f_NL = 1
+  3.95-4.33x -> 3.24-3.40x, f_NL = -1 3.07-3.40x -> 2.58-2.66x, logarithmic 6.46-7.18x
+  -> 3.99-4.13x; the Gaussian QCD stack (the threshold plan, whose per-pair beta has
+  the same cost on both: 6.8 ms with either rule, one process) measured 3.11-3.28x on
+  main and 4.75-5.61x on the branch in these interleaved runs, but the same on both
+  (12.1-13.3 ms) called alone: interference between the interleaved functions (the
+  branch's Gaussian stack medians also moved, 1.6-3.4 ms; allocator or cache state is
+  suspected, not pinned down), so the ratios here carry that uncertainty.  The changes, each
   measured side by side in one process (min of 30-40 alternating calls, the
   logarithmic map's 7.4k pairs): (1) the stacked beta on 80 nodes (dyadic panels and a
   16-point Gauss-Jacobi edge, scan/observables/pbh/ng_beta_nodes.py) instead of 120:
