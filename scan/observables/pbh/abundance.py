@@ -45,9 +45,9 @@ def beta_rule(n: int = BETA_NODES, grading: float = GRADING) -> tuple[np.ndarray
     steep part gets more nodes.  Measured against a 20 x 200-point composite rule (itself
     within 1e-13 of QAWS) for C_th 0.1 to 0.66 and nu_th 2 to 39: 48 points with grading
     1.3 within 5.1e-13 for gamma_c 0.33 to 0.36 and 2.3e-12 down to 0.27 (the QCD-era
-    exponents reach 0.28); 56 points with grading 1.5 within 1.1e-13, but the direct
-    per-pair quadrature of the QCD-era Gaussian stack (pair_beta.py) would cost 17 % more
-    (tests/test_pbh_tables.py).
+    exponents reach 0.28); 56 points with grading 1.5 within 1.1e-13, but they made the
+    direct per-pair quadrature of the QCD-era Gaussian stack (pair_beta.py) 15-35 %
+    slower (measured).  The check against QAWS: tests/test_pbh_tables.py.
     """
     t, w = np.polynomial.legendre.leggauss(n)
     t, w = 0.5 * (t + 1), 0.5 * w
