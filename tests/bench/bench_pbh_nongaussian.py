@@ -150,7 +150,14 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   within 3.5e-10 (the beta rules; the Gaussian totals moved 1.5e-10, the QCD-era ones
   1.5e-11).  Tried and not kept: the table lookup of ln H in a pass of its own (1.4 ->
   2.0 ms); 56 points in z for the Gaussian rule (1.1e-13, but the QCD-era Gaussian
-  stack's per-pair beta 15-35 % slower).
+  stack's per-pair beta 15-35 % slower); exp_in_place in chunks of 512 with a 4 kB
+  scratch instead of one of the array's size (logarithmic evaluate 5.9-6.0 -> 8.5-8.8
+  ms: the chunked loops lost their speed, cause not pinned down).  A lead: with glibc's
+  mmap and trim thresholds raised (MALLOC_MMAP_THRESHOLD_=64 MB, MALLOC_TRIM_THRESHOLD_=
+  256 MB) the capped stack measured 7.3-7.8 ms instead of 9.9-10.4 ms and the Gaussian
+  stack interleaved with it a median of 1.84 instead of 3.0 ms (one process each,
+  alternating): page faults from large temporaries cost on this VM, and they are what
+  the interleaving disturbs.
 
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
