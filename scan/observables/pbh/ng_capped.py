@@ -142,7 +142,9 @@ def capped_pairs(c, s_c2, s_cr, s_r2, lam, u_min, shift):
     on the 7.3k pairs of tests/bench/bench_pbh_model_map.py (min of 40, alternating, 2
     runs each): capped 5.7 -> 5.4 ms, lambda per spectrum without a cap 2.4 -> 2.0 ms
     (the vectorised passes for g_2 on every pair made it 4.1 ms); ln g within 9e-13 of
-    libm's."""
+    libm's.  The sum g_1 + g_2 in place of the two arrays (:func:`_log_add`, no
+    temporaries of their size): another 16-18 % off (4.0 -> 3.3 and 6.2 -> 5.1 ms in two
+    runs, one process each), bit-identical."""
     n, m = s_c2.size, c.shape[1]
     per_pair = c.shape[0] > 1
     lin = np.empty((2, n, m))
@@ -191,22 +193,34 @@ def capped_pairs(c, s_c2, s_cr, s_r2, lam, u_min, shift):
                     _defer_log(lin, arg, 1, i, j, g2 + _ln_ndtr(z), 1.0)
             else:
                 _defer_log(lin, arg, 1, i, j, -math.inf, 1.0)
-    g1 = lin[0] + log_in_place(arg[0])
     if not np.any(u_min > 0.0):     # no cap: ln g_1 alone
-        return g1
-    g = np.empty((2, n, m))         # ln g_1, ln g_2
-    g[0] = g1
-    g[1] = lin[1] + log_in_place(arg[1])
-    top = np.maximum(g[0], g[1])
-    e1 = np.maximum(g[0] - top, X_MIN)
-    e2 = np.maximum(g[1] - top, X_MIN)
-    total = exp_in_place(e1) + exp_in_place(e2)     # in [1, 2]: e^{-708} < eps / 2 of 1
-    out = top + log_in_place(total)
-    flat, flat_top = out.reshape(-1), top.reshape(-1)
-    for k in range(flat.size):      # top = -inf (g = 0), +inf or NaN: as it is
-        if not abs(flat_top[k]) < math.inf:
-            flat[k] = flat_top[k]
-    return out
+        return lin[0] + log_in_place(arg[0])
+    log_in_place(arg)
+    return _log_add(lin, arg)
+
+
+@njit(cache=True, error_model="numpy")
+def _log_add(lin, arg):
+    """ln(g_1 + g_2) [1], shape (n, m), from ln g_k = lin[k] + arg[k] (arg: logarithms
+    already), in place of both (the result in ``arg[0]``): top + ln(e^{g_1 - top} +
+    e^{g_2 - top}) with the exponentials and the logarithm in vectorised passes; NaN and
+    infinite tops pass through (top = -inf: g = 0)."""
+    g_1, g_2 = lin[0].reshape(-1), lin[1].reshape(-1)
+    top, a_2 = arg[0].reshape(-1), arg[1].reshape(-1)
+    for k in range(top.size):
+        x, y = g_1[k] + top[k], g_2[k] + a_2[k]
+        t = x if (x > y or math.isnan(x)) else y           # NaN propagates
+        top[k] = t
+        g_1[k] = max(x - t, X_MIN) if abs(t) < math.inf else 0.0
+        g_2[k] = max(y - t, X_MIN) if abs(t) < math.inf else 0.0
+    exp_in_place(lin)               # e^{g_k - top}: the larger is 1, the sum in [1, 2]
+    for k in range(top.size):
+        g_1[k] += g_2[k]
+    log_in_place(g_1)
+    for k in range(top.size):
+        if abs(top[k]) < math.inf:
+            top[k] += g_1[k]
+    return arg[0]
 
 
 @njit(cache=True, error_model="numpy")
