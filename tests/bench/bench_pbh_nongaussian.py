@@ -122,19 +122,22 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   with barycentric interpolation); compiling the rest of the local bound (its compiled
   near-branch search is 0.31 of its 0.49 ms).
 
-* ngspeed7 branch, this file run against main 9a77b8b alternately (30 blocks, 5 runs
-  each; machine shared with two surrogate trainings, load average 1.8-4.2).  This
-  machine's numpy has no AVX-512, so its float64 exp is libm's per element (5.5-9 ns,
-  against ~1 ns assumed above): main measures local f_NL = 1 3.71-3.93x, f_NL = -1
-  2.98-3.17x, logarithmic 6.18-6.65x here; the branch 2.50-3.12x, 2.34-2.61x and
-  2.98-3.48x.  With --qcd (20 blocks, 2 runs each, 2 sets): QCD-era local f_NL = 1
-  3.95-4.33x -> 3.24-3.40x, f_NL = -1 3.07-3.40x -> 2.58-2.66x, logarithmic 6.46-7.18x
-  -> 3.99-4.13x; the Gaussian QCD stack (the threshold plan, whose per-pair beta has
-  the same cost on both: 6.8 ms with either rule, one process) measured 3.11-3.28x on
-  main and 4.75-5.61x on the branch in these interleaved runs, but the same on both
-  (12.1-13.3 ms) called alone: interference between the interleaved functions (the
-  branch's Gaussian stack medians also moved, 1.6-3.4 ms; allocator or cache state is
-  suspected, not pinned down), so the ratios here carry that uncertainty.  The changes, each
+* ngspeed7 branch, this file run against main 9a77b8b alternately (30 blocks, 9 runs
+  each over two sets, the last after every change; machine shared with other jobs,
+  load average 1.8-4.2).  This machine's numpy has no AVX-512, so its float64 exp is
+  libm's per element (5.5-9 ns, against ~1 ns assumed above): main measures local f_NL
+  = 1 3.65-4.24x, f_NL = -1 2.85-3.17x, logarithmic 6.00-6.71x here; the branch
+  2.50-3.12x, 2.34-2.63x and 2.98-3.52x.  With --qcd (20 blocks, 4 runs each over two
+  sets): QCD-era local f_NL = 1 3.95-4.21x -> 3.26-3.52x, f_NL = -1 3.10-3.32x ->
+  2.61-2.77x, logarithmic 6.52-7.16x -> 3.99-4.36x.  The Gaussian QCD stack (the
+  threshold plan, unchanged but for the rule's nodes) measured 3.03-3.24x on main and
+  5.04-5.61x on the branch in those runs, but 3.06x and 3.19x with glibc's mmap and trim
+  thresholds fixed (MALLOC_MMAP_THRESHOLD_=64 MB, MALLOC_TRIM_THRESHOLD_=256 MB, 1 run
+  each; the other rows as without: branch 3.07x, 2.46x, 3.24x, QCD 3.35x, 2.71x,
+  3.75x): the difference is the allocator's state left by the interleaved functions
+  (its dynamic mmap threshold decides whether the Gaussian QCD stack's large
+  temporaries come with page faults, ~2x on this VM: 6-7 ms interleaved, 12-20 ms
+  called alone, on either tree), not its code.  The changes, each
   measured side by side in one process (min of 30-40 alternating calls, the
   logarithmic map's 7.4k pairs): (1) the stacked beta on 80 nodes (dyadic panels and a
   16-point Gauss-Jacobi edge, scan/observables/pbh/ng_beta_nodes.py) instead of 120:
@@ -153,11 +156,9 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   stack's per-pair beta 15-35 % slower); exp_in_place in chunks of 512 with a 4 kB
   scratch instead of one of the array's size (logarithmic evaluate 5.9-6.0 -> 8.5-8.8
   ms: the chunked loops lost their speed, cause not pinned down).  A lead: with glibc's
-  mmap and trim thresholds raised (MALLOC_MMAP_THRESHOLD_=64 MB, MALLOC_TRIM_THRESHOLD_=
-  256 MB) the capped stack measured 7.3-7.8 ms instead of 9.9-10.4 ms and the Gaussian
-  stack interleaved with it a median of 1.84 instead of 3.0 ms (one process each,
-  alternating): page faults from large temporaries cost on this VM, and they are what
-  the interleaving disturbs.
+  thresholds fixed as above the capped stack measured 7.3-7.8 ms instead of 9.9-10.4 ms
+  and the Gaussian stack interleaved with it a median of 1.84 instead of 3.0 ms (one
+  process each, alternating): page faults from large temporaries cost on this VM.
 
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
