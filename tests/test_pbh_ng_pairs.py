@@ -14,10 +14,11 @@ import pytest
 from scan.observables.pbh.ng_pairs import (
     LN_ZERO,
     exp_or_zero,
+    mass_function,
     pair_betas,
     pair_ln_mass,
-    pair_scatter,
     row_extremes,
+    weight_ranges,
 )
 from scan.observables.pbh.ng_stack import barycentric_matrix, beta_nodes, lobatto
 from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
@@ -27,7 +28,7 @@ def _beta_layout(n_y: int = 9):
     """The benchmark's beta nodes (C_th = 0.55, gamma_c = 0.36, K = 3.3) and their
     barycentric matrix from n_y Chebyshev-Lobatto nodes of ln g."""
     y_th = float(compaction_linear(0.55))
-    y, w = beta_nodes(y_th, 0.55, 0.36, 3.3)
+    y, w = beta_nodes(y_th, 0.36, 3.3)
     return barycentric_matrix(lobatto(n_y), 2 * (y - y_th) / (C_L_MAX - y_th) - 1), w
 
 
@@ -59,9 +60,15 @@ def test_lebesgue_bound_holds_for_the_beta_nodes():
 def test_pair_betas_match_the_clipped_sum(per_pair_weights):
     """pair_betas against sum_b w_b exp_or_zero(ln g(y_b)) for all pairs: the plain
     exponentials differ by at most e^-700 sum_b w_b (module doc) plus rounding of the sums
-    (1e-14 relative, common practice: 120 positive terms); NaN rows stay NaN."""
+    (1e-14 relative, common practice: 72 positive terms); NaN rows stay NaN.  ln g and
+    the layout are rounded to multiples of 2^-10 and 2^-20, so that every ln g(y_b) is
+    exact in binary64 (products of 42 bits, sums below 2^17 on the 2^-30 grid) whatever
+    order the BLAS sums in: pair_betas multiplies reordered blocks of pairs, and with
+    unrounded inputs their ln g(y_b) differ from one product over all pairs by up to
+    4.5e-13 (measured; 1e-13 relative in exp, not a sum's rounding)."""
     B, w = _beta_layout()
-    lng = _random_ln_g(700, 2)
+    B = np.round(B * 2.0**20) / 2.0**20
+    lng = np.round(_random_ln_g(700, 2) * 2.0**10) / 2.0**10
     lng[5] = np.nan
     rng = np.random.default_rng(3)
     h = rng.integers(0, 5, 700)
@@ -76,23 +83,29 @@ def test_pair_betas_match_the_clipped_sum(per_pair_weights):
 
 
 def test_mass_function_sums_equal_the_clipped_exponentials():
-    """pair_ln_mass with the floor, numpy's exp and pair_scatter taking e^LN_ZERO off
-    equal exp_or_zero of the unfloored product (the same loop without the floor),
-    scattered in the same order: the same operations on the same values, so equal to a
-    few ulps (4 eps relative; common practice)."""
+    """mass_function (ln g at each epoch's masses of non-zero weight only, packed; the
+    floor, the vectorised exp and pair_scatter taking e^LN_ZERO off) equals exp_or_zero
+    of the unfloored product at every mass (the same loop over all masses), times the
+    weights and scattered in the same order: the same operations on the same values but
+    for the exponential (within 1 ulp of numpy's, tests/test_pbh_vector_math.py), so equal
+    to a few ulps (4 eps relative; common practice).  The weights are 0 outside a run of
+    masses per epoch (critical collapse: M < 1.5 M_H), one epoch without any."""
     rng = np.random.default_rng(4)
     lng = _random_ln_g(300, 5)
     h, i = rng.integers(0, 6, 300), rng.integers(0, 4, 300)
     mass_matrix = rng.uniform(-0.3, 1.0, (6, 9, 12))
     mass_matrix /= mass_matrix.sum(axis=1, keepdims=True)      # rows sum to 1
     weight = rng.uniform(0.0, 1.0, (6, 12))
-    ln_f = pair_ln_mass(lng, h, mass_matrix, LN_ZERO)
-    got = pair_scatter(np.exp(ln_f), i, h, weight, 4, np.exp(LN_ZERO))
-    plain = pair_ln_mass(lng, h, mass_matrix, -np.inf)
-    np.testing.assert_array_equal(ln_f, np.maximum(plain, LN_ZERO))
-    g = exp_or_zero(plain)
+    for e, (a, b) in enumerate([(0, 12), (0, 5), (3, 9), (7, 12), (0, 0), (11, 12)]):
+        weight[e, :a], weight[e, b:] = 0.0, 0.0
+    lo, hi = weight_ranges(weight)
+    assert lo.tolist() == [0, 0, 3, 7, 0, 11] and hi.tolist() == [12, 5, 9, 12, 0, 12]
+    got = mass_function(lng, i, h, mass_matrix, weight, 4)
+    every = np.arange(300) * 12
+    plain = pair_ln_mass(lng, h, np.zeros(6, dtype=np.int64), every, 3600, mass_matrix,
+                         -np.inf, np.inf).reshape(300, 12)
     ref = np.zeros((4, 12))
-    np.add.at(ref, i, weight[h] * g)
+    np.add.at(ref, i, weight[h] * exp_or_zero(plain))
     np.testing.assert_allclose(got, ref, rtol=4 * np.finfo(float).eps, atol=0)
 
 

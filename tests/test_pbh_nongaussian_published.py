@@ -235,11 +235,12 @@ def test_abundance_matches_the_closed_form(window, threshold, amplitude, lam):
     # 2013, arXiv:1210.3692); lambda = -2 (f_NL = -5/3) for the other sign; log-normal
     # peak of width 0.5.  Reference: the closed-form density integrated by adaptive
     # quadrature per epoch (_closed_form_total), the same epochs and abundance
-    # coefficients as the tool.  What remains is the tool's y = C_l rule (48-point
-    # Gauss-Legendre in z = ((C_l - C_l,th)/span)^gamma_c, then 4 x 16 points on the
+    # coefficients as the tool.  What remains is the tool's y = C_l rule (48 points in
+    # z = ((C_l - C_l,th)/span)^gamma_c, abundance.beta_rule, then 4 x 16 points on the
     # tail), written for Gaussian tails and here integrating a Cauchy-like one: its
-    # difference from the adaptive reference is 3.3e-7, 3.8e-8, 1.9e-8, 1.2e-9 and
-    # 1.0e-7 for these cases (measured), asserted 1e-6.  The amplitude 5e-4 puts the edge
+    # difference from the adaptive reference was 3.3e-7, 3.8e-8, 1.9e-8, 1.2e-9 and
+    # 1.0e-7 for these cases (measured with the former 48-point Gauss-Legendre rule in z),
+    # asserted 1e-6.  The amplitude 5e-4 puts the edge
     # 1/lambda at 14.9 sigma_r or more at every epoch, beyond the +-12 sigma_r of the
     # per-spectrum quadrature the closed form replaced (which returned 2.5e-43 here, 1/250
     # of the closed form's 6.1e-41).

@@ -31,6 +31,24 @@ stack 2-4 ms; ngmodel branch):
   The capped map's beta gains nothing: many of its exponents are below -708 (plain exp
   on all pairs measured 2.03 ms against 1.15 clipped), so most blocks keep the clip.
 
+* ngspeed7 branch (stacked beta on 80 nodes, vectorised exp and logarithms,
+  scan/observables/pbh/vector_math.py; the mass function only where its weights are
+  non-zero; the capped closed form's logarithms, exponentials and g_1 + g_2 in
+  vectorised passes, ng_capped.capped_pairs) against main 9a77b8b alternately, 30
+  blocks, 3 runs each after the last change (machine shared with other jobs; numpy's
+  exp here is libm's per element, no AVX-512, so main measures ~6-7x where earlier
+  sessions measured ~4-5x): one-map logarithmic 6.17-6.57x -> 3.00-3.48x, lambda per
+  spectrum 6.55-7.22x -> 4.09-4.85x, capped per spectrum 6.64-7.07x -> 4.81-5.00x.
+  Earlier sets on the branch scattered more (capped 4.13-5.46x; one set with the
+  branch's Gaussian stack at 4.0-4.6 ms against main's 2.1-3.2 ms, the same code, gave
+  2.3-2.5x / 3.4-3.7x / 3.6-3.7x: interleaving interference, see
+  bench_pbh_nongaussian.py, not counted).  Side by side in one process (min of 40
+  alternating calls, 7.3k pairs): the capped density 5.7 -> 5.4 ms with the deferred
+  logarithms, then another 16-18 % with the in-place sum; lambda per spectrum's 2.4 ->
+  2.0 ms.  Results: f(M) within 5e-14 of main, totals within 9.3e-11 (the beta rule).
+  Issue 15's <= 3x: not met for these maps on this machine (the one-map logarithmic
+  stack touches it in one run of three).
+
 Run:  python tests/bench/bench_pbh_model_map.py [--blocks N]
 """
 from __future__ import annotations

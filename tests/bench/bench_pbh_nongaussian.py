@@ -122,6 +122,44 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   with barycentric interpolation); compiling the rest of the local bound (its compiled
   near-branch search is 0.31 of its 0.49 ms).
 
+* ngspeed7 branch, this file run against main 9a77b8b alternately (30 blocks, 9 runs
+  each over two sets, the last after every change; machine shared with other jobs,
+  load average 1.8-4.2).  This machine's numpy has no AVX-512, so its float64 exp is
+  libm's per element (5.5-9 ns, against ~1 ns assumed above): main measures local f_NL
+  = 1 3.65-4.24x, f_NL = -1 2.85-3.17x, logarithmic 6.00-6.71x here; the branch
+  2.50-3.12x, 2.34-2.63x and 2.98-3.52x.  With --qcd (20 blocks, 4 runs each over two
+  sets): QCD-era local f_NL = 1 3.95-4.21x -> 3.26-3.52x, f_NL = -1 3.10-3.32x ->
+  2.61-2.77x, logarithmic 6.52-7.16x -> 3.99-4.36x.  The Gaussian QCD stack (the
+  threshold plan, unchanged but for the rule's nodes) measured 3.03-3.24x on main and
+  5.04-5.61x on the branch in those runs, but 3.06x and 3.19x with glibc's mmap and trim
+  thresholds fixed (MALLOC_MMAP_THRESHOLD_=64 MB, MALLOC_TRIM_THRESHOLD_=256 MB, 1 run
+  each; the other rows as without: branch 3.07x, 2.46x, 3.24x, QCD 3.35x, 2.71x,
+  3.75x): the difference is the allocator's state left by the interleaved functions
+  (its dynamic mmap threshold decides whether the Gaussian QCD stack's large
+  temporaries come with page faults, ~2x on this VM: 6-7 ms interleaved, 12-20 ms
+  called alone, on either tree), not its code.  The changes, each
+  measured side by side in one process (min of 30-40 alternating calls, the
+  logarithmic map's 7.4k pairs): (1) the stacked beta on 80 nodes (dyadic panels and a
+  16-point Gauss-Jacobi edge, scan/observables/pbh/ng_beta_nodes.py) instead of 120:
+  6.3 -> 4.4 ms; the Gaussian path's own beta made accurate first (48 points in z =
+  t^1.3, abundance.beta_rule: 2.3e-12 of QAWS-level references against 4e-10 before),
+  and the identity map is now 1.3e-12 from the Gaussian stack (was 6.3e-12; QCD-era
+  6.4e-10 -> 1.3e-12); (2) exp by a vectorised Cody-Waite loop
+  (scan/observables/pbh/vector_math.py, 1.4-1.75 ns per element, within 1 ulp of
+  numpy's) in beta and the mass function: beta 4.4 -> 2.0 ms; (3) the mass function
+  only at each epoch's masses of non-zero weight (49 % of the grid): 2.67 -> 1.80 ms;
+  (4) the logarithmic closed form's logarithms in one vectorised pass: 1.7 -> 1.4 ms.
+  Results against main: f(M) within 6e-15 (local and logarithmic maps) and totals
+  within 3.5e-10 (the beta rules; the Gaussian totals moved 1.5e-10, the QCD-era ones
+  1.5e-11).  Tried and not kept: the table lookup of ln H in a pass of its own (1.4 ->
+  2.0 ms); 56 points in z for the Gaussian rule (1.1e-13, but the QCD-era Gaussian
+  stack's per-pair beta 15-35 % slower); exp_in_place in chunks of 512 with a 4 kB
+  scratch instead of one of the array's size (logarithmic evaluate 5.9-6.0 -> 8.5-8.8
+  ms: the chunked loops lost their speed, cause not pinned down).  A lead: with glibc's
+  thresholds fixed as above the capped stack measured 7.3-7.8 ms instead of 9.9-10.4 ms
+  and the Gaussian stack interleaved with it a median of 1.84 instead of 3.0 ms (one
+  process each, alternating): page faults from large temporaries cost on this VM.
+
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
@@ -136,7 +174,8 @@ panel for beta (weight (y - y_th)^gamma_c) needs 88 nodes and is within 1.2e-12 
 quad (QAWS), but the Gaussian path's own beta (48-point Gauss-Legendre in z = ((y -
 y_th)/span)^gamma_c) is 1.2e-10 high at sigma = 0.044 (QAWS), so the identity test (1e-10
 against the Gaussian path) fails by 1.25e-10 with the more accurate rule (which measured
-logarithmic 3.2-3.5x against 3.8-4.0x side by side); it is left as is.  Fewer nodes of ln g: 9 -> 8 moves f(M) by 1e-6 (lambda = 3), 9 -> 7 by 7e-6.
+logarithmic 3.2-3.5x against 3.8-4.0x side by side); it was left as is (done on
+ngspeed7 with the Gaussian rule made accurate first, above).  Fewer nodes of ln g: 9 -> 8 moves f(M) by 1e-6 (lambda = 3), 9 -> 7 by 7e-6.
 
 Run:  python tests/bench/bench_pbh_nongaussian.py [--blocks N] [--qcd] [--reference]
 """

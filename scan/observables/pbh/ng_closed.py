@@ -19,7 +19,11 @@ from numba import njit
 from scipy import special
 
 from scan.observables.pbh.ng_ridge import FASTMATH
+from scan.observables.pbh.vector_math import log_in_place
 
+#: The positive normal doubles (the range of :func:`log_in_place`).
+_NORMAL_MIN: float = 2.2250738585072014e-308
+_NORMAL_MAX: float = 1.7976931348623157e308
 #: Above this x = mu sqrt(A/2) >= 0, erfc(-x) = 2 and e^{-x^2} round away (as
 #: :func:`scan.observables.pbh.ng_density._ln_half_moment`).
 _X_FLAT: float = 6.0
@@ -69,10 +73,16 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
     and e^{-x^2} round away).
 
     Elements with mu < 0 (erfcx needed, which numba lacks) are returned as NaN with a
-    True in the second output, for the caller to fill from the array code."""
+    True in the second output, for the caller to fill from the array code.
+
+    The logarithm of each element (of 1/A, or 2 sqrt(pi) x / A above x = 6) is taken in
+    one vectorised pass afterwards (:func:`~scan.observables.pbh.vector_math.log_in_place`
+    instead of libm's per element: 1.7 -> 1.4 ms on the benchmark's 7.4k logarithmic
+    pairs, min of 40, alternating; ln g within 6e-14 of libm's at |ln g| up to 5e3)."""
     n, m = s_c2.size, c.shape[1]
     per_pair = c.shape[0] > 1
     out = np.empty((n, m))
+    arg = np.empty((n, m))          # the argument of each element's logarithm
     todo = np.zeros((n, m), dtype=np.bool_)
     two_rt_pi = 2.0 * math.sqrt(math.pi)
     for i in range(n):
@@ -93,14 +103,20 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
             x = num / math.sqrt(2.0 * A)
             if not x >= 0.0:
                 out[i, j] = math.nan
+                arg[i, j] = 1.0
                 todo[i, j] = True
                 continue
             q_min = (kappa * inv_t2) * (cj * cj) * inv_A
             if x >= _X_FLAT:
-                moment = math.log(two_rt_pi * x * inv_A)
+                out[i, j] = base - 0.5 * q_min
+                arg[i, j] = two_rt_pi * x * inv_A
             else:
-                moment = ln_half_moment_table(x, table) - math.log(A)
-            out[i, j] = base - 0.5 * q_min + moment
+                out[i, j] = base - 0.5 * q_min + ln_half_moment_table(x, table)
+                arg[i, j] = inv_A
+            if not _NORMAL_MIN <= arg[i, j] <= _NORMAL_MAX:   # outside log_in_place's range
+                out[i, j] += math.log(arg[i, j])
+                arg[i, j] = 1.0
+    out += log_in_place(arg)
     return out, todo
 
 

@@ -11,11 +11,10 @@ interpolation", SIAM Review 46(3), 501-517) to
 * the critical-collapse masses y(M, M_H) of the mass function (one fixed matrix per
   epoch), and
 * the nodes of beta = int_{y_th}^{4/3} dy K (C - C_th)^gamma_c g(y): a geometric mesh
-  towards y_th (panels [y_th + L 2^{-k-1}, y_th + L 2^{-k}], k < ``N_PANELS``,
-  L = 4/3 - y_th, 8-point Gauss-Legendre each; the innermost panel graded as z^{1/gamma_c}
-  for the (C - C_th)^gamma_c edge), which resolves an exponential fall-off of g on any
-  scale from L down to L 2^{-N_PANELS} (4e-5 for C_th = 0.55, against sigma^2 / y_th
-  >= 5e-4 for every epoch whose density is not 0 in double precision).
+  towards y_th with a Gauss-Jacobi edge panel for the (C - C_th)^gamma_c edge
+  (:mod:`scan.observables.pbh.ng_beta_nodes`), which resolves an exponential fall-off of
+  g on any scale from L = 4/3 - y_th down to that of the steepest Gaussian density not 0
+  in double precision (sigma^2 / y_th >= y_th / 1520).
 
 For the identity map ln g is a quadratic in y and the interpolation is exact to rounding.
 For the others the interpolation error falls geometrically with ``n_y`` (ln g is
@@ -45,6 +44,12 @@ import numpy as np
 
 from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
+from scan.observables.pbh.ng_beta_nodes import (
+    EDGE_RATIO,
+    MIXED_RATIO,
+    beta_nodes,
+    edge_panels,
+)
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
 from scan.observables.pbh.ng_pairs import mass_function, pair_betas, row_extremes
 from scan.observables.pbh.ng_table import ln_density_tabulated
@@ -66,8 +71,6 @@ N_Y: int = 9
 #: in f_PBH totals and 2.9e-2 in f(M) against the per-spectrum path, 17 nodes 1.8e-6 and
 #: 8.5e-6 (local f_NL = -2 .. 10); the benchmark's C_th = 0.55 (width 0.6) needs 9.
 WIDE_INTERVAL: float = 0.7
-#: Geometric panels of the beta integral towards y_th.
-N_PANELS: int = 14
 #: A pair is left out where its bound (:func:`~scan.observables.pbh.ng_density.
 #: ln_density_bound` times its largest mass-function weight, or times its largest
 #: beta) is below e^{-100} = 3.7e-44 times its spectrum's largest f(M) (or total): the
@@ -85,8 +88,6 @@ LN_FIRST: float = 100.0
 #: A pair whose ln g stays below this at every node contributes exactly 0 (e^{-800} is
 #: below the smallest double, and the epoch weights are < 1e30).
 LN_DEAD: float = -800.0
-_PANEL_Z, _PANEL_W = np.polynomial.legendre.leggauss(8)
-_PANEL_Z, _PANEL_W = 0.5 * (_PANEL_Z + 1), 0.5 * _PANEL_W
 
 
 def lobatto(n: int) -> np.ndarray:
@@ -105,25 +106,6 @@ def barycentric_matrix(x: np.ndarray, t: np.ndarray) -> np.ndarray:
         r = w / d
         b = r / np.sum(r, axis=-1, keepdims=True)
     return np.where(np.any(exact, axis=-1, keepdims=True), exact.astype(float), b)
-
-
-def beta_nodes(y_th: float, threshold: float, gamma_c: float, K: float,
-               grading: float | None = None):
-    """Nodes y [1] and weights K (C - C_th)^gamma_c dy [1] of the beta integral; the
-    innermost panel graded as z^{1/grading} (default ``gamma_c``: exact for the edge)."""
-    grade = gamma_c if grading is None else grading
-    span = C_L_MAX - y_th
-    ys, ws = [], []
-    for k in range(N_PANELS):
-        a, b = span * 2.0 ** -(k + 1), span * 2.0 ** -k
-        ys.append(a + (b - a) * _PANEL_Z)
-        ws.append((b - a) * _PANEL_W)
-    h = span * 2.0 ** -N_PANELS
-    ys.append(h * _PANEL_Z ** (1 / grade))
-    ws.append(h * _PANEL_Z ** (1 / grade - 1) / grade * _PANEL_W)
-    y = y_th + np.concatenate(ys)
-    excess = np.clip(y - 0.375 * y * y - threshold, 0.0, None)
-    return y, K * excess ** gamma_c * np.concatenate(ws)
 
 
 @dataclass(frozen=True)
@@ -278,10 +260,11 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
     ``thresholds``, ``exponents`` [1]: C_th and gamma_c per formation epoch (the QCD-era
     conventions, with ``ng.base`` planned with them: :func:`plan_pbh_mapped`); default one
     for all epochs.  In the unit variable of each epoch's interval [y_th, 4/3] the beta
-    nodes do not depend on the threshold, so one ``beta_matrix`` serves every epoch and
-    only the weights are per epoch; the innermost panel keeps the grading of the
-    configured gamma_c (exact for it; for an epoch's other gamma_c the panel integrates
-    z^{gamma/gamma_c} with 8 Gauss-Legendre points, measured in tests/test_sampler_qcd.py).
+    nodes do not depend on the threshold (the panels are those of the smallest), so one
+    ``beta_matrix`` serves every epoch and only the weights are per epoch; the edge panel
+    keeps the Gauss-Jacobi weight of the configured gamma_c (exact for it; for an epoch's
+    other gamma_c the panel integrates e^{gamma - gamma_c} with 12 nodes, measured in
+    tests/test_sampler_qcd.py).
     """
     conv = ng.base.conventions
     if ng.v_cr.shape != ng.base._v0.shape:
@@ -291,15 +274,16 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
     y_mass = ng.base._y.T                                    # (n_H, n_M)
     if thresholds is None and exponents is None:
         y_th = float(compaction_linear(conv.threshold))
-        yb, wb = beta_nodes(y_th, conv.threshold, conv.gamma_c, conv.K)
+        yb, wb = beta_nodes(y_th, conv.gamma_c, conv.K)
         y0 = y_th
     else:
         n_h = ng.base.M_H.size
         thr = np.broadcast_to(conv.threshold if thresholds is None else thresholds, (n_h,))
         gam = np.broadcast_to(conv.gamma_c if exponents is None else exponents, (n_h,))
         y_th = compaction_linear(thr)[:, None]               # (n_H, 1)
-        per = [beta_nodes(float(y), float(t), float(g), conv.K, conv.gamma_c)
-               for y, t, g in zip(y_th[:, 0], thr, gam)]
+        m = edge_panels(y_th, EDGE_RATIO if exponents is None else MIXED_RATIO)
+        per = [beta_nodes(float(y), float(g), conv.K, conv.gamma_c, m)
+               for y, g in zip(y_th[:, 0], gam)]
         yb, wb, y0 = per[0][0], np.array([w for _, w in per]), float(y_th[0, 0])
     return StackedNGPlan(ng, y_th + (x + 1) * 0.5 * (C_L_MAX - y_th),
                          np.ascontiguousarray(barycentric_matrix(

@@ -57,7 +57,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from scan.errors import ConfigError
-from scan.observables.pbh.abundance import _GL_W, _GL_Z, critical_kernel
+from scan.observables.pbh.abundance import _BETA_W, _BETA_Z, critical_kernel
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.ng_density import ln_density
 from scan.observables.pbh.plan import PBHPlan, PBHResult
@@ -183,9 +183,9 @@ def _y_nodes(y_th: np.ndarray, sigma: np.ndarray, gamma_c):
     """Nodes and weights in y = C_l per epoch (``y_th`` and ``gamma_c`` shape (n, 1) or a
     number): beta_weighted's, then the tail panels."""
     span = np.minimum(C_L_MAX - y_th, 14 * sigma[:, None] + 1e-300)
-    z = _GL_Z[None, :]
+    z = _BETA_Z[None, :]
     y = y_th + span * z**(1 / gamma_c)
-    dy = span * z**(1 / gamma_c - 1) / gamma_c * _GL_W
+    dy = span * z**(1 / gamma_c - 1) / gamma_c * _BETA_W
     lo = y_th + span
     width = (C_L_MAX - lo) / _TAIL_PANELS
     edges = lo + width * np.arange(_TAIL_PANELS)

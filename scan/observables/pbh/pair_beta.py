@@ -15,7 +15,7 @@ import math
 import numpy as np
 from scipy import special
 
-from scan.observables.pbh.abundance import _GL_W, _GL_Z, prefactor
+from scan.observables.pbh.abundance import _BETA_W, _BETA_Z, prefactor
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.kernel import half_exp
 from scan.observables.pbh.thresholds import C_L_MAX
@@ -55,8 +55,8 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
                         powers: np.ndarray | None = None) -> np.ndarray:
     """int dy K (C - C_th)^gamma_c p(y) [1] per pair, thresholds per pair, shape (n,).
 
-    The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: 48-point
-    Gauss-Legendre in z on (0, 1) with y = y_th + span z^{1/gamma_c}, span = min(y_max -
+    The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: the 48-point
+    rule in z on (0, 1) of :func:`scan.observables.pbh.abundance.beta_rule` with y = y_th + span z^{1/gamma_c}, span = min(y_max -
     y_th, 14 sigma).  With e = y - y_th = span z^{1/gamma_c} the excess is C - C_th = e for
     the linear criteria and e (1 - (3/8)(y + y_th)) for the compaction function, so
     (C - C_th)^gamma_c = span^gamma_c z [(1 - (3/8)(y + y_th))^gamma_c]: the power of
@@ -83,7 +83,7 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
     """
     gam = conv.gamma_c if gamma_c is None else np.asarray(gamma_c, dtype=float)[:, None]
     a = node_powers(gam) if powers is None else powers     # e / span at the nodes
-    wq = _GL_W * a / gam            # w z z^{1/gamma_c - 1}/gamma_c: (e/span)^gamma_c dy/dz
+    wq = _BETA_W * a / gam            # w z z^{1/gamma_c - 1}/gamma_c: (e/span)^gamma_c dy/dz
     sc, y0 = s[:, None], y_th[:, None]
     span = np.minimum(y_max(conv) - y0, 14 * np.sqrt(sc) + 1e-300)
     y = y0 + span * a
@@ -100,6 +100,6 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
 
 
 def node_powers(gamma_c) -> np.ndarray:
-    """z^{1/gamma_c} [1] at the 48 Gauss-Legendre nodes of :func:`beta_weighted_pairs`,
-    shape (48,) for a number or (n, 48) for exponents of shape (n, 1)."""
-    return _GL_Z**(1 / np.asarray(gamma_c, dtype=float))
+    """z^{1/gamma_c} [1] at the 48 nodes of :func:`beta_weighted_pairs`, shape (48,) for
+    a number or (n, 48) for exponents of shape (n, 1)."""
+    return _BETA_Z**(1 / np.asarray(gamma_c, dtype=float))

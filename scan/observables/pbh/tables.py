@@ -1,7 +1,8 @@
 """The mass-weighted beta of critical collapse as a table in nu_th = y_th / sigma.
 
 :func:`scan.observables.pbh.abundance.beta_weighted` integrates K (C - C_th)^gamma_c p(y) over
-y = y_th + span z^{1/gamma_c} by 48-point Gauss-Legendre in z, with span =
+y = y_th + span z^{1/gamma_c} by the 48-point rule in z of
+:func:`scan.observables.pbh.abundance.beta_rule` (weights w_j), with span =
 min(y_max - y_th, 14 sigma).  With a_j = z_j^{1/gamma_c}, P = span/sigma,
 nu_j = y_j/sigma = v + P a_j (v = nu_th = y_th/sigma) and, for the compaction function,
 C - C_th = (y - y_th)(1 - (3/8)(y + y_th)) = (y - y_th)(1 - 3 y_th/4)(1 - q a_j) with
@@ -41,7 +42,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.interpolate import make_interp_spline
 
-from scan.observables.pbh.abundance import _GL_W, _GL_Z, _relation, beta_weighted
+from scan.observables.pbh.abundance import _BETA_W, _BETA_Z, _relation, beta_weighted
 from scan.observables.pbh.conventions import PBHConventions
 from scan.observables.pbh.kernel import half_exp
 
@@ -140,8 +141,8 @@ def ln_reduced_sum(v: np.ndarray, P: np.ndarray, q: np.ndarray,
     ndarray [1]
     """
     gam = conv.gamma_c
-    a = _GL_Z**(1 / gam)
-    wq = _GL_W * a / gam
+    a = _BETA_Z**(1 / gam)
+    wq = _BETA_W * a / gam
     v, P, q = (np.asarray(w, dtype=float)[..., None] for w in (v, P, q))
     arg = -(P * v * a + 0.5 * (P * a)**2)
     if conv.criterion == "compaction":
