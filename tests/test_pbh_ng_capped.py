@@ -85,10 +85,12 @@ def test_capped_map_value_and_slope():
 def test_compiled_pairs_match_the_array_code():
     """capped_pairs (numba, per pair) == ln_capped_density (array code) on random variances,
     lambda of both signs and caps (every fifth uncapped).  The compiled form takes
-    erfcx(x0) as erfc(x0) e^{x0^2} below x0 = 25 (relative error ~ x0^2 eps) inside
-    1 - sqrt(pi) x0 erfcx(x0) ~ 1/(2 x0^2): at most ~2 x0^4 eps ~ 1e-10 relative at x0 = 25
-    (our bound), and asymptotic series beyond (< 4e-13); asserted 1e-10 of |ln g| + 1
-    (measured 3.5e-14 over these 36k elements)."""
+    erfcx(x0) from a table below x0 = 25 (relative error < 1e-14,
+    tests/test_pbh_erfc_tables.py; formerly erfc(x0) e^{x0^2}, relative error ~ x0^2 eps)
+    inside 1 - sqrt(pi) x0 erfcx(x0) ~ 1/(2 x0^2): at most ~2 x0^4 eps ~ 1e-10 relative at
+    x0 = 25 (our bound; the table's 2 x0^2 1e-14 ~ 1.3e-11 is below it), and asymptotic
+    series beyond (< 4e-13); asserted 1e-10 of |ln g| + 1 (measured 3.5e-14 over these 36k
+    elements, with libm's erfc and with the tables)."""
     rng = np.random.default_rng(3)
     n = 4000
     s_c, s_r = rng.uniform(0.02, 0.3, n), rng.uniform(0.02, 0.5, n)

@@ -49,6 +49,16 @@ stack 2-4 ms; ngmodel branch):
   Issue 15's <= 3x: not met for these maps on this machine (the one-map logarithmic
   stack touches it in one run of three).
 
+* ngcap8 branch (the capped closed form's erfcx and ln Phi from polynomial tables,
+  scan/observables/pbh/erfc_tables.py, no libm erfc left; e^{-x0^2} dropped below
+  x0 = -6) against ngspeed7 alternately, 8 runs each (30-60 blocks, load average
+  2.2-3.0): capped per spectrum 4.61-5.12x -> 3.83-4.58x, lambda per spectrum
+  4.47-5.01x -> 4.06-4.45x, one-map logarithmic (unchanged code) 3.14-3.50x vs
+  3.32-3.61x.  The capped density alone in one process (7.3k pairs x 9 nodes, min of 40
+  alternating calls, 3 runs): 5.2-5.5 -> 3.8-4.1 ms (1.35-1.39x).  f(M) within 6.7e-15
+  of ngspeed7, totals 1.8e-15; lambda per spectrum bit-identical.  Issue 15's <= 3x:
+  still not met for the capped map.
+
 Run:  python tests/bench/bench_pbh_model_map.py [--blocks N]
 """
 from __future__ import annotations

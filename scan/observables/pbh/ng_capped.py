@@ -19,7 +19,8 @@ g(c) = int dzeta_G u p(c u, zeta_G) splits at zeta_c = (1 - u_min)/lambda (our d
 Every argument broadcasts (the stacked path passes lambda and u_min per pair).
 tests/test_pbh_ng_capped.py checks it against direct quadrature of the integral.
 :func:`capped_pairs` is the same formula compiled per pair (numba; why numba: see
-:mod:`scan.observables.pbh.ng_ridge`), with asymptotic series in the far tails.
+:mod:`scan.observables.pbh.ng_ridge`), erfcx and ln Phi from the tables of
+:mod:`scan.observables.pbh.erfc_tables`, asymptotic series in the far tails.
 
 Units: all quantities [1].
 """
@@ -31,14 +32,18 @@ import numpy as np
 from numba import njit
 from scipy import special
 
+from scan.observables.pbh.erfc_tables import erfcx_table, ln_ndtr_positive
 from scan.observables.pbh.ng_ridge import FASTMATH
 from scan.observables.pbh.vector_math import X_MIN, exp_in_place, log_in_place
 
-#: The compiled form takes erfcx(x0) = e^{x0^2} erfc(x0) from libm's erfc below this
-#: (erfc(25) = 8e-274, e^{625} = 3e271: both finite); above, its asymptotic series.
+#: The compiled form takes erfcx(x0) = e^{x0^2} erfc(x0) from its table below this;
+#: above, its asymptotic series.
 X0_COMPILED: float = 25.0
-#: ... and ln Phi(z) = ln(erfc(-z/sqrt 2)/2) above this z (erfc(26.2) ~ 1e-300: still a
-#: normal double); below, its asymptotic series (:func:`_ln_ndtr`).
+#: Below this x0, e^{-x0^2} < 2.4e-16 and the moment's e^{-x0^2} + sqrt(pi) (xm - x0)
+#: erfc(x0) is 2 sqrt(pi) (xm - x0) to rounding (the dropped terms < 1.2e-17 relative).
+X0_FLAT: float = -6.0
+#: ... and ln Phi(z) from the tables above this z (-z^2/2 + ln(erfcx(-z/sqrt 2)/2) for
+#: z < 0); below, its asymptotic series (:func:`_tail_ratio`).
 Z_COMPILED: float = -37.0
 #: The positive normal doubles (the range of :func:`log_in_place`).
 _NORMAL_MIN: float = 2.2250738585072014e-308
@@ -115,16 +120,23 @@ def _tail_moment(x0, xm):
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def _tail_ratio(z):
+    """Phi(z) e^{z^2/2} [1] for z < ``Z_COMPILED`` from the asymptotic series
+    (1 - 1/z^2 + 3/z^4 - 15/z^6 + 105/z^8) / (-z sqrt(2 pi)) (Abramowitz & Stegun 1964,
+    eq. 26.2.12, from memory; first omitted term 945/z^10 < 2e-13 relative there)."""
+    r = 1.0 / (z * z)
+    return (1.0 + r * (-1.0 + r * (3.0 + r * (-15.0 + 105.0 * r)))) \
+        / (-z * math.sqrt(2.0 * math.pi))
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _ln_ndtr(z):
-    """ln Phi(z) [1]: ln(erfc(-z/sqrt 2)/2) above ``Z_COMPILED``, below it the asymptotic
-    series -z^2/2 - ln(-z sqrt(2 pi)) + ln(1 - 1/z^2 + 3/z^4 - 15/z^6 + 105/z^8)
-    (Abramowitz & Stegun 1964, eq. 26.2.12, from memory; first omitted term 945/z^10 <
-    2e-13 relative there; checked against scipy's log_ndtr in tests/test_pbh_ng_capped.py)."""
+    """ln Phi(z) [1]: ln(erfc(-z/sqrt 2)/2) above ``Z_COMPILED``, below it
+    -z^2/2 + ln(:func:`_tail_ratio`) (checked against scipy's log_ndtr in
+    tests/test_pbh_ng_capped.py)."""
     if z >= Z_COMPILED:
         return math.log(0.5 * math.erfc(-z / math.sqrt(2.0)))
-    r = 1.0 / (z * z)
-    return -0.5 * z * z - math.log(-z * math.sqrt(2.0 * math.pi)) \
-        + math.log(1.0 + r * (-1.0 + r * (3.0 + r * (-15.0 + 105.0 * r))))
+    return -0.5 * z * z + math.log(_tail_ratio(z))
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
@@ -144,12 +156,16 @@ def capped_pairs(c, s_c2, s_cr, s_r2, lam, u_min, shift):
     (the vectorised passes for g_2 on every pair made it 4.1 ms); ln g within 9e-13 of
     libm's.  The sum g_1 + g_2 in place of the two arrays (:func:`_log_add`, no
     temporaries of their size): another 16-18 % off (4.0 -> 3.3 and 6.2 -> 5.1 ms in two
-    runs, one process each), bit-identical."""
+    runs, one process each), bit-identical.  erfcx and ln Phi (z >= 0) from polynomial
+    tables (:mod:`scan.observables.pbh.erfc_tables`) instead of libm's erfc (and its exp),
+    e^{-x0^2} dropped below ``X0_FLAT``, the far normal tail's logarithms deferred: no
+    erfc left, one exp on -6 < x0 <= 0 only."""
     n, m = s_c2.size, c.shape[1]
     per_pair = c.shape[0] > 1
     lin = np.empty((2, n, m))
     arg = np.empty((2, n, m))
     rt_pi = math.sqrt(math.pi)
+    inv_rt2 = 1.0 / math.sqrt(2.0)
     for i in range(n):
         a = s_cr[i] / s_r2[i]
         t2 = max(s_c2[i] - a * s_cr[i], 1e-300)
@@ -173,10 +189,13 @@ def capped_pairs(c, s_c2, s_cr, s_r2, lam, u_min, shift):
             x0 = (um - mu) * root
             xm = um * root
             g1 = base - 0.5 * kappa * cj * cj / (t2 * A) + shift
-            if x0 <= 0.0:
-                inner = math.exp(-x0 * x0) + rt_pi * (xm - x0) * math.erfc(x0)
+            if x0 <= X0_FLAT:
+                inner = 2.0 * rt_pi * (xm - x0)
+            elif x0 <= 0.0:
+                e = math.exp(-x0 * x0)
+                inner = e + rt_pi * (xm - x0) * (2.0 - e * erfcx_table(-x0))
             elif x0 < X0_COMPILED:
-                ex = math.erfc(x0) * math.exp(x0 * x0)
+                ex = erfcx_table(x0)
                 inner = (1.0 - rt_pi * x0 * ex) + rt_pi * xm * ex
                 g1 -= x0 * x0
             else:
@@ -187,10 +206,13 @@ def capped_pairs(c, s_c2, s_cr, s_r2, lam, u_min, shift):
                 C = cj * um
                 z = sign * (rho * C - edge) / s
                 g2 = cap_base - 0.5 * C * C / s_c2[i] + shift
-                if z >= Z_COMPILED:
-                    _defer_log(lin, arg, 1, i, j, g2, 0.5 * math.erfc(-z / math.sqrt(2.0)))
+                if z >= 0.0:
+                    _defer_log(lin, arg, 1, i, j, g2 + ln_ndtr_positive(z), 1.0)
+                elif z >= Z_COMPILED:       # Phi(z) = e^{-w^2} erfcx(w) / 2, w = -z/sqrt 2
+                    w = -z * inv_rt2
+                    _defer_log(lin, arg, 1, i, j, g2 - w * w, 0.5 * erfcx_table(w))
                 else:
-                    _defer_log(lin, arg, 1, i, j, g2 + _ln_ndtr(z), 1.0)
+                    _defer_log(lin, arg, 1, i, j, g2 - 0.5 * z * z, _tail_ratio(z))
             else:
                 _defer_log(lin, arg, 1, i, j, -math.inf, 1.0)
     if not np.any(u_min > 0.0):     # no cap: ln g_1 alone
