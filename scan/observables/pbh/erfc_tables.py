@@ -1,10 +1,12 @@
 """erfcx(y) and ln Phi(z) from piecewise polynomial tables, compiled (numba).
 
+The tables' builder and evaluator (:func:`piecewise_table`, :func:`piecewise_value`) also
+serve ln H in :mod:`scan.observables.pbh.ng_closed`.
+
 libm's erfc costs ~30 ns per call on the 2-core CPU of tests/bench; a table piece is a
 degree-``DEGREE`` polynomial (Horner, ~13 multiply-adds).  Each table covers [0, top] with
 equal pieces; on each piece the function is interpolated at the Chebyshev points of the
-first kind and the interpolant written in powers of t in [-1, 1] (as
-:func:`scan.observables.pbh.ng_closed.half_moment_table` does for ln H).
+first kind and the interpolant written in powers of t in [-1, 1].
 
 * :data:`ERFCX_TABLE`: erfcx(y) = e^{y^2} erfc(y) on [0, ``ERFCX_TOP``], a smooth positive
   function falling from 1 to 1/(sqrt(pi) y) (1/(y sqrt(pi)) (1 - 1/(2y^2) + ...) beyond:
@@ -52,8 +54,9 @@ LN_NDTR_TABLE: np.ndarray = piecewise_table(special.log_ndtr, NDTR_TOP, NDTR_PIE
 
 
 @njit(cache=True, error_model="numpy", fastmath={"contract"})
-def _evaluate(x: float, table: np.ndarray, top: float) -> float:
-    """The piecewise polynomial ``table`` on [0, ``top``] at 0 <= x <= top [1]."""
+def piecewise_value(x: float, table: np.ndarray, top: float) -> float:
+    """The piecewise polynomial ``table`` (:func:`piecewise_table`) on [0, ``top``] at
+    0 <= x <= top [1]."""
     n = table.shape[0]
     width = top / n
     k = min(int(x / width), n - 1)
@@ -68,7 +71,7 @@ def _evaluate(x: float, table: np.ndarray, top: float) -> float:
 def erfcx_table(y: float) -> float:
     """erfcx(y) = e^{y^2} erfc(y) [1] for 0 <= y <= ``ERFCX_TOP`` (from
     :data:`ERFCX_TABLE`)."""
-    return _evaluate(y, ERFCX_TABLE, ERFCX_TOP)
+    return piecewise_value(y, ERFCX_TABLE, ERFCX_TOP)
 
 
 @njit(cache=True, error_model="numpy")
@@ -76,4 +79,4 @@ def ln_ndtr_positive(z: float) -> float:
     """ln Phi(z) [1] for z >= 0 (from :data:`LN_NDTR_TABLE`; 0 above ``NDTR_TOP``)."""
     if z >= NDTR_TOP:
         return 0.0
-    return _evaluate(z, LN_NDTR_TABLE, NDTR_TOP)
+    return piecewise_value(z, LN_NDTR_TABLE, NDTR_TOP)

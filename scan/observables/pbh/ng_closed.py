@@ -18,6 +18,7 @@ import numpy as np
 from numba import njit
 from scipy import special
 
+from scan.observables.pbh.erfc_tables import piecewise_table, piecewise_value
 from scan.observables.pbh.ng_ridge import FASTMATH
 from scan.observables.pbh.vector_math import log_in_place
 
@@ -34,32 +35,23 @@ _H_PIECES: int = 32
 _H_DEGREE: int = 9
 
 
+def _ln_h(x: np.ndarray) -> np.ndarray:
+    """ln H(x) [1], H = e^{-x^2} + sqrt(pi) x erfc(-x) (scipy's erfc)."""
+    return np.log(np.exp(-x * x) + math.sqrt(math.pi) * x * special.erfc(-x))
+
+
 def half_moment_table() -> np.ndarray:
     """Coefficients (``_H_PIECES``, ``_H_DEGREE`` + 1) [1] of ln H on [0, 6] in powers of t,
-    lowest first (see above); ln H is entire, and the interpolant is within 8 ulp of
-    scipy's erfc-based value (tests/test_pbh_ng_stack.py)."""
-    h = _X_FLAT / _H_PIECES
-    z = np.cos(np.pi * (np.arange(_H_DEGREE + 1) + 0.5) / (_H_DEGREE + 1))
-    out = np.empty((_H_PIECES, _H_DEGREE + 1))
-    for k in range(_H_PIECES):
-        x = (k + 0.5) * h + 0.5 * h * z
-        ln_h = np.log(np.exp(-x * x) + math.sqrt(math.pi) * x * special.erfc(-x))
-        out[k] = np.polynomial.chebyshev.cheb2poly(
-            np.polynomial.chebyshev.chebfit(z, ln_h, _H_DEGREE))
-    return out
+    lowest first (:func:`~scan.observables.pbh.erfc_tables.piecewise_table`); ln H is
+    entire, and the interpolant is within 8 ulp of scipy's erfc-based value
+    (tests/test_pbh_ng_stack.py)."""
+    return piecewise_table(_ln_h, _X_FLAT, _H_PIECES, _H_DEGREE)
 
 
-@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+@njit(cache=True, error_model="numpy")
 def ln_half_moment_table(x, table):
     """ln H(x) [1] for 0 <= x < ``_X_FLAT`` from :func:`half_moment_table`."""
-    n = table.shape[0]
-    width = _X_FLAT / n
-    k = min(int(x / width), n - 1)
-    t = (x - (k + 0.5) * width) / (0.5 * width)
-    acc = table[k, table.shape[1] - 1]
-    for d in range(table.shape[1] - 2, -1, -1):
-        acc = acc * t + table[k, d]
-    return acc
+    return piecewise_value(x, table, _X_FLAT)
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)

@@ -56,8 +56,8 @@ def beta_weighted_pairs(s: np.ndarray, k: np.ndarray, y_th: np.ndarray,
     """int dy K (C - C_th)^gamma_c p(y) [1] per pair, thresholds per pair, shape (n,).
 
     The quadrature of :func:`scan.observables.pbh.abundance.beta_weighted`: the 48-point
-    rule in z on (0, 1) of :func:`scan.observables.pbh.abundance.beta_rule` with y = y_th + span z^{1/gamma_c}, span = min(y_max -
-    y_th, 14 sigma).  With e = y - y_th = span z^{1/gamma_c} the excess is C - C_th = e for
+    rule in z on (0, 1) of :func:`scan.observables.pbh.abundance.beta_rule` with
+    y = y_th + span z^{1/gamma_c}, span = min(y_max - y_th, 14 sigma).  With e = y - y_th = span z^{1/gamma_c} the excess is C - C_th = e for
     the linear criteria and e (1 - (3/8)(y + y_th)) for the compaction function, so
     (C - C_th)^gamma_c = span^gamma_c z [(1 - (3/8)(y + y_th))^gamma_c]: the power of
     the grid is taken once (per pair when ``gamma_c`` is given per pair) and, for
