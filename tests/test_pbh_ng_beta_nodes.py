@@ -17,7 +17,16 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from scan.observables.pbh.ng_beta_nodes import MIXED_RATIO, beta_nodes, edge_panels
+from scan.observables.pbh.ng_beta_nodes import (
+    GENTLE_TOL,
+    MIXED_RATIO,
+    beta_nodes,
+    edge_panels,
+    gentle_rule,
+    gentle_test,
+)
+from scan.observables.pbh.ng_pairs import GentleRule
+from scan.observables.pbh.ng_stack import _to_unit, barycentric_matrix, lobatto
 from scan.observables.pbh.thresholds import C_L_MAX, compaction_linear
 
 K, GAMMA = 3.3, 0.36
@@ -81,3 +90,45 @@ def test_other_epochs_exponent_against_quad():
             return np.exp(-0.5 * (x * x - y_th * y_th) / s2)
 
         assert g(y) @ w == pytest.approx(_quad_beta(y_th, 0.28, g), rel=RTOL)
+
+
+@pytest.mark.parametrize("threshold", [0.2, 0.55, 0.66])
+def test_gentle_rule_against_quad(threshold):
+    """The gentle rule (24-point Gauss-Jacobi on the whole interval) on densities it is
+    meant for: flat, e^{-(y - y_th)/l} for l = L/4 and L, a wide Gaussian (nu_th = 2)."""
+    y_th = float(compaction_linear(threshold))
+    y, w = gentle_rule(y_th, GAMMA, K)
+    span = C_L_MAX - y_th
+    for g in (lambda x: np.ones_like(x), lambda x: np.exp(-(x - y_th) / span),
+              lambda x: np.exp(-4 * (x - y_th) / span),
+              lambda x: np.exp(-0.5 * (x * x - y_th * y_th) / (y_th / 2)**2)):
+        assert g(y) @ w == pytest.approx(_quad_beta(y_th, GAMMA, g), rel=RTOL)
+
+
+def test_gentle_test_bounds_the_error():
+    """Where the a-priori test passes (ng_beta_nodes.gentle_test, our derivation from
+    Trefethen's bounds), the gentle rule is within GENTLE_TOL of a 96-point Gauss-Jacobi
+    rule (whose error for these analytic integrands is, by the same bound, below 1e-60),
+    plus rounding: the 24 + 96 positive terms and exp() of arguments below 40 (40 eps),
+    2e-14 in all.  ln g: 9-node interpolants with Chebyshev coefficients a_k = s z_k /
+    k^2, z_k standard normal, s from 0.1 to 30 (400 draws); the test must pass for some
+    and fail for others (e.g. a steep e^{-y/l})."""
+    y_th = float(compaction_linear(0.55))
+    x = lobatto(9)
+    y, w = gentle_rule(y_th, GAMMA, K)
+    y_ref, w_ref = gentle_rule(y_th, GAMMA, K, n=96)
+    rule = GentleRule(barycentric_matrix(x, _to_unit(y, y_th)), w,
+                      *gentle_test(x, GAMMA))
+    ref = barycentric_matrix(x, _to_unit(y_ref, y_th))
+    rng = np.random.default_rng(11)
+    k = np.arange(9)
+    coef = rng.standard_normal((400, 9)) * np.geomspace(0.1, 30, 400)[:, None] \
+        / np.maximum(k, 1)**2
+    lng = np.polynomial.chebyshev.chebval(x, coef.T)          # (400, 9) at the nodes
+    ok = rule.applies(lng)
+    assert 0 < ok.sum() < ok.size
+    got = np.exp(lng[ok] @ rule.matrix.T) @ rule.weight
+    want = np.exp(lng[ok] @ ref.T) @ w_ref
+    assert np.all(np.abs(got / want - 1) <= GENTLE_TOL + 2e-14)
+    steep = -(x + 1) * 20.0                                   # e^{-(y - y_th)/(L/40)}
+    assert not rule.applies(steep[None, :])[0]

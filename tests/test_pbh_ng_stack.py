@@ -35,7 +35,7 @@ from scan.observables.pbh.ng_stack import (
     plan_stacked,
 )
 from scan.observables.pbh.nongaussian import plan_nongaussian
-from scan.observables.pbh.zeta_map import zeta_map_of
+from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 
 sys.path.insert(0, str(Path(__file__).parent / "bench"))
 from bench_pbh_nongaussian import spectra
@@ -294,14 +294,17 @@ def test_best_split_bound_is_below_the_fixed_split(plans, f_nl):
     assert np.mean(best < fixed - 1.0) > 0.5
 
 
-@pytest.mark.parametrize("f_nl", [1.0, -1.0])
-def test_left_out_pairs_move_f_by_less_than_their_bound(plans, f_nl):
+@pytest.mark.parametrize("zmap", [zeta_map_of("local", f_nl=1.0),
+                                  zeta_map_of("local", f_nl=-1.0),
+                                  zeta_map_of("logarithmic", log_lambda=3.0),
+                                  ZetaMap("logarithmic", log_lambda=0.6, slope_max=3.0)],
+                         ids=["local+1", "local-1", "logarithmic", "capped"])
+def test_left_out_pairs_move_f_by_less_than_their_bound(plans, zmap):
     """Leaving out the pairs below e^{-LN_NEGLIGIBLE} of their spectrum's largest f(M)
     (or total) changes f(M) by at most n_H e^{-LN_NEGLIGIBLE} max f(M) and the total by
     n_H e^{-LN_NEGLIGIBLE} total (the bound summed over the 128 epochs), against every
     pair evaluated."""
     plan, _, stacked, P = plans
-    zmap = zeta_map_of("local", f_nl=f_nl)
     got = stacked.evaluate(P, zmap)
     s_c2, s_cr, s_r2 = stacked._variances(P)
     i, h = np.nonzero(_live(stacked.y_nodes[0], s_c2, s_r2, zmap))

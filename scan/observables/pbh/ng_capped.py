@@ -108,6 +108,69 @@ def ln_capped_density(c, s_c2, s_cr, s_r2, lam, u_min):
     return np.logaddexp(ln_g1, ln_g2)
 
 
+def min_exponent(y_lo, y_hi, s_c2, s_cr, s_r2, lam, u_min) -> np.ndarray:
+    """A lower bound nu^2 [1] on the joint exponent Q = zeta_G^2/sigma_r^2 + (C_G - a
+    zeta_G)^2/t^2 over every point that the capped logarithmic map's density integrates
+    for c in [``y_lo``, ``y_hi``] (our derivation; arguments broadcast, lambda != 0,
+    0 <= u_min < 1).
+
+    The points are C_G = c u, zeta_G = (1 - u)/lambda with u >= u_min (the logarithmic
+    part) and C_G = c u_min with lambda zeta_G >= 1 - u_min (the capped part).  In the
+    (C_G, zeta_G) plane the first is a truncated wedge, the second a half-strip, both
+    convex and neither containing Q's minimum (0, 0) (C_G > 0 on both), so Q, a convex
+    quadratic, is least on their edges:
+
+    * c = y_lo or y_hi, u >= u_min: Q = A (u - mu)^2 + q_min (the exponent of
+      :func:`ln_capped_density`), least at u = max(mu, u_min);
+    * u = u_min, c in [y_lo, y_hi] (zeta_G = zeta_c = (1 - u_min)/lambda): a quadratic in
+      c, least at c = a zeta_c / u_min clipped to the interval;
+    * C_G = y_lo u_min or y_hi u_min, lambda zeta_G >= 1 - u_min: a quadratic in zeta_G,
+      least at its conditional mean sigma_cr^2 C_G / sigma_c^2 if that lies on the
+      half-line (value C_G^2 / sigma_c^2), else at zeta_c (an edge above).
+
+    Without a cap (u_min = 0) the capped part is empty and the third edge is the apex
+    C_G = 0, zeta_G = 1/lambda.  Compiled per element (numba); NaN gives 0 (no bound).
+    """
+    arrays = np.broadcast_arrays(*(np.asarray(v, dtype=float)
+                                   for v in (y_lo, y_hi, s_c2, s_cr, s_r2, lam, u_min)))
+    flat = [np.ascontiguousarray(v).ravel() for v in arrays]
+    return _min_exponent_flat(*flat).reshape(arrays[0].shape)
+
+
+@njit(cache=True, error_model="numpy")
+def _min_exponent_flat(y_lo, y_hi, s_c2, s_cr, s_r2, lam, u_min):
+    """:func:`min_exponent` over flat arrays of equal size."""
+    out = np.empty(s_c2.size)
+    for k in range(s_c2.size):
+        a = s_cr[k] / s_r2[k]
+        t2 = max(s_c2[k] - a * s_cr[k], 1e-300)
+        kappa = 1.0 / (lam[k] * lam[k] * s_r2[k])
+        b = a / lam[k]
+        um = u_min[k]
+        zeta_c = (1.0 - um) / lam[k]
+        c_best = min(max(a * zeta_c / um if um > 0.0 else y_lo[k], y_lo[k]), y_hi[k])
+        best = zeta_c * zeta_c / s_r2[k] + (c_best * um - a * zeta_c)**2 / t2
+        for c in (y_lo[k], y_hi[k]):
+            alpha = c + b
+            A = kappa + alpha * alpha / t2
+            mu = (kappa + alpha * b / t2) / A
+            shortfall = 0.0 if um <= mu else um - mu        # NaN mu: NaN
+            best = _least(best, kappa * c * c / (t2 * A) + A * shortfall * shortfall)
+            C = c * um
+            if um > 0.0 and lam[k] * (s_cr[k] * C / s_c2[k]) >= 1.0 - um:
+                best = _least(best, C * C / s_c2[k])
+        out[k] = 0.0 if math.isnan(best) else best
+    return out
+
+
+@njit(cache=True, error_model="numpy")
+def _least(best, value):
+    """min(best, value), NaN if either is NaN."""
+    if math.isnan(best) or math.isnan(value):
+        return math.nan
+    return min(best, value)
+
+
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _tail_moment(x0, xm):
     """(1 - sqrt(pi) x0 erfcx(x0)) + sqrt(pi) xm erfcx(x0) [1] for x0 >= ``X0_COMPILED``

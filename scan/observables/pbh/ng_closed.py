@@ -168,3 +168,21 @@ def near_exponent_bound(p, c, a, t2, s_r2):
             bound = min(h_lo, h_hi)
         out[i] = max(bound, 0.0) * (1.0 - 1e-12)
     return out
+
+
+@njit(cache=True, error_model="numpy")
+def bound_from_exponent(nu2, y, s_c2, s_cr, s_r2, split, shift):
+    """-(1 - e) nu^2/2 - ln e + ln(prefactor) + ``shift`` [1] per element of flat arrays of
+    equal size: the bound of :func:`scan.observables.pbh.ng_density.ln_density_bound`
+    from a lower bound ``nu2`` on the joint exponent, at c = ``y``; e = ``split``, or
+    2/nu^2 clipped to (0, 1] for a ``split`` <= 0."""
+    out = np.empty(nu2.size)
+    c_e = math.sqrt(2.0 * math.pi / math.e)
+    for k in range(nu2.size):
+        a = s_cr[k] / s_r2[k]
+        t = math.sqrt(max(s_c2[k] - a * s_cr[k], 1e-300))
+        s_r = math.sqrt(s_r2[k])
+        e = split if split > 0.0 else min(max(2.0 / nu2[k], 1e-300), 1.0)
+        pref = (2.0 * abs(a) * s_r2[k] + t * s_r * c_e) / (2.0 * math.pi * s_r * t * y[k])
+        out[k] = -(1.0 - e) * 0.5 * nu2[k] - math.log(e) + math.log(pref) + shift
+    return out

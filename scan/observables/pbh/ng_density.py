@@ -40,13 +40,15 @@ import math
 import numpy as np
 from scipy import special
 
-from scan.observables.pbh.ng_capped import capped_pairs, ln_capped_density
+from scan.observables.pbh.ng_capped import capped_pairs, ln_capped_density, min_exponent
 from scan.observables.pbh.ng_closed import (
+    bound_from_exponent,
     half_moment_table,
     log_map_density,
     near_exponent_bound,
 )
 from scan.observables.pbh.ng_ridge import branch_integrals, far_curve_bound
+from scan.observables.pbh.thresholds import C_L_MAX
 from scan.observables.pbh.zeta_map import ZetaMap
 
 #: Gauss-Hermite nodes of the local map's per-branch rule: 16 -> 32 changes ln g by
@@ -147,8 +149,8 @@ def _is_capped(zmap: ZetaMap) -> bool:
 def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
                      ps_factor: float = 1.0, split: float | None = None) -> np.ndarray:
     """An upper bound [1] on ln g(c) over c >= ``y_th`` (a number, or one per pair) per pair
-    of variances (arrays of equal shape); +inf (no bound) unless the map is local with
-    g_NL = 0.
+    of variances (arrays of equal shape); the local map with g_NL = 0 and the (capped)
+    logarithmic map (parameters one per pair or shared), else +inf (no bound).
 
     Local map, F' = 1 + p zeta_G (our derivation): on the curve C_G F' = c the joint
     exponent Q = zeta_G^2/sigma_r^2 + (C_G - a zeta_G)^2/t^2 is at least each marginal's,
@@ -175,13 +177,29 @@ def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
     the bound's e-dependent part -(1 - e) nu^2/2 - ln e is least at e = 2/nu^2, used per
     pair by default (clipped to (0, 1]; ``split`` fixes it): at nu^2 = 200 it is 6.7
     e-folds below e = 0.1.  tests/test_pbh_ng_stack.py checks it against the computed
-    ln g, and that it is below the fixed split's."""
+    ln g, and that it is below the fixed split's.
+
+    Logarithmic map (capped or not): the same prefactor (its Jacobian u = C_G/c too), and
+    nu^2 the least Q over the points the density integrates for c in [y_th, 4/3] (where
+    the stacked path evaluates it), :func:`scan.observables.pbh.ng_capped.min_exponent`:
+    a bound over the type-I interval only."""
     s_c2, s_cr, s_r2 = (np.asarray(v, dtype=float) for v in (s_c2, s_cr, s_r2))
+    if zmap.kind == "logarithmic":
+        nu2 = min_exponent(y_th, C_L_MAX, s_c2, s_cr, s_r2,
+                           np.asarray(zmap.log_lambda, dtype=float),
+                           1.0 / np.asarray(zmap.slope_max, dtype=float))
+        return _bound_of(nu2, y_th, s_c2, s_cr, s_r2, split, ps_factor)
     if zmap.kind != "local" or zmap.g_nl != 0:
         return np.full(s_c2.shape, np.inf)
-    e, p = split, 1.2 * zmap.f_nl
+    return _bound_of(_local_min_exponent(y_th, s_c2, s_cr, s_r2, 1.2 * zmap.f_nl), y_th,
+                     s_c2, s_cr, s_r2, split, ps_factor)
+
+
+def _local_min_exponent(y_th, s_c2, s_cr, s_r2, p: float) -> np.ndarray:
+    """nu^2 [1] of the local map's bound (see :func:`ln_density_bound`); F' = 1 + p
+    zeta_G."""
     a, t2, _ = joint(s_c2, s_cr, s_r2)
-    s_c, s_r, t = np.sqrt(s_c2), np.sqrt(s_r2), np.sqrt(t2)
+    s_c, s_r = np.sqrt(s_c2), np.sqrt(s_r2)
     root = np.sqrt(1 + 4 * y_th * abs(p) * s_r / s_c)
     nu2 = (y_th / (s_c * 0.5 * (1 + root)))**2
     if p != 0 and s_c2.size:
@@ -191,11 +209,19 @@ def ln_density_bound(y_th, s_c2, s_cr, s_r2, zmap: ZetaMap,
         with np.errstate(divide="ignore"):
             far = (y_th / (s_c * 0.5 * (root - 1)))**2
         nu2 = np.maximum(nu2, np.minimum(near, far))
-    if e is None:                                        # the best split per pair
-        e = np.clip(2.0 / nu2, 1e-300, 1.0)
-    pref = (2 * np.abs(a) * s_r2 + t * s_r * math.sqrt(2 * math.pi / math.e)) \
-        / (2 * math.pi * s_r * t * y_th)
-    return -(1 - e) * 0.5 * nu2 - np.log(e) + np.log(pref) + math.log(ps_factor)
+    return nu2
+
+
+def _bound_of(nu2, y_th, s_c2, s_cr, s_r2, split: float | None, ps_factor: float):
+    """The bound [1] of :func:`ln_density_bound` from a lower bound ``nu2`` on the joint
+    exponent along the map's curve: -(1 - e) nu^2/2 - ln e + ln(prefactor) (the
+    prefactor holds for any curve C_G(zeta_G) with Jacobian |C_G|/c), compiled
+    (:func:`scan.observables.pbh.ng_closed.bound_from_exponent`)."""
+    arrays = np.broadcast_arrays(*(np.asarray(v, dtype=float)
+                                   for v in (nu2, y_th, s_c2, s_cr, s_r2)))
+    flat = [np.ascontiguousarray(v).ravel() for v in arrays]
+    return bound_from_exponent(*flat, -1.0 if split is None else float(split),
+                               math.log(ps_factor)).reshape(arrays[0].shape)
 
 
 def _ln_log_map(c, s_c2, s_cr, s_r2, lam: float) -> np.ndarray:

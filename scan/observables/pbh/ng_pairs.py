@@ -29,6 +29,7 @@ Units: f(M) per ln M [1].
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 from numba import njit
@@ -67,20 +68,56 @@ def row_extremes(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return low, high
 
 
+@dataclass(frozen=True)
+class GentleRule:
+    """The coarse beta rule for gentle pairs (:func:`~scan.observables.pbh.ng_beta_nodes.
+    gentle_rule`): ``matrix`` (n_g, n_y) takes ln g at the nodes to its nodes, ``weight``
+    (n_g,) or (n_H, n_g) their weights; ``coefficients``, ``ellipse``, ``budget`` the
+    a-priori test (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`)."""
+
+    matrix: np.ndarray
+    weight: np.ndarray
+    coefficients: np.ndarray
+    ellipse: np.ndarray
+    budget: np.ndarray
+
+    def applies(self, lng: np.ndarray) -> np.ndarray:
+        """Pairs (rows of ``lng``, (n, n_y)) the rule integrates within its tolerance
+        (False for NaN)."""
+        spread = np.abs(lng @ self.coefficients.T) @ self.ellipse.T       # (n, n_rho)
+        return np.any(spread <= self.budget, axis=1)
+
+
 def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
-               h: np.ndarray) -> np.ndarray:
+               h: np.ndarray, gentle: GentleRule | None = None,
+               extremes: tuple[np.ndarray, np.ndarray] | None = None) -> np.ndarray:
     """beta [1] per pair: sum_b weight_b exp(ln g(y_b)) with ln g(y_b) = ``beta_matrix``
     (n_beta, n_y) @ ``lng`` (n_pairs, n_y); ``weight`` (n_beta,), or (n_H, n_beta) with
-    the pairs' epochs ``h`` (gathered per block: 256 rows stay in cache).
-    Pairs whose interpolant is in [``LN_ZERO``, ``X_MAX``] by the Lebesgue bound (module
-    doc) take plain exponentials (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s;
-    the product's rounding, ~1e-13, stays far inside the range of
+    the pairs' epochs ``h``.  Pairs the ``gentle`` rule applies to take it instead (24
+    instead of 80 nodes).  ``extremes``: :func:`row_extremes` of ``lng`` if known."""
+    low, high = row_extremes(lng) if extremes is None else extremes
+    coarse = gentle.applies(lng) if gentle is not None else np.zeros(lng.shape[0], bool)
+    if not coarse.any():
+        return _rule_betas(lng, low, high, beta_matrix, weight, h)
+    beta = np.empty(lng.shape[0])
+    for rows, matrix, w in ((np.flatnonzero(~coarse), beta_matrix, weight),
+                            (np.flatnonzero(coarse), gentle.matrix, gentle.weight)):
+        if rows.size:
+            beta[rows] = _rule_betas(lng[rows], low[rows], high[rows], matrix, w, h[rows])
+    return beta
+
+
+def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
+    """beta [1] per pair of one rule (``matrix``, ``weight`` as :func:`pair_betas`'s),
+    gathered per block (256 rows stay in cache).  Pairs whose interpolant is in
+    [``LN_ZERO``, ``X_MAX``] by the Lebesgue bound (module doc) take plain exponentials
+    (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s; the product's rounding,
+    ~1e-13, stays far inside the range of
     :func:`~scan.observables.pbh.vector_math.exp_in_place`, [-708, 709]); the others (and
     NaN) the values of :func:`exp_or_zero` (above 709 those of 709): the first group,
     then the second, in blocks.  Exponentials by
     :func:`~scan.observables.pbh.vector_math.exp_in_place` (within 1 ulp of numpy's)."""
-    low, high = row_extremes(lng)
-    overshoot = 0.5 * (np.abs(beta_matrix).sum(axis=1).max() - 1.0)
+    overshoot = 0.5 * (np.abs(matrix).sum(axis=1).max() - 1.0)
     safe = (low - overshoot * (high - low) >= LN_ZERO) \
         & (high + overshoot * (high - low) <= X_MAX)
     n_safe = int(np.count_nonzero(safe))
@@ -92,7 +129,7 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
     for first, last, clip in ((0, n_safe, False), (n_safe, lng.shape[0], True)):
         for start in range(first, last, BLOCK):
             rows = slice(start, min(start + BLOCK, last))
-            block = lng[rows] @ beta_matrix.T
+            block = lng[rows] @ matrix.T
             if clip:                        # exp_or_zero's values, vectorised exp
                 np.clip(block, LN_ZERO, X_MAX, out=block)
                 exp_in_place(block)

@@ -49,9 +49,16 @@ from scan.observables.pbh.ng_beta_nodes import (
     MIXED_RATIO,
     beta_nodes,
     edge_panels,
+    gentle_rule,
+    gentle_test,
 )
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
-from scan.observables.pbh.ng_pairs import mass_function, pair_betas, row_extremes
+from scan.observables.pbh.ng_pairs import (
+    GentleRule,
+    mass_function,
+    pair_betas,
+    row_extremes,
+)
 from scan.observables.pbh.ng_table import ln_density_tabulated
 from scan.observables.pbh.nongaussian import (
     NonGaussianPlan,
@@ -116,7 +123,8 @@ class StackedNGPlan:
     epoch; ``beta_matrix`` (n_beta, n_y) to the beta nodes, ``beta_weight`` their weights.
     ``y_nodes`` (n_y,) and ``beta_weight`` (n_beta,) carry a leading epoch axis (n_H, ...)
     with the QCD-era per-epoch thresholds and exponents.  ``variance_matrix`` (3 n_H, n_k)
-    stacks the plan's sigma_c^2, sigma_cr^2 and sigma_r^2 matrices.
+    stacks the plan's sigma_c^2, sigma_cr^2 and sigma_r^2 matrices.  ``gentle``: the
+    coarse beta rule for the pairs it provably serves (one exponent for all epochs).
     """
 
     ng: NonGaussianPlan
@@ -125,6 +133,7 @@ class StackedNGPlan:
     beta_matrix: np.ndarray
     beta_weight: np.ndarray
     variance_matrix: np.ndarray
+    gentle: GentleRule | None = None
 
     def evaluate(self, P_zeta, zmap: ZetaMap) -> PBHResult:
         """f_PBH(M) per ln M [1] and the totals for a stack of spectra (m, n_k) [1].
@@ -139,7 +148,7 @@ class StackedNGPlan:
         y_th = self.y_nodes[..., 0]                          # a number, or one per epoch
         i, h = np.nonzero(_live(y_th, s_c2, s_r2, zmap))
         var = (s_c2[i, h], s_cr[i, h], s_r2[i, h])
-        ln_g = ln_density_bound(y_th[h] if y_th.ndim else y_th, *var, zmap,
+        ln_g = ln_density_bound(y_th[h] if y_th.ndim else y_th, *var, zmap.of_spectra(i),
                                 base.conventions.ps_factor)
         if np.all(np.isposinf(ln_g)):                        # no bound: every pair
             f, total = self._pairs(np.ones(i.size, dtype=bool), i, h, var, zmap,
@@ -180,11 +189,14 @@ class StackedNGPlan:
             and zmap.f_nl != 0 else ln_density_pairs
         lng = density(nodes, *(v[chosen] for v in var), zmap.of_spectra(i),
                       self.ng.base.conventions.ps_factor)
-        keep = ~(row_extremes(lng)[1] < LN_DEAD)
+        low, high = row_extremes(lng)
+        keep = ~(high < LN_DEAD)
         if not keep.all():
-            i, h, lng = i[keep], h[keep], lng[keep]
+            i, h, lng, low, high = i[keep], h[keep], lng[keep], low[keep], high[keep]
         base = self.ng.base
-        total = np.bincount(i, weights=(base._wln * base._coef)[h] * self._beta(lng, h),
+        beta = pair_betas(lng, self.beta_matrix, self.beta_weight, h, self.gentle,
+                          (low, high))
+        total = np.bincount(i, weights=(base._wln * base._coef)[h] * beta,
                             minlength=m).astype(float)    # int64 when no pair is left
         return self._mass_function(lng, i, h, m), total
 
@@ -201,11 +213,6 @@ class StackedNGPlan:
         s_c2, s_cr, s_r2 = np.split(P2[:, lo:hi] @ self.variance_matrix[:, lo:hi].T, 3,
                                     axis=1)
         return np.maximum(s_c2, 1e-300), s_cr, np.maximum(s_r2, 1e-300)
-
-    def _beta(self, lng, h) -> np.ndarray:
-        """beta [1] per pair (epochs ``h``) from ln g at the nodes
-        (:func:`~scan.observables.pbh.ng_pairs.pair_betas`)."""
-        return pair_betas(lng, self.beta_matrix, self.beta_weight, h)
 
     def _mass_function(self, lng, i, h, m: int) -> np.ndarray:
         """f(M) [1], shape (m, n_M): sum over the pairs of weight(M, M_H) g(y(M, M_H))
@@ -289,7 +296,19 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
                          np.ascontiguousarray(barycentric_matrix(
                              x, np.clip(_to_unit(y_mass, y_th), -1, 1)).transpose(0, 2, 1)),
                          barycentric_matrix(x, _to_unit(yb, y0)), wb,
-                         np.vstack([ng.base._v0, ng.v_cr, ng.v_r]))
+                         np.vstack([ng.base._v0, ng.v_cr, ng.v_r]),
+                         None if exponents is not None else _gentle(x, y_th, conv))
+
+
+def _gentle(x: np.ndarray, y_th, conv) -> GentleRule:
+    """The gentle beta rule for interpolation nodes ``x`` and thresholds ``y_th`` (a number,
+    or (n_H, 1) per epoch: the nodes in the unit variable are the same, the weights per
+    epoch)."""
+    per = [gentle_rule(float(y), conv.gamma_c, conv.K) for y in np.ravel(y_th)]
+    y0 = float(np.ravel(y_th)[0])
+    weight = per[0][1] if np.ndim(y_th) == 0 else np.array([w for _, w in per])
+    return GentleRule(barycentric_matrix(x, _to_unit(per[0][0], y0)), weight,
+                      *gentle_test(x, conv.gamma_c))
 
 
 @dataclass(frozen=True)
