@@ -27,7 +27,8 @@ threshold and exponent: then the nodes of ln g and the beta weights are per epoc
 Cost (tests/bench/bench_pbh_nongaussian.py): every exponential is clipped at
 ``LN_ZERO`` = -700 (:func:`~scan.observables.pbh.ng_pairs.exp_or_zero`), below which
 libm's exp leaves its fast path (20-400 ns instead of ~1 ns per element); the three variances come from one product.
-Where the map has a closed-form bound on ln g above y_th (the local map,
+Where the map has a closed-form bound on ln g above y_th (the local map with g_NL = 0,
+the capped and plain logarithmic maps:
 :func:`~scan.observables.pbh.ng_density.ln_density_bound`), a pair whose bound on its
 f(M) and on its total is below e^{-100} of its spectrum's largest f(M) and total is
 left out (``LN_NEGLIGIBLE``, two passes: the pairs near their spectrum's best bound
