@@ -59,6 +59,20 @@ stack 2-4 ms; ngmodel branch):
   of ngspeed7, totals 1.8e-15; lambda per spectrum bit-identical.  Issue 15's <= 3x:
   still not met for the capped map.
 
+* lead27 (the bound on ln g of the capped and plain logarithmic maps prunes pairs as the
+  local map's: computed 2633 instead of 7296 for the capped map, 5157 for lambda per
+  spectrum, 6488 for the one map; the 24-node gentle beta rule where an a-priori error
+  test admits it; Estrin's scheme in the tables: see bench_pbh_nongaussian.py) against
+  main a6f410a alternately, 3 runs each at three stages (machine quiet, the Gaussian
+  stack 1.8-3.2 ms).  Final stage: one-map logarithmic 2.91-3.29x -> 2.97-3.16x (this
+  benchmark's interleaving of four functions; bench_pbh_nongaussian.py's row 3.20-3.34x
+  -> 2.84-3.02x in the same runs), lambda per spectrum 3.76-3.97x -> 2.90-3.12x, capped
+  per spectrum 3.67-3.71x -> 2.53-2.99x (earlier stages: capped 3.81-4.33x -> 2.11-2.95x,
+  lambda 3.97-4.62x -> 2.47-2.96x).  Results: totals within 5.2e-13 of main (lambda
+  per spectrum; the 80-node rule's own error, 1.0e-12 against an 80-point Gauss-Jacobi
+  reference on these pairs, where the gentle rule is within 7.7e-14), f(M) within 2e-50
+  of each spectrum's largest value (the pruned pairs).
+
 Run:  python tests/bench/bench_pbh_model_map.py [--blocks N]
 """
 from __future__ import annotations

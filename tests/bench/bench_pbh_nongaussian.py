@@ -160,6 +160,21 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   and the Gaussian stack interleaved with it a median of 1.84 instead of 3.0 ms (one
   process each, alternating): page faults from large temporaries cost on this VM.
 
+* lead27 against main a6f410a, alternately (3 runs each at each of three stages, machine
+  quiet, the Gaussian stack 1.8-3.2 ms): (1) the logarithmic map gets a bound on ln g
+  over [y_th, 4/3] (ng_capped.min_exponent: the least joint exponent over the points its
+  density integrates), so its pairs are pruned as the local map's (7409 -> 6488 computed
+  here: its heavy tail keeps most within e^{-100}); (2) beta of the pairs an a-priori
+  analytic-error test admits (78 % of them here) by 24-node Gauss-Jacobi instead of 80
+  nodes (ng_beta_nodes.gentle_rule: 1.9 -> 1.5 ms on the 7.4k pairs, one process);
+  (3) Estrin's scheme in the erfc/ln H tables (density 1.40 -> 1.33 ms).  Final stage:
+  local f_NL = 1 3.02-3.14x (main, same runs) vs 2.71-2.96x (its code unchanged: the
+  noise of these ratios is ~0.2), f_NL = -1 2.49-2.82x vs 2.27-2.42x, logarithmic
+  3.20-3.34x -> 2.84-3.02x (earlier stages: 2.87-2.92x against main's 3.08-3.69x, and
+  2.96-3.12x against 2.88-3.33x).  Results: totals within 1.9e-14 (logarithmic) of main,
+  f(M) bit-identical wherever >= 1e-30 of its largest value.  Issue 15's <= 3x: at the edge on
+  this machine for the local f_NL = 1 and the logarithmic stacks (2.7-3.1x over runs).
+
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
