@@ -112,7 +112,8 @@ def test_gentle_test_bounds_the_error():
     plus rounding: the 24 + 96 positive terms and exp() of arguments below 40 (40 eps),
     2e-14 in all.  ln g: 9-node interpolants with Chebyshev coefficients a_k = s z_k /
     k^2, z_k standard normal, s from 0.1 to 30 (400 draws); the test must pass for some
-    and fail for others (e.g. a steep e^{-y/l})."""
+    and fail for others (e.g. a steep e^{-y/l}), and no pair it admits has a node range
+    above the largest budget (pair_betas' pre-filter)."""
     y_th = float(compaction_linear(0.55))
     x = lobatto(9)
     y, w = gentle_rule(y_th, GAMMA, K)
@@ -127,6 +128,8 @@ def test_gentle_test_bounds_the_error():
     lng = np.polynomial.chebyshev.chebval(x, coef.T)          # (400, 9) at the nodes
     ok = rule.applies(lng)
     assert 0 < ok.sum() < ok.size
+    span = lng.max(axis=1) - lng.min(axis=1)      # pair_betas' pre-filter: implied by the
+    assert np.all(span[ok] <= rule.budget.max())  # test (GentleRule.applies)
     got = np.exp(lng[ok] @ rule.matrix.T) @ rule.weight
     want = np.exp(lng[ok] @ ref.T) @ w_ref
     assert np.all(np.abs(got / want - 1) <= GENTLE_TOL + 2e-14)

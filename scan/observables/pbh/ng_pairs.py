@@ -85,7 +85,9 @@ class GentleRule:
 
     def applies(self, lng: np.ndarray) -> np.ndarray:
         """Pairs (rows of ``lng``, (n, n_y)) the rule integrates within its tolerance
-        (False for NaN)."""
+        (False for NaN).  The test's spread is >= 2 sum_k |a_k| (every ellipse weight is
+        >= 2), which is >= the range of ln g over the nodes (|p - a_0| <= sum_k |a_k| on
+        [-1, 1]): a pair whose node range exceeds every budget fails it."""
         spread = np.abs(lng @ self.coefficients.T) @ self.ellipse.T       # (n, n_rho)
         ok = spread[:, 0] <= self.budget[0]          # column by column: numpy's reduction
         for r in range(1, self.budget.size):         # along a short axis is ~6x slower
@@ -101,7 +103,10 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
     the pairs' epochs ``h``.  Pairs the ``gentle`` rule applies to take it instead (24
     instead of 80 nodes).  ``extremes``: :func:`row_extremes` of ``lng`` if known."""
     low, high = row_extremes(lng) if extremes is None else extremes
-    coarse = gentle.applies(lng) if gentle is not None else np.zeros(lng.shape[0], bool)
+    coarse = np.zeros(lng.shape[0], bool)
+    if gentle is not None:          # a node range above every budget fails the test
+        maybe = np.flatnonzero(high - low <= gentle.budget.max())     # (GentleRule.applies)
+        coarse[maybe] = gentle.applies(lng[maybe])
     if not coarse.any():
         return _rule_betas(lng, low, high, beta_matrix, weight, h)
     beta = np.empty(lng.shape[0])
