@@ -46,9 +46,12 @@ KEYS = ["run", "run.seed", "run.output_dir", "model", "model.potential", "model.
 
 @pytest.fixture(autouse=True)
 def crash_logs(tmp_path, monkeypatch):
-    """Crash logs (exit 1) go to the test's folder, where a failure message can read them."""
+    """Crash logs (exit 1) go to the test's folder, where a failure message can read them;
+    the working directory is the test's folder too, so that a fuzzed relative
+    ``run.output_dir`` (e.g. ``<D``) writes there, not into the checkout."""
     folder = tmp_path / "crash_logs"
     monkeypatch.setenv(LOG_DIR_VARIABLE, str(folder))
+    monkeypatch.chdir(tmp_path)
     return folder
 
 
