@@ -57,6 +57,7 @@ from numba import njit
 
 from scan.observables.pbh.ng_density import _ln_local
 from scan.observables.pbh.ng_ridge import FASTMATH
+from scan.observables.pbh.vector_math import log_in_place
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 
 #: Domain of the table in t = C_l / sigma_c, |b| and rho.
@@ -87,6 +88,10 @@ N_GH_TABLE = 32
 N_STEPS = 60
 STEP_TOL = 1e-8
 _HALF_LN_2PI = 0.5 * math.log(2.0 * math.pi)
+#: The positive normal doubles (the range of :func:`~scan.observables.pbh.vector_math.
+#: log_in_place`).
+_NORMAL_MIN: float = 2.2250738585072014e-308
+_NORMAL_MAX: float = 1.7976931348623157e308
 
 
 def _axis(lo: float, hi: float, h: float) -> np.ndarray:
@@ -256,32 +261,51 @@ def tabulated_ln_h(g_table, z_table, origin, t, b, rho):
     search per element): the coordinates (asinh, log); the table's G and ridge seed
     (:func:`_lookup`); two Newton steps from the seed (:func:`_two_newton`); the Laplace
     value there, or the damped search (:func:`_laplace`) from the same seed where those
-    steps did not meet its stopping rule."""
+    steps did not meet its stopping rule.  The logarithms (of the coordinates' asinh and
+    ln t, and the Laplace value's ln|1 + b z*| + ln(-psi'' w^2)/2 as one) are taken in
+    vectorised passes (:func:`~scan.observables.pbh.vector_math.log_in_place`) instead of
+    libm's per element."""
     n = t.size
     inside = np.empty(n, dtype=np.bool_)
     s, rho_in, lnt = np.empty(n), np.empty(n), np.empty(n)
+    sign = np.empty(n)
     for e in range(n):
         inside[e] = T_MIN <= t[e] <= T_MAX and abs(b[e]) <= B_MAX \
             and RHO_MIN <= rho[e] <= RHO_MAX
         te, be, re = (t[e], b[e], rho[e]) if inside[e] else (T_MIN, 0.0, RHO_MIN)
-        s[e], rho_in[e], lnt[e] = math.asinh(be * te / V0), re, math.log(te)
+        x = be * te / V0                # asinh x = sign(x) ln(|x| + sqrt(x^2 + 1))
+        sign[e] = -1.0 if x < 0.0 else 1.0
+        s[e], rho_in[e], lnt[e] = abs(x) + math.sqrt(x * x + 1.0), re, te
+    log_in_place(s)                     # arguments in [1, 321] and [4, 400]: normal
+    log_in_place(lnt)
+    for e in range(n):
+        s[e] *= sign[e]
     g, z, ok = np.empty(n), np.empty(n), np.empty(n, dtype=np.bool_)
     _lookup(g_table, z_table, origin, s, rho_in, lnt, g, z)
     seed = z * t
     z[:] = seed
     _two_newton(z, t, b, rho, ok)
-    out = np.empty(n)
+    out, arg = np.empty(n), np.ones(n)
     for e in range(n):
         if not inside[e]:
             out[e] = math.nan
             continue
-        if ok[e]:
-            w2 = 1.0 - rho[e] * rho[e]
-            value = _psi(z[e], t[e], b[e], rho[e], w2) - _HALF_LN_2PI \
-                - 0.5 * math.log(-_slopes(z[e], t[e], b[e], rho[e], w2)[1] * w2)
+        if ok[e]:                       # psi - ln(2 pi)/2 - ln(-psi'' w^2)/2, the two
+            w2 = 1.0 - rho[e] * rho[e]  # logarithms as one: -ln(f^2 (-psi'') w^2)/2
+            f = 1.0 + b[e] * z[e]
+            h = t[e] / f - rho[e] * z[e]
+            value = -0.5 * z[e] * z[e] - 0.5 * h * h / w2 - _HALF_LN_2PI
+            product = f * f * (-_slopes(z[e], t[e], b[e], rho[e], w2)[1] * w2)
+            if _NORMAL_MIN <= product <= _NORMAL_MAX:
+                arg[e] = product
+            else:                       # outside log_in_place's range (NaN stays)
+                value -= 0.5 * math.log(product)
         else:
             value, _, ok[e] = _laplace(t[e], b[e], rho[e], seed[e])
         out[e] = value + g[e] / (t[e] * t[e]) if ok[e] else math.nan
+    log_in_place(arg)
+    for e in range(n):
+        out[e] -= 0.5 * arg[e]
     return out
 
 
