@@ -172,8 +172,13 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   noise of these ratios is ~0.2), f_NL = -1 2.49-2.82x vs 2.27-2.42x, logarithmic
   3.20-3.34x -> 2.84-3.02x (earlier stages: 2.87-2.92x against main's 3.08-3.69x, and
   2.96-3.12x against 2.88-3.33x).  Results: totals within 1.9e-14 (logarithmic) of main,
-  f(M) bit-identical wherever >= 1e-30 of its largest value.  Issue 15's <= 3x: at the edge on
-  this machine for the local f_NL = 1 and the logarithmic stacks (2.7-3.1x over runs).
+  f(M) bit-identical wherever >= 1e-30 of its largest value.  (4) The local map's table
+  path (ng_table.tabulated_ln_h) with its logarithms in vectorised passes, alternately
+  against main e8a834a, 3 runs (machine busier, Gaussian medians 3.0-3.8 ms): local
+  f_NL = 1 2.83-3.04x -> 2.36-2.49x, f_NL = -1 2.27-2.58x -> 2.05-2.15x (logarithmic,
+  unchanged code: 2.93-3.15x vs 2.91-3.11x); f(M) within 1.2e-13 where >= 1e-30 of its
+  largest value, totals within 9.2e-14.  Issue 15's <= 3x: met by the local stacks; at
+  the edge on this machine for the logarithmic one (2.8-3.2x over runs).
 
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
