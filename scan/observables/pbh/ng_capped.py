@@ -34,7 +34,13 @@ from scipy import special
 
 from scan.observables.pbh.erfc_tables import erfcx_table, ln_ndtr_positive
 from scan.observables.pbh.ng_ridge import FASTMATH
-from scan.observables.pbh.vector_math import X_MIN, exp_in_place, log_in_place
+from scan.observables.pbh.vector_math import (
+    NORMAL_MAX,
+    NORMAL_MIN,
+    X_MIN,
+    exp_in_place,
+    log_in_place,
+)
 
 #: The compiled form takes erfcx(x0) = e^{x0^2} erfc(x0) from its table below this;
 #: above, its asymptotic series.
@@ -45,9 +51,6 @@ X0_FLAT: float = -6.0
 #: ... and ln Phi(z) from the tables above this z (-z^2/2 + ln(erfcx(-z/sqrt 2)/2) for
 #: z < 0); below, its asymptotic series (:func:`_tail_ratio`).
 Z_COMPILED: float = -37.0
-#: The positive normal doubles (the range of :func:`log_in_place`).
-_NORMAL_MIN: float = 2.2250738585072014e-308
-_NORMAL_MAX: float = 1.7976931348623157e308
 #: Above this x0 the difference 1 - sqrt(pi) x0 erfcx(x0) is taken from its asymptotic
 #: series (as :data:`scan.observables.pbh.ng_density._Z_SERIES`).
 _Z_SERIES: float = 100.0
@@ -313,7 +316,7 @@ def _defer_log(lin, arg, k, i, j, value, argument):
     """Record ln g_k = ``value`` + ln(``argument``) at (i, j): the argument for the
     vectorised logarithm where it is a positive normal double, else its libm logarithm
     (or -inf for 0) added to ``value`` now."""
-    if _NORMAL_MIN <= argument <= _NORMAL_MAX:
+    if NORMAL_MIN <= argument <= NORMAL_MAX:
         lin[k, i, j], arg[k, i, j] = value, argument
     else:
         lin[k, i, j], arg[k, i, j] = value + (-math.inf if argument <= 0.0

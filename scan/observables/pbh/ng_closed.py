@@ -20,11 +20,8 @@ from scipy import special
 
 from scan.observables.pbh.erfc_tables import piecewise_table, piecewise_value
 from scan.observables.pbh.ng_ridge import FASTMATH
-from scan.observables.pbh.vector_math import log_in_place
+from scan.observables.pbh.vector_math import NORMAL_MAX, NORMAL_MIN, log_in_place
 
-#: The positive normal doubles (the range of :func:`log_in_place`).
-_NORMAL_MIN: float = 2.2250738585072014e-308
-_NORMAL_MAX: float = 1.7976931348623157e308
 #: Above this x = mu sqrt(A/2) >= 0, erfc(-x) = 2 and e^{-x^2} round away (as
 #: :func:`scan.observables.pbh.ng_density._ln_half_moment`).
 _X_FLAT: float = 6.0
@@ -105,7 +102,7 @@ def log_map_density(c, s_c2, s_cr, s_r2, lam, shift, table):
             else:
                 out[i, j] = base - 0.5 * q_min + ln_half_moment_table(x, table)
                 arg[i, j] = inv_A
-            if not _NORMAL_MIN <= arg[i, j] <= _NORMAL_MAX:   # outside log_in_place's range
+            if not NORMAL_MIN <= arg[i, j] <= NORMAL_MAX:   # outside log_in_place's range
                 out[i, j] += math.log(arg[i, j])
                 arg[i, j] = 1.0
     out += log_in_place(arg)

@@ -57,7 +57,7 @@ from numba import njit
 
 from scan.observables.pbh.ng_density import _ln_local
 from scan.observables.pbh.ng_ridge import FASTMATH
-from scan.observables.pbh.vector_math import log_in_place
+from scan.observables.pbh.vector_math import NORMAL_MAX, NORMAL_MIN, log_in_place
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
 
 #: Domain of the table in t = C_l / sigma_c, |b| and rho.
@@ -88,10 +88,6 @@ N_GH_TABLE = 32
 N_STEPS = 60
 STEP_TOL = 1e-8
 _HALF_LN_2PI = 0.5 * math.log(2.0 * math.pi)
-#: The positive normal doubles (the range of :func:`~scan.observables.pbh.vector_math.
-#: log_in_place`).
-_NORMAL_MIN: float = 2.2250738585072014e-308
-_NORMAL_MAX: float = 1.7976931348623157e308
 
 
 def _axis(lo: float, hi: float, h: float) -> np.ndarray:
@@ -103,9 +99,17 @@ def _axis(lo: float, hi: float, h: float) -> np.ndarray:
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
 def _psi(z, t, b, rho, w2):
     """psi at z (module doc)."""
+    quadratic, f = _psi_quadratic(z, t, b, rho, w2)
+    return quadratic - math.log(abs(f))
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH, inline="always")
+def _psi_quadratic(z, t, b, rho, w2):
+    """(psi + ln|f|, f) at z, f = 1 + b z: psi without its logarithm (for callers that
+    take it in a vectorised pass)."""
     f = 1.0 + b * z
     h = t / f - rho * z
-    return -0.5 * z * z - 0.5 * h * h / w2 - math.log(abs(f))
+    return -0.5 * z * z - 0.5 * h * h / w2, f
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
@@ -292,11 +296,10 @@ def tabulated_ln_h(g_table, z_table, origin, t, b, rho):
             continue
         if ok[e]:                       # psi - ln(2 pi)/2 - ln(-psi'' w^2)/2, the two
             w2 = 1.0 - rho[e] * rho[e]  # logarithms as one: -ln(f^2 (-psi'') w^2)/2
-            f = 1.0 + b[e] * z[e]
-            h = t[e] / f - rho[e] * z[e]
-            value = -0.5 * z[e] * z[e] - 0.5 * h * h / w2 - _HALF_LN_2PI
+            quadratic, f = _psi_quadratic(z[e], t[e], b[e], rho[e], w2)
+            value = quadratic - _HALF_LN_2PI
             product = f * f * (-_slopes(z[e], t[e], b[e], rho[e], w2)[1] * w2)
-            if _NORMAL_MIN <= product <= _NORMAL_MAX:
+            if NORMAL_MIN <= product <= NORMAL_MAX:
                 arg[e] = product
             else:                       # outside log_in_place's range (NaN stays)
                 value -= 0.5 * math.log(product)

@@ -37,6 +37,10 @@ from numba import njit
 #: The range of x where :func:`exp_in_place` holds.
 X_MIN: float = -708.0
 X_MAX: float = 709.0
+#: The positive normal doubles: the range of :func:`log_in_place` (callers take libm's
+#: logarithm outside it).
+NORMAL_MIN: float = 2.2250738585072014e-308
+NORMAL_MAX: float = 1.7976931348623157e308
 _INV_LN2: float = 1.0 / math.log(2.0)
 _LN2_HI: float = 6.93147180369123816490e-01     # fdlibm: 32 significant bits
 _LN2_LO: float = 1.90821492927058770002e-10
