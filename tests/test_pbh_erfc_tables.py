@@ -1,15 +1,16 @@
 """The compiled erfcx and ln Phi tables (scan/observables/pbh/erfc_tables.py) against
 scipy.special over the whole range the capped closed form uses them on.
 
-Tolerances: each piece is a degree-12 polynomial in t in [-1, 1] evaluated by Horner's
-rule, whose rounding error is at most gamma_24 sum_d |p_d| ~ 24 eps sum_d |p_d| (Higham
-2002, Accuracy and Stability of Numerical Algorithms, eq. 5.3, from memory); the tables
+Tolerances: each piece is a degree-12 polynomial in t in [-1, 1] evaluated by Estrin's
+scheme, whose terms pass through fewer roundings (<= 12) than Horner's rule's, so
+Horner's bound gamma_24 sum_d |p_d| ~ 24 eps sum_d |p_d| (Higham 2002, Accuracy and
+Stability of Numerical Algorithms, eq. 5.3, from memory) bounds it too; the tables
 have sum_d |p_d| <= 1.3 erfcx(y) on each piece (erfcx) and <= 0.7 (ln Phi), checked below,
 so ~7e-15 relative and ~4e-15 absolute, plus scipy's own few ulp: asserted 1e-14 relative
 (erfcx) and 5e-15 absolute (ln Phi; its logarithm enters ln g additively).  The
 interpolation error itself (12th-degree Chebyshev interpolation on pieces of width 0.25
 of functions analytic near the real axis) is far below these (common practice; the
-measured error, ~13 ulp at worst, is what the Horner bound allows)."""
+measured error, ~13 ulp at worst, is what that bound allows)."""
 from __future__ import annotations
 
 import numpy as np
@@ -29,7 +30,7 @@ from scan.observables.pbh.ng_capped import X0_COMPILED, Z_COMPILED
 
 def test_table_ranges_cover_the_capped_form():
     """erfcx is needed for x0 in (0, X0_COMPILED) and w = -z/sqrt 2 up to -Z_COMPILED/sqrt 2;
-    the Horner rounding bound of the module doc holds for these tables."""
+    the rounding bound of the module doc holds for these tables."""
     assert ERFCX_TOP >= X0_COMPILED
     assert ERFCX_TOP >= -Z_COMPILED / np.sqrt(2.0)
     width = ERFCX_TOP / ERFCX_PIECES
