@@ -18,6 +18,7 @@ import pytest
 from scipy import integrate
 
 from scan.observables.pbh.ng_beta_nodes import (
+    GENTLE_TIERS,
     GENTLE_TOL,
     MIXED_RATIO,
     beta_nodes,
@@ -105,33 +106,63 @@ def test_gentle_rule_against_quad(threshold):
         assert g(y) @ w == pytest.approx(_quad_beta(y_th, GAMMA, g), rel=RTOL)
 
 
-def test_gentle_test_bounds_the_error():
+@pytest.mark.parametrize("n", GENTLE_TIERS)
+def test_gentle_test_bounds_the_error(n):
     """Where the a-priori test passes (ng_beta_nodes.gentle_test, our derivation from
-    Trefethen's bounds), the gentle rule is within GENTLE_TOL of a 96-point Gauss-Jacobi
-    rule (whose error for these analytic integrands is, by the same bound, below 1e-60),
-    plus rounding: the 24 + 96 positive terms and exp() of arguments below 40 (40 eps),
-    2e-14 in all.  ln g: 9-node interpolants with Chebyshev coefficients a_k = s z_k /
-    k^2, z_k standard normal, s from 0.1 to 30 (400 draws); the test must pass for some
-    and fail for others (e.g. a steep e^{-y/l}), and no pair it admits has a node range
-    above the largest budget (pair_betas' pre-filter)."""
+    Trefethen's bounds), the n-point gentle rule (each of the stacked path's tiers) is
+    within GENTLE_TOL of a 96-point Gauss-Jacobi rule (whose error for these analytic
+    integrands is, by the same bound, below 1e-60), plus rounding: the n + 96 positive
+    terms and exp() of arguments below 40 (40 eps), 2e-14 in all.  ln g: 9-node
+    interpolants with Chebyshev coefficients a_k = s z_k / k^2, z_k standard normal, s
+    from 0.01 to 30 (400 draws); the test must pass for some and fail for others (e.g. a
+    steep e^{-y/l}), and no pair it admits has a node range above the largest budget
+    (pair_betas' pre-filter)."""
     y_th = float(compaction_linear(0.55))
     x = lobatto(9)
-    y, w = gentle_rule(y_th, GAMMA, K)
+    y, w = gentle_rule(y_th, GAMMA, K, n)
     y_ref, w_ref = gentle_rule(y_th, GAMMA, K, n=96)
-    rule = GentleRule(barycentric_matrix(x, _to_unit(y, y_th)), w,
-                      *gentle_test(x, GAMMA))
+    coefficients, ellipse, budget = gentle_test(x, GAMMA, n)
+    rule = GentleRule((barycentric_matrix(x, _to_unit(y, y_th)),), (w,), coefficients,
+                      ellipse, budget[None, :])
     ref = barycentric_matrix(x, _to_unit(y_ref, y_th))
     rng = np.random.default_rng(11)
     k = np.arange(9)
-    coef = rng.standard_normal((400, 9)) * np.geomspace(0.1, 30, 400)[:, None] \
+    coef = rng.standard_normal((400, 9)) * np.geomspace(0.01, 30, 400)[:, None] \
         / np.maximum(k, 1)**2
     lng = np.polynomial.chebyshev.chebval(x, coef.T)          # (400, 9) at the nodes
-    ok = rule.applies(lng)
+    ok = rule.tiers(lng) == 0
     assert 0 < ok.sum() < ok.size
     span = lng.max(axis=1) - lng.min(axis=1)      # pair_betas' pre-filter: implied by the
-    assert np.all(span[ok] <= rule.budget.max())  # test (GentleRule.applies)
-    got = np.exp(lng[ok] @ rule.matrix.T) @ rule.weight
+    assert np.all(span[ok] <= budget.max())       # test (GentleRule.tiers)
+    got = np.exp(lng[ok] @ rule.matrices[0].T) @ w
     want = np.exp(lng[ok] @ ref.T) @ w_ref
     assert np.all(np.abs(got / want - 1) <= GENTLE_TOL + 2e-14)
     steep = -(x + 1) * 20.0                                   # e^{-(y - y_th)/(L/40)}
-    assert not rule.applies(steep[None, :])[0]
+    assert rule.tiers(steep[None, :])[0] == -1
+
+
+def test_gentle_tiers_take_the_fewest_nodes():
+    """GentleRule.tiers picks, per pair, the first tier whose test passes: the budgets
+    grow with the nodes ((2n - 1) ln rho), so a pair admitted by a tier is admitted by
+    every larger one; checked against each tier alone on random interpolants whose
+    Chebyshev coefficients fall as 6^-k (a_k = s z_k 6^-k, s from 0.1 to 100: smooth
+    densities like those the stack meets, so every tier and "none" occur)."""
+    y_th = float(compaction_linear(0.55))
+    x = lobatto(9)
+    tests = [gentle_test(x, GAMMA, n) for n in GENTLE_TIERS]
+    budgets = np.array([b for _, _, b in tests])
+    assert np.all(np.diff(budgets, axis=0) > 0)
+    rules = [gentle_rule(y_th, GAMMA, K, n) for n in GENTLE_TIERS]
+    matrices = tuple(barycentric_matrix(x, _to_unit(y, y_th)) for y, _ in rules)
+    rule = GentleRule(matrices, tuple(w for _, w in rules), tests[0][0], tests[0][1],
+                      budgets)
+    rng = np.random.default_rng(12)
+    coef = rng.standard_normal((400, 9)) * np.geomspace(0.1, 100, 400)[:, None] \
+        / 6.0**np.arange(9)
+    lng = np.polynomial.chebyshev.chebval(x, coef.T)
+    tier = rule.tiers(lng)
+    alone = np.array([np.any(np.abs(lng @ tests[0][0].T) @ tests[0][1].T <= b, axis=1)
+                      for b in budgets])                      # (n_tiers, 400)
+    first = np.where(alone.any(axis=0), np.argmax(alone, axis=0), -1)
+    np.testing.assert_array_equal(tier, first)
+    assert len(set(tier.tolist())) == len(GENTLE_TIERS) + 1     # every tier and "none"

@@ -14,6 +14,7 @@ import pytest
 from scan.observables.pbh.ng_pairs import (
     LN_ZERO,
     exp_or_zero,
+    group_max,
     mass_function,
     pair_betas,
     pair_ln_mass,
@@ -112,7 +113,21 @@ def test_mass_function_sums_equal_the_clipped_exponentials():
 def test_row_extremes_equal_numpys_reductions():
     """row_extremes equals np.min / np.max along the rows, NaN rows included."""
     lng = _random_ln_g(50, 6)
-    lng[3, 4] = np.nan
+    lng[3, 4] = lng[7, 0] = np.nan
+    lng[9] = np.nan
     low, high = row_extremes(lng)
     np.testing.assert_array_equal(low, lng.min(axis=1))
     np.testing.assert_array_equal(high, lng.max(axis=1))
+
+
+def test_group_max_equals_numpys_maximum_at():
+    """group_max equals np.maximum.at into -inf with NaN taken as +inf; empty groups stay
+    -inf."""
+    rng = np.random.default_rng(5)
+    values = rng.normal(size=500) * 100
+    values[[3, 40]] = np.nan
+    groups = rng.integers(0, 12, 500)
+    groups[groups == 7] = 8                                   # group 7 empty
+    want = np.full(12, -np.inf)
+    np.maximum.at(want, groups, np.where(np.isnan(values), np.inf, values))
+    np.testing.assert_array_equal(group_max(values, groups, 12), want)

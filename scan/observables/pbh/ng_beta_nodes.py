@@ -109,6 +109,9 @@ def beta_nodes(y_th: float, gamma_c: float, K: float, edge_exponent: float | Non
 
 #: Gauss-Jacobi nodes of the gentle rule (:func:`gentle_rule`) on the whole interval.
 GENTLE_NODES: int = 24
+#: The gentle rules the stacked path offers, fewest nodes first (each pair takes the first
+#: its a-priori test admits).
+GENTLE_TIERS: tuple[int, ...] = (12, 16, GENTLE_NODES)
 #: Bernstein-ellipse parameters tried for a pair's a-priori error bound
 #: (:func:`gentle_test`; all inside rho + 1/rho < 6, where (C - C_th)/e vanishes).
 GENTLE_RHOS: tuple[float, ...] = (1.5, 2.0, 3.0, 4.0, 5.0)

@@ -47,6 +47,7 @@ from scan.observables.pbh.abundance import critical_kernel
 from scan.observables.pbh.kernel import mass_kernel
 from scan.observables.pbh.ng_beta_nodes import (
     EDGE_RATIO,
+    GENTLE_TIERS,
     MIXED_RATIO,
     beta_nodes,
     edge_panels,
@@ -56,6 +57,7 @@ from scan.observables.pbh.ng_beta_nodes import (
 from scan.observables.pbh.ng_density import ln_density_bound, ln_density_pairs
 from scan.observables.pbh.ng_pairs import (
     GentleRule,
+    group_max,
     mass_function,
     pair_betas,
     row_extremes,
@@ -147,8 +149,9 @@ class StackedNGPlan:
         P2 = np.atleast_2d(P)
         s_c2, s_cr, s_r2 = self._variances(P2)
         y_th = self.y_nodes[..., 0]                          # a number, or one per epoch
-        i, h = np.nonzero(_live(y_th, s_c2, s_r2, zmap))
-        var = (s_c2[i, h], s_cr[i, h], s_r2[i, h])
+        live = np.flatnonzero(_live(y_th, s_c2, s_r2, zmap))   # (flat indices: faster
+        i, h = np.divmod(live, s_c2.shape[1])                   # than np.nonzero and [i, h])
+        var = tuple(np.take(v, live) for v in (s_c2, s_cr, s_r2))
         ln_g = ln_density_bound(y_th[h] if y_th.ndim else y_th, *var, zmap.of_spectra(i),
                                 base.conventions.ps_factor)
         if np.all(np.isposinf(ln_g)):                        # no bound: every pair
@@ -163,8 +166,8 @@ class StackedNGPlan:
         f, total = self._pairs(first, i, h, var, zmap, P2.shape[0])
         with np.errstate(divide="ignore"):
             refs = (np.log(f.max(axis=1)), np.log(total))
-        rest = ~first & np.any([~(b < r[i] - LN_NEGLIGIBLE) for b, r in zip(bounds, refs)],
-                               axis=0)
+        rest = ~first & (~(bounds[0] < refs[0][i] - LN_NEGLIGIBLE)
+                         | ~(bounds[1] < refs[1][i] - LN_NEGLIGIBLE))
         if rest.any():
             f_rest, total_rest = self._pairs(rest, i, h, var, zmap, P2.shape[0])
             f, total = f + f_rest, total + total_rest
@@ -227,9 +230,7 @@ def _near_top(bounds, i, m: int) -> np.ndarray:
     :meth:`StackedNGPlan.evaluate`."""
     out = np.zeros(i.size, dtype=bool)
     for b in bounds:
-        top = np.full(m, -np.inf)
-        np.maximum.at(top, i, np.where(np.isnan(b), np.inf, b))
-        out |= ~(b < top[i] - LN_FIRST)
+        out |= ~(b < group_max(b, i, m)[i] - LN_FIRST)
     return out
 
 
@@ -302,14 +303,19 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
 
 
 def _gentle(x: np.ndarray, y_th, conv) -> GentleRule:
-    """The gentle beta rule for interpolation nodes ``x`` and thresholds ``y_th`` (a number,
-    or (n_H, 1) per epoch: the nodes in the unit variable are the same, the weights per
-    epoch)."""
-    per = [gentle_rule(float(y), conv.gamma_c, conv.K) for y in np.ravel(y_th)]
+    """The gentle beta rules (:data:`GENTLE_TIERS` nodes) for interpolation nodes ``x`` and
+    thresholds ``y_th`` (a number, or (n_H, 1) per epoch: the nodes in the unit variable
+    are the same, the weights per epoch)."""
     y0 = float(np.ravel(y_th)[0])
-    weight = per[0][1] if np.ndim(y_th) == 0 else np.array([w for _, w in per])
-    return GentleRule(barycentric_matrix(x, _to_unit(per[0][0], y0)), weight,
-                      *gentle_test(x, conv.gamma_c))
+    matrices, weights, budgets = [], [], []
+    for n in GENTLE_TIERS:
+        per = [gentle_rule(float(y), conv.gamma_c, conv.K, n) for y in np.ravel(y_th)]
+        matrices.append(barycentric_matrix(x, _to_unit(per[0][0], y0)))
+        weights.append(per[0][1] if np.ndim(y_th) == 0 else np.array([w for _, w in per]))
+        coefficients, ellipse, budget = gentle_test(x, conv.gamma_c, n)
+        budgets.append(budget)
+    return GentleRule(tuple(matrices), tuple(weights), coefficients, ellipse,
+                      np.array(budgets))
 
 
 @dataclass(frozen=True)
