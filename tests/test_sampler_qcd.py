@@ -38,6 +38,7 @@ from scan.observables.pbh.ng_stack import plan_pbh_mapped
 from scan.observables.pbh.nongaussian import plan_nongaussian
 from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
 from scan.observables.pbh.zeta_map import ZetaMap, zeta_map_of
+from scan.observables.quadratic_qcd import RowQuadraticPlan
 from scan.observables.settings import settings_of
 from scan.observables.window import spectra_on_table
 from scan.pool import SerialPool, choose_pool
@@ -224,6 +225,40 @@ def test_chain_records_the_conventions_and_sample_and_summary_print_the_notes(
     assert "qcd_threshold = 'harada-scaled', qcd_collapse = 'gamma-of-w'" in text
     assert "QCD-era threshold (harada-scaled): C_th falls from 0.5 to" in text
     assert "K stays 3.3 (no published K(w) found)" in text
+
+
+KERNEL = '[observables]\nsigw_kernel = "qcd-fluid"\n'
+
+
+def test_walkers_take_the_qcd_era_gw_kernel(trained):  # noqa: F811
+    """``sigw_kernel = "qcd-fluid"`` on the sampler path: the batch plan carries the
+    per-row forms (scan/observables/quadratic_qcd.py, equal to the form at each walker's
+    re-entry temperatures: tests/test_sigw_quadratic_qcd.py).  The stand-in's peaks
+    re-enter at T ~ 3e4 and 2e6 GeV, above the kernel tables, so its walkers keep the
+    radiation values (rtol 1e-12: the same nodes summed in another order, as there)."""
+    _, plan = _target(trained, KERNEL)
+    assert isinstance(plan.target.loaded["plan"].sigw, RowQuadraticPlan)
+    _, blobs = plan.target.log_and_blobs(THETAS)
+    assert np.all(cosmo.temperature_of_k(blobs["k_peak"], DOF) > 6.0)
+    _, off = _target(trained, "")
+    _, rd = off.target.log_and_blobs(THETAS)
+    np.testing.assert_allclose(blobs["omega_gw_h2_peak"], rd["omega_gw_h2_peak"],
+                               rtol=1e-12)
+
+
+def test_sample_and_summary_name_the_gw_kernel(trained, tmp_path, capsys):  # noqa: F811
+    """``zetascan sample`` with the tabulated kernel (refused before): it runs, prints the
+    kernel's note at the start, records ``sigw_kernel`` on the chain, and ``zetascan
+    summary`` prints the note."""
+    cfg = tmp_path / "run.toml"
+    cfg.write_text(make_config(tmp_path, surrogate=trained[0] / "standin" / "surrogate.h5",
+                               extra=KERNEL).text)
+    assert main(["sample", str(cfg)]) == 0
+    started = capsys.readouterr().out
+    assert "sigw_kernel = 'qcd-fluid'" in started and "perfect adiabatic fluid" in started
+    chain = tmp_path / "standin" / "chain.h5"
+    assert runfile.gw_convention(chain) == {"sigw_kernel": "qcd-fluid"}
+    assert "sigw_kernel = 'qcd-fluid'" in format_summary(summarize(chain))
 
 
 def test_grid_records_and_prints_the_conventions(trained, tmp_path, capsys):  # noqa: F811

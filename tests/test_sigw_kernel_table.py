@@ -18,10 +18,9 @@ import pytest
 
 from scan.cli import main
 from scan.config.schema import ObservablesSection
-from scan.errors import ConfigError
 from scan.observables import cosmo
 from scan.observables import sigw_fluid as sf
-from scan.observables.settings import gw_convention_attrs, require_batch_conventions
+from scan.observables.settings import gw_convention_attrs
 from scan.observables.sigw import induced_kernel, plan_sigw
 from scan.observables.sigw_kernel_table import (
     DELTA_SWITCH,
@@ -201,16 +200,6 @@ def test_bad_kernel_settings_exit_2(tmp_path, capsys, sets, expect):
     err = capsys.readouterr().err
     assert "sigw_kernel" in err and expect in err and "Traceback" not in err
     assert not (tmp_path / "x.h5").exists()
-
-
-def test_batch_path_refuses_the_tabulated_kernel():
-    """The surrogate posterior/grid's scale-free GW plan cannot carry a T_c-dependent
-    kernel: refused naming the key; the exact path (one plan per spectrum) accepts it."""
-    section = ObservablesSection(sigw_kernel="qcd-fluid")
-    with pytest.raises(ConfigError, match="sigw_kernel"):
-        require_batch_conventions(section, "run.toml")
-    require_batch_conventions(section, "run.toml", exact_only=True)
-    require_batch_conventions(ObservablesSection(), "run.toml")
 
 
 def test_chains_and_grids_record_the_kernel():

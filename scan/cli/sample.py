@@ -7,7 +7,8 @@ from collections.abc import Callable
 from scan.cli.output import Output, ProgressLine, add_output_options
 from scan.config import load_config
 from scan.observables.pbh.qcd import qcd_lines
-from scan.observables.settings import pbh_convention_attrs
+from scan.observables.settings import gw_convention_attrs, pbh_convention_attrs
+from scan.observables.sigw_kernel_table import kernel_lines
 from scan.pool import BasePool
 from scan.posterior.build import width_prior_note
 from scan.sampler.command import sample_run
@@ -77,7 +78,8 @@ def run(args: argparse.Namespace) -> int:
         note = width_prior_note(plan.target)
         if note:
             output.note(f"note: {note}")
-        for line_ in qcd_lines(pbh_convention_attrs(config.observables)):
+        for line_ in qcd_lines(pbh_convention_attrs(config.observables)) \
+                + kernel_lines(gw_convention_attrs(config.observables)):
             output.note(f"note: {line_.strip()}")
     try:
         outcome = sample_run(config, out=args.out, restart=args.restart,

@@ -7,6 +7,7 @@ from pathlib import Path
 from scan.cli.output import Output, add_output_options
 from scan.evidence.compare import nested_summary
 from scan.observables.pbh.qcd import qcd_lines
+from scan.observables.sigw_kernel_table import kernel_lines
 from scan.sampler.summary import posterior_samples, summarize
 
 EXAMPLE = """examples:
@@ -62,6 +63,7 @@ def format_summary(info: dict) -> str:
         lines.append("derived:")
         lines += [_row(k, q) for k, q in info["derived"].items()]
     lines += convention_lines(info.get("pbh_convention") or {}, info["derived"])
+    lines += kernel_lines(info.get("gw_convention") or {})
     if info.get("binding"):
         b = info["binding"]
         top = [f"{name} {100 * share:.0f} %" for name, share in b["fractions"].items()

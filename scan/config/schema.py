@@ -318,7 +318,7 @@ class ObservablesSection:
                              "off", choices=QCD_COLLAPSES)
     sigw_kernel: str = spec("induced-GW kernel: radiation (closed form, w = c_s^2 = 1/3) or "
                             "qcd-fluid (tabulated on the Saikawa-Shirai 2018 background, "
-                            "softened w and c_s^2 across the QCD crossover; solve/observe)",
+                            "softened w and c_s^2 across the QCD crossover; every command)",
                             "radiation", choices=SIGW_KERNELS)
 
     def validate(self, where: str, source: str) -> None:

@@ -32,6 +32,7 @@ from scan.grid.plan import GridPlan, plan_grid
 from scan.grid.store import GridWriter, create_grid_file, file_digest, read_grid
 from scan.grid.verdict import DETECTABLE, EXCLUDED, TermInfo, describe_terms
 from scan.observables.pbh.qcd import qcd_lines
+from scan.observables.sigw_kernel_table import kernel_lines
 from scan.pool import BasePool
 from scan.store import (LOCATION_KEYS, RunFolder, RunLock, check_curves, curve_attrs,
                         curve_digests, stored_digests)
@@ -267,7 +268,7 @@ def summary_lines(path: str | Path) -> list[str]:
             word = "disfavoured" if kind in ("detection", "prior") else "excluded"
         lines.append(f"  {term['attrs']['label']} [{kind}]: {word} at {100 * share:.1f} % "
                      "of the valid points")
-    lines += qcd_lines(data["attrs"])
+    lines += qcd_lines(data["attrs"]) + kernel_lines(data["attrs"])
     lines.append(f"grid file: {path}")
     return lines
 

@@ -26,6 +26,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import sparse
 
 from scan.observables.sigw import node_table
 
@@ -72,8 +73,8 @@ class QuadraticPlan:
         return omega[:, 0] if one else np.ascontiguousarray(omega.T)
 
 
-def plan_quadratic(k_in, k_out, *, refine: int = 2, n_gl: int = 4,
-                   grade: int = 10) -> QuadraticPlan:
+def plan_quadratic(k_in, k_out, *, refine: int = 2, n_gl: int = 4, grade: int = 10,
+                   kernel: str = "radiation", dof=None) -> QuadraticPlan:
     """Build the quadratic form of Omega_GW for spectra on ``k_in`` (log-spaced).
 
     Parameters
@@ -86,6 +87,10 @@ def plan_quadratic(k_in, k_out, *, refine: int = 2, n_gl: int = 4,
         The spectrum is refined this many times (log-linear) before the quadratic form.
     n_gl, grade : int
         Quadrature of :func:`scan.observables.sigw.plan_sigw`.
+    kernel, dof
+        As :func:`scan.observables.sigw.plan_sigw`: ``"qcd-fluid"`` makes the form depend
+        on the absolute ``k_out`` (its re-entry temperatures, with g_*(T) ``dof``); the
+        batch path's scale-free per-row forms are :mod:`scan.observables.quadratic_qcd`.
 
     Returns
     -------
@@ -103,27 +108,42 @@ def plan_quadratic(k_in, k_out, *, refine: int = 2, n_gl: int = 4,
     if refine < 1:
         raise ValueError(f"refine must be >= 1, got {refine}")
     lnk = np.log(k_in)
-    n = lnk.size
-    fine = np.interp(np.linspace(0, n - 1, (n - 1) * refine + 1), np.arange(n), lnk)
-    lift = _linear_lift(lnk, fine)
-    iu, fu, iv, fv, w, counts = node_table(np.exp(fine), k_out, n_gl, grade)
-    nf = fine.size
-    W = np.zeros((k_out.size, nf, nf))
-    for j in range(k_out.size):
-        if not counts[j]:
-            continue
-        for ia, wa, ib, wb in ((iu[j], 1 - fu[j], iv[j], 1 - fv[j]),
-                               (iu[j], 1 - fu[j], iv[j] + 1, fv[j]),
-                               (iu[j] + 1, fu[j], iv[j], 1 - fv[j]),
-                               (iu[j] + 1, fu[j], iv[j] + 1, fv[j])):
-            np.add.at(W[j], (ia, ib), w[j] * wa * wb)
-    a, b = np.triu_indices(nf)
-    sym = W[:, a, b] + np.where(a != b, W[:, b, a], 0.0)
+    fine = refined_table(lnk, refine)
+    iu, fu, iv, fv, w, counts = node_table(np.exp(fine), k_out, n_gl, grade, kernel, dof)
+    out = np.repeat(np.arange(k_out.size), counts)
+    assemble = pair_assembly(out, *(np.concatenate(v) for v in (iu, fu, iv, fv)),
+                             fine.size, k_out.size)
+    sym = (assemble @ np.concatenate(w)).reshape(k_out.size, -1)   # (n_out, n_pairs)
     used = np.any(sym != 0.0, axis=0)
     W = np.ascontiguousarray(sym[:, used].T)
-    a, b = a[used], b[used]
-    return QuadraticPlan(k_in=k_in, k_out=k_out, refine=refine, _lift=lift, _pairs=(a, b),
-                         _W=W, _blocks=_output_blocks(a, b, W))
+    a, b = (index[used] for index in np.triu_indices(fine.size))
+    return QuadraticPlan(k_in=k_in, k_out=k_out, refine=refine,
+                         _lift=_linear_lift(lnk, fine), _pairs=(a, b), _W=W,
+                         _blocks=_output_blocks(a, b, W))
+
+
+def refined_table(lnk: np.ndarray, refine: int) -> np.ndarray:
+    """The table ln k [ln Mpc^-1] refined ``refine``-fold (linearly in ln k)."""
+    n = lnk.size
+    return np.interp(np.linspace(0, n - 1, (n - 1) * refine + 1), np.arange(n), lnk)
+
+
+def pair_assembly(out, iu, fu, iv, fv, n_fine: int, n_out: int) -> sparse.csr_matrix:
+    """The sparse map (n_out n_pairs, n_nodes) from node weights (quadrature weight times
+    kernel) to the forms W (n_out, n_pairs), flattened: node n of output ``out[n]``
+    feeds the table pairs (iu or iu + 1, iv or iv + 1) with the bilinear weights (linear
+    in P in ln k), (a, b) and (b, a) both at the upper-triangle index of (min, max)
+    (the order of ``np.triu_indices(n_fine)``)."""
+    n_pairs = n_fine * (n_fine + 1) // 2
+    rows, vals = [], []
+    for ia, wa in ((iu, 1 - fu), (iu + 1, fu)):
+        for ib, wb in ((iv, 1 - fv), (iv + 1, fv)):
+            lo, hi = np.minimum(ia, ib), np.maximum(ia, ib)
+            rows.append(out * n_pairs + lo * n_fine - lo * (lo - 1) // 2 + (hi - lo))
+            vals.append(wa * wb)
+    cols = np.tile(np.arange(out.size), 4)
+    return sparse.csr_matrix((np.concatenate(vals), (np.concatenate(rows), cols)),
+                             shape=(n_out * n_pairs, out.size))
 
 
 def _output_blocks(a: np.ndarray, b: np.ndarray, W: np.ndarray, size: int = OUT_BLOCK

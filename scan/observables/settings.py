@@ -105,23 +105,15 @@ def require_batch_conventions(section: ObservablesSection, source: str,
     (:func:`scan.posterior.exact.exact_from_arrays`), where ``model`` (which needs the
     background for delta-N) is refused.
 
-    The induced-GW integral of the batch path is one plan on a table relative to each
-    walker's peak, which the radiation kernel's scale-free form allows; the ``qcd-fluid``
-    kernel depends on the absolute re-entry temperature, so it is refused there (not
-    with ``exact_only``: that path plans each spectrum on its own k).
+    The induced-GW integral of the batch path takes either kernel: the radiation kernel
+    as one scale-free plan, ``qcd-fluid`` as one per row of its table
+    (:mod:`scan.observables.quadratic_qcd`).
 
     Raises
     ------
     ConfigError
-        Naming ``observables.non_gaussianity`` or ``observables.sigw_kernel``.
+        Naming ``observables.non_gaussianity``.
     """
-    if not exact_only and section.sigw_kernel != "radiation":
-        raise ConfigError(source, "observables.sigw_kernel", f"'{section.sigw_kernel}' is "
-                          "computed by solve, observe and exact solves only; the surrogate "
-                          "posterior integrates Omega_GW with one scale-free plan for every "
-                          "walker, which needs the radiation kernel", "set sigw_kernel = "
-                          "'radiation' for sample and surrogate grids (check single models "
-                          "with solve or observe, or use an exact grid)")
     if exact_only and section.non_gaussianity == "model":
         raise ConfigError(source, "observables.non_gaussianity", "'model' needs the model's "
                           "background for its delta-N map, which a spectrum given as "

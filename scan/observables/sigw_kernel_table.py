@@ -251,13 +251,46 @@ def kernel_at(table: KernelTable, T_c_GeV: float, t, s, k_rd) -> np.ndarray:
     if not lo <= T_c_GeV <= hi:
         return k_rd.copy()
     first, weights = _row_weights(table, math.log(T_c_GeV))
+    return _weighted_kernel(table, first, weights, t, s, k_rd)
+
+
+def row_kernel(table: KernelTable, row: int, t, s, k_rd) -> np.ndarray:
+    """The kernel K_r [1] of one row of ``table`` alone at nodes (t, s) (``k_rd`` the
+    closed-form RD kernel there): :func:`kernel_at` with T_c on that row.  The table's
+    interpolation is linear in the row data and the Lagrange weights sum to 1, so
+    kernel_at(T_c) = sum_a w_a(ln T_c) K_{first + a} exactly (the batch path's quadratic
+    forms per row, :mod:`scan.observables.quadratic_qcd`, rest on this)."""
+    t, s = np.asarray(t, dtype=float), np.asarray(s, dtype=float)
+    return _weighted_kernel(table, row, np.ones(1), t, s, np.asarray(k_rd, dtype=float))
+
+
+def row_stencils(table: KernelTable, ln_T: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """First rows (int, shape of ``ln_T``) and the 4 cubic Lagrange weights (shape + (4,))
+    [1] of :func:`kernel_at` at re-entry temperatures ``ln_T`` [ln GeV], vectorised
+    (the same stencil and weights as its scalar form)."""
+    step = table.ln_T_c[1] - table.ln_T_c[0]
+    x = (np.asarray(ln_T, dtype=float) - table.ln_T_c[0]) / step
+    first = np.clip(np.floor(x) - 1, 0, table.ln_T_c.size - 4).astype(np.int64)
+    local = x - first                                # position in the stencil's nodes 0..3
+    weights = np.ones(first.shape + (4,))
+    for n in range(4):
+        for m in range(4):
+            if m != n:
+                weights[..., n] *= (local - m) / (n - m)
+    return first, weights
+
+
+def _weighted_kernel(table: KernelTable, first: int, weights: np.ndarray, t: np.ndarray,
+                     s: np.ndarray, k_rd: np.ndarray) -> np.ndarray:
+    """The kernel [1] at nodes (t, s) with the rows first, first + 1, ... weighted by
+    ``weights`` (see :func:`kernel_at`)."""
     out = np.empty(k_rd.shape)
     for left in (True, False):
         mask = (t < T_RESONANCE) if left else (t >= T_RESONANCE)
         if not mask.any():
             continue
         z_grid = table.z_left if left else table.z_right
-        d_rows = (table.d_left if left else table.d_right)[first:first + 4]
+        d_rows = (table.d_left if left else table.d_right)[first:first + weights.size]
         z, s_side, k_side = _side(t[mask], table, left), s[mask], k_rd[mask]
         d = _ev(_spline(z_grid, table.s, np.tensordot(weights, d_rows, axes=1)), z, s_side)
         near = (np.abs(t[mask] - T_RESONANCE) < DELTA_SWITCH) | (t[mask] > table.t_max)
@@ -266,6 +299,13 @@ def kernel_at(table: KernelTable, T_c_GeV: float, t, s, k_rd) -> np.ndarray:
         value[near] = k_side[near] * ratio
         out[mask] = value
     return out
+
+
+def kernel_lines(attrs: dict) -> list[str]:
+    """The note of the tabulated kernel when ``attrs`` (a run's recorded conventions)
+    name it (``sigw_kernel = "qcd-fluid"``), else nothing: for the sampler, grid and
+    summary output."""
+    return [kernel_range_note()] if attrs.get("sigw_kernel") == "qcd-fluid" else []
 
 
 def kernel_range_note(tables: tuple[KernelTable, ...] | None = None) -> str:

@@ -165,7 +165,7 @@ class PosteriorTarget(TargetBase):
         pbh_plan = pbh_plan_of(settings, span)
         plan = plan_batch(surrogate.emulator.basis.x, peak_range(surrogate), conventions,
                           n_out=self.n_out, n_mass=self.n_mass, dof=dof, n_eff=n_eff,
-                          pbh_plan=pbh_plan)
+                          pbh_plan=pbh_plan, sigw_kernel=settings.sigw_kernel)
         by_name = {t.name: t for t in terms}
         self.__dict__["_loaded"] = dict(
             surrogate=surrogate, order=np.array([keys.index(k) for k in surrogate.space.keys]),

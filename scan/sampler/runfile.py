@@ -204,6 +204,13 @@ def pbh_convention(path: str | Path) -> dict[str, Any]:
                 for key in CONVENTION_ATTRS if (v := handle.attrs.get(key)) is not None}
 
 
+def gw_convention(path: str | Path) -> dict[str, str]:
+    """The chain's recorded induced-GW kernel (``sigw_kernel``; chains written before it
+    was recorded used the radiation kernel)."""
+    with h5py.File(path, "r") as handle:
+        return {"sigw_kernel": str(handle.attrs.get("sigw_kernel", "radiation"))}
+
+
 def create(path: Path, config: RunConfig, extras: Extras, initial: np.ndarray,
            curves: Mapping[str, str] | None = None, surrogate: str | None = None) -> None:
     """Write a new run file (atomically): provenance, config, the digests of the curve

@@ -136,6 +136,7 @@ def summarize(run: str | Path) -> dict[str, Any]:
         "samples_used": int(len(post["samples"])),
         "parameters": parameters, "derived": derived, "binding": binding,
         "pbh_convention": runfile.pbh_convention(path),
+        "gw_convention": runfile.gw_convention(path),
         "invalid_reasons": {n: int(c) for n, c in zip(extras.reasons, extras.counts)},
         "tau_history": {"steps": extras.tau_steps,
                         "tau": [list(map(float, t)) for t in extras.tau_history]},

@@ -1,0 +1,61 @@
+"""Benchmark: the batch path's Omega_GW with the QCD-era kernel vs the radiation kernel.
+
+64 walkers' log-normal peaks (widths 0.3-1) on the emulator's 41-point relative table,
+64 outputs, peaks around 10 nHz (re-entry ~0.4 GeV, inside the kernel tables): the
+radiation kernel's one quadratic form (:mod:`scan.observables.quadratic`) against the
+per-row forms of ``sigw_kernel = "qcd-fluid"`` (:mod:`scan.observables.quadratic_qcd`)
+for a tight cluster of walkers (ln k_peak spread 0.5, a converged posterior) and a wide
+one (spread 6, an early burn-in), timed side by side in alternating blocks
+(tests/bench/_timing.py; thread CPU time, min-based ratios).
+
+Measured (lead28 branch, one process, 15 blocks, output blocks of 2/4/8/16 compared):
+8 outputs per block fastest, tight 5.4x and wide 8.8x the radiation form (1.6 ms for
+the 64 walkers); 4: 5.9x / 9.2x, 16: 6.2x / 10.6x.  The plain posterior call of
+tests/bench/bench_posterior.py is ~11-14 ms for 64 walkers, so the kernel adds ~0.6-1.0x
+of it.  Plan build: 3.6-3.8 s for the 79 table rows (22.6 MB of forms); the radiation
+form's build 8.2 s -> 0.54 s with the sparse assembly shared by both
+(quadratic.pair_assembly, replacing np.add.at).
+
+Run:  python tests/bench/bench_gw_batch_kernel.py [--blocks N]
+"""
+from __future__ import annotations
+
+import math
+import os
+
+os.environ.setdefault("OMP_NUM_THREADS", "1")
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
+import numpy as np  # noqa: E402
+from _timing import alternating_times, blocks_from_argv  # noqa: E402
+
+from scan.observables import cosmo  # noqa: E402
+from scan.observables.quadratic import plan_quadratic  # noqa: E402
+from scan.observables.quadratic_qcd import plan_quadratic_qcd  # noqa: E402
+
+M_WALKERS, BLOCKS = 64, 15
+
+
+def main() -> None:
+    x = np.linspace(-3.0, 3.0, 41)
+    x_out = np.linspace(x[0], x[-1] + math.log(2.0), 64)
+    rng = np.random.default_rng(0)
+    widths = rng.uniform(0.3, 1.0, M_WALKERS)[:, None]
+    P = 1e-2 * np.exp(-x[None, :]**2 / (2 * widths**2))
+    centre = math.log(float(cosmo.f_to_k(1e-8)))
+    tight = centre + rng.uniform(-0.25, 0.25, M_WALKERS)
+    wide = centre + rng.uniform(-3.0, 3.0, M_WALKERS)
+    radiation = plan_quadratic(np.exp(x), np.exp(x_out))
+    rows = plan_quadratic_qcd(np.exp(x), np.exp(x_out))
+    funcs = {"radiation form": lambda: radiation.omega_gw(P),
+             "qcd-fluid, tight walkers": lambda: rows.omega_gw(P, tight),
+             "qcd-fluid, wide walkers": lambda: rows.omega_gw(P, wide)}
+    times = alternating_times(funcs, blocks_from_argv(BLOCKS))
+    reference = min(times["radiation form"])
+    for name, t in times.items():
+        print(f"{name:>26}: median {1e3 * np.median(t):.2f} ms, ratio to the radiation "
+              f"form (min-based) {min(t) / reference:.2f}x")
+
+
+if __name__ == "__main__":
+    main()
