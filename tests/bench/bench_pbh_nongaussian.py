@@ -180,6 +180,24 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   largest value, totals within 9.2e-14.  Issue 15's <= 3x: met by the local stacks; at
   the edge on this machine for the logarithmic one (2.8-3.2x over runs).
 
+* qcdspeed branch (the threshold plan's per-pair beta quadrature and critical mass
+  function as compiled block loops with vectorised exp/log, scan/observables/pbh/
+  pair_beta.py and pair_mass.py), this file with --qcd --blocks 15 run against main
+  88a344e alternately, 3 runs each (nice 15, load average ~0.5): the Gaussian QCD stack
+  4.75-4.97x -> 0.96-1.25x the tabulated Gaussian stack (medians 14.6-16.0 ms -> 3.7 ms);
+  the other rows are the same code on both (main / branch: local f_NL = 1 2.37-2.51x /
+  2.29-2.79x, logarithmic 2.93-3.10x / 2.47-3.26x, QCD-era logarithmic 3.38-3.63x /
+  3.60-4.65x, medians equal within 0.3 ms: noise of the min-based Gaussian reference).
+  By parts (manual timers, one process): main's 12.5-18 ms were beta 10.5 ms (5.0 ms
+  with its temporaries paged in: the logs and exps 1.7 ms each, libm per element) and the
+  mass function 6.5 ms; now beta 0.9-1.2 ms (3.1k live pairs x 48 nodes; per node log
+  2.3 ns, exp 1.8 ns, the three other passes 4.6 ns in all; 16 to 512 pairs per block
+  measured alike), mass function 0.5-0.6 ms, variances 0.2 ms.
+  Results against main on these spectra: f(M) within 6.7e-16 where >= 1e-30 of its
+  row's largest value, totals within 4.4e-16 (the plain threshold plan, per-row C_th in
+  [0.4, 0.6]: 6.7e-16 and 2.2e-16); exponents below -708 now give exactly 0 (7 values of
+  f(M) that were below 1.8e-301).
+
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per

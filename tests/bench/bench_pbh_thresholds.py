@@ -10,6 +10,15 @@ a threshold factor and an exponent per formation epoch).  Measured (qcdsample br
 runs, 2-core machine shared, nice 15): compaction critical per-row / fixed 1.85-2.06,
 with the QCD-era conventions 1.98-2.55.
 
+qcdspeed branch (the per-row plan's beta quadrature and critical mass function as
+compiled block loops with vectorised exp/log: scan/observables/pbh/pair_beta.py,
+pair_mass.py), this file run against main 88a344e alternately, 3 runs each (nice 15):
+per-row / fixed for compaction critical 2.02-2.25 -> 1.17-1.24, press-schechter critical
+1.28-1.30 -> 0.92-1.00, peaks critical 1.16-1.18 -> 0.95-0.98 (the fixed plan keeps
+numpy's exp), monochromatic 1.07-1.09 / 1.08-1.13 (same code), compaction + QCD
+2.37-2.43 -> 1.17-1.18.  f(M) against main within 6.7e-16 where >= 1e-30 of its row's
+largest value, totals within 5.6e-16 in all five cases.
+
 Run: python tests/bench/bench_pbh_thresholds.py
 """
 from __future__ import annotations

@@ -19,7 +19,9 @@ criteria from its threshold-free table, :mod:`scan.observables.pbh.tables`), so 
 ``plan_pbh(..., replace(conventions, threshold=t)).evaluate(row)`` to rounding (the
 tests pin this to 1e-12 relative) at about the cost of one fixed-threshold evaluation.
 Interpolating ln f between a few threshold nodes would cost one such evaluation per
-node, and still be approximate.
+node, and still be approximate.  Both pair sums are compiled loops with vectorised
+exponentials and logarithms (:mod:`scan.observables.pbh.pair_mass`,
+:mod:`scan.observables.pbh.pair_beta`).
 
 The QCD-era conventions (:mod:`scan.observables.pbh.qcd`) fit the same layout: the
 threshold of a (spectrum, epoch) pair is the row's (radiation-era) threshold times the
@@ -41,12 +43,13 @@ import numpy as np
 from scan.observables import cosmo
 from scan.observables.pbh.abundance import prefactor
 from scan.observables.pbh.conventions import PBHConventions
-from scan.observables.pbh.kernel import half_exp
 from scan.observables.pbh.pair_beta import (
     beta_mono_rows,
     beta_weighted_pairs,
+    criterion_code,
     node_powers,
 )
+from scan.observables.pbh.pair_mass import critical_mass_function
 from scan.observables.pbh.plan import UNDERFLOW_HALF_NU2, PBHPlan, _log_interp, plan_pbh
 from scan.observables.pbh.qcd import epoch_exponents, epoch_thresholds
 from scan.observables.pbh.tables import beta_tabulated
@@ -231,11 +234,8 @@ class ThresholdPlan:
                 # linear criteria: the table of ln S does not depend on delta_c
                 beta[i, h] = beta_tabulated(table, s2[i, h], k2[i, h], y_th[i, h])
             else:
-                gam = powers = None
-                if self.epoch_gamma is not None:
-                    gam, powers = self.epoch_gamma[h], self._epoch_powers[h]
-                beta[i, h] = beta_weighted_pairs(s2[i, h], k2[i, h], y_th[i, h], conv, gam,
-                                                 powers)
+                beta[i, h] = beta_weighted_pairs(s2[i, h], k2[i, h], y_th[i, h], conv,
+                                                 self.epoch_gamma, self._epoch_powers, h)
             total = np.sum(self.base._wln * self.base._coef * beta, axis=-1)
         if s0.ndim == 1:
             return ThresholdResult(self.M, f[0], float(total[0]), self.M_H, s0,
@@ -250,49 +250,17 @@ class ThresholdPlan:
 
     def _critical_mass_function(self, s2: np.ndarray, k2: np.ndarray, t: np.ndarray,
                                 y_th: np.ndarray, live: np.ndarray) -> np.ndarray:
-        """f(M) = sum_H weight p(y) w_H F(M_H) over ``live`` (row, epoch) pairs.
-
-        Per pair and mass: C = t + x, y(C), weight = (M/M_H)(dy/dC) x / gamma_c, and
-        p(y) = prefactor * exp(-y^2/(2 sigma^2)) [* (nu^3 - 3 nu)_+ for peaks] (the
-        densities of :func:`scan.observables.pbh.abundance.density`).
-
-        Parameters
-        ----------
-        s2, k2 : ndarray [1]
-            sigma^2 and <k^2> R^2, shape (m, n_H).
-        t, y_th : ndarray [1]
-            Threshold and its Gaussian-variable value per pair, shape (m, n_H).
-        live : ndarray of bool
-            Shape (m, n_H).
-
-        Returns
-        -------
-        ndarray [1]
-            Shape (m, n_M).
-        """
+        """f(M) [1], shape (m, n_M): sum_H weight p(y) w_H F(M_H) over the ``live`` (row,
+        epoch) pairs (shape (m, n_H)), by
+        :func:`scan.observables.pbh.pair_mass.critical_mass_function`; ``s2``, ``k2``,
+        ``t``, ``y_th``: sigma^2, <k^2> R^2, the threshold and y(threshold) [1], shape
+        (m, n_H)."""
         conv = self.conventions
-        i, h = np.nonzero(live)                               # grouped by row i
-        c = t[i, h][:, None] + self._xT[h]
-        if conv.criterion == "compaction":
-            valid = c < C_MAX
-            root = np.sqrt(np.maximum(1 - 1.5 * c, 1e-300))   # 1/(dy/dC) where valid
-            y = np.where(valid, (4 / 3) * (1 - root), y_th[i, h][:, None])
-            with np.errstate(over="ignore", invalid="ignore"):
-                weight = np.where(valid, self._rxcT[h] / root, 0.0)
-        else:
-            y, weight = c, self._rxcT[h]
-        s, k = s2[i, h][:, None], k2[i, h][:, None]
-        g = half_exp(y * y * (-0.25 / s), valid if conv.criterion == "compaction" else None)
-        if conv.criterion == "peaks":
-            nu = y / np.sqrt(s)
-            g *= np.clip(nu * (nu * nu - 3), 0.0, None)
-        terms = weight * g * prefactor(s, k, conv)
-        counts = np.bincount(i, minlength=s2.shape[0])
-        f = np.zeros((s2.shape[0], self.M.size))
-        if i.size:
-            starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
-            f[counts > 0] = np.add.reduceat(terms, starts[counts > 0], axis=0)
-        return f
+        i, h = np.nonzero(live)
+        s = s2[i, h]
+        return critical_mass_function(i, h, t[i, h], s, prefactor(s, k2[i, h], conv),
+                                      y_th[i, h], self._xT, self._rxcT, s2.shape[0],
+                                      criterion_code(conv))
 
 
 def _name(conv: PBHConventions) -> str:

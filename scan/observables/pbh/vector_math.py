@@ -23,7 +23,9 @@ loop.  Tested against numpy in tests/test_pbh_vector_math.py.  The Gaussian stac
 numpy's functions (the benchmarks' reference is the shipped Gaussian path; with this exp
 in its :func:`~scan.observables.pbh.kernel.half_exp` it measured 8 % faster, 1.61 -> 1.46
 ms for the 64 spectra of tests/bench, totals within 2.2e-16 -- the non-Gaussian ratios
-would be that much higher).
+would be that much higher).  The per-row threshold plan's pair sums (QCD-era stacks and
+sampled C_th: :mod:`scan.observables.pbh.pair_beta`, :mod:`scan.observables.pbh.pair_mass`)
+use them.
 
 Units: [1].
 """
