@@ -100,15 +100,10 @@ class RowQuadraticPlan:
             products = np.take(fine, a, axis=0) * np.take(fine, b, axis=0)
             omega[start:stop] = w_rad @ products
             for group in groups:
-                g, w = rows[group, start:stop], weights[group, start:stop]
-                walker, out = np.nonzero(g >= 0)
-                if walker.size:
-                    lo, hi = int(g[walker, out].min()), int(g[walker, out].max()) + 4
-                    forms = (w_rows[lo:hi].reshape(-1, a.size) @ products[:, group]
-                             ).reshape(hi - lo, stop - start, group.size)
-                    omega[start + out, group[walker]] = sum(
-                        w[walker, out, n] * forms[g[walker, out] - lo + n, out, walker]
-                        for n in range(4))
+                walker, out, value = _tabulated(w_rows, products[:, group],
+                                                rows[group, start:stop],
+                                                weights[group, start:stop])
+                omega[start + out, group[walker]] = value
         return omega.T
 
     def _stencils(self, ln_k_peak: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -125,6 +120,24 @@ class RowQuadraticPlan:
             first, w = row_stencils(table, np.log(T[inside]))
             rows[inside], weights[inside] = first + offset, w
         return rows, weights
+
+
+def _tabulated(w_rows: np.ndarray, products: np.ndarray, rows: np.ndarray,
+               weights: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Omega [1] of a group of walkers at one block's outputs from the row forms
+    ``w_rows`` (n_rows, nb, n_used): (walker, output, value) where ``rows`` (group, nb;
+    first stencil row, -1 for the radiation form) is set, the rows each needs combined
+    with its Lagrange ``weights`` (group, nb, 4); one product over the group's rows."""
+    walker, out = np.nonzero(rows >= 0)
+    if not walker.size:
+        return walker, out, np.empty(0)
+    first = rows[walker, out]
+    lo, hi = int(first.min()), int(first.max()) + 4
+    forms = (w_rows[lo:hi].reshape(-1, products.shape[0]) @ products).reshape(
+        hi - lo, rows.shape[1], products.shape[1])
+    value = sum(weights[walker, out, n] * forms[first - lo + n, out, walker]
+                for n in range(4))
+    return walker, out, value
 
 
 def plan_quadratic_qcd(k_in, k_out, *, refine: int = 2, n_gl: int = 4, grade: int = 10,
