@@ -261,6 +261,20 @@ def test_sample_and_summary_name_the_gw_kernel(trained, tmp_path, capsys):  # no
     assert "sigw_kernel = 'qcd-fluid'" in format_summary(summarize(chain))
 
 
+def test_grid_records_and_prints_the_gw_kernel(trained, tmp_path, capsys):  # noqa: F811
+    """A surrogate grid with the tabulated kernel (refused before): it runs, its file
+    records ``sigw_kernel`` and its report prints the kernel's note."""
+    small = GRID.replace("x_points = 6", "x_points = 2").replace("y_points = 5",
+                                                                 "y_points = 2")
+    cfg = str(write_config(tmp_path, trained[0] / "standin" / "surrogate.h5",
+                           small + KERNEL))
+    assert main(["grid", cfg, "--set", SETS[0]]) == 0
+    out = capsys.readouterr().out
+    with h5py.File(tmp_path / "results" / "standin" / "grid.h5", "r") as handle:
+        assert handle.attrs["sigw_kernel"] == "qcd-fluid"
+    assert "sigw_kernel = 'qcd-fluid'" in out and "perfect adiabatic fluid" in out
+
+
 def test_grid_records_and_prints_the_conventions(trained, tmp_path, capsys):  # noqa: F811
     small = GRID.replace("x_points = 6", "x_points = 2").replace("y_points = 5",
                                                                  "y_points = 2")
