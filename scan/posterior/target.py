@@ -61,6 +61,7 @@ from scan.posterior.setup import (
 )
 from scan.posterior.targets import TargetBase
 from scan.surrogate import load_surrogate
+from scan.surrogate.threads import single_blas_thread
 
 __all__ = ["PosteriorTarget", "BLOB_FIELDS"]
 
@@ -296,7 +297,11 @@ class PosteriorTarget(TargetBase):
         blobs : ndarray of ``blob_dtype``, shape (p,)
             NaN derived fields where the model was not evaluated.
         """
-        thetas = np.atleast_2d(np.asarray(thetas, float))
+        with single_blas_thread():   # small products: a BLAS pool only waits (threads.py)
+            return self._log_and_blobs(np.atleast_2d(np.asarray(thetas, float)))
+
+    def _log_and_blobs(self, thetas: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`log_and_blobs` inside its thread limit."""
         reason, rows, batch, log_prior = self._predict(thetas)
         blobs = empty_blobs(self.blob_dtype, len(thetas))
         log_p = np.full(len(thetas), -np.inf)

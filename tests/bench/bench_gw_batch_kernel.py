@@ -6,7 +6,10 @@ radiation kernel's one quadratic form (:mod:`scan.observables.quadratic`) agains
 per-row forms of ``sigw_kernel = "qcd-fluid"`` (:mod:`scan.observables.quadratic_qcd`)
 for a tight cluster of walkers (ln k_peak spread 0.5, a converged posterior) and a wide
 one (spread 6, an early burn-in), timed side by side in alternating blocks
-(tests/bench/_timing.py; thread CPU time, min-based ratios).
+(tests/bench/_timing.py; thread CPU time, min-based ratios), with one BLAS thread as the
+posterior's call runs; then the first two in wall time with one BLAS thread and with the
+default pool (on a loaded machine the pool's threads wait on each other: the reason the
+posterior limits it).
 
 Measured (lead28 branch, one process, 15 blocks, output blocks of 2/4/8/16 compared):
 8 outputs per block fastest, tight 5.4x and wide 8.8x the radiation form (1.6 ms for
@@ -20,18 +23,17 @@ Run:  python tests/bench/bench_gw_batch_kernel.py [--blocks N]
 """
 from __future__ import annotations
 
+import contextlib
 import math
-import os
+import time
 
-os.environ.setdefault("OMP_NUM_THREADS", "1")
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+import numpy as np
+from _timing import alternating_times, blocks_from_argv
 
-import numpy as np  # noqa: E402
-from _timing import alternating_times, blocks_from_argv  # noqa: E402
-
-from scan.observables import cosmo  # noqa: E402
-from scan.observables.quadratic import plan_quadratic  # noqa: E402
-from scan.observables.quadratic_qcd import plan_quadratic_qcd  # noqa: E402
+from scan.observables import cosmo
+from scan.observables.quadratic import plan_quadratic
+from scan.observables.quadratic_qcd import plan_quadratic_qcd
+from scan.surrogate.threads import single_blas_thread
 
 M_WALKERS, BLOCKS = 64, 15
 
@@ -50,11 +52,29 @@ def main() -> None:
     funcs = {"radiation form": lambda: radiation.omega_gw(P),
              "qcd-fluid, tight walkers": lambda: rows.omega_gw(P, tight),
              "qcd-fluid, wide walkers": lambda: rows.omega_gw(P, wide)}
-    times = alternating_times(funcs, blocks_from_argv(BLOCKS))
+    with single_blas_thread():       # as the posterior's call (scan/surrogate/threads.py)
+        times = alternating_times(funcs, blocks_from_argv(BLOCKS))
     reference = min(times["radiation form"])
     for name, t in times.items():
         print(f"{name:>26}: median {1e3 * np.median(t):.2f} ms, ratio to the radiation "
               f"form (min-based) {min(t) / reference:.2f}x")
+    for name, f in list(funcs.items())[:2]:
+        one, pool = wall_medians(f, blocks_from_argv(BLOCKS))
+        print(f"{name:>26}: wall-time median {1e3 * one:.2f} ms with one BLAS thread, "
+              f"{1e3 * pool:.2f} ms with the default pool")
+
+
+def wall_medians(func, blocks: int) -> tuple[float, float]:
+    """Median wall times [s] of ``func`` with one BLAS thread and with the default pool,
+    alternating (thread CPU time would not see the pool's threads wait)."""
+    one, pool = [], []
+    for _ in range(blocks):
+        for times, limited in ((one, True), (pool, False)):
+            with single_blas_thread() if limited else contextlib.nullcontext():
+                start = time.perf_counter()
+                func()
+                times.append(time.perf_counter() - start)
+    return float(np.median(one)), float(np.median(pool))
 
 
 if __name__ == "__main__":
