@@ -26,8 +26,8 @@ temperature_of_k` with the plan's g_*(T).
 Cost: a block of outputs spanning Delta ln T_c needs Delta ln T_c / step + 4 rows for a
 tight cluster of walkers (step 0.15 below 1.5 GeV, 0.077 above); walkers are taken in
 groups of neighbours in k_peak, so a wide spread does not make every group take every
-row.  Measured 6-9x the radiation form's cost for 64 walkers around 10 nHz
-(tests/bench/bench_gw_batch_kernel.py).
+row.  Measured 9-16x the radiation form's cost for 64 walkers around 10 nHz (a tight
+cluster to an early burn-in's spread; tests/bench/bench_gw_batch_kernel.py).
 
 Units: k [Mpc^-1], T [GeV], P_zeta and Omega [1].
 """

@@ -9,9 +9,11 @@ no-op (set ``OPENBLAS_NUM_THREADS=1`` in the environment instead).
 
 The posterior's vectorised call (:meth:`scan.posterior.target.PosteriorTarget.
 log_and_blobs`) runs inside it too: its products are small ((16 outputs, ~500 pairs) x
-64 walkers for Omega_GW), and with the default pool on a loaded 2-core machine the
-radiation form's Omega_GW for 64 walkers measured a median of 9.5 ms against 0.9 ms with
-one thread, the QCD-era kernel's per-row forms 36-510 ms against 12 ms.
+64 walkers for Omega_GW), and with the default pool on the 2-core machine with another
+job on the other core the radiation form's Omega_GW for 64 walkers measured a median of
+1.7-9.6 ms against 0.7-1.0 ms with one thread (entering the limit per call costs ~4 us:
+0.7-0.9 ms), the QCD-era kernel's per-row forms 36-510 ms against 12 ms
+(tests/bench/bench_gw_batch_kernel.py).
 """
 from __future__ import annotations
 

@@ -11,13 +11,22 @@ posterior's call runs; then the first two in wall time with one BLAS thread and 
 default pool (on a loaded machine the pool's threads wait on each other: the reason the
 posterior limits it).
 
-Measured (lead28 branch, one process, 15 blocks, output blocks of 2/4/8/16 compared):
-8 outputs per block fastest, tight 5.4x and wide 8.8x the radiation form (1.6 ms for
-the 64 walkers); 4: 5.9x / 9.2x, 16: 6.2x / 10.6x.  The plain posterior call of
-tests/bench/bench_posterior.py is ~11-14 ms for 64 walkers, so the kernel adds ~0.6-1.0x
-of it.  Plan build: 3.6-3.8 s for the 79 table rows (22.6 MB of forms); the radiation
-form's build 8.2 s -> 0.54 s with the sparse assembly shared by both
-(quadratic.pair_assembly, replacing np.add.at).
+Measured (lead28 branch, 2-core machine shared with another job):
+
+* This file, 4 runs (outputs per block 4, walkers per group 32): tight 9.1-10.7x, wide
+  13.8-15.8x the radiation form (0.96-1.19 ms median for the 64 walkers; the per-row
+  forms 8.8-11.3 ms and 13.3-16.5 ms).  In wall time, one BLAS thread against the
+  default pool: the radiation form 0.95-1.53 ms against 1.6-174 ms (the pool's threads
+  waiting on a busy core), the per-row forms 9.4-18.8 ms against 9.8-519 ms.
+* Blocks and groups (one process, 12 rounds, min-based, against a radiation form of 1.44
+  ms): 4 outputs x 32 walkers 6.0x tight / 8.8x wide, 8 x 32 6.2x / 9.2x, 16 x 64
+  (no grouping) 6.7x / 11.2x, 8 x 16 9.9x / 9.3x, groups of 8 12-18x.
+* The plain posterior call (tests/bench/bench_posterior.py) is ~11-14 ms for 64
+  walkers, so the kernel adds ~0.6-1.2x of it when the walkers re-enter in the tables'
+  range (3 MeV - 6 GeV); above it only the radiation form is taken.
+* Plan build: 3.6-3.8 s for the 79 table rows (22.6 MB of forms); the radiation form's
+  build 8.2 s -> 0.54 s with the sparse assembly both share (quadratic.pair_assembly,
+  replacing np.add.at).
 
 Run:  python tests/bench/bench_gw_batch_kernel.py [--blocks N]
 """
@@ -64,16 +73,18 @@ def main() -> None:
               f"{1e3 * pool:.2f} ms with the default pool")
 
 
-def wall_medians(func, blocks: int) -> tuple[float, float]:
-    """Median wall times [s] of ``func`` with one BLAS thread and with the default pool,
-    alternating (thread CPU time would not see the pool's threads wait)."""
+def wall_medians(func, blocks: int, calls: int = 10) -> tuple[float, float]:
+    """Median wall times [s] of ``func`` with one BLAS thread and with the default pool
+    (thread CPU time would not see the pool's threads wait): ``blocks`` rounds of
+    ``calls`` calls each way, the limit entered once per round."""
     one, pool = [], []
     for _ in range(blocks):
         for times, limited in ((one, True), (pool, False)):
             with single_blas_thread() if limited else contextlib.nullcontext():
-                start = time.perf_counter()
-                func()
-                times.append(time.perf_counter() - start)
+                for _ in range(calls):
+                    start = time.perf_counter()
+                    func()
+                    times.append(time.perf_counter() - start)
     return float(np.median(one)), float(np.median(pool))
 
 
