@@ -24,7 +24,9 @@ of 2464 pairs at f_NL = 1 and 95 % of 7144 with the logarithmic map skip it: bet
 clip and the offset folded in 0.63 -> 0.55 ms and 1.45 -> 1.18 ms (measured side by side,
 min of 30, machine loaded).  Pairs whose density is provably gentle take the fewest-node
 rule of :class:`GentleRule` (12, 16 or 24 nodes) the a-priori test admits instead of the
-80-node one (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`).
+80-node one (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`); with per-epoch
+exponents each epoch has its own nodes, and the products with the pairs' epochs'
+matrices are one compiled loop (:func:`epoch_products`).
 
 Units: f(M) per ln M [1].
 """
@@ -99,8 +101,9 @@ class GentleRule:
     """The coarse beta rules for gentle pairs, fewest nodes first
     (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_rule` with
     :data:`~scan.observables.pbh.ng_beta_nodes.GENTLE_TIERS` nodes): ``matrices[t]``
-    (n_t, n_y) takes ln g at the nodes to rule t's nodes, ``weights[t]`` (n_t,) or
-    (n_H, n_t) their weights; ``coefficients``, ``ellipse`` and ``budgets`` (n_tiers,
+    (n_t, n_y), or (n_H, n_t, n_y) per epoch (per-epoch exponents: each epoch's own
+    Gauss-Jacobi nodes), takes ln g at the nodes to rule t's nodes, ``weights[t]`` (n_t,)
+    or (n_H, n_t) their weights; ``coefficients``, ``ellipse`` and ``budgets`` (n_tiers,
     n_rho) the a-priori test (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`)."""
 
     matrices: tuple[np.ndarray, ...]
@@ -131,7 +134,7 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
                extremes: tuple[np.ndarray, np.ndarray] | None = None) -> np.ndarray:
     """beta [1] per pair: sum_b weight_b exp(ln g(y_b)) with ln g(y_b) = ``beta_matrix``
     (n_beta, n_y) @ ``lng`` (n_pairs, n_y); ``weight`` (n_beta,), or (n_H, n_beta) with
-    the pairs' epochs ``h``.  Pairs a ``gentle`` rule applies to take its fewest-node one
+    the pairs' epochs ``h`` (a gentle rule's matrices may be per epoch too).  Pairs a ``gentle`` rule applies to take its fewest-node one
     instead (12 to 24 instead of 80 nodes).  ``extremes``: :func:`row_extremes` of
     ``lng`` if known."""
     low, high = row_extremes(lng) if extremes is None else extremes
@@ -151,8 +154,8 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
 
 
 def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
-    """beta [1] per pair of one rule (``matrix``, ``weight`` as :func:`pair_betas`'s),
-    gathered per block (256 rows stay in cache).  Pairs whose interpolant is in
+    """beta [1] per pair of one rule (``matrix`` (n_b, n_y) or per epoch (n_H, n_b, n_y),
+    ``weight`` as :func:`pair_betas`'s), gathered per block (256 rows stay in cache).  Pairs whose interpolant is in
     [``LN_ZERO``, ``X_MAX``] by the Lebesgue bound (module doc) take plain exponentials
     (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s; the product's rounding,
     ~1e-13, stays far inside the range of
@@ -160,7 +163,7 @@ def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
     NaN) the values of :func:`exp_or_zero` (above 709 those of 709): the first group,
     then the second, in blocks.  Exponentials by
     :func:`~scan.observables.pbh.vector_math.exp_in_place` (within 1 ulp of numpy's)."""
-    overshoot = 0.5 * (np.abs(matrix).sum(axis=1).max() - 1.0)
+    overshoot = 0.5 * (np.abs(matrix).sum(axis=-1).max() - 1.0)     # every epoch's
     safe = (low - overshoot * (high - low) >= LN_ZERO) \
         & (high + overshoot * (high - low) <= X_MAX)
     n_safe = int(np.count_nonzero(safe))
@@ -172,7 +175,8 @@ def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
     for first, last, clip in ((0, n_safe, False), (n_safe, lng.shape[0], True)):
         for start in range(first, last, BLOCK):
             rows = slice(start, min(start + BLOCK, last))
-            block = lng[rows] @ matrix.T
+            block = lng[rows] @ matrix.T if matrix.ndim == 2 \
+                else epoch_products(lng[rows], h[rows], matrix)
             if clip:                        # exp_or_zero's values, vectorised exp
                 np.clip(block, LN_ZERO, X_MAX, out=block)
                 exp_in_place(block)
@@ -184,6 +188,22 @@ def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
     if order is not None:
         beta[order] = beta.copy()
     return beta
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def epoch_products(lng: np.ndarray, h: np.ndarray, matrix: np.ndarray) -> np.ndarray:
+    """ln g [1] at each pair's rule nodes, (n_pairs, n_b): row p is ``matrix``[h_p]
+    (n_H, n_b, n_y) @ ``lng``[p] (n_pairs, n_y), without gathering the matrices."""
+    n_b, n_y = matrix.shape[1], matrix.shape[2]
+    out = np.empty((lng.shape[0], n_b))
+    for p in range(lng.shape[0]):
+        e = h[p]
+        for b in range(n_b):
+            s = 0.0
+            for j in range(n_y):
+                s += matrix[e, b, j] * lng[p, j]
+            out[p, b] = s
+    return out
 
 
 def mass_function(lng: np.ndarray, i: np.ndarray, h: np.ndarray, mass_matrix: np.ndarray,
