@@ -183,7 +183,7 @@ def test_gentle_tiers_with_per_epoch_exponents(tier):
     Gauss-Jacobi of its own exponent (its own nodes: ng_stack._gentle) and the a-priori
     test takes the largest exponent (its bound F grows with it), so one budget serves
     all epochs: wherever the tier's test admits a pair, the tier's rule through
-    pair_betas (the per-epoch products, ng_pairs.epoch_products) is within GENTLE_TOL of
+    pair_betas (the compiled per-epoch sums, ng_pairs.epoch_betas) is within GENTLE_TOL of
     a 96-point Gauss-Jacobi rule of the pair's epoch's exponent at its threshold, plus
     the rounding allowance of test_gentle_test_bounds_the_error (2e-14).  ln g: 500
     draws as there (a_k = s z_k / k^2, s from 0.01 to 30) and 500 as in

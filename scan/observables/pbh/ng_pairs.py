@@ -26,7 +26,7 @@ min of 30, machine loaded).  Pairs whose density is provably gentle take the few
 rule of :class:`GentleRule` (12, 16 or 24 nodes) the a-priori test admits instead of the
 80-node one (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`); with per-epoch
 exponents each epoch has its own nodes, and the products with the pairs' epochs'
-matrices are one compiled loop (:func:`epoch_products`).
+matrices are one compiled loop (:func:`epoch_betas`).
 
 Units: f(M) per ln M [1].
 """
@@ -154,9 +154,10 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
 
 
 def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
-    """beta [1] per pair of one rule (``matrix`` (n_b, n_y) or per epoch (n_H, n_b, n_y),
-    ``weight`` as :func:`pair_betas`'s), gathered per block (256 rows stay in cache).  Pairs whose interpolant is in
-    [``LN_ZERO``, ``X_MAX``] by the Lebesgue bound (module doc) take plain exponentials
+    """beta [1] per pair of one rule (``matrix`` (n_b, n_y), or per epoch (n_H, n_b, n_y):
+    :func:`epoch_betas`; ``weight`` as :func:`pair_betas`'s), gathered per block (256
+    rows stay in cache).  Pairs whose interpolant is in [``LN_ZERO``, ``X_MAX``] by the
+    Lebesgue bound (module doc) take plain exponentials
     (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s; the product's rounding,
     ~1e-13, stays far inside the range of
     :func:`~scan.observables.pbh.vector_math.exp_in_place`, [-708, 709]); the others (and
@@ -166,6 +167,9 @@ def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
     overshoot = 0.5 * (np.abs(matrix).sum(axis=-1).max() - 1.0)     # every epoch's
     safe = (low - overshoot * (high - low) >= LN_ZERO) \
         & (high + overshoot * (high - low) <= X_MAX)
+    if matrix.ndim == 3:
+        return epoch_betas(lng, h, safe, matrix, np.ascontiguousarray(
+            np.broadcast_to(weight, matrix.shape[:2])))
     n_safe = int(np.count_nonzero(safe))
     order = None if n_safe == safe.size else np.concatenate(
         (np.flatnonzero(safe), np.flatnonzero(~safe)))
@@ -175,8 +179,7 @@ def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
     for first, last, clip in ((0, n_safe, False), (n_safe, lng.shape[0], True)):
         for start in range(first, last, BLOCK):
             rows = slice(start, min(start + BLOCK, last))
-            block = lng[rows] @ matrix.T if matrix.ndim == 2 \
-                else epoch_products(lng[rows], h[rows], matrix)
+            block = lng[rows] @ matrix.T
             if clip:                        # exp_or_zero's values, vectorised exp
                 np.clip(block, LN_ZERO, X_MAX, out=block)
                 exp_in_place(block)
@@ -191,19 +194,37 @@ def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
 
 
 @njit(cache=True, error_model="numpy", fastmath=FASTMATH)
-def epoch_products(lng: np.ndarray, h: np.ndarray, matrix: np.ndarray) -> np.ndarray:
-    """ln g [1] at each pair's rule nodes, (n_pairs, n_b): row p is ``matrix``[h_p]
-    (n_H, n_b, n_y) @ ``lng``[p] (n_pairs, n_y), without gathering the matrices."""
+def epoch_betas(lng: np.ndarray, h: np.ndarray, safe: np.ndarray, matrix: np.ndarray,
+                weight: np.ndarray) -> np.ndarray:
+    """beta [1] per pair of a rule with per-epoch nodes: sum_b ``weight``[h_p, b]
+    exp(ln g_pb), ln g_pb = ``matrix``[h_p] (n_H, n_b, n_y) @ ``lng``[p] (n_pairs, n_y),
+    in one compiled pass without gathering the matrices; ln g_pb clipped to
+    [``LN_ZERO``, ``X_MAX``] and e^``LN_ZERO`` taken off where ``safe``[p] is False
+    (:func:`exp_or_zero`'s values; NaN stays), as :func:`_rule_betas` does."""
     n_b, n_y = matrix.shape[1], matrix.shape[2]
-    out = np.empty((lng.shape[0], n_b))
+    values = np.empty((lng.shape[0], n_b))
     for p in range(lng.shape[0]):
         e = h[p]
         for b in range(n_b):
             s = 0.0
             for j in range(n_y):
                 s += matrix[e, b, j] * lng[p, j]
-            out[p, b] = s
-    return out
+            if not safe[p]:
+                if s < LN_ZERO:
+                    s = LN_ZERO
+                elif s > X_MAX:
+                    s = X_MAX
+            values[p, b] = s
+    exp_in_place(values)
+    beta = np.empty(lng.shape[0])
+    for p in range(lng.shape[0]):
+        e = h[p]
+        zero = 0.0 if safe[p] else _EXP_ZERO
+        total = 0.0
+        for b in range(n_b):
+            total += weight[e, b] * (values[p, b] - zero)
+        beta[p] = total
+    return beta
 
 
 def mass_function(lng: np.ndarray, i: np.ndarray, h: np.ndarray, mass_matrix: np.ndarray,
