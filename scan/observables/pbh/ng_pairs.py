@@ -119,14 +119,26 @@ class GentleRule:
         range of ln g over the nodes (|p - a_0| <= sum_k |a_k| on [-1, 1]): a pair whose
         node range exceeds every budget fails every rule."""
         spread = np.abs(lng @ self.coefficients.T) @ self.ellipse.T       # (n, n_rho)
-        out = np.full(lng.shape[0], -1)
-        for t in range(self.budgets.shape[0] - 1, -1, -1):     # the fewest nodes last
-            budget = self.budgets[t]
-            ok = spread[:, 0] <= budget[0]       # column by column: numpy's reduction
-            for r in range(1, budget.size):      # along a short axis is ~6x slower
-                ok |= spread[:, r] <= budget[r]
-            out[ok] = t
-        return out
+        return first_passing(spread, self.budgets)
+
+
+@njit(cache=True, error_model="numpy")
+def first_passing(spread: np.ndarray, budgets: np.ndarray) -> np.ndarray:
+    """Per row of ``spread`` (n, n_rho) the first tier t with spread <= ``budgets``[t]
+    (n_tiers, n_rho) for some rho, -1 for none (and NaN), compiled (numpy's comparisons
+    tier by tier and column by column were 15 passes, ~50 us even for no rows)."""
+    out = np.full(spread.shape[0], -1)
+    for p in range(spread.shape[0]):
+        for t in range(budgets.shape[0]):
+            passed = False
+            for r in range(budgets.shape[1]):
+                if spread[p, r] <= budgets[t, r]:
+                    passed = True
+                    break
+            if passed:
+                out[p] = t
+                break
+    return out
 
 
 def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
