@@ -57,8 +57,9 @@ def test_lebesgue_bound_holds_for_the_beta_nodes():
     assert np.all((lng[safe] @ B.T).min(axis=1) >= LN_ZERO)
 
 
-@pytest.mark.parametrize("per_pair_weights", [False, True])   # True: per epoch (QCD)
-def test_pair_betas_match_the_clipped_sum(per_pair_weights):
+@pytest.mark.parametrize("per_pair_weights, per_epoch_matrices",   # per epoch: QCD-era
+                         [(False, False), (True, False), (True, True)])
+def test_pair_betas_match_the_clipped_sum(per_pair_weights, per_epoch_matrices):
     """pair_betas against sum_b w_b exp_or_zero(ln g(y_b)) for all pairs: the plain
     exponentials differ by at most e^-700 sum_b w_b (module doc) plus rounding of the sums
     (1e-14 relative, common practice: 72 positive terms); NaN rows stay NaN.  ln g and
@@ -66,8 +67,16 @@ def test_pair_betas_match_the_clipped_sum(per_pair_weights):
     exact in binary64 (products of 42 bits, sums below 2^17 on the 2^-30 grid) whatever
     order the BLAS sums in: pair_betas multiplies reordered blocks of pairs, and with
     unrounded inputs their ln g(y_b) differ from one product over all pairs by up to
-    4.5e-13 (measured; 1e-13 relative in exp, not a sum's rounding)."""
+    4.5e-13 (measured; 1e-13 relative in exp, not a sum's rounding).  Per-epoch matrices
+    (the gentle rules with per-epoch exponents, ng_pairs.epoch_betas): each epoch's
+    layout on nodes moved by up to 0.02 in the unit variable."""
     B, w = _beta_layout()
+    if per_epoch_matrices:
+        y_th = float(compaction_linear(0.55))
+        y, _ = beta_nodes(y_th, 0.36, 3.3)
+        t = 2 * (y - y_th) / (C_L_MAX - y_th) - 1
+        B = np.array([barycentric_matrix(lobatto(9), np.clip(t + 0.005 * e, -1, 1))
+                      for e in range(5)])
     B = np.round(B * 2.0**20) / 2.0**20
     lng = np.round(_random_ln_g(700, 2) * 2.0**10) / 2.0**10
     lng[5] = np.nan
@@ -76,7 +85,8 @@ def test_pair_betas_match_the_clipped_sum(per_pair_weights):
     weight = rng.uniform(0.5, 2.0, (5, w.size)) * w if per_pair_weights else w
     rows = weight[h] if per_pair_weights else np.broadcast_to(weight, (700, w.size))
     got = pair_betas(lng, B, weight, h)
-    ref = np.einsum("pb,pb->p", exp_or_zero(lng @ B.T), rows)
+    products = np.einsum("pj,pbj->pb", lng, B[h]) if per_epoch_matrices else lng @ B.T
+    ref = np.einsum("pb,pb->p", exp_or_zero(products), rows)
     assert np.isnan(got[5]) and np.isnan(ref[5])
     ok = ~np.isnan(ref)
     slack = np.exp(LN_ZERO) * rows.sum(axis=1)

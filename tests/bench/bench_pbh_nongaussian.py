@@ -198,6 +198,30 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   [0.4, 0.6]: 6.7e-16 and 2.2e-16); exponents below -708 now give exactly 0 (7 values of
   f(M) that were below 1.8e-301).
 
+* qcdgentle branch (the gentle beta tiers with per-epoch exponents: each epoch
+  Gauss-Jacobi of its own gamma_c, the a-priori test with the largest; the per-epoch
+  rules and the tier choice as compiled passes, ng_pairs.epoch_betas / first_passing),
+  this file with --qcd --blocks 15 run against main f940958 alternately, 3 runs each,
+  four sets (nice 15, another job on one core, load average 1.3-1.9).  QCD-era
+  logarithmic: before the compiled tier choice 3.48-3.58x -> 3.32-3.42x and 3.39-3.58x
+  -> 3.50-4.37x; with the final tree 3.16-3.57x -> 3.17-3.48x and 3.40-3.54x ->
+  3.06-3.40x: the min-based reference's noise (the plain rows, the same code on both,
+  move as much) is larger than the gain.  Against the plain logarithmic row of the same
+  run: 1.17-1.18 -> 1.09-1.11, 1.19-1.23 -> 1.07-1.12, and with the final tree 1.12-1.23
+  -> 1.05-1.12 (one more run at 1.39, its plain row at 2.27x).  The local maps have no
+  gentle pairs (every one fails the test), so their rows are the same code but the
+  test's cost (~50 us per evaluation with first_passing): QCD-era f_NL = 1 2.41-2.89x
+  -> 2.34-2.91x, -1 1.70-2.40x -> 2.14-2.40x (final tree).  In one process
+  (StackedNGPlan.evaluate of the logarithmic map with and without the gentle rules, 60
+  alternating calls, thread time, 3 runs): QCD-era 5.98-6.64 -> 5.39-6.03 ms (min;
+  0.89-0.91x, medians 0.89-0.94x), the plain stack 0.95-0.96x (medians 0.96-0.99x): the
+  QCD-era stack is now 1.07-1.09x the plain one (was 1.18-1.22x).  5810 of the 6490
+  QCD-era logarithmic pairs take 12, 16 or 24 nodes (3907, 1301, 602) instead of 88.
+  Results against main: f(M) identical (beta does not enter it), totals within 2.4e-14
+  (both conventions; 2.0e-14 with gamma-of-w alone), the local maps' bit-identical; the
+  tiers' betas within 5.1e-14 of a tanh-sinh reference, main's 88-node rule within
+  9.4e-13 of it.
+
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per

@@ -24,7 +24,9 @@ of 2464 pairs at f_NL = 1 and 95 % of 7144 with the logarithmic map skip it: bet
 clip and the offset folded in 0.63 -> 0.55 ms and 1.45 -> 1.18 ms (measured side by side,
 min of 30, machine loaded).  Pairs whose density is provably gentle take the fewest-node
 rule of :class:`GentleRule` (12, 16 or 24 nodes) the a-priori test admits instead of the
-80-node one (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`).
+80-node one (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`); with per-epoch
+exponents each epoch has its own nodes, and the products with the pairs' epochs'
+matrices are one compiled loop (:func:`epoch_betas`).
 
 Units: f(M) per ln M [1].
 """
@@ -99,8 +101,9 @@ class GentleRule:
     """The coarse beta rules for gentle pairs, fewest nodes first
     (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_rule` with
     :data:`~scan.observables.pbh.ng_beta_nodes.GENTLE_TIERS` nodes): ``matrices[t]``
-    (n_t, n_y) takes ln g at the nodes to rule t's nodes, ``weights[t]`` (n_t,) or
-    (n_H, n_t) their weights; ``coefficients``, ``ellipse`` and ``budgets`` (n_tiers,
+    (n_t, n_y), or (n_H, n_t, n_y) per epoch (per-epoch exponents: each epoch's own
+    Gauss-Jacobi nodes), takes ln g at the nodes to rule t's nodes, ``weights[t]`` (n_t,)
+    or (n_H, n_t) their weights; ``coefficients``, ``ellipse`` and ``budgets`` (n_tiers,
     n_rho) the a-priori test (:func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`)."""
 
     matrices: tuple[np.ndarray, ...]
@@ -116,14 +119,26 @@ class GentleRule:
         range of ln g over the nodes (|p - a_0| <= sum_k |a_k| on [-1, 1]): a pair whose
         node range exceeds every budget fails every rule."""
         spread = np.abs(lng @ self.coefficients.T) @ self.ellipse.T       # (n, n_rho)
-        out = np.full(lng.shape[0], -1)
-        for t in range(self.budgets.shape[0] - 1, -1, -1):     # the fewest nodes last
-            budget = self.budgets[t]
-            ok = spread[:, 0] <= budget[0]       # column by column: numpy's reduction
-            for r in range(1, budget.size):      # along a short axis is ~6x slower
-                ok |= spread[:, r] <= budget[r]
-            out[ok] = t
-        return out
+        return first_passing(spread, self.budgets)
+
+
+@njit(cache=True, error_model="numpy")
+def first_passing(spread: np.ndarray, budgets: np.ndarray) -> np.ndarray:
+    """Per row of ``spread`` (n, n_rho) the first tier t with spread <= ``budgets``[t]
+    (n_tiers, n_rho) for some rho, -1 for none (and NaN), compiled (numpy's comparisons
+    tier by tier and column by column were 15 passes, ~50 us even for no rows)."""
+    out = np.full(spread.shape[0], -1)
+    for p in range(spread.shape[0]):
+        for t in range(budgets.shape[0]):
+            passed = False
+            for r in range(budgets.shape[1]):
+                if spread[p, r] <= budgets[t, r]:
+                    passed = True
+                    break
+            if passed:
+                out[p] = t
+                break
+    return out
 
 
 def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
@@ -131,7 +146,7 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
                extremes: tuple[np.ndarray, np.ndarray] | None = None) -> np.ndarray:
     """beta [1] per pair: sum_b weight_b exp(ln g(y_b)) with ln g(y_b) = ``beta_matrix``
     (n_beta, n_y) @ ``lng`` (n_pairs, n_y); ``weight`` (n_beta,), or (n_H, n_beta) with
-    the pairs' epochs ``h``.  Pairs a ``gentle`` rule applies to take its fewest-node one
+    the pairs' epochs ``h`` (a gentle rule's matrices may be per epoch too).  Pairs a ``gentle`` rule applies to take its fewest-node one
     instead (12 to 24 instead of 80 nodes).  ``extremes``: :func:`row_extremes` of
     ``lng`` if known."""
     low, high = row_extremes(lng) if extremes is None else extremes
@@ -151,18 +166,22 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
 
 
 def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
-    """beta [1] per pair of one rule (``matrix``, ``weight`` as :func:`pair_betas`'s),
-    gathered per block (256 rows stay in cache).  Pairs whose interpolant is in
-    [``LN_ZERO``, ``X_MAX``] by the Lebesgue bound (module doc) take plain exponentials
+    """beta [1] per pair of one rule (``matrix`` (n_b, n_y), or per epoch (n_H, n_b, n_y):
+    :func:`epoch_betas`; ``weight`` as :func:`pair_betas`'s), gathered per block (256
+    rows stay in cache).  Pairs whose interpolant is in [``LN_ZERO``, ``X_MAX``] by the
+    Lebesgue bound (module doc) take plain exponentials
     (within e^{-700} sum_b weight_b of :func:`exp_or_zero`'s; the product's rounding,
     ~1e-13, stays far inside the range of
     :func:`~scan.observables.pbh.vector_math.exp_in_place`, [-708, 709]); the others (and
     NaN) the values of :func:`exp_or_zero` (above 709 those of 709): the first group,
     then the second, in blocks.  Exponentials by
     :func:`~scan.observables.pbh.vector_math.exp_in_place` (within 1 ulp of numpy's)."""
-    overshoot = 0.5 * (np.abs(matrix).sum(axis=1).max() - 1.0)
+    overshoot = 0.5 * (np.abs(matrix).sum(axis=-1).max() - 1.0)     # every epoch's
     safe = (low - overshoot * (high - low) >= LN_ZERO) \
         & (high + overshoot * (high - low) <= X_MAX)
+    if matrix.ndim == 3:
+        return epoch_betas(lng, h, safe, matrix, np.ascontiguousarray(
+            np.broadcast_to(weight, matrix.shape[:2])))
     n_safe = int(np.count_nonzero(safe))
     order = None if n_safe == safe.size else np.concatenate(
         (np.flatnonzero(safe), np.flatnonzero(~safe)))
@@ -183,6 +202,40 @@ def _rule_betas(lng, low, high, matrix, weight, h) -> np.ndarray:
                 if weight.ndim == 2 else block @ weight
     if order is not None:
         beta[order] = beta.copy()
+    return beta
+
+
+@njit(cache=True, error_model="numpy", fastmath=FASTMATH)
+def epoch_betas(lng: np.ndarray, h: np.ndarray, safe: np.ndarray, matrix: np.ndarray,
+                weight: np.ndarray) -> np.ndarray:
+    """beta [1] per pair of a rule with per-epoch nodes: sum_b ``weight``[h_p, b]
+    exp(ln g_pb), ln g_pb = ``matrix``[h_p] (n_H, n_b, n_y) @ ``lng``[p] (n_pairs, n_y),
+    in one compiled pass without gathering the matrices; ln g_pb clipped to
+    [``LN_ZERO``, ``X_MAX``] and e^``LN_ZERO`` taken off where ``safe``[p] is False
+    (:func:`exp_or_zero`'s values; NaN stays), as :func:`_rule_betas` does."""
+    n_b, n_y = matrix.shape[1], matrix.shape[2]
+    values = np.empty((lng.shape[0], n_b))
+    for p in range(lng.shape[0]):
+        e = h[p]
+        for b in range(n_b):
+            s = 0.0
+            for j in range(n_y):
+                s += matrix[e, b, j] * lng[p, j]
+            if not safe[p]:
+                if s < LN_ZERO:
+                    s = LN_ZERO
+                elif s > X_MAX:
+                    s = X_MAX
+            values[p, b] = s
+    exp_in_place(values)
+    beta = np.empty(lng.shape[0])
+    for p in range(lng.shape[0]):
+        e = h[p]
+        zero = 0.0 if safe[p] else _EXP_ZERO
+        total = 0.0
+        for b in range(n_b):
+            total += weight[e, b] * (values[p, b] - zero)
+        beta[p] = total
     return beta
 
 

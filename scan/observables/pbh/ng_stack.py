@@ -21,8 +21,8 @@ For the others the interpolation error falls geometrically with ``n_y`` (ln g is
 analytic on the interval); doubling ``n_y`` measures it (tests/test_pbh_ng_stack.py).
 Array operations run over (pairs x nodes); the only Python loops are over blocks of
 pairs for beta (cache-sized).  The QCD-era conventions give every epoch its own
-threshold and exponent: then the nodes of ln g and the beta weights are per epoch
-(:func:`plan_stacked`).
+threshold and exponent: then the nodes of ln g and the beta weights are per epoch, and
+with per-epoch exponents the gentle rules' nodes too (:func:`plan_stacked`).
 
 Cost (tests/bench/bench_pbh_nongaussian.py): every exponential is clipped at
 ``LN_ZERO`` = -700 (:func:`~scan.observables.pbh.ng_pairs.exp_or_zero`), below which
@@ -127,7 +127,8 @@ class StackedNGPlan:
     ``y_nodes`` (n_y,) and ``beta_weight`` (n_beta,) carry a leading epoch axis (n_H, ...)
     with the QCD-era per-epoch thresholds and exponents.  ``variance_matrix`` (3 n_H, n_k)
     stacks the plan's sigma_c^2, sigma_cr^2 and sigma_r^2 matrices.  ``gentle``: the
-    coarse beta rule for the pairs it provably serves (one exponent for all epochs).
+    coarse beta rules for the pairs they provably serve (with per-epoch exponents, each
+    epoch's own nodes).
     """
 
     ng: NonGaussianPlan
@@ -273,7 +274,8 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
     ``beta_matrix`` serves every epoch and only the weights are per epoch; the edge panel
     keeps the Gauss-Jacobi weight of the configured gamma_c (exact for it; for an epoch's
     other gamma_c the panel integrates e^{gamma - gamma_c} with 12 nodes, measured in
-    tests/test_sampler_qcd.py).
+    tests/test_sampler_qcd.py).  The gentle rules (:func:`_gentle`) are Gauss-Jacobi of
+    each epoch's own exponent.
     """
     conv = ng.base.conventions
     if ng.v_cr.shape != ng.base._v0.shape:
@@ -299,20 +301,32 @@ def plan_stacked(ng: NonGaussianPlan, n_y: int = N_Y, thresholds=None,
                              x, np.clip(_to_unit(y_mass, y_th), -1, 1)).transpose(0, 2, 1)),
                          barycentric_matrix(x, _to_unit(yb, y0)), wb,
                          np.vstack([ng.base._v0, ng.v_cr, ng.v_r]),
-                         None if exponents is not None else _gentle(x, y_th, conv))
+                         _gentle(x, y_th, conv, exponents))
 
 
-def _gentle(x: np.ndarray, y_th, conv) -> GentleRule:
+def _gentle(x: np.ndarray, y_th, conv, exponents=None) -> GentleRule:
     """The gentle beta rules (:data:`GENTLE_TIERS` nodes) for interpolation nodes ``x`` and
     thresholds ``y_th`` (a number, or (n_H, 1) per epoch: the nodes in the unit variable
-    are the same, the weights per epoch)."""
+    are the same, the weights per epoch).  ``exponents`` [1]: gamma_c per epoch (default
+    ``conv.gamma_c`` for all): each epoch takes Gauss-Jacobi of its own exponent (nodes,
+    so matrices, per epoch), and the a-priori test that of the largest (its bound grows
+    with the exponent: :func:`~scan.observables.pbh.ng_beta_nodes.gentle_test`), so one
+    budget serves every epoch."""
     y0 = float(np.ravel(y_th)[0])
+    if exponents is None:
+        gammas, largest = np.full(np.size(y_th), conv.gamma_c), conv.gamma_c
+    else:
+        gammas = np.broadcast_to(exponents, (np.size(y_th),))
+        largest = float(np.max(exponents))
     matrices, weights, budgets = [], [], []
     for n in GENTLE_TIERS:
-        per = [gentle_rule(float(y), conv.gamma_c, conv.K, n) for y in np.ravel(y_th)]
-        matrices.append(barycentric_matrix(x, _to_unit(per[0][0], y0)))
+        per = [gentle_rule(float(y), float(g), conv.K, n)
+               for y, g in zip(np.ravel(y_th), gammas)]
+        matrices.append(barycentric_matrix(x, _to_unit(per[0][0], y0)) if exponents is None
+                        else np.array([barycentric_matrix(x, _to_unit(yb, float(y)))
+                                       for (yb, _), y in zip(per, np.ravel(y_th))]))
         weights.append(per[0][1] if np.ndim(y_th) == 0 else np.array([w for _, w in per]))
-        coefficients, ellipse, budget = gentle_test(x, conv.gamma_c, n)
+        coefficients, ellipse, budget = gentle_test(x, largest, n)
         budgets.append(budget)
     return GentleRule(tuple(matrices), tuple(weights), coefficients, ellipse,
                       np.array(budgets))
