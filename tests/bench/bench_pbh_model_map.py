@@ -73,6 +73,11 @@ stack 2-4 ms; ngmodel branch):
   reference on these pairs, where the gentle rule is within 7.7e-14), f(M) within 2e-50
   of each spectrum's largest value (the pruned pairs).
 
+* lead28 (glue compiled, gentle tiers 12/16/24: see bench_pbh_nongaussian.py) against
+  main 88a344e alternately, 3 runs each: one-map logarithmic 2.83-3.31x -> 2.90-3.08x,
+  lambda per spectrum 2.55-3.10x -> 2.64-2.83x, capped per spectrum 2.12-3.03x ->
+  2.17-2.27x (the reference's noise is of the same size).
+
 Run:  python tests/bench/bench_pbh_model_map.py [--blocks N]
 """
 from __future__ import annotations

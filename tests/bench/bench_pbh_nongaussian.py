@@ -222,6 +222,24 @@ stack 2-4 ms; ranges over runs, the machine is noisy):
   tiers' betas within 5.1e-14 of a tanh-sinh reference, main's 88-node rule within
   9.4e-13 of it.
 
+* lead28 (the stacked path's glue compiled -- row_extremes in one pass, group_max
+  instead of np.maximum.at, the live pairs by flat index -- and the gentle beta rule in
+  tiers of 12/16/24 nodes, each pair the fewest its a-priori test admits: the
+  logarithmic map's beta nodes 190.6k -> 131.8k), with the threshold plan of qcdspeed,
+  this file with --qcd --blocks 15 (main f940958 before qcdgentle) against main 88a344e
+  alternately, 3 runs each (nice 15, another job on one core): local f_NL = 1
+  2.60-2.76x -> 2.54-2.75x, f_NL = -1 2.21-2.31x -> 2.11-2.31x, logarithmic
+  3.03-3.20x -> 2.94-3.12x (by parts in one process the glue and tiers take ~0.4 ms of
+  the logarithmic stack's ~9 ms: within these ratios' noise); QCD-era: the Gaussian
+  stack 5.11-7.38x -> 1.20-1.29x, local f_NL = 1 3.00-3.07x -> 2.73-2.86x, f_NL = -1
+  2.40-2.46x -> 2.24-2.43x, logarithmic 3.74-3.96x -> 3.46-3.74x.  Results: f(M)
+  bit-identical, totals within 1.6e-15 (the tiers).  Tried and not kept: the
+  logarithmic closed form in three passes (branch-free parts, the ln H table, the
+  cases) to let the compiler vectorise: 1.41 -> 1.78 ms (the table lookup does not
+  vectorise; the extra passes cost memory traffic); a fused compiled beta kernel
+  (interpolation loop, exponential, weighted sum): 1.05 -> 1.25 ms on the 24-node pairs
+  (numba's interpolation loop ~3 ns an element against BLAS's 1.4).
+
 What limited it before (measured by parts, ngspeed3): the Gaussian stack is ~2 ms.  Local map:
 the ridge integrals (72 % of the time: three Newton searches, ~5 steps each from the
 conditional-mean seeds and up to 16 from the curve seed, and a 16-node rule per
