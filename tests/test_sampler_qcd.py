@@ -205,18 +205,23 @@ def test_non_gaussian_walkers_use_the_qcd_conventions(trained):  # noqa: F811
         assert blobs["f_pbh_total"][i] > 10 * blobs["f_pbh_total_gaussian"][i]
 
 
+def _sample(trained, tmp_path, capsys, extra: str):  # noqa: F811
+    """``zetascan sample`` of the stand-in with ``extra`` config text: (what it printed,
+    the chain's path)."""
+    cfg = tmp_path / "run.toml"
+    cfg.write_text(make_config(tmp_path, surrogate=trained[0] / "standin" / "surrogate.h5",
+                               extra=extra).text)
+    assert main(["sample", str(cfg)]) == 0
+    return capsys.readouterr().out, tmp_path / "standin" / "chain.h5"
+
+
 def test_chain_records_the_conventions_and_sample_and_summary_print_the_notes(
         trained, tmp_path, capsys):  # noqa: F811
     """``zetascan sample`` with both QCD-era conventions: the notes are printed at the
     start, the chain's attributes name the conventions and carry the notes the single path
     prints, and ``zetascan summary`` shows both."""
-    cfg = tmp_path / "run.toml"
-    cfg.write_text(make_config(tmp_path, surrogate=trained[0] / "standin" / "surrogate.h5",
-                               extra=QCD).text)
-    assert main(["sample", str(cfg)]) == 0
-    started = capsys.readouterr().out
+    started, chain = _sample(trained, tmp_path, capsys, QCD)
     assert "qcd_threshold = 'harada-scaled'" in started and "C_th falls from 0.5" in started
-    chain = tmp_path / "standin" / "chain.h5"
     conv = runfile.pbh_convention(chain)
     assert (conv["qcd_threshold"], conv["qcd_collapse"]) == ("harada-scaled", "gamma-of-w")
     assert "raises f_PBH there" in conv["qcd_notes"] and \
@@ -250,13 +255,8 @@ def test_sample_and_summary_name_the_gw_kernel(trained, tmp_path, capsys):  # no
     """``zetascan sample`` with the tabulated kernel (refused before): it runs, prints the
     kernel's note at the start, records ``sigw_kernel`` on the chain, and ``zetascan
     summary`` prints the note."""
-    cfg = tmp_path / "run.toml"
-    cfg.write_text(make_config(tmp_path, surrogate=trained[0] / "standin" / "surrogate.h5",
-                               extra=KERNEL).text)
-    assert main(["sample", str(cfg)]) == 0
-    started = capsys.readouterr().out
+    started, chain = _sample(trained, tmp_path, capsys, KERNEL)
     assert "sigw_kernel = 'qcd-fluid'" in started and "perfect adiabatic fluid" in started
-    chain = tmp_path / "standin" / "chain.h5"
     assert runfile.gw_convention(chain) == {"sigw_kernel": "qcd-fluid"}
     assert "sigw_kernel = 'qcd-fluid'" in format_summary(summarize(chain))
 
