@@ -36,10 +36,17 @@ def test_one_thread_inside_and_the_counts_restored():
 
 
 def test_the_posterior_call_runs_with_one_thread(monkeypatch):
-    """log_and_blobs enters the limit around its computation (checked by a stand-in for
-    the computation that records the counts it sees)."""
-    seen = []
-    monkeypatch.setattr(PosteriorTarget, "_log_and_blobs",
-                        lambda self, thetas: seen.append(_counts()) or (None, None))
-    PosteriorTarget.log_and_blobs(object.__new__(PosteriorTarget), [[0.0]])
+    """log_and_blobs runs inside the limit (checked by a stand-in for its first step, the
+    surrogate's prediction, that records the counts it sees and stops the call), and the
+    counts are restored after it."""
+    seen, before = [], _counts()
+
+    def predict(self, thetas):
+        seen.append(_counts())
+        raise RuntimeError("stop")
+
+    monkeypatch.setattr(PosteriorTarget, "_predict", predict)
+    with pytest.raises(RuntimeError, match="stop"):
+        PosteriorTarget.log_and_blobs(object.__new__(PosteriorTarget), [[0.0]])
     assert seen and all(n == 1 for n in seen[0])
+    assert _counts() == before

@@ -283,6 +283,7 @@ class PosteriorTarget(TargetBase):
             obs[i] = batch.row(j)
         return reason, obs
 
+    @single_blas_thread()   # small products: a BLAS pool only waits (surrogate/threads.py)
     def log_and_blobs(self, thetas: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Vectorised core: log posterior (unnormalised) and blob records.
 
@@ -297,11 +298,7 @@ class PosteriorTarget(TargetBase):
         blobs : ndarray of ``blob_dtype``, shape (p,)
             NaN derived fields where the model was not evaluated.
         """
-        with single_blas_thread():   # small products: a BLAS pool only waits (threads.py)
-            return self._log_and_blobs(np.atleast_2d(np.asarray(thetas, float)))
-
-    def _log_and_blobs(self, thetas: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """:meth:`log_and_blobs` inside its thread limit."""
+        thetas = np.atleast_2d(np.asarray(thetas, float))
         reason, rows, batch, log_prior = self._predict(thetas)
         blobs = empty_blobs(self.blob_dtype, len(thetas))
         log_p = np.full(len(thetas), -np.inf)
