@@ -143,16 +143,6 @@ def tabulated_kernel(T_c_GeV: float, t, s, k_rd,
     return np.array(k_rd, dtype=float)
 
 
-def _row_weights(table: KernelTable, ln_T: float) -> tuple[int, np.ndarray]:
-    """First row and the 4 cubic Lagrange weights in ln T_c (stencil kept in the table)."""
-    step = table.ln_T_c[1] - table.ln_T_c[0]
-    x = (ln_T - table.ln_T_c[0]) / step
-    first = int(min(max(math.floor(x) - 1, 0), table.ln_T_c.size - 4))
-    nodes = first + np.arange(4)
-    weights = np.array([np.prod([(x - m) / (n - m) for m in nodes if m != n]) for n in nodes])
-    return first, weights
-
-
 def _spline(z: np.ndarray, s: np.ndarray, values: np.ndarray) -> RectBivariateSpline:
     """Interpolating bicubic spline in (z, s)."""
     return RectBivariateSpline(z, s, values, kx=3, ky=3, s=0)
@@ -250,8 +240,8 @@ def kernel_at(table: KernelTable, T_c_GeV: float, t, s, k_rd) -> np.ndarray:
     lo, hi = table.T_range
     if not lo <= T_c_GeV <= hi:
         return k_rd.copy()
-    first, weights = _row_weights(table, math.log(T_c_GeV))
-    return _weighted_kernel(table, first, weights, t, s, k_rd)
+    first, weights = row_stencils(table, np.asarray(math.log(T_c_GeV)))
+    return _weighted_kernel(table, int(first), weights, t, s, k_rd)
 
 
 def row_kernel(table: KernelTable, row: int, t, s, k_rd) -> np.ndarray:
@@ -266,8 +256,8 @@ def row_kernel(table: KernelTable, row: int, t, s, k_rd) -> np.ndarray:
 
 def row_stencils(table: KernelTable, ln_T: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """First rows (int, shape of ``ln_T``) and the 4 cubic Lagrange weights (shape + (4,))
-    [1] of :func:`kernel_at` at re-entry temperatures ``ln_T`` [ln GeV], vectorised
-    (the same stencil and weights as its scalar form)."""
+    [1] in ln T_c at re-entry temperatures ``ln_T`` [ln GeV] (the stencil kept inside
+    the table): :func:`kernel_at`'s and the batch path's."""
     step = table.ln_T_c[1] - table.ln_T_c[0]
     x = (np.asarray(ln_T, dtype=float) - table.ln_T_c[0]) / step
     first = np.clip(np.floor(x) - 1, 0, table.ln_T_c.size - 4).astype(np.int64)
