@@ -39,14 +39,13 @@ import numpy as np
 
 from scan.observables import cosmo
 from scan.observables.quadratic import _linear_lift, pair_assembly, refined_table
-from scan.observables.sigw import _gauss
+from scan.observables.sigw import output_nodes
 from scan.observables.sigw_kernel_table import (
     KernelTable,
     load_kernel_tables,
     row_kernel,
     row_stencils,
 )
-from scan.observables.sigw_nodes import nodes_for_k
 
 #: Outputs per block of the row forms (fewer outputs: fewer rows per block, more
 #: products); with :data:`WALKER_GROUP` measured fastest of 4, 8, 16 x 8, 16, 32, 64
@@ -170,14 +169,11 @@ def plan_quadratic_qcd(k_in, k_out, *, refine: int = 2, n_gl: int = 4, grade: in
 def _nodes(fine: np.ndarray, k_out: np.ndarray, n_gl: int, grade: int) -> dict:
     """Every output's nodes on the refined table ``fine`` (ln k), concatenated: output
     index ``j``, table positions ``iu, fu, iv, fv``, coordinates ``t, s``, quadrature
-    weight ``q`` and the RD kernel ``k_rd`` (:func:`~scan.observables.sigw_nodes.
-    nodes_for_k`)."""
-    lnk = np.ascontiguousarray(fine)
-    h = float(np.median(np.diff(lnk)))
-    xg, wg = _gauss(n_gl)
+    weight ``q`` and the RD kernel ``k_rd`` (:func:`~scan.observables.sigw.
+    output_nodes`)."""
     parts = {name: [] for name in ("j", "iu", "fu", "iv", "fv", "t", "s", "q", "k_rd")}
-    for j, k in enumerate(k_out):
-        iu, fu, iv, fv, w, t, s, q = nodes_for_k(float(k), lnk, h, xg, wg, int(grade))
+    for j, (iu, fu, iv, fv, w, t, s, q) in enumerate(output_nodes(np.exp(fine), k_out,
+                                                                  n_gl, grade)):
         for name, value in zip(("iu", "fu", "iv", "fv", "t", "s", "q"),
                                (iu, fu, iv, fv, t, s, q)):
             parts[name].append(value)

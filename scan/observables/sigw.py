@@ -250,22 +250,31 @@ def node_table(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 
     counts : ndarray of int
         Nodes per output k.
     """
-    lnk_in = np.ascontiguousarray(np.log(k_in), dtype=float)
-    h = float(np.median(np.diff(lnk_in)))
     if kernel not in SIGW_KERNELS:
         raise ValueError(f"kernel must be one of {SIGW_KERNELS}, got {kernel!r}")
-    xg, wg = _gauss(n_gl)
     tables = load_kernel_tables() if kernel == "qcd-fluid" else None
     T_c = cosmo.temperature_of_k(k_out, dof) if tables is not None else k_out
     iu_l, fu_l, iv_l, fv_l, w_l, counts = [], [], [], [], [], []
-    for k, T in zip(k_out, T_c):
-        iu, fu, iv, fv, w, t, s, q = nodes_for_k(float(k), lnk_in, h, xg, wg, int(grade))
+    for T, (iu, fu, iv, fv, w, t, s, q) in zip(T_c, output_nodes(k_in, k_out, n_gl,
+                                                                 grade)):
         if tables is not None:
             w = q * tabulated_kernel(float(T), t, s, w / q, tables)
         iu_l.append(iu), fu_l.append(fu), iv_l.append(iv), fv_l.append(fv)
         w_l.append(w)
         counts.append(w.size)
     return iu_l, fu_l, iv_l, fv_l, w_l, np.array(counts, dtype=int)
+
+
+def output_nodes(k_in: np.ndarray, k_out: np.ndarray, n_gl: int = 4, grade: int = 10):
+    """The RD-kernel nodes of each output k in the table ``k_in`` [Mpc^-1], one tuple
+    (iu, fu, iv, fv, w, t, s, q) per output
+    (:func:`~scan.observables.sigw_nodes.nodes_for_k`); ``n_gl``, ``grade`` as
+    :func:`plan_sigw`."""
+    lnk_in = np.ascontiguousarray(np.log(k_in), dtype=float)
+    h = float(np.median(np.diff(lnk_in)))
+    xg, wg = _gauss(n_gl)
+    for k in k_out:
+        yield nodes_for_k(float(k), lnk_in, h, xg, wg, int(grade))
 
 
 def check_spectrum(P_zeta, edge_tol: float = 1e-3, min_peak_points: int = 5) -> None:
