@@ -146,9 +146,9 @@ def pair_betas(lng: np.ndarray, beta_matrix: np.ndarray, weight: np.ndarray,
                extremes: tuple[np.ndarray, np.ndarray] | None = None) -> np.ndarray:
     """beta [1] per pair: sum_b weight_b exp(ln g(y_b)) with ln g(y_b) = ``beta_matrix``
     (n_beta, n_y) @ ``lng`` (n_pairs, n_y); ``weight`` (n_beta,), or (n_H, n_beta) with
-    the pairs' epochs ``h`` (a gentle rule's matrices may be per epoch too).  Pairs a ``gentle`` rule applies to take its fewest-node one
-    instead (12 to 24 instead of 80 nodes).  ``extremes``: :func:`row_extremes` of
-    ``lng`` if known."""
+    the pairs' epochs ``h`` (a gentle rule's matrices may be per epoch too).  Pairs a
+    ``gentle`` rule applies to take its fewest-node one instead (12 to 24 instead of 80
+    nodes).  ``extremes``: :func:`row_extremes` of ``lng`` if known."""
     low, high = row_extremes(lng) if extremes is None else extremes
     tier = np.full(lng.shape[0], -1)
     if gentle is not None:          # a node range above every budget fails the test
